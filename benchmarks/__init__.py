@@ -1,0 +1,1 @@
+"""Speed benchmarks: ``make bench`` runs every ``bench_*.py`` module here."""

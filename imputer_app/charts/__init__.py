@@ -1,0 +1,1 @@
+"""Matplotlib figures shared by the export, the command line and the app."""

@@ -1,0 +1,386 @@
+"""The settings of a fill: a frozen, validated dataclass stored as TOML.
+
+A :class:`FillPlan` says which columns define similar samples, which columns to fill,
+how much each column counts and how donors' values are combined. It holds column
+*names* only; which names exist is checked when the plan meets a sheet.
+
+Plans are saved as human-readable ``*.plan.toml`` files with a ``format = 1`` key.
+
+Examples
+--------
+>>> plan = FillPlan(k=3, weights={"nitrate": 2.0}, bounds={"nitrate": (0.0, None)})
+>>> plan.k, plan.weight("nitrate"), plan.weight("pH")
+(3, 2.0, 1.0)
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import re
+import tomllib
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import tomli_w
+
+from imputer_app.errors import PlanError
+
+PLAN_FORMAT = 1
+PLAN_SUFFIX = ".plan.toml"
+
+#: Allowed values of every choice setting, checked once on construction.
+CHOICES: dict[str, tuple[str, ...]] = {
+    "scaling": ("zscore", "range", "robust", "none"),
+    "neighbour_weighting": ("uniform", "inverse_distance"),
+    "numeric_rule": ("mean", "median"),
+    # What number a below-limit entry ("<0.05") stands for, or fill it by kNN capped
+    # at its limit. limit_sqrt2 follows Hornung & Reed 1990.
+    "censored": ("limit", "half_limit", "limit_sqrt2", "fill_capped"),
+    "no_donor": ("leave_empty", "column_mean"),
+}
+
+#: Column kinds a plan may force on a column (overriding detection).
+KINDS = ("number", "category")
+
+MAX_WEIGHT = 1000.0
+
+Bound = tuple[float | None, float | None]
+
+
+@dataclass(frozen=True)
+class FillPlan:
+    """Settings of one kNN fill.
+
+    Parameters
+    ----------
+    k : int, default=5
+        Number of donors per filled cell (>= 1). When fewer donors exist, all are used
+        and the fill log says so.
+    similarity_columns : tuple of str or None, default=None
+        Columns that define "similar samples". ``None`` means every number or category
+        column that is not carried (nor the group column).
+    fill_columns : tuple of str or None, default=None
+        Columns whose gaps are filled. ``None`` means every similarity column with gaps.
+    carried_columns : tuple of str, default=()
+        Columns carried along untouched (sample IDs, dates, free text).
+    weights : mapping of str to float, default={}
+        Per-column weight in the distance (>= 0, default 1); 0 drops a column from it.
+    scaling : {"zscore", "range", "robust", "none"}, default="zscore"
+        How numeric similarity columns are put on one scale before distances.
+    neighbour_weighting : {"uniform", "inverse_distance"}, default="uniform"
+        Whether nearer donors count more when combining numbers.
+    numeric_rule : {"mean", "median"}, default="mean"
+        How donors' numbers are combined (with uniform weighting).
+    group_column : str or None, default=None
+        When set, donors come only from rows of the same group.
+    bounds : mapping of str to (lower, upper), default={}
+        Limits applied to filled numbers, either side may be None.
+    decimals : mapping of str to int, default={}
+        Rounding of filled numbers per column; ``0`` keeps integers integers.
+    censored : {"limit", "half_limit", "limit_sqrt2", "fill_capped"}, default="half_limit"
+        What a below-limit entry stands for, or fill it by kNN capped at its limit.
+    no_donor : {"leave_empty", "column_mean"}, default="leave_empty"
+        What to do with a cell that has no donor; always reported.
+    kinds : mapping of str to {"number", "category"}, default={}
+        Column kinds that override detection.
+    """
+
+    k: int = 5
+    similarity_columns: tuple[str, ...] | None = None
+    fill_columns: tuple[str, ...] | None = None
+    carried_columns: tuple[str, ...] = ()
+    weights: Mapping[str, float] = field(default_factory=dict)
+    scaling: str = "zscore"
+    neighbour_weighting: str = "uniform"
+    numeric_rule: str = "mean"
+    group_column: str | None = None
+    bounds: Mapping[str, Bound] = field(default_factory=dict)
+    decimals: Mapping[str, int] = field(default_factory=dict)
+    censored: str = "half_limit"
+    no_donor: str = "leave_empty"
+    kinds: Mapping[str, str] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        _set = object.__setattr__
+        _set(self, "k", _check_k(self.k))
+        _set(self, "similarity_columns", _names_or_none("similarity_columns", self.similarity_columns))
+        _set(self, "fill_columns", _names_or_none("fill_columns", self.fill_columns))
+        _set(self, "carried_columns", _names("carried_columns", self.carried_columns))
+        _set(self, "weights", _check_weights(self.weights))
+        for name, allowed in CHOICES.items():
+            value = getattr(self, name)
+            if value not in allowed:
+                raise PlanError(f"{name} must be one of {', '.join(allowed)}; got {value!r}")
+        if self.group_column is not None and not isinstance(self.group_column, str):
+            raise PlanError(f"group_column must be a column name or empty; got {self.group_column!r}")
+        _set(self, "bounds", _check_bounds(self.bounds))
+        _set(self, "decimals", _check_decimals(self.decimals))
+        _set(self, "kinds", _check_kinds(self.kinds))
+        self._check_roles()
+
+    # ------------------------------------------------------------------ queries
+    def weight(self, column: str) -> float:
+        """Return the distance weight of ``column`` (1.0 unless set)."""
+        return float(self.weights.get(column, 1.0))
+
+    def named_columns(self) -> list[str]:
+        """Return every column name the plan mentions, in first-mention order."""
+        names: list[str] = []
+        for group in (
+            self.similarity_columns or (),
+            self.fill_columns or (),
+            self.carried_columns,
+            (self.group_column,) if self.group_column else (),
+            self.weights,
+            self.bounds,
+            self.decimals,
+            self.kinds,
+        ):
+            names.extend(n for n in group if n not in names)
+        return names
+
+    def check_columns(self, columns: Sequence[str]) -> None:
+        """Raise :class:`PlanError` naming every plan column absent from ``columns``.
+
+        Parameters
+        ----------
+        columns : sequence of str
+            The sheet's column names.
+        """
+        present = set(columns)
+        missing = [n for n in self.named_columns() if n not in present]
+        if missing:
+            raise PlanError(
+                f"the plan names column(s) this sheet does not have: {', '.join(map(repr, missing))}"
+            )
+
+    def replace(self, **changes: Any) -> FillPlan:
+        """Return a copy with ``changes`` applied (validated again)."""
+        return dataclasses.replace(self, **changes)
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return the plan as plain TOML/JSON-ready data (``None`` fields left out)."""
+        data: dict[str, Any] = {"format": PLAN_FORMAT, "k": self.k}
+        for name in ("similarity_columns", "fill_columns"):
+            value = getattr(self, name)
+            if value is not None:
+                data[name] = list(value)
+        data["carried_columns"] = list(self.carried_columns)
+        for name in CHOICES:
+            data[name] = getattr(self, name)
+        if self.group_column is not None:
+            data["group_column"] = self.group_column
+        data["weights"] = dict(self.weights)
+        data["bounds"] = {
+            col: {side: v for side, v in zip(("lower", "upper"), pair, strict=True) if v is not None}
+            for col, pair in self.bounds.items()
+        }
+        data["decimals"] = dict(self.decimals)
+        data["kinds"] = dict(self.kinds)
+        return data
+
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any], *, source: str = "plan", text: str | None = None) -> FillPlan:
+        """Build a plan from :meth:`to_dict` data, rejecting unknown keys and wrong types.
+
+        Parameters
+        ----------
+        data : mapping
+            Parsed TOML or JSON.
+        source : str, default="plan"
+            Name used in error messages (usually the file name).
+        text : str or None
+            The file's text, used to name the line of a bad key.
+        """
+        return _plan_from_dict(data, source=source, text=text)
+
+    # --------------------------------------------------------------------- disk
+    def save(self, path: str | Path) -> Path:
+        """Write the plan as TOML and return the path written.
+
+        The file is written next to its final name and renamed into place, so a
+        failure never leaves half a plan behind.
+        """
+        target = Path(path)
+        text = "# Kinfill fill plan. Edit with care; `kinfill fill --plan` reads it.\n"
+        text += tomli_w.dumps(self.to_dict())
+        tmp = target.with_name(target.name + ".tmp")
+        try:
+            tmp.write_text(text, encoding="utf-8")
+            tmp.replace(target)
+        except OSError as exc:
+            tmp.unlink(missing_ok=True)
+            raise PlanError(f"cannot write plan {target}: {exc.strerror or exc}") from exc
+        return target
+
+    @classmethod
+    def load(cls, path: str | Path) -> FillPlan:
+        """Read a plan written by :meth:`save` (or by hand)."""
+        source = Path(path)
+        try:
+            text = source.read_text(encoding="utf-8")
+        except FileNotFoundError:
+            raise PlanError(f"plan file not found: {source}") from None
+        except (OSError, UnicodeDecodeError) as exc:
+            raise PlanError(f"cannot read plan {source}: {exc}") from exc
+        try:
+            data = tomllib.loads(text)
+        except tomllib.TOMLDecodeError as exc:
+            raise PlanError(f"{source.name} is not valid TOML: {exc}") from None
+        return cls.from_dict(data, source=source.name, text=text)
+
+    # ------------------------------------------------------------------ helpers
+    def _check_roles(self) -> None:
+        carried = set(self.carried_columns)
+        for name in ("similarity_columns", "fill_columns"):
+            both = carried.intersection(getattr(self, name) or ())
+            if both:
+                raise PlanError(f"column(s) {', '.join(sorted(both))} cannot be both carried and in {name}")
+        if self.group_column is not None and self.group_column in (self.fill_columns or ()):
+            raise PlanError(f"the group column {self.group_column!r} cannot also be a fill column")
+
+
+def _check_k(k: object) -> int:
+    if isinstance(k, bool) or not isinstance(k, int | float) or int(k) != k:
+        raise PlanError(f"k must be a whole number of at least 1; got {k!r}")
+    if k < 1:
+        raise PlanError(f"k must be at least 1; got {int(k)}")
+    return int(k)
+
+
+def _names(setting: str, names: object) -> tuple[str, ...]:
+    if isinstance(names, str) or not isinstance(names, Sequence | set | frozenset):
+        raise PlanError(f"{setting} must be a list of column names; got {names!r}")
+    out = tuple(names)
+    bad = [n for n in out if not isinstance(n, str) or not n]
+    if bad:
+        raise PlanError(f"{setting} must hold column names (text); got {bad[0]!r}")
+    if len(set(out)) != len(out):
+        dup = next(n for n in out if out.count(n) > 1)
+        raise PlanError(f"{setting} names column {dup!r} twice")
+    return out
+
+
+def _names_or_none(setting: str, names: object) -> tuple[str, ...] | None:
+    return None if names is None else _names(setting, names)
+
+
+def _number(setting: str, column: str, value: object) -> float:
+    if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
+        raise PlanError(f"{setting} for column {column!r} must be a finite number; got {value!r}")
+    return float(value)
+
+
+def _check_weights(weights: Mapping[str, float]) -> dict[str, float]:
+    out: dict[str, float] = {}
+    for column, value in dict(weights).items():
+        w = _number("weight", column, value)
+        if w < 0:
+            raise PlanError(f"weight for column {column!r} must be 0 or more; got {w:g}")
+        if w > MAX_WEIGHT:
+            raise PlanError(f"weight for column {column!r} must be at most {MAX_WEIGHT:g}; got {w:g}")
+        out[str(column)] = w
+    return out
+
+
+def _check_bounds(bounds: Mapping[str, Any]) -> dict[str, Bound]:
+    out: dict[str, Bound] = {}
+    for column, pair in dict(bounds).items():
+        if not isinstance(pair, Sequence) or isinstance(pair, str) or len(pair) != 2:
+            raise PlanError(f"bounds for column {column!r} must be (lower, upper); got {pair!r}")
+        lower, upper = (None if v is None else _number("bound", column, v) for v in pair)
+        if lower is not None and upper is not None and lower > upper:
+            raise PlanError(f"bounds for column {column!r}: lower {lower:g} is above upper {upper:g}")
+        out[str(column)] = (lower, upper)
+    return out
+
+
+def _check_decimals(decimals: Mapping[str, int]) -> dict[str, int]:
+    out: dict[str, int] = {}
+    for column, value in dict(decimals).items():
+        if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value <= 15:
+            raise PlanError(f"decimals for column {column!r} must be a whole number 0-15; got {value!r}")
+        out[str(column)] = value
+    return out
+
+
+def _check_kinds(kinds: Mapping[str, str]) -> dict[str, str]:
+    out: dict[str, str] = {}
+    for column, kind in dict(kinds).items():
+        if kind not in KINDS:
+            raise PlanError(f"kind for column {column!r} must be one of {', '.join(KINDS)}; got {kind!r}")
+        out[str(column)] = kind
+    return out
+
+
+# ------------------------------------------------------------------ from TOML
+_SCALAR_KEYS: dict[str, tuple[type, ...]] = {
+    "format": (int,),
+    "k": (int,),
+    "scaling": (str,),
+    "neighbour_weighting": (str,),
+    "numeric_rule": (str,),
+    "censored": (str,),
+    "no_donor": (str,),
+    "group_column": (str,),
+}
+_LIST_KEYS = ("similarity_columns", "fill_columns", "carried_columns")
+_TABLE_KEYS = ("weights", "bounds", "decimals", "kinds")
+
+
+def _line_of(text: str | None, key: str) -> str:
+    """Return ' (line N)' for the first line that sets ``key``, if the text is known."""
+    if not text:
+        return ""
+    pattern = re.compile(rf"^\s*(\[\s*)?{re.escape(key)}\s*(=|\])")
+    for number, line in enumerate(text.splitlines(), start=1):
+        if pattern.match(line):
+            return f" (line {number})"
+    return ""
+
+
+def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -> FillPlan:
+    known = set(_SCALAR_KEYS) | set(_LIST_KEYS) | set(_TABLE_KEYS)
+    for key in data:
+        if key not in known:
+            raise PlanError(f"{source}: unknown key {key!r}{_line_of(text, key)}")
+    fmt = data.get("format", PLAN_FORMAT)
+    if fmt != PLAN_FORMAT:
+        raise PlanError(f"{source}: plan format {fmt!r} is not supported (this Kinfill reads {PLAN_FORMAT})")
+    kwargs: dict[str, Any] = {}
+    for key, types in _SCALAR_KEYS.items():
+        if key in data:
+            value = data[key]
+            if isinstance(value, bool) or not isinstance(value, types):
+                want = {"str": "text", "int": "a whole number"}[types[0].__name__]
+                where = _line_of(text, key)
+                raise PlanError(f"{source}: {key} must be {want}; got {value!r}{where}")
+            if key != "format":
+                kwargs[key] = value
+    for key in _LIST_KEYS:
+        if key in data:
+            value = data[key]
+            if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+                where = _line_of(text, key)
+                raise PlanError(f"{source}: {key} must be a list of column names{where}")
+            kwargs[key] = tuple(value)
+    for key in _TABLE_KEYS:
+        if key in data and not isinstance(data[key], Mapping):
+            raise PlanError(f"{source}: {key} must be a table of column = value{_line_of(text, key)}")
+    kwargs["weights"] = dict(data.get("weights", {}))
+    kwargs["decimals"] = dict(data.get("decimals", {}))
+    kwargs["kinds"] = dict(data.get("kinds", {}))
+    bounds: dict[str, Bound] = {}
+    for column, sides in dict(data.get("bounds", {})).items():
+        if not isinstance(sides, Mapping) or set(sides) - {"lower", "upper"}:
+            where = _line_of(text, column)
+            raise PlanError(f"{source}: bounds.{column} must be a table with lower and/or upper{where}")
+        bounds[column] = (sides.get("lower"), sides.get("upper"))
+    kwargs["bounds"] = bounds
+    try:
+        return FillPlan(**kwargs)
+    except PlanError as exc:
+        raise PlanError(f"{source}: {exc}") from None

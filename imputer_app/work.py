@@ -1,0 +1,55 @@
+"""Progress reporting and cancellation shared by every long-running step.
+
+Long work (read, recovery test, fill, export) takes ``progress(done, total)`` and a
+``cancel`` flag. The GUI passes a :class:`threading.Event` from its worker thread; the
+CLI passes a flag set by Ctrl+C. Any object with an ``is_set()`` method, or a callable
+returning ``bool``, is accepted as a cancel flag.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Protocol, runtime_checkable
+
+from imputer_app.errors import Cancelled
+
+Progress = Callable[[int, int], None]
+
+
+@runtime_checkable
+class Flag(Protocol):
+    """Anything with ``is_set()``, such as :class:`threading.Event`."""
+
+    def is_set(self) -> bool:
+        """True when the work should stop."""
+        ...
+
+
+CancelFlag = Flag | Callable[[], bool]
+
+
+def is_cancelled(cancel: CancelFlag | None) -> bool:
+    """Return True when ``cancel`` asks the work to stop.
+
+    Parameters
+    ----------
+    cancel : Event-like, callable or None
+        ``None`` never cancels.
+    """
+    if cancel is None:
+        return False
+    if isinstance(cancel, Flag):
+        return bool(cancel.is_set())
+    return bool(cancel())
+
+
+def raise_if_cancelled(cancel: CancelFlag | None) -> None:
+    """Raise :class:`~imputer_app.errors.Cancelled` when ``cancel`` is set."""
+    if is_cancelled(cancel):
+        raise Cancelled("stopped at the user's request; nothing was changed")
+
+
+def report(progress: Progress | None, done: int, total: int) -> None:
+    """Call ``progress(done, total)`` when a callback was given."""
+    if progress is not None:
+        progress(done, total)
