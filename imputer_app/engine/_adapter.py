@@ -1,0 +1,563 @@
+"""Turn DataFrames and sheets into arrays and back (the engine's only pandas import).
+
+:func:`prepare` resolves column roles and kinds, applies the plan's censored
+handling and scaling and hands the numeric core a :class:`PreparedTable`;
+:func:`impute` runs the search and builds the :class:`FillResult` (filled frame,
+flags, fill log and the table of cells left empty).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+from numpy.typing import NDArray
+
+from imputer_app.engine._columns import Columns, has_gap, scaled_features
+from imputer_app.engine._combine import combine
+from imputer_app.engine._log import Censored, Records, fill_records, substitution_records
+from imputer_app.engine._search import nearest_donors
+from imputer_app.engine._support import weak_threshold
+from imputer_app.engine._table import PreparedTable
+from imputer_app.errors import PlanError
+from imputer_app.plan import FillPlan
+from imputer_app.work import CancelFlag, Progress, raise_if_cancelled
+
+LOG_COLUMNS = (
+    "row", "column", "value", "original_state", "method", "k", "donors",
+    "distances", "donor_values", "spread", "support", "note",
+)  # fmt: skip
+UNFILLED_COLUMNS = ("row", "column", "reason")
+USABLE_KINDS = ("number", "category")
+
+
+@dataclass(frozen=True)
+class FillResult:
+    """The outcome of :func:`impute`.
+
+    Attributes
+    ----------
+    frame : DataFrame
+        Filled copy of the input: same index, columns and order (dtypes kept where
+        the filled values allow).
+    filled : DataFrame of bool
+        True where Kinfill wrote a kNN (or column-mean) value into a gap or into a
+        censored cell it was asked to fill.
+    censored : DataFrame of bool
+        True where the input cell was censored, whatever the handling.
+    log : DataFrame
+        The fill log: one row per value written, columns :data:`LOG_COLUMNS`.
+    unfilled : DataFrame
+        Cells left empty, columns ``row``, ``column``, ``reason``.
+    plan : FillPlan
+        The plan actually used (similarity and fill columns resolved).
+    warnings : tuple of str
+        Plain-words remarks (constant columns left out, ...).
+    k_weak_threshold : float
+        Distance above which a cell's support is "weak" (NaN when nothing was filled).
+    """
+
+    frame: pd.DataFrame
+    filled: pd.DataFrame
+    censored: pd.DataFrame
+    log: pd.DataFrame
+    unfilled: pd.DataFrame
+    plan: FillPlan
+    warnings: tuple[str, ...]
+    k_weak_threshold: float
+
+
+# ---------------------------------------------------------------- input reading
+@dataclass(frozen=True)
+class _Input:
+    names: tuple[str, ...]  # the frame's column names (iterating a pandas Index is slow)
+    frame: pd.DataFrame
+    states: pd.DataFrame | None
+    notes: pd.DataFrame | None
+    sheet_kinds: dict[str, str] | None
+
+
+def _unpack(data: Any) -> _Input:
+    if isinstance(data, pd.DataFrame):
+        frame, states, notes, kinds = data, None, None, None
+    elif hasattr(data, "frame"):
+        frame = data.frame
+        states = getattr(data, "states", None)
+        notes = getattr(data, "cell_notes", None)
+        cols = getattr(data, "columns", None)
+        kinds = {c.name: c.kind for c in cols} if isinstance(cols, list | tuple) and cols else None
+    else:
+        raise PlanError(f"cannot fill a {type(data).__name__}; give a table (DataFrame) or a read sheet")
+    if not isinstance(frame, pd.DataFrame):
+        raise PlanError("the sheet's frame is not a table")
+    names = tuple(frame.columns.tolist())
+    bad = [c for c in names if not isinstance(c, str)]
+    if bad:
+        raise PlanError(f"column names must be text; column {bad[0]!r} is not")
+    if frame.columns.has_duplicates:
+        dup = frame.columns[frame.columns.duplicated()][0]
+        raise PlanError(f"column {dup!r} appears twice; column names must be unique")
+    return _Input(names, frame, states, notes, kinds)
+
+
+def detect_kind(series: pd.Series) -> str:
+    """Kind of a DataFrame column: number, category, date, identifier or empty.
+
+    Numbers are numeric dtypes (or text columns holding only numbers); bool, text and
+    pandas categoricals are categories, except text whose values are all distinct
+    (an identifier); datetimes are dates; an all-empty column is empty.
+    """
+    values = series.dropna()
+    if pd.api.types.is_bool_dtype(series.dtype):
+        return "category" if len(values) else "empty"
+    if len(values) == 0:
+        return "empty"
+    if pd.api.types.is_datetime64_any_dtype(series.dtype) or pd.api.types.is_timedelta64_dtype(series.dtype):
+        return "date"
+    if pd.api.types.is_numeric_dtype(series.dtype):
+        return "number"
+    if isinstance(series.dtype, pd.CategoricalDtype):
+        return "category"
+    items = values.tolist()
+    if all(isinstance(v, int | float | np.number) and not isinstance(v, bool | np.bool_) for v in items):
+        return "number"
+    if len(items) > 1 and values.is_unique:
+        return "identifier"
+    return "category"
+
+
+def _plain_number(dtype: Any) -> bool:
+    """A numeric, non-bool dtype (numpy fast path first)."""
+    if isinstance(dtype, np.dtype):
+        return dtype.kind in "iuf"
+    return bool(pd.api.types.is_numeric_dtype(dtype) and not pd.api.types.is_bool_dtype(dtype))
+
+
+def _kinds(inp: _Input, plan: FillPlan) -> dict[str, str]:
+    """Detected kind of every column, with the plan's overrides applied."""
+    frame = inp.frame
+    has_values = frame.notna().any(axis=0).to_numpy()
+    kinds = {}
+    for col, dtype, has in zip(inp.names, frame.dtypes.tolist(), has_values.tolist(), strict=True):
+        kind = (inp.sheet_kinds or {}).get(col)
+        if kind is None and has and _plain_number(dtype):
+            kind = "number"  # the common case, without looking at the values
+        kinds[col] = plan.kinds.get(col, kind or detect_kind(frame[col]))
+    return kinds
+
+
+def _similarity(names: list[str], plan: FillPlan, kinds: Mapping[str, str]) -> tuple[str, ...]:
+    """The plan's similarity columns, or every usable column not carried nor the group."""
+    if plan.similarity_columns is not None:
+        return plan.similarity_columns
+    carried = set(plan.carried_columns)
+    return tuple(c for c in names if kinds[c] in USABLE_KINDS and c not in carried and c != plan.group_column)
+
+
+def _carried(names: list[str], plan: FillPlan, kinds: Mapping[str, str], used: set[str]) -> tuple[str, ...]:
+    """The plan's carried columns plus every unused identifier, date or empty column."""
+    skip = used | set(plan.carried_columns) | {plan.group_column}
+    extra = [c for c in names if kinds[c] not in USABLE_KINDS and c not in skip]
+    return (*plan.carried_columns, *extra)
+
+
+def default_roles(data: Any) -> dict[str, str]:
+    """Role of every column under the default plan ``FillPlan()``.
+
+    Parameters
+    ----------
+    data : DataFrame or sheet-like
+        A sheet-like object has ``frame`` (and optionally ``states``, ``cell_notes``
+        and ``columns``).
+
+    Returns
+    -------
+    dict of str to {"fill", "similarity", "carried"}
+        ``"fill"`` means both a similarity and a fill column.
+    """
+    table = _prepare(_unpack(data), FillPlan(), scale=False)[0]
+    roles = {}
+    for col in table.columns:
+        if col in table.fill_columns:
+            roles[col] = "fill"
+        elif col in table.similarity_columns:
+            roles[col] = "similarity"
+        else:
+            roles[col] = "carried"
+    return roles
+
+
+# ---------------------------------------------------------------- censored cells
+def _censored(inp: _Input, col: str) -> Censored | None:
+    """Censored cells of ``col`` from the sheet's states and cell notes (None if none)."""
+    if inp.states is None or col not in inp.states.columns:
+        return None
+    mask = np.asarray(inp.states[col].astype(object) == "censored", dtype=bool)
+    if not mask.any():
+        return None
+    n = len(mask)
+    side = np.full(n, "", dtype="<U1")
+    limit = np.full(n, np.nan)
+    text = np.full(n, "", dtype=object)
+    notes = inp.notes
+    if notes is not None and len(notes) and {"row", "column"} <= set(notes.columns):
+        mine = notes[notes["column"] == col]
+        pos = inp.frame.index.get_indexer(pd.Index(mine["row"]))
+        ok = (pos >= 0) & mask[np.maximum(pos, 0)]
+        if "side" in mine.columns:
+            side[pos[ok]] = mine["side"].fillna("").astype(str).to_numpy()[ok]
+        if "limit" in mine.columns:
+            limit[pos[ok]] = pd.to_numeric(mine["limit"], errors="coerce").to_numpy(dtype=float)[ok]
+        if "text" in mine.columns:
+            text[pos[ok]] = mine["text"].fillna("").astype(str).to_numpy()[ok]
+    return Censored(mask, side, limit, text)
+
+
+# ---------------------------------------------------------------- prepare
+def _numbers(frame: pd.DataFrame, col: str) -> NDArray[np.float64]:
+    series = frame[col]
+    if pd.api.types.is_bool_dtype(series.dtype):
+        return np.asarray(series.astype(float).to_numpy(), dtype=np.float64)
+    got = pd.to_numeric(series, errors="coerce")
+    bad = got.isna() & series.notna()
+    if bad.any():
+        raise PlanError(f"column {col!r} is used as numbers but holds text such as {series[bad].iloc[0]!r}")
+    return np.asarray(got.to_numpy(dtype=float, na_value=np.nan), dtype=np.float64)
+
+
+def _codes(series: pd.Series) -> tuple[NDArray[np.intp], NDArray[np.generic]]:
+    values = series.astype(object).where(series.notna(), None)
+    try:
+        codes, labels = pd.factorize(values, sort=True, use_na_sentinel=True)
+    except TypeError:  # mixed types cannot be sorted
+        codes, labels = pd.factorize(values, sort=False, use_na_sentinel=True)
+    return np.asarray(codes, dtype=np.intp), np.asarray(labels, dtype=object)
+
+
+def _read_columns(
+    inp: _Input, used: list[str], kinds: Mapping[str, str], censored: str, hide: NDArray[np.bool_] | None
+) -> Columns:
+    out = Columns({}, {}, {}, {})
+    position = {name: j for j, name in enumerate(inp.names)}
+    used = list(dict.fromkeys(used))
+    numbers = [c for c in used if kinds[c] == "number"]
+    block = _number_block(inp.frame, numbers)
+    marked = _censored_columns(inp, numbers)
+    for j, col in enumerate(numbers):
+        values = block[:, j]
+        cen = _censored(inp, col) if col in marked else None
+        if cen is not None:
+            out.censored[col] = cen
+            values = np.where(cen.mask, cen.substitute(censored), values)
+        if hide is not None:
+            values = np.where(hide[:, position[col]], np.nan, values)
+        out.numbers[col] = values
+    for col in used:
+        if kinds[col] != "number":
+            codes, labels = _codes(inp.frame[col])
+            if hide is not None:
+                codes = np.where(hide[:, position[col]], -1, codes)
+            out.codes[col], out.labels[col] = codes, labels
+    return out
+
+
+def _number_block(frame: pd.DataFrame, columns: list[str]) -> NDArray[np.float64]:
+    """Float array (n_rows, len(columns)); numeric dtypes read in one go, others checked."""
+    out = np.empty((len(frame), len(columns)))
+    dtypes = dict(zip(frame.columns.tolist(), frame.dtypes.tolist(), strict=True))
+    plain = [j for j, c in enumerate(columns) if _plain_number(dtypes[c])]
+    if plain:
+        out[:, plain] = frame[[columns[j] for j in plain]].to_numpy(dtype=float, na_value=np.nan)
+    for j in sorted(set(range(len(columns))) - set(plain)):
+        out[:, j] = _numbers(frame, columns[j])
+    return out
+
+
+def _censored_columns(inp: _Input, columns: list[str]) -> set[str]:
+    """The columns among ``columns`` with at least one censored cell."""
+    if inp.states is None or not columns:
+        return set()
+    present = [c for c in columns if c in inp.states.columns]
+    if not present:
+        return set()
+    hit = (inp.states[present].astype(object).to_numpy() == "censored").any(axis=0)
+    return {c for c, h in zip(present, hit, strict=True) if h}
+
+
+def _groups(inp: _Input, plan: FillPlan, hide: NDArray[np.bool_] | None) -> tuple[Any, NDArray[np.generic]]:
+    if plan.group_column is None:
+        return None, np.empty(0, dtype=object)
+    codes, labels = _codes(inp.frame[plan.group_column])
+    if hide is not None:
+        codes = np.where(hide[:, inp.names.index(plan.group_column)], -1, codes)
+    return codes, labels
+
+
+def prepare(data: Any, plan: FillPlan, *, hide: NDArray[np.bool_] | None = None) -> PreparedTable:
+    """Resolve the plan against ``data`` and build the arrays for the neighbour search.
+
+    Parameters
+    ----------
+    data : DataFrame or sheet-like
+        Never modified. A sheet-like object brings ``states`` and ``cell_notes``
+        (censored cells) and ``columns`` (detected kinds).
+    plan : FillPlan
+        The settings; None-valued roles are resolved against ``data``.
+    hide : ndarray of bool, shape (n_rows, n_frame_columns), optional
+        Cells treated as gaps (scaling statistics are computed without them).
+
+    Returns
+    -------
+    PreparedTable
+
+    Raises
+    ------
+    PlanError
+        The plan names a column the data lacks, uses a date column, or uses a column
+        holding text as numbers.
+    """
+    return _prepare(_unpack(data), plan, hide=hide)[0]
+
+
+def _prepare(
+    inp: _Input, plan: FillPlan, *, hide: NDArray[np.bool_] | None = None, scale: bool = True
+) -> tuple[PreparedTable, dict[str, Censored]]:
+    n = len(inp.frame)
+    if hide is not None:
+        hide = np.asarray(hide, dtype=bool)
+        if hide.shape != inp.frame.shape:
+            raise PlanError(f"hide mask has shape {hide.shape}; the table has shape {inp.frame.shape}")
+    names = list(inp.names)
+    plan.check_columns(names)
+    kinds_all = _kinds(inp, plan)
+    sim = _similarity(names, plan, kinds_all)
+    for col in (*sim, *(plan.fill_columns or ())):
+        if kinds_all[col] == "date":
+            raise PlanError(f"column {col!r} holds dates; it cannot be a similarity or fill column")
+        if kinds_all[col] not in USABLE_KINDS:  # named explicitly: identifiers as categories
+            kinds_all[col] = "category" if kinds_all[col] == "identifier" else "number"
+    cols = _read_columns(inp, [*sim, *(plan.fill_columns or ())], kinds_all, plan.censored, hide)
+    if plan.fill_columns is None:
+        fill = tuple(c for c in sim if c != plan.group_column and has_gap(cols, c))
+    else:
+        fill = plan.fill_columns
+    resolved = plan.replace(
+        similarity_columns=sim,
+        fill_columns=fill,
+        carried_columns=_carried(names, plan, kinds_all, {*sim, *fill}),
+    )
+    kinds = {c: ("number" if kinds_all[c] == "number" else "category") for c in (*sim, *fill)}
+    features, warnings = scaled_features(cols, resolved, kinds, scale)
+    if resolved.neighbour_weighting == "inverse_distance" and resolved.numeric_rule == "median":
+        warnings.append(
+            "numeric_rule 'median' is not used with inverse-distance weighting (weighted mean used)"
+        )
+    fill = resolved.fill_columns or ()
+    values: dict[str, NDArray[np.generic]] = {}
+    observed: dict[str, NDArray[np.bool_]] = {}
+    cap_upper: dict[str, NDArray[np.float64]] = {}
+    cap_lower: dict[str, NDArray[np.float64]] = {}
+    unknown_limit: dict[str, NDArray[np.bool_]] = {}
+    for col in fill:
+        if kinds[col] == "number":
+            values[col] = cols.numbers[col]
+            observed[col] = np.isfinite(cols.numbers[col])
+            cen = cols.censored.get(col)
+            if cen is not None:
+                unknown_limit[col] = cen.mask & ~np.isfinite(cen.limit)
+            if cen is not None and resolved.censored == "fill_capped":
+                cap_upper[col] = np.where(cen.mask & (cen.side != ">"), cen.limit, np.nan)
+                cap_lower[col] = np.where(cen.mask & (cen.side == ">"), cen.limit, np.nan)
+        else:
+            values[col] = cols.codes[col]
+            observed[col] = cols.codes[col] >= 0
+    groups, group_labels = _groups(inp, resolved, hide)
+    return PreparedTable(
+        n_rows=n,
+        row_labels=np.asarray(inp.frame.index),
+        columns=inp.names,
+        similarity_columns=tuple(resolved.similarity_columns or ()),
+        fill_columns=tuple(fill),
+        kinds=kinds,
+        values=values,
+        categories=dict(cols.labels),
+        observed=observed,
+        plan=resolved,
+        warnings=tuple(warnings),
+        features=features,
+        groups=groups,
+        group_labels=group_labels,
+        cap_upper=cap_upper,
+        cap_lower=cap_lower,
+        unknown_limit=unknown_limit,
+    ), cols.censored
+
+
+# ---------------------------------------------------------------- impute
+def impute(
+    data: Any, plan: FillPlan, progress: Progress | None = None, cancel: CancelFlag | None = None
+) -> FillResult:
+    """Fill the gaps of ``data`` by k-nearest-neighbour imputation.
+
+    Parameters
+    ----------
+    data : DataFrame or sheet-like
+        A DataFrame of shape (n_rows, n_columns) with NaN gaps, or an object with
+        ``frame``, ``states`` and ``cell_notes`` (a read sheet, whose censored cells
+        are handled as the plan says). Never modified.
+    plan : FillPlan
+        The settings; the resolved plan is returned in ``FillResult.plan``.
+    progress : callable(done, total), optional
+        Called once per chunk of the neighbour search.
+    cancel : Event-like or callable, optional
+        Checked once per chunk; raises :class:`~imputer_app.errors.Cancelled` and
+        returns nothing.
+
+    Returns
+    -------
+    FillResult
+
+    Raises
+    ------
+    PlanError
+        The plan does not fit the data (unknown column, text used as numbers, ...).
+
+    Examples
+    --------
+    >>> frame = pd.DataFrame({"a": [1.0, 2.0, 3.0, None], "b": [1.0, 2.0, 3.0, 3.1]})
+    >>> impute(frame, FillPlan(k=1, scaling="none")).frame["a"].tolist()
+    [1.0, 2.0, 3.0, 3.0]
+    """
+    raise_if_cancelled(cancel)
+    inp = _unpack(data)
+    table, censored = _prepare(inp, plan)
+    donors = nearest_donors(table, kmax=table.plan.k, progress=progress, cancel=cancel)
+    values = combine(table, donors, [table.plan.k])[table.plan.k]
+    threshold = weak_threshold(donors.values())
+    records = Records()
+    fill_records(table, donors, values, threshold, records)
+    for col, cen in censored.items():
+        substitution_records(col, cen, table.plan.censored, records)
+        if col not in table.fill_columns:  # a censored entry with no number and no fill stays empty
+            left = np.flatnonzero(cen.mask & np.isnan(cen.substitute(table.plan.censored)))
+            why = f"censored entry with no number to stand for it; {col!r} is not a fill column"
+            records.add_empty(left, col, [why] * len(left))
+    raise_if_cancelled(cancel)
+    return _result(inp, table, censored, records, threshold)
+
+
+def _result(
+    inp: _Input, table: PreparedTable, censored: Mapping[str, Censored], records: Records, threshold: float
+) -> FillResult:
+    frame = inp.frame
+    labels = frame.index
+    pos = records.field("pos").astype(np.intp)
+    colpos = frame.columns.get_indexer(pd.Index(records.field("column"))).astype(np.intp)
+    methods = records.field("method")
+    values = records.field("value")
+    filled = np.zeros(frame.shape, dtype=bool)
+    knn = np.isin(methods, ("knn", "knn_capped", "column_mean"))
+    filled[pos[knn], colpos[knn]] = True
+    flags = np.zeros(frame.shape, dtype=bool)  # every censored cell, whatever its column's role
+    if inp.states is not None:
+        present = [c for c in inp.names if c in inp.states.columns]
+        marked = inp.states[present].astype(object).to_numpy() == "censored"
+        flags[:, [inp.names.index(c) for c in present]] = marked
+    unfilled = pd.DataFrame(
+        {
+            "row": labels[records.field("pos", "empty").astype(np.intp)],
+            "column": records.field("column", "empty"),
+            "reason": records.field("reason", "empty"),
+        },
+        columns=list(UNFILLED_COLUMNS),
+    )
+    return FillResult(
+        frame=_filled_frame(frame, table, pos, colpos, values),
+        filled=pd.DataFrame(filled, index=labels, columns=frame.columns),
+        censored=pd.DataFrame(flags, index=labels, columns=frame.columns),
+        log=_log_frame(inp, pos, colpos, records),
+        unfilled=unfilled.reset_index(drop=True),
+        plan=table.plan,
+        warnings=table.warnings,
+        k_weak_threshold=threshold,
+    )
+
+
+def _filled_frame(
+    frame: pd.DataFrame,
+    table: PreparedTable,
+    pos: NDArray[np.intp],
+    colpos: NDArray[np.intp],
+    values: NDArray[Any],
+) -> pd.DataFrame:
+    """A copy of ``frame`` with ``values`` written at (pos, colpos)."""
+    out = frame.copy(deep=True)
+    written = np.unique(colpos)
+    dtypes = frame.dtypes.to_numpy()
+    fast = np.array(
+        [dtypes[j] == np.float64 and table.kinds.get(table.columns[j]) == "number" for j in written],
+        dtype=bool,
+    )
+    if fast.any():  # float columns: one write into the frame's float block
+        cols = written[fast]
+        block = frame.iloc[:, cols].to_numpy(dtype=np.float64, copy=True)
+        sel = np.isin(colpos, cols)
+        block[pos[sel], np.searchsorted(cols, colpos[sel])] = values[sel].astype(np.float64)
+        out.iloc[:, cols] = block
+    for j in written[~fast]:
+        col = table.columns[j]
+        sel = colpos == j
+        out[col] = _write(frame[col], pos[sel], values[sel], table.kinds.get(col, "number"))
+    return out
+
+
+def _log_frame(
+    inp: _Input, pos: NDArray[np.intp], colpos: NDArray[np.intp], records: Records
+) -> pd.DataFrame:
+    """The fill log, ordered by row and then by column."""
+    order = np.lexsort((colpos, pos))
+    if inp.states is not None and len(pos):
+        states = inp.states.to_numpy(dtype=object)[pos, colpos]
+        state = np.where(np.isin(states, ("censored", "text_in_number")), states, "missing").astype(object)
+    else:
+        state = np.full(len(pos), "missing", dtype=object)
+    columns: dict[str, Any] = {"row": inp.frame.index.to_numpy()[pos[order]], "original_state": state[order]}
+    for name in LOG_COLUMNS[1:]:
+        if name != "original_state":
+            columns[name] = records.field(name)[order]
+    log = pd.DataFrame(columns, columns=list(LOG_COLUMNS))
+    log["k"] = log["k"].astype(np.int64)
+    log["spread"] = log["spread"].astype(np.float64)
+    return log
+
+
+def _write(original: pd.Series, pos: NDArray[np.intp], values: NDArray[np.object_], kind: str) -> pd.Series:
+    """``original`` with ``values`` written at row positions ``pos``, dtype kept if it can hold them."""
+    if kind == "number" and (pd.api.types.is_numeric_dtype(original.dtype) or original.isna().all()):
+        new: NDArray[Any] = (
+            pd.to_numeric(original, errors="coerce").to_numpy(dtype=float, na_value=np.nan).copy()
+        )
+        new[pos] = values.astype(float)
+    else:
+        new = original.astype(object).to_numpy(copy=True)
+        new[pos] = values
+    series = pd.Series(new, index=original.index, name=original.name)
+    has_na = bool(series.isna().any())
+    dtype = original.dtype
+    if (
+        has_na
+        and (pd.api.types.is_bool_dtype(dtype) or pd.api.types.is_integer_dtype(dtype))
+        and isinstance(dtype, np.dtype)
+    ):
+        return series if kind == "number" else series.astype(object)
+    if pd.api.types.is_integer_dtype(dtype) and not np.all(
+        np.equal(np.mod(series.dropna().astype(float), 1), 0)
+    ):
+        return series
+    try:
+        return series.astype(dtype)
+    except (TypeError, ValueError):
+        return series

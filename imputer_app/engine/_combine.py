@@ -1,0 +1,299 @@
+"""Combine donors' values into one value per target cell (numpy only).
+
+Numbers: mean, median or inverse-distance mean of the first ``min(k, count)`` donors'
+raw values, then bounds, censored caps and rounding. Categories: majority vote, a tie
+going to the tied class with the nearest donor. Uniform and inverse-distance means use
+prefix sums over the donor axis, so every k costs about as much as one; all numeric
+fill columns are worked on together as one stack of cells.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+
+from imputer_app.engine._search import ColumnDonors
+from imputer_app.engine._table import PreparedTable
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.intp]
+
+
+@dataclass(frozen=True)
+class Stack:
+    """The target cells of several fill columns as one flat set of donors.
+
+    Attributes
+    ----------
+    columns : tuple of str
+    donors : ColumnDonors
+        All cells, column after column (``rows`` ascending within a column).
+    col : ndarray of int, shape (cells,)
+        Position in ``columns`` of each cell's column.
+    offsets : ndarray of int, shape (len(columns) + 1,)
+        Cells of column ``i`` are ``offsets[i]:offsets[i + 1]``.
+    """
+
+    columns: tuple[str, ...]
+    donors: ColumnDonors
+    col: IntArray
+    offsets: IntArray
+
+    @classmethod
+    def of(cls, donors: Mapping[str, ColumnDonors], columns: Sequence[str]) -> Stack:
+        """Stack ``donors[c]`` for ``c`` in ``columns``."""
+        parts = [donors[c] for c in columns]
+        sizes = np.array([len(p.rows) for p in parts], dtype=np.intp)
+        kmax = max((p.index.shape[1] for p in parts), default=0)
+        flat = ColumnDonors(
+            rows=np.concatenate([p.rows for p in parts]) if parts else np.empty(0, dtype=np.intp),
+            index=np.vstack([p.index for p in parts]) if parts else np.empty((0, kmax), dtype=np.intp),
+            distance=np.vstack([p.distance for p in parts]) if parts else np.empty((0, kmax)),
+            count=np.concatenate([p.count for p in parts]) if parts else np.empty(0, dtype=np.intp),
+        )
+        col = np.repeat(np.arange(len(parts)), sizes)
+        return cls(tuple(columns), flat, col, np.concatenate([[0], np.cumsum(sizes)]).astype(np.intp))
+
+    def split(self, values: NDArray[np.generic]) -> dict[str, NDArray[np.generic]]:
+        """Per column, the part of a per-cell array that belongs to it."""
+        return {
+            c: values[a:b] for c, a, b in zip(self.columns, self.offsets[:-1], self.offsets[1:], strict=True)
+        }
+
+    def gather(self, matrix: NDArray[Any], fill: float = np.nan) -> NDArray[Any]:
+        """Donors' entries of ``matrix`` (n_rows, n_columns): shape (cells, kmax), ``fill`` pads."""
+        index = self.donors.index
+        got = matrix[np.maximum(index, 0), self.col[:, None]]
+        return np.where(index >= 0, got, fill)
+
+
+def _used(count: IntArray, k: int) -> IntArray:
+    return np.minimum(int(k), count)
+
+
+def _at(prefix: FloatArray, used: IntArray) -> FloatArray:
+    """``prefix[i, used[i] - 1]``, 0 where ``used`` is 0."""
+    if prefix.shape[1] == 0:
+        return np.zeros(len(used))
+    got = np.take_along_axis(prefix, np.maximum(used - 1, 0)[:, None], axis=1)[:, 0]
+    return np.where(used > 0, got, 0.0)
+
+
+def donor_values(values: FloatArray, donors: ColumnDonors) -> FloatArray:
+    """Donors' raw values of one column, shape (m, kmax); NaN where there is no donor."""
+    got = values[np.maximum(donors.index, 0)].astype(np.float64)
+    return np.where(donors.index >= 0, got, np.nan)
+
+
+def mean_values(
+    v: FloatArray, donors: ColumnDonors, ks: Iterable[int], *, inverse_distance: bool
+) -> dict[int, FloatArray]:
+    """Uniform or inverse-distance mean of the first ``min(k, count)`` donors, per k.
+
+    Parameters
+    ----------
+    v : ndarray of shape (m, kmax)
+        Donors' values (see :func:`donor_values`); padding is ignored.
+    donors : ColumnDonors
+        Distances and counts aligned with ``v``.
+    ks : iterable of int
+        Numbers of donors to use (each >= 1).
+    inverse_distance : bool
+        Weights ``1/d``; when some of the used donors are at distance 0, only those
+        count (equally), as scikit-learn's ``KNNImputer(weights="distance")`` does.
+
+    Returns
+    -------
+    dict of int to ndarray of shape (m,)
+        NaN where a target has no donor.
+    """
+    valid = donors.index >= 0
+    v0 = np.where(valid, v, 0.0)
+    out: dict[int, FloatArray] = {}
+    if not inverse_distance:
+        csum = np.cumsum(v0, axis=1)
+        for k in ks:
+            used = _used(donors.count, k)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                out[int(k)] = np.where(used > 0, _at(csum, used) / used, np.nan)
+        return out
+    zero = valid & (donors.distance == 0.0)
+    with np.errstate(divide="ignore"):
+        w = np.where(valid & ~zero, 1.0 / donors.distance, 0.0)
+    zcount, zsum = np.cumsum(zero, axis=1).astype(np.float64), np.cumsum(np.where(zero, v0, 0.0), axis=1)
+    wsum, wvsum = np.cumsum(w, axis=1), np.cumsum(w * v0, axis=1)
+    for k in ks:
+        used = _used(donors.count, k)
+        nz = _at(zcount, used)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            by_zero = _at(zsum, used) / nz
+            by_weight = _at(wvsum, used) / _at(wsum, used)
+        out[int(k)] = np.where(used > 0, np.where(nz > 0, by_zero, by_weight), np.nan)
+    return out
+
+
+def median_values(v: FloatArray, donors: ColumnDonors, ks: Iterable[int]) -> dict[int, FloatArray]:
+    """Median of the first ``min(k, count)`` donors' values ``v`` (m, kmax), per k; NaN if none."""
+    position = np.arange(v.shape[1])
+    out: dict[int, FloatArray] = {}
+    for k in ks:
+        used = _used(donors.count, k)
+        part = np.where(position[None, :] < used[:, None], v, np.nan)
+        res = np.full(len(used), np.nan)
+        has = used > 0
+        if has.any():
+            res[has] = np.nanmedian(part[has], axis=1)
+        out[int(k)] = res
+    return out
+
+
+def spread(v: FloatArray, donors: ColumnDonors, k: int) -> FloatArray:
+    """Sample standard deviation of the first ``min(k, count)`` donors' values (NaN below 2)."""
+    used = _used(donors.count, k)
+    part = np.where(np.arange(v.shape[1])[None, :] < used[:, None], v, np.nan)[:, :k]
+    out = np.full(len(used), np.nan)
+    many = used >= 2
+    if many.any():
+        out[many] = np.nanstd(part[many], axis=1, ddof=1)
+    return out
+
+
+def vote(codes: IntArray, donors: ColumnDonors, ks: Iterable[int]) -> dict[int, IntArray]:
+    """Majority class of the first ``min(k, count)`` donors per k.
+
+    A tie goes to the tied class whose nearest donor comes first (donors are ordered
+    by distance, ties by row order). Returns int codes, -1 where there is no donor.
+    """
+    return {k: win for k, (win, _) in vote_with_share(codes, donors, ks).items()}
+
+
+def vote_with_share(
+    codes: IntArray, donors: ColumnDonors, ks: Iterable[int]
+) -> dict[int, tuple[IntArray, FloatArray]]:
+    """Like :func:`vote`, also returning the winning class's vote share (NaN if none)."""
+    got = np.where(donors.index >= 0, codes[np.maximum(donors.index, 0)], -1)
+    m, kmax = got.shape
+    n_classes = int(max(got.max(initial=-1), codes.max(initial=-1)) + 1)
+    out: dict[int, tuple[IntArray, FloatArray]] = {}
+    if m == 0 or n_classes == 0:
+        return {int(k): (np.full(m, -1, dtype=np.intp), np.full(m, np.nan)) for k in ks}
+    onehot = (got[:, :, None] == np.arange(n_classes)[None, None, :]).astype(np.int32)
+    counts = np.cumsum(onehot, axis=1)  # (m, kmax, classes)
+    first = np.where(onehot.any(axis=1), onehot.argmax(axis=1), kmax)  # (m, classes)
+    rows = np.arange(m)
+    for k in ks:
+        used = _used(donors.count, k)
+        cnt = counts[rows, np.maximum(used - 1, 0), :]
+        score = cnt * (kmax + 1) + (kmax - first)  # more votes first, then the nearest donor
+        win = np.argmax(np.where(cnt > 0, score, -1), axis=1).astype(np.intp)
+        share = cnt[rows, win] / np.maximum(used, 1)
+        out[int(k)] = (np.where(used > 0, win, -1).astype(np.intp), np.where(used > 0, share, np.nan))
+    return out
+
+
+@dataclass(frozen=True)
+class Finish:
+    """Per-cell bounds, censored caps and rounding (NaN / -1 where none).
+
+    Attributes
+    ----------
+    lower, upper : ndarray of shape (cells,)
+        Bounds from the plan.
+    cap_lower, cap_upper : ndarray of shape (cells,)
+        Limits of censored cells being filled (">2000" gives ``cap_lower``); applied
+        after the bounds, so a cap wins over a bound.
+    decimals : ndarray of int, shape (cells,)
+        Rounding per cell, -1 for none.
+    """
+
+    lower: FloatArray
+    upper: FloatArray
+    cap_lower: FloatArray
+    cap_upper: FloatArray
+    decimals: IntArray
+
+    @classmethod
+    def of(cls, table: PreparedTable, stack: Stack) -> Finish:
+        """The plan's bounds, decimals and censored caps of every cell of ``stack``."""
+        plan = table.plan
+        bounds = [plan.bounds.get(c, (None, None)) for c in stack.columns]
+        lower = np.array([np.nan if b[0] is None else b[0] for b in bounds], dtype=np.float64)[stack.col]
+        upper = np.array([np.nan if b[1] is None else b[1] for b in bounds], dtype=np.float64)[stack.col]
+        decimals = np.array([plan.decimals.get(c, -1) for c in stack.columns], dtype=np.intp)[stack.col]
+        cap_hi, cap_lo = np.full(len(stack.col), np.nan), np.full(len(stack.col), np.nan)
+        for i, c in enumerate(stack.columns):
+            cells = slice(stack.offsets[i], stack.offsets[i + 1])
+            rows = stack.donors.rows[cells]
+            if c in table.cap_upper:
+                cap_hi[cells] = table.cap_upper[c][rows]
+            if c in table.cap_lower:
+                cap_lo[cells] = table.cap_lower[c][rows]
+        return cls(lower, upper, cap_lo, cap_hi, decimals)
+
+    def apply(self, raw: FloatArray) -> FloatArray:
+        """Clip to the bounds, then to the censored caps, then round (NaN stays NaN)."""
+        out = raw
+        with np.errstate(invalid="ignore"):  # comparisons with NaN limits are False
+            for lower, upper in ((self.lower, self.upper), (self.cap_lower, self.cap_upper)):
+                out = np.where(out < lower, lower, out)
+                out = np.where(out > upper, upper, out)
+        for d in np.unique(self.decimals[self.decimals >= 0]):
+            sel = self.decimals == d
+            out[sel] = np.round(out[sel], int(d))
+        return out
+
+
+def number_values(table: PreparedTable, stack: Stack, ks: Iterable[int]) -> dict[int, FloatArray]:
+    """Finished fill values of every cell of a stack of numeric columns, per k."""
+    matrix = np.column_stack([table.values[c] for c in stack.columns]) if stack.columns else np.empty((0, 0))
+    v = stack.gather(matrix)
+    plan = table.plan
+    if plan.neighbour_weighting == "inverse_distance":
+        raw = mean_values(v, stack.donors, ks, inverse_distance=True)
+    elif plan.numeric_rule == "median":
+        raw = median_values(v, stack.donors, ks)
+    else:
+        raw = mean_values(v, stack.donors, ks, inverse_distance=False)
+    finish = Finish.of(table, stack)
+    return {k: finish.apply(vals) for k, vals in raw.items()}
+
+
+def combine(
+    table: PreparedTable, donors: Mapping[str, ColumnDonors], ks: Iterable[int]
+) -> dict[int, dict[str, NDArray[np.generic]]]:
+    """Fill value of every target for every k, using the plan's rule.
+
+    Parameters
+    ----------
+    table : PreparedTable
+        From :func:`~imputer_app.engine.prepare`.
+    donors : mapping of str to ColumnDonors
+        From :func:`~imputer_app.engine.nearest_donors` (kmax >= max(ks) gives exact
+        results; a smaller kmax uses the donors available).
+    ks : iterable of int
+        Each >= 1.
+
+    Returns
+    -------
+    dict of int to (dict of str to ndarray of shape (m,))
+        Per k and fill column, aligned with ``donors[col].rows``: numbers (float, after
+        bounds, caps and rounding; NaN when no donor) or class codes (int, -1 when no
+        donor).
+    """
+    ks = sorted({int(k) for k in ks})
+    if any(k < 1 for k in ks):
+        raise ValueError(f"every k must be at least 1; got {ks}")
+    out: dict[int, dict[str, NDArray[np.generic]]] = {k: {} for k in ks}
+    numbers = [c for c in donors if table.kinds[c] == "number"]
+    if numbers:
+        stack = Stack.of(donors, numbers)
+        for k, values in number_values(table, stack, ks).items():
+            out[k].update(stack.split(values))
+    for col in (c for c in donors if table.kinds[c] != "number"):
+        for k, codes in vote(np.asarray(table.values[col], dtype=np.intp), donors[col], ks).items():
+            out[k][col] = codes
+    return {k: {c: out[k][c] for c in donors} for k in ks}

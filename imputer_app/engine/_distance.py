@@ -1,0 +1,317 @@
+"""Weighted missing-aware distance between rows (numpy only).
+
+Dixon's (1979) distance for rows with gaps, weighted per column, with Gower's (1971)
+matching rule for categorical columns::
+
+    d^2(x, y) = (W_all / W_shared) * sum over shared columns j of w_j * delta_j^2
+
+where ``W_all`` is the total weight of the similarity columns, ``W_shared`` the
+weight of the columns both rows have, ``delta_j = x_j - y_j`` for numbers (already
+scaled) and ``delta_j^2 = [x_j != y_j]`` for categories. Rows sharing no column have
+no distance (``inf`` here, NaN in :func:`pairwise_distances`).
+
+With all weights 1 and numeric columns only this is scikit-learn's
+``nan_euclidean_distances``. Every term is computed from matrix products (BLAS) of
+per-row factor matrices built once, so a block of ``m`` rows against all ``n`` rows
+costs two products of shape (m, K) x (K, n).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.intp]
+
+
+@dataclass(frozen=True)
+class Features:
+    """The similarity columns of a table as arrays.
+
+    Attributes
+    ----------
+    numbers : ndarray of shape (n_rows, n_numeric)
+        Scaled numeric similarity columns, NaN for gaps.
+    number_weights : ndarray of shape (n_numeric,)
+    codes : ndarray of int, shape (n_rows, n_categorical)
+        Class codes 0..n_classes-1 of categorical similarity columns, -1 for gaps.
+    code_weights : ndarray of shape (n_categorical,)
+    total_weight : float
+        Sum of the weights of all similarity columns used in the distance.
+    """
+
+    numbers: FloatArray
+    number_weights: FloatArray
+    codes: IntArray
+    code_weights: FloatArray
+    total_weight: float
+
+    @property
+    def n_rows(self) -> int:
+        """Number of rows."""
+        return int(self.numbers.shape[0])
+
+    def present(self) -> NDArray[np.bool_]:
+        """Bool (n_rows,): the row has at least one similarity value."""
+        return np.asarray(np.isfinite(self.numbers).any(axis=1) | (self.codes >= 0).any(axis=1), dtype=bool)
+
+
+@dataclass(frozen=True)
+class Candidates:
+    """Right-hand factors of the rows that may be donors.
+
+    Attributes
+    ----------
+    index : ndarray of int, shape (n_candidates,)
+        Row positions, ascending.
+    right : ndarray of shape (n_candidates, K + K_shared)
+        The distance factors followed by the shared-weight factors.
+    """
+
+    index: IntArray
+    right: FloatArray
+
+    def __len__(self) -> int:
+        return len(self.index)
+
+
+@dataclass(frozen=True)
+class Targets:
+    """Target rows and their left-hand factors (computed once per chunk).
+
+    Attributes
+    ----------
+    rows : ndarray of int, shape (m,)
+    left : ndarray of shape (m, K + K_shared)
+    """
+
+    rows: IntArray
+    left: FloatArray
+
+    def subset(self, sel: IntArray) -> Targets:
+        """The targets ``sel`` (positions within this chunk)."""
+        return Targets(self.rows[sel], self.left[sel])
+
+
+class DistanceModel:
+    """Factor matrices from which distance blocks are matrix products.
+
+    Parameters
+    ----------
+    features : Features
+        The rows to compare.
+
+    Notes
+    -----
+    ``sum_j w m_x m_y (x - y)^2 = (w x^2) . m_y + m_x . (w y^2) - 2 (w x) . y`` with
+    ``x, y`` zero-filled and ``m`` the observed masks; the categorical mismatch is
+    ``sum_j w_j m_x m_y - sum_j w_j [x_j == y_j]`` with one-hot class indicators; the
+    shared weight is ``(w m_x) . m_y``. The total weight is folded into the left
+    factors. Each column is first shifted by its mean rounded to a whole number: a
+    shift does not change a difference, keeps whole-number data whole (so their
+    products are exact) and reduces rounding error when values are large compared with
+    their spread.
+    """
+
+    def __init__(self, features: Features) -> None:
+        x = features.numbers
+        n, p = x.shape
+        mask = np.isfinite(x)
+        z = np.where(mask, x, 0.0)
+        z -= np.round(z.sum(axis=0) / np.maximum(mask.sum(axis=0), 1))
+        z *= mask
+        onehot, cmask = _onehot(features.codes)
+        tw = float(features.total_weight)
+        w, cw = features.number_weights, features.code_weights
+        q, h = cmask.shape[1], onehot.shape[1]
+        self.width = k = 3 * p + q + h  # distance factors; the shared-weight factors follow
+        self.right = right = np.empty((n, k + p + q))
+        # right: m | z^2 | -2z | cmask | onehot || m | cmask   (written in place: no temporaries)
+        right[:, :p] = mask
+        np.multiply(z, z, out=right[:, p : 2 * p])
+        np.multiply(z, -2.0, out=right[:, 2 * p : 3 * p])
+        right[:, 3 * p : 3 * p + q] = cmask
+        right[:, 3 * p + q : k] = onehot
+        right[:, k : k + p] = right[:, :p]
+        right[:, k + p :] = cmask
+        # left: w z^2 | w m | w z | cw cmask | -cw onehot (all x W_all) || w m | cw cmask, which is
+        # right with the first two blocks swapped, times a scale per column: built per chunk
+        self._p = p
+        self._scale = np.concatenate(
+            [w * tw, w * tw, w * (-tw / 2), cw * tw, -_expand(cw * tw, features.codes), w, cw]
+        )
+        self.n_rows = int(n)
+
+    def targets(self, rows: IntArray) -> Targets:
+        """``rows`` with their left-hand factors."""
+        rows = np.asarray(rows, dtype=np.intp)
+        right, p = self.right[rows], self._p
+        left = np.empty_like(right)
+        left[:, :p], left[:, p : 2 * p], left[:, 2 * p :] = (
+            right[:, p : 2 * p],
+            right[:, :p],
+            right[:, 2 * p :],
+        )
+        left *= self._scale
+        return Targets(rows, left)
+
+    def candidates(self, index: IntArray | None = None) -> Candidates:
+        """Right-hand factors of the rows ``index`` (all rows when None), copied once."""
+        if index is None or len(index) == self.n_rows:
+            return Candidates(np.arange(self.n_rows), self.right)
+        return Candidates(np.asarray(index, dtype=np.intp), np.ascontiguousarray(self.right[index]))
+
+    def products(
+        self, targets: Targets, cand: Candidates, part: slice = slice(None)
+    ) -> tuple[FloatArray, FloatArray]:
+        """The two matrix products behind a distance block.
+
+        Returns
+        -------
+        total : ndarray of shape (m, n_part)
+            ``W_all x sum_j w_j delta_j^2`` over the shared columns (exactly 0 when none).
+        shared : ndarray of shape (m, n_part)
+            ``W_shared``, the weight of the shared columns.
+        """
+        left, right, k = targets.left, cand.right[part], self.width
+        return left[:, :k] @ right[:, :k].T, left[:, k:] @ right[:, k:].T
+
+    def excess(self, targets: Targets, bound: FloatArray, cand: Candidates, part: slice) -> FloatArray:
+        """``total - bound x shared`` per pair in one product: negative where d^2 < bound.
+
+        Parameters
+        ----------
+        targets : Targets
+            The target rows.
+        bound : ndarray of shape (m,)
+            Finite squared distance per target row.
+        cand : Candidates
+            The candidate rows' factors.
+        part : slice
+            A contiguous run of the candidates.
+
+        Returns
+        -------
+        ndarray of shape (m, n_part)
+            0 where the rows share no column.
+        """
+        left = targets.left.copy()
+        left[:, self.width :] *= -bound[:, None]
+        return left @ cand.right[part].T
+
+    def pairs(self, targets: Targets, which: IntArray, others: IntArray) -> FloatArray:
+        """Squared distances of the pairs (targets.rows[which[i]], others[i]), shape (len(which),)."""
+        left, right, k = targets.left[which], self.right[others], self.width
+        total = np.einsum("ij,ij->i", left[:, :k], right[:, :k])
+        shared = np.einsum("ij,ij->i", left[:, k:], right[:, k:])
+        return ratio(total, shared)
+
+    def block(self, targets: Targets, cand: Candidates, part: slice = slice(None)) -> FloatArray:
+        """Squared distances from ``rows`` to the candidates ``cand.index[part]``.
+
+        Parameters
+        ----------
+        targets : Targets
+            The target rows.
+        cand : Candidates
+            The candidate rows' factors.
+        part : slice, default=all
+            A contiguous run of the candidates.
+
+        Returns
+        -------
+        ndarray of shape (m, n_part)
+            Squared distances clipped at 0; ``inf`` where the rows share no column.
+        """
+        total, shared = self.products(targets, cand, part)
+        return ratio(total, shared, out=total)
+
+    def squared(self, rows: IntArray) -> tuple[FloatArray, NDArray[np.bool_]]:
+        """Squared distances from ``rows`` to every row, and where rows share a column.
+
+        Returns
+        -------
+        d2 : ndarray of shape (m, n_rows)
+            ``inf`` where two rows share no column.
+        shared : ndarray of bool, shape (m, n_rows)
+        """
+        d2 = self.block(self.targets(rows), self.candidates())
+        return d2, np.isfinite(d2)
+
+
+def ratio(total: FloatArray, shared: FloatArray, out: FloatArray | None = None) -> FloatArray:
+    """``total / shared`` clipped at 0, ``inf`` where no column is shared (0/0) or total is inf."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        d2 = np.divide(total, shared, out=out)
+    np.copyto(d2, np.inf, where=np.isnan(d2))
+    np.maximum(d2, 0.0, out=d2)
+    return d2
+
+
+def _onehot(codes: IntArray) -> tuple[FloatArray, FloatArray]:
+    """One-hot class indicators (n, sum of classes) and the observed mask (n, q)."""
+    n, q = codes.shape
+    cmask = (codes >= 0).astype(np.float64)
+    if q == 0:
+        return np.zeros((n, 0)), cmask
+    sizes = np.maximum(codes.max(axis=0) + 1, 0)
+    offsets = np.concatenate([[0], np.cumsum(sizes)[:-1]])
+    onehot = np.zeros((n, int(sizes.sum())))
+    rows, cols = np.nonzero(codes >= 0)
+    onehot[rows, offsets[cols] + codes[rows, cols]] = 1.0
+    return onehot, cmask
+
+
+def _expand(weights: FloatArray, codes: IntArray) -> FloatArray:
+    """Repeat each categorical column's weight once per class (for the one-hot columns)."""
+    if codes.shape[1] == 0:
+        return np.zeros(0)
+    sizes = np.maximum(codes.max(axis=0) + 1, 0)
+    return np.repeat(weights, sizes)
+
+
+def pairwise_distances(
+    numbers: FloatArray,
+    weights: FloatArray | None = None,
+    *,
+    codes: IntArray | None = None,
+    code_weights: FloatArray | None = None,
+) -> FloatArray:
+    """Weighted missing-aware Euclidean distances between all rows.
+
+    Parameters
+    ----------
+    numbers : ndarray of shape (n_rows, n_numeric)
+        Numeric columns (already scaled), NaN for gaps.
+    weights : ndarray of shape (n_numeric,), default=all 1
+        Weight of each numeric column.
+    codes : ndarray of int, shape (n_rows, n_categorical), default=None
+        Class codes, -1 for gaps.
+    code_weights : ndarray of shape (n_categorical,), default=all 1
+        Weight of each categorical column.
+
+    Returns
+    -------
+    ndarray of shape (n_rows, n_rows)
+        Distances (not squared); NaN where two rows share no column.
+
+    Examples
+    --------
+    >>> pairwise_distances(np.array([[0.0, 3.0], [4.0, np.nan]])).round(3).tolist()
+    [[0.0, 5.657], [5.657, 0.0]]
+    """
+    numbers = np.asarray(numbers, dtype=np.float64)
+    n = numbers.shape[0]
+    w = np.ones(numbers.shape[1]) if weights is None else np.asarray(weights, dtype=np.float64)
+    c = np.zeros((n, 0), dtype=np.intp) if codes is None else np.asarray(codes, dtype=np.intp)
+    cw = np.ones(c.shape[1]) if code_weights is None else np.asarray(code_weights, dtype=np.float64)
+    features = Features(numbers, w, c, cw, float(w.sum() + cw.sum()))
+    d2, shared = DistanceModel(features).squared(np.arange(n))
+    out = np.sqrt(d2)
+    out[~shared] = np.nan
+    diagonal = np.flatnonzero(np.diagonal(shared))
+    out[diagonal, diagonal] = 0.0  # a row is at distance 0 from itself (no rounding noise)
+    return out

@@ -1,0 +1,294 @@
+"""k-nearest donor search per fill column (numpy only).
+
+Fill columns whose donors are most rows ("dense") share one search: each target row
+keeps a list of its nearest candidates (enough that nearly every cell finds ``kmax``
+donors in it) and every target cell takes the first candidates that are donors of its
+column, all columns at once. Cells whose list holds too few donors, and columns with
+few donors ("sparse"), are searched among that column's donors only. Results are kept
+flat (one row per target cell, sorted by column then row) and handed out per column.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from concurrent.futures import ThreadPoolExecutor
+from contextlib import AbstractContextManager, nullcontext
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import NDArray
+
+from imputer_app.engine._distance import Candidates, DistanceModel
+from imputer_app.engine._nearest import BlockSearch, chunks
+from imputer_app.engine._table import PreparedTable
+from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
+
+IntArray = NDArray[np.intp]
+FloatArray = NDArray[np.float64]
+BoolArray = NDArray[np.bool_]
+
+#: Bytes allowed for one distance block and its temporaries.
+BLOCK_BYTES = 64 * 2**20
+#: Threads searching chunks side by side (each runs BLAS on one thread).
+WORKERS = 2
+#: A column whose donors are fewer than this share of all candidates is searched alone.
+DENSE_SHARE = 0.3
+
+
+@dataclass
+class ColumnDonors:
+    """The nearest donors of every target cell of one fill column.
+
+    Attributes
+    ----------
+    rows : ndarray of int, shape (m,)
+        Target row positions, ascending.
+    index : ndarray of int, shape (m, kmax)
+        Donor row positions, nearest first, ties by row order; -1 pads missing donors.
+    distance : ndarray of float, shape (m, kmax)
+        Donor distances; ``inf`` pads.
+    count : ndarray of int, shape (m,)
+        Number of real donors per target (<= kmax).
+    """
+
+    rows: IntArray
+    index: IntArray
+    distance: FloatArray
+    count: IntArray
+
+
+def first_donors(
+    cand: IntArray, cd2: FloatArray, ok: BoolArray, kmax: int
+) -> tuple[IntArray, FloatArray, BoolArray]:
+    """First ``kmax`` candidates per cell that are donors (``ok``).
+
+    Parameters
+    ----------
+    cand, cd2 : ndarray of shape (cells, L)
+        Candidate rows and squared distances, nearest first (-1 / inf pad).
+    ok : ndarray of bool, shape (cells, L)
+        The candidate is a donor of the cell's column.
+    kmax : int
+        Donors to keep per cell.
+
+    Returns
+    -------
+    index, d2 : ndarray of shape (cells, kmax)
+        Padded with -1 / inf.
+    short : ndarray of bool, shape (cells,)
+        Fewer than ``kmax`` donors were found although the list was full (more
+        candidates may exist beyond it).
+    """
+    good = ok & np.isfinite(cd2)
+    pos = np.argsort(~good, axis=1, kind="stable")[:, :kmax]
+    got = np.take_along_axis(good, pos, axis=1)
+    idx = np.where(got, np.take_along_axis(cand, pos, axis=1), -1)
+    d2 = np.where(got, np.take_along_axis(cd2, pos, axis=1), np.inf)
+    if idx.shape[1] < kmax:
+        pad = kmax - idx.shape[1]
+        idx = np.hstack([idx, np.full((len(idx), pad), -1, dtype=np.intp)])
+        d2 = np.hstack([d2, np.full((len(d2), pad), np.inf)])
+    short = (got.sum(axis=1) < kmax) & np.isfinite(cd2[:, -1]) if cd2.shape[1] else np.zeros(len(cd2), bool)
+    return idx, d2, short
+
+
+@dataclass
+class _Cells:
+    """All target cells, sorted by (column, row), and their donors so far."""
+
+    col: IntArray
+    row: IntArray
+    index: IntArray
+    d2: FloatArray
+    n_rows: int
+
+    @classmethod
+    def of(cls, want: BoolArray, kmax: int) -> _Cells:
+        col, row = np.nonzero(want.T)
+        return cls(
+            col,
+            row,
+            np.full((len(col), kmax), -1, dtype=np.intp),
+            np.full((len(col), kmax), np.inf),
+            len(want),
+        )
+
+    def put(self, col: IntArray, row: IntArray, index: IntArray, d2: FloatArray) -> None:
+        at = np.searchsorted(self.col * self.n_rows + self.row, col * self.n_rows + row)
+        self.index[at] = index
+        self.d2[at] = d2
+
+    def split(self, names: tuple[str, ...]) -> dict[str, ColumnDonors]:
+        valid = self.index >= 0
+        with np.errstate(invalid="ignore"):
+            distance = np.where(valid, np.sqrt(self.d2), np.inf)
+        count = valid.sum(axis=1).astype(np.intp)
+        bounds = np.searchsorted(self.col, np.arange(len(names) + 1))
+        return {
+            name: ColumnDonors(self.row[a:b], self.index[a:b], distance[a:b], count[a:b])
+            for name, a, b in zip(names, bounds[:-1], bounds[1:], strict=True)
+        }
+
+
+def nearest_donors(
+    table: PreparedTable,
+    *,
+    kmax: int,
+    targets: Mapping[str, BoolArray] | None = None,
+    progress: Progress | None = None,
+    cancel: CancelFlag | None = None,
+    budget: int = BLOCK_BYTES,
+) -> dict[str, ColumnDonors]:
+    """Find the ``kmax`` nearest donors of every target cell, per fill column.
+
+    Parameters
+    ----------
+    table : PreparedTable
+        From :func:`~imputer_app.engine.prepare`.
+    kmax : int
+        Donors kept per target (>= 1); one search serves every k <= kmax.
+    targets : mapping of str to ndarray of bool, shape (n_rows,), optional
+        Rows to find donors for, per fill column; default every cell of the column that
+        is not observed (gaps, hidden cells, censored cells to fill).
+    progress : callable(done, total), optional
+        Called after every chunk of target rows.
+    cancel : Event-like or callable, optional
+        Checked for every distance block; raises :class:`~imputer_app.errors.Cancelled`.
+    budget : int, default=64 MiB
+        Bytes for one distance block and its temporaries.
+
+    Returns
+    -------
+    dict of str to ColumnDonors
+        One entry per fill column (in ``table.fill_columns`` order). A donor is a row
+        observed in that column, in the target's group, sharing at least one
+        similarity column, and never the target row itself; ties in distance go to the
+        earlier row. A target with fewer donors than ``kmax`` gets them all.
+
+    Examples
+    --------
+    >>> donors = nearest_donors(prepare(frame, FillPlan()), kmax=5)  # doctest: +SKIP
+    >>> donors["nitrate"].index[0]  # row positions of the first target's donors  # doctest: +SKIP
+    """
+    if kmax < 1:
+        raise ValueError(f"kmax must be at least 1; got {kmax}")
+    raise_if_cancelled(cancel)
+    n, names = table.n_rows, table.fill_columns
+    wanted = table.targets() if targets is None else targets
+    want = np.zeros((n, len(names)), dtype=bool)
+    ok = np.zeros((n, len(names)), dtype=bool)
+    for j, name in enumerate(names):
+        if name in wanted:
+            want[:, j] = np.asarray(wanted[name], dtype=bool)
+        ok[:, j] = table.observed[name]
+    if table.groups is not None:
+        ok &= (table.groups >= 0)[:, None]
+    cells = _Cells.of(want, kmax)
+    active = np.flatnonzero(want.any(axis=0) & ok.any(axis=0))
+    steps = 1
+    if len(active):
+        with _one_blas_thread():
+            search = BlockSearch(DistanceModel(table.features), table.groups, budget)
+            steps = _Jobs(search, want, ok, kmax, active).run(cells, progress, cancel)
+    report(progress, steps, steps)
+    return cells.split(names)
+
+
+def _one_blas_thread() -> AbstractContextManager[object]:
+    """Run BLAS on one thread during the search.
+
+    The search alternates many modest matrix products with numpy work; idle BLAS threads
+    spinning between products slow that work down, by 2-3x on a busy two-core machine.
+    """
+    try:
+        from threadpoolctl import threadpool_limits  # installed with scikit-learn
+    except ImportError:  # pragma: no cover - then BLAS keeps its own setting
+        return nullcontext()
+    return threadpool_limits(limits=1, user_api="blas")
+
+
+@dataclass
+class _Jobs:
+    """The searches to run: dense columns together, each sparse column alone."""
+
+    search: BlockSearch
+    want: BoolArray
+    ok: BoolArray
+    kmax: int
+    active: IntArray
+    dense: IntArray = field(init=False)
+    sparse: IntArray = field(init=False)
+
+    def __post_init__(self) -> None:
+        donors = self.ok[:, self.active].sum(axis=0)
+        total = max(int(self.ok[:, self.active].any(axis=1).sum()), 1)
+        self.dense = self.active[donors >= DENSE_SHARE * total]
+        self.sparse = self.active[donors < DENSE_SHARE * total]
+
+    def run(self, cells: _Cells, progress: Progress | None, cancel: CancelFlag | None) -> int:
+        """Search, reporting progress per chunk; short cells are searched again exactly.
+
+        Returns the number of progress steps (the last is reported by the caller).
+        """
+        jobs: list[tuple[IntArray, IntArray]] = []
+        if len(self.dense):
+            jobs.append((self.dense, np.flatnonzero(self.want[:, self.dense].any(axis=1))))
+        jobs += [(np.array([j]), np.flatnonzero(self.want[:, j])) for j in self.sparse]
+        # candidate factors are copied one job at a time (a job per sparse column adds up)
+        sizes = [self.search.sizes(int(self.ok[:, cols].any(axis=1).sum())) for cols, _ in jobs]
+        total = sum(
+            max(1, math.ceil(len(rows) / size[0])) for (_, rows), size in zip(jobs, sizes, strict=True)
+        )
+        done = 0
+        short: list[tuple[IntArray, IntArray]] = []
+        with ThreadPoolExecutor(max_workers=WORKERS) as pool:
+            for (cols, rows), (chunk, tile) in zip(jobs, sizes, strict=True):
+                cand = self._candidates(cols)
+                length = self._list_size(cols, cand)
+                # chunks run on the workers (numpy and BLAS release the GIL); results are taken in order
+                found = pool.map(lambda part: (part, self.search.nearest(part, cand, length, tile, cancel)),
+                                 chunks(rows, chunk))  # fmt: skip
+                for part, best in found:
+                    miss = self._take(cells, cols, part, best)
+                    if length < len(cand) and len(miss[0]):
+                        short.append(miss)
+                    done += 1
+                    report(progress, done, total + 1)
+        if short:
+            self._exact(
+                cells, np.concatenate([s[0] for s in short]), np.concatenate([s[1] for s in short]), cancel
+            )
+        return total + 1
+
+    def _take(
+        self, cells: _Cells, cols: IntArray, part: IntArray, best: tuple[IntArray, FloatArray]
+    ) -> tuple[IntArray, IntArray]:
+        """Store the donors of every target cell of ``part``; return the short cells (col, row)."""
+        r, j = np.nonzero(self.want[np.ix_(part, cols)])
+        col = cols[j]
+        cand, cd2 = best[0][r], best[1][r]
+        ok = self.ok[np.maximum(cand, 0), col[:, None]]
+        idx, d2, short = first_donors(cand, cd2, ok, self.kmax)
+        cells.put(col, part[r], idx, d2)
+        return col[short], part[r][short]
+
+    def _candidates(self, cols: IntArray) -> Candidates:
+        return self.search.model.candidates(np.flatnonzero(self.ok[:, cols].any(axis=1)))
+
+    def _list_size(self, cols: IntArray, cand: Candidates) -> int:
+        """Candidates kept per row so that nearly every cell finds kmax donors among them."""
+        share = float(self.ok[np.ix_(cand.index, cols)].mean(axis=0).min()) if len(cand) else 1.0
+        # expected donors in the list: share x length; a cell short of kmax is searched again
+        return min(len(cand), math.ceil(self.kmax / max(share, 1e-9) * 1.3) + 4)
+
+    def _exact(self, cells: _Cells, col: IntArray, row: IntArray, cancel: CancelFlag | None) -> None:
+        """Search the short cells among their own column's donors only."""
+        for j in np.unique(col):
+            rows = np.sort(row[col == j])
+            cand = self.search.model.candidates(np.flatnonzero(self.ok[:, j]))
+            chunk, tile = self.search.sizes(len(cand))
+            for part in chunks(rows, chunk):
+                idx, d2 = self.search.nearest(part, cand, self.kmax, tile, cancel)
+                idx, d2, _ = first_donors(idx, d2, np.ones(idx.shape, dtype=bool), self.kmax)
+                cells.put(np.full(len(part), j), part, idx, d2)

@@ -1,0 +1,47 @@
+"""Weak support: a filled cell whose nearest donor is unusually far (numpy only).
+
+The threshold is the 95th percentile of the nearest-donor distances of every target
+cell in the sheet (all fill columns pooled). A cell whose nearest donor is farther
+than that is flagged ``weak``: its value rests on rows that are not much like it.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+
+import numpy as np
+from numpy.typing import NDArray
+
+from imputer_app.engine._search import ColumnDonors
+
+WEAK_PERCENTILE = 95.0
+
+
+def weak_threshold(donors: Iterable[ColumnDonors], percentile: float = WEAK_PERCENTILE) -> float:
+    """Distance above which support is weak; NaN when no cell has a donor.
+
+    Parameters
+    ----------
+    donors : iterable of ColumnDonors
+        The nearest donor (column 0) of every target with at least one donor counts.
+    percentile : float, default=95
+        Which percentile of the pooled nearest-donor distances.
+    """
+    nearest = [d.distance[d.count > 0, 0] for d in donors if d.index.shape[1] > 0]
+    pooled = np.concatenate(nearest) if nearest else np.empty(0)
+    if not len(pooled):
+        return float("nan")
+    return float(np.percentile(pooled, percentile))
+
+
+def support_flags(donors: ColumnDonors, threshold: float) -> NDArray[np.str_]:
+    """Per target: ``"weak"`` when the nearest donor is beyond ``threshold``, else ``"ok"``.
+
+    Targets without a donor get ``""``.
+    """
+    if donors.index.shape[1] == 0:
+        return np.full(len(donors.rows), "", dtype="<U4")
+    nearest = donors.distance[:, 0]
+    flags = np.where(nearest > threshold, "weak", "ok").astype("<U4")
+    flags[donors.count == 0] = ""
+    return flags
