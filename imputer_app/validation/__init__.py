@@ -1,0 +1,13 @@
+"""Recovery test: hide known cells, fill them for every k, and score each k.
+
+Users choose k from evidence: :func:`recovery_test` hides a share of the known cells
+of each fill column, fills them with the same engine and plan for every k, and
+compares the errors with a plain column-mean fill. :func:`one_se_rule` picks the
+largest k within one standard error of the best (ESL 2nd ed., sec. 7.10).
+"""
+
+from imputer_app.validation._recovery import recovery_test
+from imputer_app.validation._report import RecoveryReport
+from imputer_app.validation._scoring import one_se_rule
+
+__all__ = ["RecoveryReport", "one_se_rule", "recovery_test"]
