@@ -1,0 +1,225 @@
+"""Turn parsed columns into a :class:`Sheet`'s frame, states, cell notes and problems."""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from imputer_app.errors import SheetError
+from imputer_app.sheets._cells import CENSORED, MARKER, ParsedColumn
+from imputer_app.sheets._grid import cell_text, column_letter
+from imputer_app.sheets._header import unit_from_name
+from imputer_app.sheets._kinds import (
+    CENSORED_STATE,
+    TEXT_IN_NUMBER,
+    Built,
+    Detected,
+    build,
+    detect_kind,
+    text_date_format,
+)
+from imputer_app.sheets._model import CELL_STATES, COLUMN_KINDS, NOTE_COLUMNS
+from imputer_app.work import CancelFlag, raise_if_cancelled
+
+#: The dtype of every column of ``Sheet.states``.
+STATES_DTYPE = pd.CategoricalDtype(list(CELL_STATES))
+#: Kinds a caller may force with ``kinds={name: kind}``.
+OVERRIDE_KINDS = tuple(kind for kind in COLUMN_KINDS if kind != "empty")
+#: Text-in-number cells listed one by one in ``problems`` per column (all are in cell_notes).
+MAX_LISTED = 10
+#: Name patterns of a limit column for column ``base`` and limit family ``word``.
+#: Names are compared by :func:`_limit_key`, so "x_LOD", "x (LOD)" and "X lod" all match.
+LIMIT_COLUMN_FORMS = ("{base} {word}", "{word} {base}")
+
+
+@dataclass(frozen=True)
+class Column:
+    """One parsed column with its place in the file and its header facts."""
+
+    name: str
+    original: str
+    position: int
+    unit: str | None
+    notes: tuple[str, ...]
+    parsed: ParsedColumn
+
+
+@dataclass
+class Assembled:
+    """Everything :func:`assemble` builds for a Sheet except its source facts."""
+
+    frame: pd.DataFrame
+    states: pd.DataFrame
+    kinds: dict[str, str]
+    notes: dict[str, tuple[str, ...]]
+    cell_notes: pd.DataFrame
+    problems: list[str]
+
+
+def resolve_kinds(columns: list[Column], kinds: Mapping[str, str] | None, where: str) -> dict[str, str]:
+    """Check ``kinds`` overrides and key them by the unique column name."""
+    if not kinds:
+        return {}
+    by_name = {column.name: column.name for column in columns}
+    for column in columns:
+        by_name.setdefault(column.original, column.name)
+    resolved: dict[str, str] = {}
+    for key, kind in kinds.items():
+        if key not in by_name:
+            listing = ", ".join(repr(column.name) for column in columns)
+            raise SheetError(f"kinds: no column '{key}' in {where}; columns are {listing}")
+        if kind not in OVERRIDE_KINDS:
+            raise SheetError(f"kinds: '{kind}' for column '{key}' is not one of {', '.join(OVERRIDE_KINDS)}")
+        resolved[by_name[key]] = kind
+    return resolved
+
+
+def detect(column: Column, forced: str | None) -> Detected:
+    """The column's kind: detected, or forced by the caller (with a note)."""
+    found = detect_kind(column.parsed)
+    if forced is None or forced == found.kind:
+        return found
+    note = f"kind set to {forced} by the user (detected {found.kind})"
+    if forced == "date":
+        fmt = text_date_format(column.parsed.text[column.parsed.text != ""])[0]
+        return Detected("date", fmt, note)
+    return Detected(forced, None, note)
+
+
+def assemble(
+    columns: list[Column],
+    rows: np.ndarray,
+    forced: Mapping[str, str],
+    workbook: bool,
+    cancel: CancelFlag | None = None,
+) -> Assembled:
+    """Build frame, states, notes and problems for the data ``rows`` (1-based file rows)."""
+    index = pd.Index(rows, name="row")
+    values: dict[str, object] = {}
+    states: dict[str, pd.Categorical] = {}
+    kinds: dict[str, str] = {}
+    notes: dict[str, tuple[str, ...]] = {}
+    note_frames: list[pd.DataFrame] = []
+    problems: list[str] = []
+    detected = {column.name: detect(column, forced.get(column.name)) for column in columns}
+    numbers = {c.name: c for c in columns if detected[c.name].kind == "number"}
+    for column in columns:
+        raise_if_cancelled(cancel)
+        found = detected[column.name]
+        built = build(column.parsed, found)
+        limit_note = _fill_limits(column, numbers) if found.kind == "number" else None
+        values[column.name] = _series(built, found.kind, index)
+        states[column.name] = pd.Categorical.from_codes(built.states, dtype=STATES_DTYPE)
+        kinds[column.name] = found.kind
+        notes[column.name] = column.notes + tuple(n for n in (found.note, limit_note) if n)
+        frame = _cell_notes(column, built, rows)
+        if not frame.empty:
+            note_frames.append(frame)
+        problems += _cell_problems(column, found.kind, frame, workbook)
+    cell_notes = (
+        pd.concat(note_frames, ignore_index=True) if note_frames else pd.DataFrame(columns=list(NOTE_COLUMNS))
+    )
+    return Assembled(
+        frame=pd.DataFrame(values, index=index),
+        states=pd.DataFrame(states, index=index),
+        kinds=kinds,
+        notes=notes,
+        cell_notes=cell_notes,
+        problems=problems,
+    )
+
+
+def _series(built: Built, kind: str, index: pd.Index) -> pd.Series:
+    if kind in ("category", "identifier"):
+        return pd.Series(built.values, index=index, dtype=object)
+    return pd.Series(built.values, index=index)
+
+
+def _limit_key(name: str) -> str:
+    """A name without its unit suffix, lower case, runs of space _ - ( ) as one space."""
+    if unit_from_name(name):
+        name = re.sub(r"\s*[\[(][^\[\]()]*[\])]\s*$", "", name)
+    return " ".join(re.sub(r"[_\-()\s]+", " ", name).lower().split())
+
+
+def _fill_limits(column: Column, numbers: Mapping[str, Column]) -> str | None:
+    """Take limits of "<LOD"-style cells from a "<name> LOD" column of the same row."""
+    parsed = column.parsed
+    open_cells = np.flatnonzero((parsed.cls == CENSORED) & np.isnan(parsed.limit) & (parsed.token != ""))
+    if not open_cells.size:
+        return None
+    base = _limit_key(column.original or column.name)
+    lookup = {_limit_key(c.original or c.name): c for c in numbers.values() if c.name != column.name}
+    used: list[str] = []
+    for word in sorted(set(parsed.token[open_cells])):
+        cells = open_cells[parsed.token[open_cells] == word]
+        source = next(
+            (
+                lookup[key]
+                for form in LIMIT_COLUMN_FORMS
+                if (key := _limit_key(form.format(base=base, word=word))) in lookup
+            ),
+            None,
+        )
+        if source is not None:
+            parsed.limit[cells] = source.parsed.number[cells]
+            used.append(source.name)
+    if not used:
+        return None
+    return f"limits of censored cells without a number taken from {', '.join(repr(u) for u in used)}"
+
+
+def _cell_notes(column: Column, built: Built, rows: np.ndarray) -> pd.DataFrame:
+    parsed = column.parsed
+    noted = np.flatnonzero(
+        (parsed.cls == MARKER) | (built.states == CENSORED_STATE) | (built.states == TEXT_IN_NUMBER)
+    )
+    if not noted.size:
+        return pd.DataFrame(columns=list(NOTE_COLUMNS))
+    text = parsed.text[noted].copy()
+    raw_text = np.flatnonzero(text == "")
+    if raw_text.size:
+        text[raw_text] = [cell_text(value) for value in parsed.raw[noted[raw_text]]]
+    censored = built.states[noted] == CENSORED_STATE
+    return pd.DataFrame(
+        {
+            "row": rows[noted],
+            "column": column.name,
+            "state": np.asarray(CELL_STATES, dtype=object)[built.states[noted]],
+            "text": text,
+            "side": np.where(censored, parsed.side[noted], ""),
+            "limit": np.where(censored, parsed.limit[noted], np.nan),
+        }
+    )
+
+
+def _cell_problems(column: Column, kind: str, notes: pd.DataFrame, workbook: bool) -> list[str]:
+    if notes.empty:
+        return []
+    problems: list[str] = []
+    bad = notes[notes["state"] == CELL_STATES[TEXT_IN_NUMBER]]
+    what = "a date" if kind == "date" else "a number"
+    letter = column_letter(column.position)
+    for row, text in zip(bad["row"].head(MAX_LISTED), bad["text"].head(MAX_LISTED), strict=True):
+        cell = f" (cell {letter}{row})" if workbook else ""
+        problems.append(
+            f"'{column.name}' row {row}{cell}: '{text}' is not {what}; the cell is left empty "
+            "and marked text_in_number"
+        )
+    if len(bad) > MAX_LISTED:
+        problems.append(
+            f"'{column.name}': {len(bad) - MAX_LISTED} more cells hold text that is not {what} "
+            "(all are listed in the cell notes)"
+        )
+    censored = notes[notes["state"] == CELL_STATES[CENSORED_STATE]]
+    unknown = censored[censored["limit"].isna()]
+    if len(unknown):
+        problems.append(
+            f"'{column.name}': {len(unknown)} censored cell(s) such as '{unknown['text'].iloc[0]}' give no "
+            f"number and no limit column such as '{column.name} LOD' was found; their limit is unknown"
+        )
+    return problems

@@ -1,0 +1,297 @@
+"""Classify the cells of one column: blank, missing marker, number, censored, text, date.
+
+Work is vectorised per column: numbers that a workbook stores as numbers are taken as
+they are; text cells first go through one ``pandas.to_numeric`` pass that reads plain
+numbers, and only the rest (blanks, markers, censored entries, grouped thousands, text)
+goes through pandas string operations, once per distinct text. Python types are told
+apart with one ``type`` call per cell only in columns that mix them.
+
+Missing markers
+---------------
+:data:`DEFAULT_MARKERS` are always missing markers (compared trimmed and
+case-insensitively). A ``markers`` argument *extends* that set; it does not replace it.
+A marker that reads as a number (``-999``, ``"-999"``, ``9999.0``) matches cells whose
+numeric value equals it, whether stored as a number or as text, so ``-999`` is a marker
+only when the user passes it.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+#: Cell classes found on reading (internal codes).
+BLANK, MARKER, NUMBER, CENSORED, TEXT, DATE, BOOL = range(7)
+
+#: Missing-value markers that always apply (trimmed, case-insensitive).
+DEFAULT_MARKERS: tuple[str, ...] = ("NA", "N/A", "n.d.", "nd", "-", "--", "?", "missing", "#N/A", "NaN")
+
+#: Limit words a censored entry may give instead of a number, by family.
+LIMIT_FAMILIES: dict[str, str] = {
+    "lod": "LOD", "dl": "LOD", "mdl": "LOD", "d.l.": "LOD", "l.o.d.": "LOD", "l.o.d": "LOD",
+    "detection limit": "LOD", "limit of detection": "LOD", "bdl": "LOD", "blod": "LOD",
+    "loq": "LOQ", "lloq": "LOQ", "ql": "LOQ", "l.o.q.": "LOQ", "l.o.q": "LOQ",
+    "quantification limit": "LOQ", "limit of quantification": "LOQ", "bloq": "LOQ", "blq": "LOQ",
+    "bql": "LOQ", "rl": "RL", "mrl": "RL", "reporting limit": "RL", "uloq": "ULOQ",
+}  # fmt: skip
+
+_NUMBER = r"[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?"
+_TOKENS = "|".join(sorted((t.replace(".", r"\.") for t in LIMIT_FAMILIES), key=len, reverse=True))
+_SIDES = r"<=|>=|<|>|≤|≥|below|above|less than|greater than|under|over"
+_BARE = r"bdl|blod|bloq|blq|bql"
+CENSORED_PATTERN = (
+    rf"(?i)^(?:(?P<side>{_SIDES})\s*(?:the\s+)?(?:(?P<num>{_NUMBER})|(?P<token>{_TOKENS}))"
+    rf"|(?P<bare>{_BARE}))$"
+)
+_BELOW = {"<", "<=", "≤", "below", "less than", "under"}
+
+
+@dataclass(frozen=True)
+class Markers:
+    """Missing markers split into text (case-folded) and numeric values."""
+
+    texts: frozenset[str]
+    numbers: frozenset[float]
+
+    @property
+    def number_array(self) -> np.ndarray:
+        """Numeric markers as a float array (for :func:`numpy.isin`)."""
+        return np.array(sorted(self.numbers), dtype=float)
+
+
+def make_markers(extra: Iterable[str | float] | None = None) -> Markers:
+    """Build the marker set: :data:`DEFAULT_MARKERS` plus ``extra``.
+
+    Parameters
+    ----------
+    extra : iterable of str or float, optional
+        More markers. Text is compared trimmed and case-insensitively; a marker that
+        reads as a finite number (``-999``, ``"-999"``) is compared by numeric value.
+    """
+    if isinstance(extra, str | int | float):
+        extra = [extra]
+    texts: set[str] = set()
+    numbers: set[float] = set()
+    for marker in (*DEFAULT_MARKERS, *(extra or ())):
+        value = _finite_number(marker)
+        if value is not None:
+            numbers.add(value)
+        else:
+            texts.add(str(marker).strip().lower())
+    return Markers(frozenset(texts), frozenset(numbers))
+
+
+def _finite_number(marker: object) -> float | None:
+    try:
+        value = float(str(marker).strip().replace(",", ".")) if not isinstance(marker, bool) else math.nan
+    except ValueError:
+        return None
+    return value if math.isfinite(value) else None
+
+
+@dataclass
+class ParsedColumn:
+    """Every cell of one column, classified.
+
+    Attributes
+    ----------
+    raw : ndarray of object, shape (n,)
+        The cells as read ("" for empty).
+    cls : ndarray of int8, shape (n,)
+        One of BLANK, MARKER, NUMBER, CENSORED, TEXT, DATE, BOOL per cell.
+    number : ndarray of float, shape (n,)
+        The value of NUMBER cells, NaN elsewhere.
+    text : ndarray of object, shape (n,)
+        Trimmed text of cells that were text in the file, "" elsewhere.
+    side, limit, token : ndarray, shape (n,)
+        For CENSORED cells: "<" or ">", the numeric limit (NaN when a word such as
+        "LOD" was given) and that word's family ("LOD", "LOQ", "RL", "ULOQ" or "").
+    """
+
+    raw: np.ndarray
+    cls: np.ndarray
+    number: np.ndarray
+    text: np.ndarray
+    side: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=object))
+    limit: np.ndarray = field(default_factory=lambda: np.empty(0))
+    token: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=object))
+
+    def take(self, rows: np.ndarray) -> ParsedColumn:
+        """The same column restricted to ``rows`` (increasing positions)."""
+        if rows.size == self.cls.shape[0]:
+            return self
+        return ParsedColumn(
+            *(
+                getattr(self, name)[rows]
+                for name in ("raw", "cls", "number", "text", "side", "limit", "token")
+            )
+        )
+
+
+_NUMERIC_INFERRED = ("floating", "integer", "mixed-integer-float")
+_DATE_TYPES = (dt.date, dt.time, dt.timedelta)
+_NUMBER_TYPES = (float, int, np.float64, np.int64, np.float32, np.int32)
+_STRING_TYPES = (str, np.str_)
+_NUMBER_CHARS = r"[-+\u2212]?[\d.,]*\d[\d.,]*(?:[eE][-+]?\d+)?"
+
+
+def parse_numbers(texts: pd.Series, decimal: str) -> np.ndarray:
+    """Parse trimmed text as numbers with the given decimal mark; NaN where it is not one.
+
+    Thousands separators are removed only in the unambiguous grouped form
+    (``1.234.567,8`` with decimal ``,``; ``1,234,567.8`` with decimal ``.``).
+    ``nan``, ``inf`` and overflowing text are not numbers.
+    """
+    values = np.full(len(texts), np.nan)
+    # only texts made of digits, marks, signs and an exponent can be numbers
+    candidate = texts.str.fullmatch(_NUMBER_CHARS).to_numpy(dtype=bool, na_value=False)
+    if not candidate.any():
+        return values
+    t = texts[candidate].str.replace("\u2212", "-", regex=False)  # typographic minus sign
+    grouping, mark = (".", ",") if decimal == "," else (",", ".")
+    grouped = t.str.fullmatch(rf"[+-]?\d{{1,3}}(?:\{grouping}\d{{3}})+(?:\{mark}\d*)?")
+    if grouped.any():
+        t = t.where(~grouped, t.str.replace(grouping, "", regex=False))
+    if decimal == ",":
+        t = t.str.replace(",", ".", regex=False)
+    found = pd.to_numeric(t, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
+    values[candidate] = np.where(np.isfinite(found), found, np.nan)
+    return values
+
+
+def _plain_numbers(values: np.ndarray, decimal: str) -> np.ndarray:
+    """Fast first pass over text cells: plain numbers ("7.21", or "7,21" with decimal ",").
+
+    NaN for everything else (grouped thousands, markers, censored entries, text); the
+    careful pass of :func:`parse_numbers` looks at those.
+    """
+    texts = pd.Series(values, dtype=object)
+    grouped = None
+    if decimal == ",":
+        # a "." may group thousands ("1.234"): such texts are left to the careful pass
+        grouped = texts.str.contains(".", regex=False).to_numpy(dtype=bool)
+        texts = texts.str.replace(",", ".", regex=False)
+    found = pd.to_numeric(texts, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
+    plain = np.isfinite(found) if grouped is None else np.isfinite(found) & ~grouped
+    return np.where(plain, found, np.nan)
+
+
+def parse_column(raw: np.ndarray, decimal: str, markers: Markers) -> ParsedColumn:
+    """Classify every cell of one column (see :class:`ParsedColumn`)."""
+    n = raw.shape[0]
+    parsed = ParsedColumn(
+        raw=raw,
+        cls=np.full(n, BLANK, dtype=np.int8),
+        number=np.full(n, np.nan),
+        text=np.full(n, "", dtype=object),
+        side=np.full(n, "", dtype=object),
+        limit=np.full(n, np.nan),
+        token=np.full(n, "", dtype=object),
+    )
+    where = np.flatnonzero(raw != "")
+    values = raw[where]
+    inferred = pd.api.types.infer_dtype(values, skipna=False)
+    if inferred in _NUMERIC_INFERRED:
+        _take_numbers(parsed, where, values, markers)
+    elif inferred == "string":
+        _take_strings(parsed, where, values, decimal, markers)
+    elif values.size:
+        types = pd.Series(np.frompyfunc(type, 1, 1)(values))
+        numeric = types.isin(_NUMBER_TYPES).to_numpy()
+        strings = types.isin(_STRING_TYPES).to_numpy()
+        others = ~(numeric | strings)
+        _take_numbers(parsed, where[numeric], values[numeric], markers)
+        _take_strings(parsed, where[strings], values[strings], decimal, markers)
+        _take_others(parsed, where[others], values[others])
+    return parsed
+
+
+def _take_numbers(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, markers: Markers) -> None:
+    numbers = values.astype(float)
+    finite = np.isfinite(numbers)
+    marker = np.isin(numbers, markers.number_array)
+    parsed.number[where[finite & ~marker]] = numbers[finite & ~marker]
+    parsed.cls[where] = np.where(marker, MARKER, np.where(finite, NUMBER, BLANK))
+
+
+def _take_strings(
+    parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, decimal: str, markers: Markers
+) -> None:
+    """Classify text cells: plain numbers in one vectorised pass, the rest per distinct text."""
+    if not where.size:
+        return
+    numbers = _plain_numbers(values, decimal)
+    plain = np.isfinite(numbers)
+    if plain.any():
+        marker = np.isin(numbers[plain], markers.number_array)
+        cells = where[plain]
+        parsed.cls[cells] = np.where(marker, MARKER, NUMBER)
+        parsed.number[cells[~marker]] = numbers[plain][~marker]
+    if plain.all():
+        return
+    where, values = where[~plain], values[~plain]
+    codes, uniques = pd.factorize(values)
+    texts = pd.Series(np.asarray(uniques, dtype=object), dtype=str).str.strip()
+    found = _classify_texts(texts, decimal, markers)
+    for name, column in found.items():
+        getattr(parsed, name)[where] = column[codes]
+
+
+def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[str, np.ndarray]:
+    """Class, number, side, limit and limit family of each (trimmed) text."""
+    blank = (texts == "").to_numpy()
+    marker = texts.str.lower().isin(markers.texts).to_numpy() & ~blank
+    numbers = parse_numbers(texts, decimal)
+    number = np.isfinite(numbers) & ~marker
+    marker |= number & np.isin(numbers, markers.number_array)
+    number &= ~marker
+    cls = np.where(blank, BLANK, np.where(marker, MARKER, np.where(number, NUMBER, TEXT))).astype(np.int8)
+    found = {
+        "cls": cls,
+        "number": np.where(number, numbers, np.nan),
+        "text": texts.to_numpy(dtype=object),
+        "side": np.full(len(texts), "", dtype=object),
+        "limit": np.full(len(texts), np.nan),
+        "token": np.full(len(texts), "", dtype=object),
+    }
+    rest = np.flatnonzero(cls == TEXT)
+    if rest.size:
+        censored = _censored(texts.iloc[rest], decimal)
+        hit = censored["side"].notna().to_numpy()
+        cls[rest[hit]] = CENSORED
+        for name in ("side", "limit", "token"):
+            found[name][rest[hit]] = censored[name].to_numpy()[hit]
+    return found
+
+
+def _censored(texts: pd.Series, decimal: str) -> pd.DataFrame:
+    """Side ("<"/">", None when not censored), numeric limit and limit family per text."""
+    found = texts.str.extract(CENSORED_PATTERN).astype(object)
+    side_word, bare = found["side"].to_numpy(), found["bare"].to_numpy()
+    matched = np.flatnonzero(~pd.isna(side_word) | ~pd.isna(bare))
+    side = np.full(len(texts), None, dtype=object)
+    token = np.full(len(texts), "", dtype=object)
+    limit = np.full(len(texts), np.nan)
+    if matched.size:
+        words = np.where(pd.isna(found["token"].to_numpy()), bare, found["token"].to_numpy())[matched]
+        side[matched] = ["<" if pd.isna(w) or str(w).lower() in _BELOW else ">" for w in side_word[matched]]
+        token[matched] = ["" if pd.isna(w) else LIMIT_FAMILIES.get(str(w).lower(), "") for w in words]
+        numbers = pd.Series(found["num"].to_numpy()[matched], dtype=object).fillna("").astype(str)
+        first = parse_numbers(numbers, decimal)
+        other = parse_numbers(numbers, "." if decimal == "," else ",")
+        limit[matched] = np.where(np.isnan(first), other, first)
+    return pd.DataFrame({"side": side, "limit": limit, "token": token}, index=texts.index)
+
+
+def _take_others(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray) -> None:
+    # only cells that are neither str nor number get here (bools, dates, times): few
+    kinds = [
+        BOOL if isinstance(v, bool) else DATE if isinstance(v, _DATE_TYPES) else BLANK if v is None else TEXT
+        for v in values
+    ]
+    parsed.cls[where] = np.array(kinds, dtype=np.int8)

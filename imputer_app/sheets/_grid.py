@@ -1,0 +1,60 @@
+"""Small helpers shared by the text and workbook readers: a padded cell grid, blanks, A1 names."""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from collections.abc import Sequence
+
+import numpy as np
+
+#: A merged range as ((first_row, first_col), (last_row, last_col)), 0-based, inclusive.
+Merge = tuple[tuple[int, int], tuple[int, int]]
+
+
+def rows_to_grid(rows: Sequence[Sequence[object]]) -> np.ndarray:
+    """Return a 2-D object array of the rows, short rows padded with ""."""
+    width = max((len(row) for row in rows), default=0)
+    grid = np.full((len(rows), width), "", dtype=object)
+    if rows and all(len(row) == width for row in rows):
+        grid[:, :] = rows
+        return grid
+    for i, row in enumerate(rows):
+        grid[i, : len(row)] = row
+    return grid
+
+
+def is_filled(value: object) -> bool:
+    """True when a cell holds something other than "" or spaces."""
+    return not (isinstance(value, str) and not value.strip())
+
+
+def column_letter(index: int) -> str:
+    """0-based column position to spreadsheet letters (0 -> A, 26 -> AA)."""
+    letters = ""
+    index += 1
+    while index:
+        index, rest = divmod(index - 1, 26)
+        letters = chr(ord("A") + rest) + letters
+    return letters
+
+
+def cell_text(value: object) -> str:
+    """A cell value as the text a user would see (numbers without a needless ".0")."""
+    if isinstance(value, str):
+        return " ".join(value.split())
+    if isinstance(value, bool):
+        return "TRUE" if value else "FALSE"
+    if isinstance(value, float):
+        if math.isfinite(value) and value.is_integer() and abs(value) < 1e15:
+            return str(int(value))
+        return repr(value)
+    if isinstance(value, dt.datetime):
+        return (
+            value.isoformat(sep=" ")
+            if (value.hour, value.minute, value.second) != (0, 0, 0)
+            else (value.date().isoformat())
+        )
+    if isinstance(value, dt.date | dt.time):
+        return value.isoformat()
+    return str(value)

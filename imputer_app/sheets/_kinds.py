@@ -1,0 +1,188 @@
+"""Column kinds (number, category, date, identifier, empty): detection and the frame column.
+
+Detection, on the cells that are neither blank nor a missing marker:
+
+- ``empty``: there are none;
+- ``date``: at least 80 % are dates (workbook date cells, or text in one date format);
+- ``number``: at least half are numbers or censored entries (the rest become
+  ``text_in_number`` cells, each reported), unless most are whole numbers written with
+  leading zeros ("007"), which are codes;
+- ``identifier``: text whose values are all different (at least 3 of them);
+- ``category``: any other text.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from imputer_app.sheets._cells import BLANK, BOOL, CENSORED, DATE, MARKER, NUMBER, TEXT, ParsedColumn
+from imputer_app.sheets._grid import cell_text
+
+#: State codes, positions in :data:`imputer_app.sheets._model.CELL_STATES`.
+OBSERVED, MISSING, CENSORED_STATE, TEXT_IN_NUMBER = range(4)
+
+DATE_SHARE = 0.8
+NUMBER_SHARE = 0.5
+MIN_IDENTIFIER_VALUES = 3
+
+#: Text date formats tried in this order; the first that reads the most cells wins.
+DATE_FORMATS: tuple[tuple[str, str], ...] = (
+    ("ISO8601", "year-month-day"),
+    ("%d.%m.%Y", "day.month.year"),
+    ("%d.%m.%Y %H:%M", "day.month.year hour:minute"),
+    ("%d.%m.%Y %H:%M:%S", "day.month.year hour:minute:second"),
+    ("%d/%m/%Y", "day/month/year"),
+    ("%m/%d/%Y", "month/day/year"),
+    ("%d/%m/%Y %H:%M", "day/month/year hour:minute"),
+    ("%m/%d/%Y %H:%M", "month/day/year hour:minute"),
+    ("%Y/%m/%d", "year/month/day"),
+    ("%H:%M", "hour:minute"),
+    ("%H:%M:%S", "hour:minute:second"),
+)
+_TIME_ONLY = ("%H:%M", "%H:%M:%S")
+#: Distinct texts looked at to choose a date format.
+DATE_SAMPLE = 500
+# ISO8601 would accept a bare year such as "2024"; a date needs a separator between digits
+_DATE_LIKE = r"\d[-./:]\d"
+
+
+@dataclass(frozen=True)
+class Detected:
+    """A detected kind, plus the text date format when dates were written as text."""
+
+    kind: str
+    date_format: str | None = None
+    note: str | None = None
+
+
+@dataclass(frozen=True)
+class Built:
+    """One frame column and its state codes (see :data:`OBSERVED` ...)."""
+
+    values: pd.Series | np.ndarray
+    states: np.ndarray
+
+
+def detect_kind(parsed: ParsedColumn) -> Detected:
+    """Detect the kind of one parsed column (rules in the module docstring)."""
+    present = parsed.cls[(parsed.cls != BLANK) & (parsed.cls != MARKER)]
+    total = present.size
+    if total == 0:
+        return Detected("empty")
+    numeric = int(np.isin(present, (NUMBER, CENSORED)).sum())
+    dates = int((present == DATE).sum())
+    texts = int((present == TEXT).sum())
+    if dates + texts >= DATE_SHARE * total:
+        fmt, share, words = text_date_format(parsed.text[parsed.cls == TEXT]) if texts else (None, 0.0, "")
+        if dates + share * texts >= DATE_SHARE * total:
+            return Detected("date", fmt, f"dates written as text read as {words}" if fmt else None)
+    codes = numeric >= NUMBER_SHARE * total and _zero_padded(parsed)
+    if numeric and numeric >= NUMBER_SHARE * total and not codes:
+        return Detected("number")
+    note = "numbers written with leading zeros (such as 007) read as codes" if codes else None
+    labels = category_text(parsed)
+    values = labels[~pd.isna(labels)]
+    if values.size >= MIN_IDENTIFIER_VALUES and pd.unique(values).size == values.size:
+        return Detected("identifier", None, note)
+    return Detected("category", None, note)
+
+
+def _zero_padded(parsed: ParsedColumn) -> bool:
+    """True when most numbers are whole and written with leading zeros ("007"): codes, not amounts."""
+    numbers = parsed.cls == NUMBER
+    values = parsed.number[numbers]
+    if not values.size or not np.array_equal(values, np.round(values)):
+        return False
+    texts = parsed.raw[numbers]  # numbers stored as numbers in a workbook carry no zeros
+    texts = texts[np.frompyfunc(lambda value: isinstance(value, str), 1, 1)(texts).astype(bool)]
+    if texts.size <= NUMBER_SHARE * values.size:
+        return False
+    padded = pd.Series(texts, dtype=str).str.match(r"\s*0\d")
+    return bool(padded.sum() > NUMBER_SHARE * values.size)
+
+
+def text_date_format(texts: np.ndarray) -> tuple[str | None, float, str]:
+    """The format that reads most of ``texts`` as dates, the share it reads, its words.
+
+    Judged on up to :data:`DATE_SAMPLE` distinct texts, so a long column costs little.
+    """
+    sample = pd.Series(pd.unique(pd.Series(texts, dtype=object))[:DATE_SAMPLE], dtype=object)
+    if sample.empty or sample.str.contains(_DATE_LIKE, regex=True).mean() < DATE_SHARE:
+        return None, 0.0, ""
+    best: tuple[str | None, float, str] = (None, 0.0, "")
+    for fmt, words in DATE_FORMATS:
+        share = float(pd.to_datetime(sample, format=fmt, errors="coerce").notna().mean())
+        if share > best[1]:
+            best = (fmt, share, words)
+        if share == 1.0:
+            break
+    return best
+
+
+def _parse_dates(texts: np.ndarray, fmt: str) -> pd.Series:
+    """Dates (or times of day) of ``texts`` in format ``fmt``; NaT where unreadable."""
+    codes, uniques = pd.factorize(pd.Series(texts, dtype=object))
+    unique_texts = pd.Series(np.asarray(uniques, dtype=object), dtype=object)
+    looks_like_date = unique_texts.str.contains(_DATE_LIKE, regex=True).to_numpy()
+    found = pd.to_datetime(unique_texts.where(looks_like_date), format=fmt, errors="coerce")
+    values = found.dt.time.astype(object).where(found.notna()) if fmt in _TIME_ONLY else found
+    return pd.Series(np.asarray(values, dtype=object)[codes], dtype=object)
+
+
+def category_text(parsed: ParsedColumn) -> np.ndarray:
+    """Object array: the text of every present cell as a user sees it; NaN for gaps."""
+    out = np.full(parsed.cls.shape[0], np.nan, dtype=object)
+    present = (parsed.cls != BLANK) & (parsed.cls != MARKER)
+    from_text = present & (parsed.text != "")
+    out[from_text] = parsed.text[from_text]
+    others = np.flatnonzero(present & ~from_text)
+    if others.size:
+        out[others] = [cell_text(value) for value in parsed.raw[others]]
+    return out
+
+
+def build(parsed: ParsedColumn, detected: Detected) -> Built:
+    """Frame values and state codes for a column of the given kind.
+
+    NaN policy: blanks and markers are NaN/NaT with state missing; censored cells of a
+    number column are NaN with state censored; cells that cannot be read as the kind
+    are NaN with state text_in_number.
+    """
+    cls = parsed.cls
+    gaps = (cls == BLANK) | (cls == MARKER)
+    states = np.full(cls.shape[0], OBSERVED, dtype=np.int8)
+    states[gaps] = MISSING
+    kind = detected.kind
+    if kind == "number":
+        states[cls == CENSORED] = CENSORED_STATE
+        states[np.isin(cls, (TEXT, DATE, BOOL))] = TEXT_IN_NUMBER
+        return Built(parsed.number.copy(), states)
+    if kind == "date":
+        values, readable = _date_values(parsed, detected.date_format)
+        states[~gaps & ~readable] = TEXT_IN_NUMBER
+        return Built(values, states)
+    if kind == "empty":
+        return Built(np.full(cls.shape[0], np.nan), states)
+    return Built(category_text(parsed), states)
+
+
+def _date_values(parsed: ParsedColumn, fmt: str | None) -> tuple[pd.Series | np.ndarray, np.ndarray]:
+    n = parsed.cls.shape[0]
+    values = np.full(n, None, dtype=object)
+    readable = parsed.cls == DATE
+    values[readable] = parsed.raw[readable]
+    texts = np.flatnonzero(parsed.cls == TEXT)
+    if fmt is not None and texts.size:
+        found = _parse_dates(parsed.text[texts], fmt)
+        ok = found.notna().to_numpy()
+        values[texts[ok]] = found.to_numpy(dtype=object)[ok]
+        readable[texts[ok]] = True
+    kept = values[readable]
+    if kept.size and all(isinstance(v, dt.date) for v in kept):
+        return pd.to_datetime(pd.Series(values, dtype=object)).astype("datetime64[us]").to_numpy(), readable
+    values[~readable] = np.nan
+    return values, readable

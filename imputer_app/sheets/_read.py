@@ -1,0 +1,325 @@
+"""Read a spreadsheet into a :class:`~imputer_app.sheets.Sheet`: public entry points.
+
+The file is read once (bytes hashed as they arrive); checks refuse encrypted, damaged,
+binary or bomb-like files before any parser runs; the cells become a grid; the header,
+units row and data rows are located; every column is classified with vectorised string
+and number operations; finally the frame, cell states, cell notes and problems are built.
+The source file is only ever opened for reading.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+from os import PathLike
+from pathlib import Path
+
+import numpy as np
+
+from imputer_app.errors import SheetError
+from imputer_app.sheets import _guards, _text
+from imputer_app.sheets._assemble import Column, assemble, resolve_kinds
+from imputer_app.sheets._cells import (
+    BLANK,
+    DEFAULT_MARKERS,
+    Markers,
+    ParsedColumn,
+    make_markers,
+    parse_column,
+)
+from imputer_app.sheets._grid import Merge
+from imputer_app.sheets._header import Layout, find_layout, unique_names
+from imputer_app.sheets._model import ColumnInfo, Sheet, SourceInfo
+from imputer_app.sheets._workbook import list_workbook_sheets, read_workbook
+from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
+
+#: Progress is reported as (done, PROGRESS_TOTAL); stages end at these marks.
+PROGRESS_TOTAL = 1000
+_READ_DONE, _GRID_DONE, _COLUMNS_DONE = 150, 400, 900
+#: Rows sampled to detect the decimal mark.
+_DECIMAL_SAMPLE_ROWS = 2000
+
+__all__ = ["DEFAULT_MARKERS", "list_sheets", "read_sheet"]
+
+
+@dataclass(frozen=True)
+class _Grid:
+    """Cells of the chosen table plus the facts of how they were read."""
+
+    cells: np.ndarray
+    merges: tuple[Merge, ...]
+    sheet: str | None
+    delimiter: str | None = None
+    encoding: str | None = None
+
+
+def list_sheets(path: str | PathLike[str]) -> list[str]:
+    """Return the worksheet names of a workbook without loading any sheet.
+
+    Parameters
+    ----------
+    path : str or path-like
+        An ``.xlsx``, ``.xlsm``, ``.xls``, ``.ods``, ``.csv``, ``.tsv`` or ``.txt`` file.
+
+    Returns
+    -------
+    list of str
+        Worksheet names in workbook order (chart sheets left out); the position in this
+        list is what ``read_sheet(path, sheet=<int>)`` means. A text file holds one table,
+        listed under the file's stem.
+
+    Raises
+    ------
+    SheetError
+        Missing, unsupported, encrypted or damaged file.
+
+    Examples
+    --------
+    >>> list_sheets("survey.xlsx")  # doctest: +SKIP
+    ['Survey', 'Notes']
+    """
+    source = Path(path)
+    fmt = _guards.file_format(source)
+    if fmt in _guards.TEXT_FORMATS:
+        _guards.check_exists(source)
+        return [source.stem]
+    _guards.check_workbook_file(source, fmt)
+    return list_workbook_sheets(source, fmt)
+
+
+def read_sheet(
+    path: str | PathLike[str],
+    sheet: str | int | None = None,
+    header_row: int | None = None,
+    markers: Iterable[str | float] | None = None,
+    *,
+    kinds: Mapping[str, str] | None = None,
+    delimiter: str | None = None,
+    decimal: str | None = None,
+    encoding: str | None = None,
+    progress: Progress | None = None,
+    cancel: CancelFlag | None = None,
+) -> Sheet:
+    r"""Read one table of a spreadsheet file with the state of every cell.
+
+    Parameters
+    ----------
+    path : str or path-like
+        ``.xlsx``, ``.xlsm``, ``.xls``, ``.ods`` (formulas read as their cached values)
+        or delimited text ``.csv``, ``.tsv``, ``.txt``. The file is never modified.
+    sheet : str or int, optional
+        Worksheet name or 0-based position (as in :func:`list_sheets`); default the
+        first visible worksheet. Ignored-but-checked for text files (None, 0 or the stem).
+    header_row : int, optional
+        1-based file row of the header; default detected (title, metadata and blank
+        rows above it are skipped). ``0`` means the table has no header row.
+    markers : iterable of str or float, optional
+        Missing-value markers *added to* :data:`DEFAULT_MARKERS` (NA, N/A, n.d., nd, -,
+        --, ?, missing, #N/A, NaN; trimmed and case-insensitive). Numeric markers such
+        as ``-999`` match by value and apply only when given here.
+    kinds : mapping of str to str, optional
+        Force a column's kind: ``{"site": "category"}``; one of number, category, date,
+        identifier. Keys are column names (or original header texts).
+    delimiter, decimal, encoding : str, optional
+        Text-file overrides: separator (``","``, ``";"``, ``"\\t"`` or "tab"), decimal mark
+        (``"."`` or ``","``; also applies to numbers stored as text in workbooks) and a
+        Python codec name. Default detected.
+    progress : callable(done, total), optional
+        Called as the work advances; ``total`` is 1000.
+    cancel : Event-like or callable, optional
+        When set, reading stops with :class:`~imputer_app.errors.Cancelled`.
+
+    Returns
+    -------
+    Sheet
+        ``frame`` of shape (n_data_rows, n_columns) indexed by 1-based file row:
+        numbers as float, categories and identifiers as text (object), dates as
+        datetime64; every blank, marker, censored or unreadable cell is NaN (NaT).
+        ``states`` (same shape) says which: observed, missing, censored,
+        text_in_number. ``cell_notes`` lists markers, censored cells (side, limit) and
+        unreadable cells; ``problems`` lists them for the user in plain words.
+
+    Raises
+    ------
+    SheetError
+        One line naming the file and the fault: missing, empty, header only, damaged,
+        encrypted, binary, unknown type, unknown sheet, decompression bomb, vanished.
+
+    Examples
+    --------
+    >>> sheet = read_sheet("survey.csv", markers=["-999"])  # doctest: +SKIP
+    >>> sheet.frame.loc[5, "nitrate"], sheet.states.loc[5, "nitrate"]  # doctest: +SKIP
+    (nan, 'censored')
+    """
+    source = Path(path)
+    fmt = _guards.file_format(source)
+    decimal = _check_decimal(decimal, source)
+    if header_row is not None and (
+        isinstance(header_row, bool) or not isinstance(header_row, int) or header_row < 0
+    ):
+        raise SheetError(
+            f"header_row must be a row number (1 = first row, 0 = no header), not {header_row!r}"
+        )
+    data, sha256 = _guards.read_source(source, progress, cancel, share=_READ_DONE)
+    grid = _load_grid(data, source, fmt, sheet, delimiter, encoding, cancel)
+    report(progress, _GRID_DONE, PROGRESS_TOTAL)
+    where = f"sheet '{grid.sheet}' of '{source.name}'" if grid.sheet else f"'{source.name}'"
+    if header_row is not None and header_row > grid.cells.shape[0]:
+        raise SheetError(f"header_row {header_row} is beyond the last row ({grid.cells.shape[0]}) of {where}")
+    marker_set = make_markers(markers)
+    layout = find_layout(grid.cells, grid.merges, marker_set, header_row)
+    if decimal is None:
+        sample = grid.cells[layout.data_start : layout.data_start + _DECIMAL_SAMPLE_ROWS]
+        decimal = _text.detect_decimal(sample, grid.delimiter)
+    problems = _spread_data_merges(grid, layout.data_start)
+    columns, rows, row_problems = _parse_body(
+        grid.cells, layout, marker_set, decimal, where, progress, cancel
+    )
+    forced = resolve_kinds(columns, kinds, where)
+    built = assemble(columns, rows, forced, workbook=grid.sheet is not None, cancel=cancel)
+    infos = [
+        ColumnInfo(c.name, built.kinds[c.name], c.unit, built.notes[c.name], c.original) for c in columns
+    ]
+    info = SourceInfo(
+        path=source.absolute(),
+        sheet=grid.sheet,
+        header_row=layout.header + 1 if layout.header is not None else 0,
+        sha256=sha256,
+        file_format=fmt,
+        delimiter=grid.delimiter,
+        decimal=decimal if fmt in _guards.TEXT_FORMATS else None,
+        encoding=grid.encoding,
+        units_row=layout.units + 1 if layout.units is not None else None,
+    )
+    report(progress, PROGRESS_TOTAL, PROGRESS_TOTAL)
+    return Sheet(
+        frame=built.frame,
+        states=built.states,
+        columns=infos,
+        source=info,
+        cell_notes=built.cell_notes,
+        problems=problems + row_problems + built.problems,
+    )
+
+
+def _check_decimal(decimal: str | None, path: Path) -> str | None:
+    if decimal is None or decimal in (".", ","):
+        return decimal
+    raise SheetError(f"decimal mark for '{path.name}' must be '.' or ',', not {decimal!r}")
+
+
+def _load_grid(
+    data: bytes,
+    path: Path,
+    fmt: str,
+    sheet: str | int | None,
+    delimiter: str | None,
+    encoding: str | None,
+    cancel: CancelFlag | None,
+) -> _Grid:
+    if fmt in _guards.WORKBOOK_FORMATS:
+        _guards.check_workbook_bytes(data, path, fmt)
+        raise_if_cancelled(cancel)
+        book = read_workbook(data, path, fmt, sheet)
+        return _Grid(book.cells, book.merges, book.sheet)
+    if sheet not in (None, 0, path.stem):
+        raise SheetError(f"'{path.name}' is a text file with one table; there is no sheet {sheet!r}")
+    utf16 = _text.is_utf16(data) or (encoding or "").lower().replace("_", "-").startswith("utf-16")
+    _guards.check_text_bytes(data, path, utf16)
+    text, used = _text.decode(data, path, encoding)
+    if not text.strip():
+        raise SheetError(f"'{path.name}' is empty")
+    separator = _text.normalise_delimiter(delimiter, path) if delimiter else _text.detect_delimiter(text, fmt)
+    raise_if_cancelled(cancel)
+    cells = _text.parse_grid(text, separator, path, cancel)
+    return _Grid(cells, (), None, separator, used)
+
+
+def _spread_data_merges(grid: _Grid, data_start: int) -> list[str]:
+    """Give every cell of a merged range in the data rows the range's value."""
+    spread = [m for m in grid.merges if m[0][0] >= data_start and m[1] != m[0]]
+    for (top, left), (bottom, right) in spread:
+        grid.cells[top : bottom + 1, left : right + 1] = grid.cells[top, left]
+    if not spread:
+        return []
+    return [
+        f"{len(spread)} merged cell range(s) in the data were read as their value in every cell they cover"
+    ]
+
+
+def _parse_body(
+    cells: np.ndarray,
+    layout: Layout,
+    markers: Markers,
+    decimal: str,
+    where: str,
+    progress: Progress | None,
+    cancel: CancelFlag | None,
+) -> tuple[list[Column], np.ndarray, list[str]]:
+    """Classify every data column, drop blank rows/columns; return columns and file rows."""
+    body = cells[layout.data_start :]
+    parsed: list[ParsedColumn] = []
+    width = body.shape[1]
+    for position in range(width):
+        raise_if_cancelled(cancel)
+        parsed.append(parse_column(body[:, position], decimal, markers))
+        report(
+            progress,
+            _GRID_DONE + (_COLUMNS_DONE - _GRID_DONE) * (position + 1) // max(width, 1),
+            PROGRESS_TOTAL,
+        )
+    classes = np.stack([p.cls for p in parsed], axis=1) if parsed else np.empty((body.shape[0], 0))
+    filled = classes != BLANK
+    keep_rows, problems = _data_rows(filled, body, layout.data_start)
+    keep_columns = [p for p in range(width) if layout.names[p] or filled[keep_rows, p].any()]
+    if not keep_rows.size or not keep_columns:
+        if layout.header is not None:
+            raise SheetError(f"{where} has a header row (row {layout.header + 1}) but no data rows")
+        raise SheetError(f"{where} has no cells with values")
+    columns, name_problems = _columns(parsed, keep_columns, keep_rows, layout)
+    return columns, keep_rows + layout.data_start + 1, name_problems + problems
+
+
+def _data_rows(filled: np.ndarray, body: np.ndarray, data_start: int) -> tuple[np.ndarray, list[str]]:
+    """Row positions to keep: blank rows dropped, and a note below the table after a blank row."""
+    counts = filled.sum(axis=1)
+    keep = np.flatnonzero(counts > 0)
+    problems: list[str] = []
+    gaps = np.flatnonzero(np.diff(keep) > 1)
+    if gaps.size and filled.shape[1] >= 3:
+        tail = keep[gaps[-1] + 1 :]
+        if all(_is_note(body[row][filled[row]]) for row in tail):
+            keep = keep[: gaps[-1] + 1]
+            listed = ", ".join(str(r + data_start + 1) for r in tail)
+            problems.append(f"row(s) {listed} below the table look like notes, not data; left out")
+    blank = np.setdiff1d(np.arange(keep[-1] + 1 if keep.size else 0), keep)
+    if blank.size:
+        listed = ", ".join(str(r + data_start + 1) for r in blank[:10]) + (" ..." if blank.size > 10 else "")
+        problems.append(f"{blank.size} blank row(s) inside the table skipped (row {listed})")
+    return keep, problems
+
+
+def _is_note(cells: np.ndarray) -> bool:
+    """One cell of several words ("Values below LOD are shown as <LOD"), not a lone ID."""
+    return cells.size == 1 and isinstance(cells[0], str) and len(cells[0].split()) >= 2
+
+
+def _columns(
+    parsed: list[ParsedColumn], keep: list[int], rows: np.ndarray, layout: Layout
+) -> tuple[list[Column], list[str]]:
+    """Named columns (unique names, units) restricted to the kept data rows."""
+    if layout.header is None:
+        names = [f"column {p + 1}" for p in keep]
+        raw = ["" for _ in keep]
+        notes: list[tuple[str, ...]] = [
+            ("the sheet has no header row; named after the column's position",)
+        ] * len(keep)
+        problems = [f"no header row found; the {len(keep)} columns are named 'column 1', 'column 2', ..."]
+    else:
+        raw = [layout.names[p] for p in keep]
+        names, notes, problems = unique_names(raw, keep)
+    columns = [
+        Column(name, original, position, layout.units_text[position], note, parsed[position].take(rows))
+        for name, original, position, note in zip(names, raw, keep, notes, strict=True)
+    ]
+    return columns, problems

@@ -1,0 +1,186 @@
+"""Export a fill: the cleaned sheet with every filled cell marked, its log and its record."""
+
+from __future__ import annotations
+
+from os import PathLike
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from imputer_app.errors import ExportError
+from imputer_app.sheets import _write_xlsx
+from imputer_app.sheets._atomic import atomic_outputs
+from imputer_app.sheets._content import ExportContent, Layout, build_content
+from imputer_app.sheets._run_record import build_record
+from imputer_app.sheets._ticker import Ticker
+from imputer_app.sheets._write_csv import dialect_for, side_files, write_csv
+from imputer_app.work import CancelFlag, Progress, raise_if_cancelled
+
+if TYPE_CHECKING:
+    from imputer_app.plan import FillPlan
+    from imputer_app.sheets._model import Sheet
+
+#: File endings write_result understands, and the export each gives.
+FORMATS = {".xlsx": "xlsx", ".csv": "csv", ".tsv": "csv"}
+
+
+def write_result(
+    path: str | PathLike[str],
+    sheet: Sheet | None,
+    result: Any,
+    plan: FillPlan,
+    report: Any = None,
+    *,
+    progress: Progress | None = None,
+    cancel: CancelFlag | None = None,
+) -> list[Path]:
+    """Write a fill's export and return the files written.
+
+    ``.xlsx`` gives one workbook: sheet "Filled" (the table in its original row and
+    column order, header and units rows, filled cells in a pale blue fill with
+    italics, censored entries in a pale sand fill, each with a comment giving its
+    evidence), "Fill log", "Not filled" (when cells stayed empty), "Recovery test"
+    (when ``report`` is given, with the error-vs-k chart) and "About this fill" (the
+    run record and the cautions). ``.csv``/``.tsv`` give the filled table plus
+    ``<name>.fill-log.csv``, ``<name>.run.json`` and, when cells stayed empty,
+    ``<name>.not-filled.csv``.
+
+    Every file is written to a temporary file in the target folder and renamed into
+    place only when all are complete; on any failure or cancel nothing is left behind.
+    The input file is never written.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The export's file name; its ending chooses the format (see :data:`FORMATS`).
+    sheet : Sheet or None
+        The sheet that was filled (units, original texts, source file); None when a
+        DataFrame was filled directly.
+    result : FillResult
+        The engine's result: ``frame`` of shape (n_rows, n_columns) with NaN where
+        cells stayed empty, boolean ``filled`` and ``censored`` of the same shape,
+        ``log``, ``unfilled``, ``plan`` and ``warnings``.
+    plan : FillPlan
+        The plan as the user gave it (recorded beside the resolved ``result.plan``).
+    report : RecoveryReport or None, default=None
+        The recovery test behind the chosen k, if one was run.
+    progress : callable or None, default=None
+        Called as ``progress(done, total)`` while writing.
+    cancel : Event-like, callable or None, default=None
+        Checked between chunks of rows; when set, raises ``Cancelled`` and writes nothing.
+
+    Returns
+    -------
+    list of Path
+        The files written, the main export first.
+
+    Raises
+    ------
+    ExportError
+        Unknown file ending, target is the input file, folder missing or not
+        writable, file open elsewhere, disk full, sheet too large for xlsx.
+    Cancelled
+        When ``cancel`` was set; no file is left behind.
+
+    Examples
+    --------
+    >>> write_result("river.filled.xlsx", sheet, impute(sheet, plan), plan)  # doctest: +SKIP
+    [PosixPath('river.filled.xlsx')]
+    """
+    raise_if_cancelled(cancel)
+    target = Path(path)
+    kind = FORMATS.get(target.suffix.lower())
+    if kind is None:
+        raise ExportError(
+            f"cannot export to {target.name}: unknown file ending {target.suffix or '(none)'}; "
+            f"use one of {', '.join(FORMATS)}"
+        )
+    content = build_content(sheet, result)
+    source = sheet.source.path if sheet is not None else None
+    work = len(content.frame) + len(content.log_table) + len(content.unfilled) + content.n_marked // 1000 + 2
+    ticker = Ticker(progress, cancel, work)
+    if kind == "xlsx":
+        files = _export_xlsx(target, source, sheet, result, plan, report, content, ticker)
+    else:
+        files = _export_csv(target, source, sheet, result, plan, report, content, ticker)
+    ticker.finish()
+    return files
+
+
+def _export_xlsx(
+    target: Path,
+    source: Path | None,
+    sheet: Sheet | None,
+    result: Any,
+    plan: FillPlan,
+    report: Any,
+    content: ExportContent,
+    ticker: Ticker,
+) -> list[Path]:
+    _write_xlsx.check_fits(content)
+    with_comments = content.n_marked <= _write_xlsx.MAX_COMMENTS
+    chart, chart_note = _write_xlsx.chart_png(report) if report is not None else (None, "")
+    output = {
+        "file": target.name,
+        "format": "xlsx",
+        "row_numbers": _rows_note(content.layout, sheet is not None),
+        "filled_cells": f"fill colour {_write_xlsx.FILLED_COLOUR}, italic text",
+        "censored_cells": f"fill colour {_write_xlsx.CENSORED_COLOUR}",
+        "cell_comments": _comments_note(content.n_marked, with_comments),
+    }
+    if report is not None:
+        output["chart"] = chart_note
+    record = build_record(sheet, result, plan, report, content, output)
+    with atomic_outputs([target], source=source) as temps:
+        _write_xlsx.write_xlsx(temps[0], content, record, report, chart, with_comments, ticker)
+    return [target]
+
+
+def _export_csv(
+    target: Path,
+    source: Path | None,
+    sheet: Sheet | None,
+    result: Any,
+    plan: FillPlan,
+    report: Any,
+    content: ExportContent,
+    ticker: Ticker,
+) -> list[Path]:
+    files = side_files(target, with_unfilled=len(content.unfilled) > 0)
+    dialect = dialect_for(target, sheet)
+    output = {
+        "file": target.name,
+        "format": "tsv" if dialect.delimiter == "\t" else "csv",
+        "delimiter": dialect.delimiter,
+        "decimal": dialect.decimal,
+        "encoding": dialect.encoding,
+        "files": [p.name for p in files.values()],
+        "row_numbers": _label_note(sheet is not None),
+        "formula_guard": "text beginning with = + - @ tab or CR gets a leading ' (OWASP CSV Injection)",
+        "marks": f"a delimited file cannot mark cells; {files['log'].name} lists every written cell",
+    }
+    record = build_record(sheet, result, plan, report, content, output)
+    with atomic_outputs(list(files.values()), source=source) as temps:
+        write_csv(dict(zip(files, temps, strict=True)), content, record, dialect, ticker)
+    return list(files.values())
+
+
+def _label_note(from_file: bool) -> str:
+    if from_file:
+        return "row labels in the fill log are row numbers in the input file"
+    return "row labels in the fill log are the index labels of the table that was filled"
+
+
+def _rows_note(layout: Layout, from_file: bool) -> str:
+    if layout.aligned:
+        return "every data row keeps its row number from the input file; " + _label_note(True)
+    first = int(layout.data_rows[0]) if len(layout.data_rows) else layout.header_row + 1
+    return f"data rows start at row {first} of sheet Filled; " + _label_note(from_file)
+
+
+def _comments_note(n_marked: int, written: bool) -> str:
+    if written:
+        return f"{n_marked:,} marked cell(s) carry a comment with their evidence"
+    return (
+        f"left out: {n_marked:,} marked cells are more than {_write_xlsx.MAX_COMMENTS:,}; "
+        "each cell's donors, distances and spread are on the Fill log sheet"
+    )
