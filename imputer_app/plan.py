@@ -19,7 +19,7 @@ import dataclasses
 import math
 import re
 import tomllib
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -342,6 +342,52 @@ def _line_of(text: str | None, key: str) -> str:
     return ""
 
 
+_HEADER = re.compile(r"^\s*\[\s*([^\[\]]+?)\s*\]\s*(#.*)?$")
+
+
+def _bare(part: str) -> str:
+    return part.strip().strip("\"'")
+
+
+def _line_in_table(text: str | None, table: str, key: str) -> str:
+    """Return ' (line N)' for the line that sets ``key`` of ``table`` (e.g. weights.pH).
+
+    Knows ``[table]`` sections, ``[table.key]`` sub-tables and dotted ``table.key = ...``
+    lines; otherwise falls back to the line of the table itself.
+    """
+    if not text:
+        return ""
+    either = "|".join(map(re.escape, sorted({key, f'"{key}"', f"'{key}'"})))
+    assign = re.compile(rf"^\s*({either})\s*=")
+    dotted = re.compile(rf"^\s*{re.escape(table)}\s*\.\s*({either})\s*=")
+    section: list[str] = []
+    for number, line in enumerate(text.splitlines(), start=1):
+        header = _HEADER.match(line)
+        if header:
+            section = [_bare(p) for p in header.group(1).split(".")]
+            if section == [table, key]:
+                return f" (line {number})"
+            continue
+        if (section == [table] and assign.match(line)) or (not section and dotted.match(line)):
+            return f" (line {number})"
+    return _line_of(text, table)
+
+
+def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | None) -> None:
+    """Validate each weights/decimals/kinds/bounds entry alone, to name its line."""
+    checks: dict[str, Callable[[dict[str, Any]], object]] = {
+        "weights": _check_weights,
+        "decimals": _check_decimals,
+        "kinds": _check_kinds,
+    }
+    for table, check in checks.items():
+        for column, value in dict(data.get(table, {})).items():
+            try:
+                check({column: value})
+            except PlanError as exc:
+                raise PlanError(f"{source}: {exc}{_line_in_table(text, table, column)}") from None
+
+
 def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -> FillPlan:
     known = set(_SCALAR_KEYS) | set(_LIST_KEYS) | set(_TABLE_KEYS)
     for key in data:
@@ -370,15 +416,20 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
     for key in _TABLE_KEYS:
         if key in data and not isinstance(data[key], Mapping):
             raise PlanError(f"{source}: {key} must be a table of column = value{_line_of(text, key)}")
+    _check_table_entries(data, source=source, text=text)
     kwargs["weights"] = dict(data.get("weights", {}))
     kwargs["decimals"] = dict(data.get("decimals", {}))
     kwargs["kinds"] = dict(data.get("kinds", {}))
     bounds: dict[str, Bound] = {}
     for column, sides in dict(data.get("bounds", {})).items():
         if not isinstance(sides, Mapping) or set(sides) - {"lower", "upper"}:
-            where = _line_of(text, column)
+            where = _line_in_table(text, "bounds", column)
             raise PlanError(f"{source}: bounds.{column} must be a table with lower and/or upper{where}")
         bounds[column] = (sides.get("lower"), sides.get("upper"))
+        try:
+            _check_bounds({column: bounds[column]})
+        except PlanError as exc:
+            raise PlanError(f"{source}: {exc}{_line_in_table(text, 'bounds', column)}") from None
     kwargs["bounds"] = bounds
     try:
         return FillPlan(**kwargs)

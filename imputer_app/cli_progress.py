@@ -1,0 +1,141 @@
+"""Terminal helpers of the command line: a text progress bar and a Ctrl+C stop flag.
+
+Kept apart from :mod:`imputer_app.cli` so that the parser and the commands stay short.
+Nothing here imports the engine, the sheets or Qt.
+"""
+
+from __future__ import annotations
+
+import signal
+import threading
+import time
+from collections.abc import Iterator
+from contextlib import contextmanager
+from types import FrameType
+from typing import TextIO
+
+from imputer_app.work import Progress
+
+BAR_WIDTH = 28
+#: Seconds between two redraws of the bar; more often only flickers and costs time.
+REDRAW_EVERY = 0.1
+
+
+class TextProgress:
+    """Draw ``label [#####.....]  45%`` on a terminal, redrawing in place.
+
+    Parameters
+    ----------
+    stream : text stream
+        Usually ``sys.stderr``. When it is not a terminal (a pipe, a log file, a test's
+        capture) nothing at all is drawn, so logs stay clean.
+    enabled : bool or None, default=None
+        Force drawing on or off; ``None`` asks ``stream.isatty()``.
+
+    Examples
+    --------
+    >>> import io
+    >>> bar = TextProgress(io.StringIO())
+    >>> report = bar.stage("filling")
+    >>> report(5, 10)  # draws nothing: a StringIO is not a terminal
+    >>> bar.done()
+    """
+
+    def __init__(self, stream: TextIO, *, enabled: bool | None = None) -> None:
+        self.stream = stream
+        if enabled is None:
+            isatty = getattr(stream, "isatty", None)
+            enabled = bool(isatty and isatty())
+        self.enabled = enabled
+        self._label = ""
+        self._last_draw = 0.0
+        self._drawn = False
+
+    def stage(self, label: str) -> Progress:
+        """Start a new stage called ``label`` and return its ``progress(done, total)``."""
+        self._label = label
+        self._last_draw = 0.0
+        return self._update
+
+    def _update(self, done: int, total: int) -> None:
+        if not self.enabled:
+            return
+        now = time.monotonic()
+        finished = total > 0 and done >= total
+        if not finished and now - self._last_draw < REDRAW_EVERY:
+            return
+        self._last_draw = now
+        self.stream.write("\r" + render_bar(self._label, done, total))
+        self.stream.flush()
+        self._drawn = True
+
+    def done(self) -> None:
+        """Clear the bar's line, so that the summary starts on a clean line."""
+        if self.enabled and self._drawn:
+            self.stream.write("\r\033[K")
+            self.stream.flush()
+            self._drawn = False
+
+
+def render_bar(label: str, done: int, total: int, width: int = BAR_WIDTH) -> str:
+    """Return one bar line, e.g. ``'filling    [##########..........]  50%'``.
+
+    ``total <= 0`` means the amount of work is unknown: the bar shows ``done`` only.
+
+    Examples
+    --------
+    >>> render_bar("reading", 1, 4, width=8)
+    'reading      [##......]  25%'
+    """
+    if total <= 0:
+        return f"{label:<12} {done}"
+    share = min(max(done / total, 0.0), 1.0)
+    filled = round(share * width)
+    return f"{label:<12} [{'#' * filled}{'.' * (width - filled)}] {share:4.0%}"
+
+
+class StopFlag:
+    """A cancel flag set by the first Ctrl+C; a second Ctrl+C interrupts at once.
+
+    Long work checks the flag about once a second and raises
+    :class:`~imputer_app.errors.Cancelled`; the command then writes nothing.
+    """
+
+    def __init__(self, stream: TextIO | None = None) -> None:
+        self._event = threading.Event()
+        self._stream = stream
+
+    def is_set(self) -> bool:
+        """Return True once the user pressed Ctrl+C."""
+        return self._event.is_set()
+
+    def set(self) -> None:
+        """Ask the running work to stop."""
+        self._event.set()
+
+    def on_sigint(self, signum: int, frame: FrameType | None) -> None:
+        """Signal handler: the first press asks politely, the second interrupts."""
+        if self._event.is_set():
+            raise KeyboardInterrupt
+        self._event.set()
+        if self._stream is not None:
+            self._stream.write("\nstopping (press Ctrl+C again to stop at once)...\n")
+            self._stream.flush()
+
+
+@contextmanager
+def stop_on_ctrl_c(stream: TextIO | None = None) -> Iterator[StopFlag]:
+    """Install a Ctrl+C handler that sets a :class:`StopFlag` for the block's duration.
+
+    Outside the main thread (where Python cannot install signal handlers) the flag is
+    still returned but only ``KeyboardInterrupt`` stops the work.
+    """
+    flag = StopFlag(stream)
+    if threading.current_thread() is not threading.main_thread():
+        yield flag
+        return
+    previous = signal.signal(signal.SIGINT, flag.on_sigint)
+    try:
+        yield flag
+    finally:
+        signal.signal(signal.SIGINT, previous)

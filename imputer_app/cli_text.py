@@ -1,0 +1,143 @@
+"""Plain-text summaries printed by the command line (no colours, pipe-friendly)."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+#: Fill-log methods that stand a number in for a censored entry (no kNN involved).
+SUBSTITUTIONS = {
+    "limit": "the limit",
+    "half_limit": "half the limit",
+    "limit_sqrt2": "the limit / sqrt(2)",
+}
+
+
+def fill_summary(source: Path, result: Any, written: Sequence[Path]) -> str:
+    """Return the summary of ``kinfill fill``: cells filled, left empty, and files written.
+
+    Parameters
+    ----------
+    source : Path
+        The input sheet.
+    result : FillResult
+        The fill (``filled``, ``log``, ``unfilled``, ``plan``).
+    written : sequence of Path
+        Files the export wrote.
+    """
+    log = result.log
+    filled = result.filled
+    n_filled = int(filled.to_numpy().sum())
+    weak = int((log["support"] == "weak").sum()) if len(log) else 0
+    per_column = filled.sum(axis=0)
+    per_column = per_column[per_column > 0]
+    lines = [f"{source.name}: {len(filled)} rows; k = {result.plan.k}"]
+    by_column = listing([f"{col} {int(n)}" for col, n in per_column.items()])
+    lines.append(
+        f"filled {n_filled} cells ({weak} with weak support)" + (f": {by_column}" if by_column else "")
+    )
+    if len(log):
+        means = int((log["method"] == "column_mean").sum())
+        if means:
+            lines.append(f"  {means} of them with the column mean (no donor)")
+        for method, words in SUBSTITUTIONS.items():
+            count = int((log["method"] == method).sum())
+            if count:
+                lines.append(f"censored entries stood in by {words}: {count} (flagged as censored)")
+    lines.extend(_unfilled_lines(result.unfilled))
+    lines.append("wrote:")
+    lines.extend(f"  {path}" for path in written)
+    return "\n".join(lines)
+
+
+def listing(items: Sequence[str], limit: int = 10) -> str:
+    """Join ``items`` with commas, cutting long lists (wide sheets) after ``limit``.
+
+    Examples
+    --------
+    >>> listing(["a 1", "b 2", "c 3"], limit=2)
+    'a 1, b 2 and 1 more'
+    """
+    if len(items) <= limit:
+        return ", ".join(items)
+    return ", ".join(items[:limit]) + f" and {len(items) - limit} more"
+
+
+def _unfilled_lines(unfilled: Any) -> list[str]:
+    if not len(unfilled):
+        return ["left empty: none"]
+    lines = [f"left empty {len(unfilled)} cells:"]
+    counts = unfilled.groupby("reason", sort=False).size().sort_values(ascending=False, kind="stable")
+    lines.extend(f"  {int(n):5d}  {reason}" for reason, n in counts.items())
+    return lines
+
+
+def recovery_table(report: Any) -> str:
+    """Return the per-k table of ``kinfill score-k`` with the best and one-SE k.
+
+    Parameters
+    ----------
+    report : RecoveryReport
+        ``overall`` (indexed by k), ``baseline``, ``best_k``, ``best_k_1se``,
+        ``best_k_by_column`` and ``settings``.
+    """
+    overall = report.overall
+    settings = report.settings
+    lines = [
+        f"recovery test: {settings.get('hide_fraction', 0):.0%} of known cells hidden, "
+        f"{settings.get('repeats', '?')} repeats, seed {settings.get('seed', '?')}, "
+        f"{settings.get('masking', '?')} hiding"
+    ]
+    show_numbers = _any_finite(overall.get("score"))
+    show_categories = _any_finite(overall.get("category_error"))
+    header = f"{'k':>4}"
+    if show_numbers:
+        header += f"  {'NRMSE':>8}  {'SE':>7}"
+    if show_categories:
+        header += f"  {'error rate':>10}  {'SE':>7}"
+    lines.append(header)
+    for k, row in overall.iterrows():
+        text = f"{int(k):>4}"
+        if show_numbers:
+            text += f"  {_num(row['score'], 8)}  {_num(row['se'], 7)}"
+        if show_categories:
+            text += f"  {_num(row['category_error'], 10)}  {_num(row['category_se'], 7)}"
+        marks = [name for name, best in (("best", report.best_k), ("one-SE", report.best_k_1se)) if best == k]
+        lines.append(text + ("  <- " + ", ".join(marks) if marks else ""))
+    lines.append(_baseline_line(report.baseline, show_numbers, show_categories))
+    lines.append(f"best k: {report.best_k}    one-SE k: {report.best_k_1se}")
+    by_column = listing([f"{col} {k}" for col, k in report.best_k_by_column.items()])
+    if by_column:
+        lines.append(f"best k by column: {by_column}")
+    lines.append("NRMSE: mean over number fill columns of RMSE / column SD; lower is better")
+    return "\n".join(lines)
+
+
+def _baseline_line(baseline: Any, show_numbers: bool, show_categories: bool) -> str:
+    text = f"{'avg':>4}"
+    row = baseline.loc["overall"] if "overall" in baseline.index else None
+    if show_numbers:
+        text += f"  {_num(_get(row, 'score'), 8)}  {'':>7}"
+    if show_categories:
+        text += f"  {_num(_get(row, 'category_error'), 10)}  {'':>7}"
+    return text + "  <- column average (no kNN)"
+
+
+def _get(row: Any, key: str) -> float:
+    if row is None or key not in row.index:
+        return math.nan
+    return float(row[key])
+
+
+def _any_finite(values: Any) -> bool:
+    if values is None:
+        return False
+    return any(isinstance(v, int | float) and math.isfinite(v) for v in values)
+
+
+def _num(value: float, width: int) -> str:
+    if value is None or not math.isfinite(float(value)):
+        return f"{'-':>{width}}"
+    return f"{float(value):>{width}.4f}"

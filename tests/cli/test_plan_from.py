@@ -1,0 +1,113 @@
+"""Reading the plan back out of an export's run record (``kinfill fill --plan-from``)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Any
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from imputer_app.cli_plan import build_plan, plan_from_about_rows, plan_from_export
+from imputer_app.errors import PlanError
+from imputer_app.plan import CHOICES, KINDS, FillPlan
+from imputer_app.sheets._run_record import about_rows
+
+# "About this fill" joins lists with "; " and tables as "name=value", so names used
+# there avoid those separators (a documented limit of the readable form).
+NAMES = st.text(alphabet="abcXYZ _()µ°/-.0123", min_size=1, max_size=10).filter(lambda n: n.strip() == n)
+
+
+@st.composite
+def plans(draw: st.DrawFn) -> FillPlan:
+    pool = draw(st.lists(NAMES, min_size=2, max_size=6, unique=True))
+    carried = tuple(draw(st.lists(st.sampled_from(pool), unique=True, max_size=2)))
+    free = [n for n in pool if n not in carried]
+    pick = st.lists(st.sampled_from(free), unique=True, min_size=1).map(tuple) if free else st.none()
+    fill = draw(st.none() | pick)
+    group_pool = [n for n in pool if n not in (fill or ())]
+    bound = st.none() | st.floats(-1e6, 1e6, allow_nan=False)
+    bounds = {}
+    for name in draw(st.lists(st.sampled_from(pool), unique=True, max_size=2)):
+        low, high = sorted([draw(bound) or 0.0, draw(bound) or 1.0])
+        bounds[name] = (low, high)
+    return FillPlan(
+        k=draw(st.integers(1, 50)),
+        similarity_columns=draw(st.none() | pick),
+        fill_columns=fill,
+        carried_columns=carried,
+        weights=draw(st.dictionaries(st.sampled_from(pool), st.floats(0, 1000), max_size=3)),
+        scaling=draw(st.sampled_from(CHOICES["scaling"])),
+        censored=draw(st.sampled_from(CHOICES["censored"])),
+        no_donor=draw(st.sampled_from(CHOICES["no_donor"])),
+        group_column=draw(st.none() | st.sampled_from(group_pool)) if group_pool else None,
+        bounds=bounds,
+        decimals=draw(st.dictionaries(st.sampled_from(pool), st.integers(0, 6), max_size=2)),
+        kinds=draw(st.dictionaries(st.sampled_from(pool), st.sampled_from(KINDS), max_size=2)),
+    )
+
+
+@settings(max_examples=80, deadline=None)
+@given(plan=plans())
+def test_about_sheet_rows_give_the_plan_back(plan: FillPlan) -> None:
+    # The xlsx export's "About this fill" rows, as the writer makes them.
+    rows = [(key, value) for key, value, _style in about_rows({"cautions": "c", "plan": plan.to_dict()})]
+    assert FillPlan.from_dict(plan_from_about_rows(rows, "x.xlsx")) == plan
+
+
+def test_run_json_gives_the_plan_back(tmp_path: Path) -> None:
+    plan = FillPlan(k=4, weights={"Dissolved oxygen": 0.5}, bounds={"pH; lab": (0.0, 14.0)})
+    record = tmp_path / "out.run.json"
+    record.write_text(json.dumps({"plan": plan.to_dict(), "plan_resolved": {}}), encoding="utf-8")
+    assert plan_from_export(record) == plan
+    table = tmp_path / "out.csv"
+    table.write_text("a\n1\n", encoding="utf-8")
+    assert plan_from_export(table) == plan  # a csv export's record sits beside it
+
+
+@pytest.mark.parametrize(
+    ("name", "content", "words"),
+    [
+        ("plain.csv", "a;b\n1;2\n", "no run record beside it"),
+        ("notes.json", '{"other": 1}', "holds no plan"),
+        ("broken.json", "{", "cannot read the run record"),
+        ("picture.png", "", "not a Kinfill export"),
+    ],
+)
+def test_not_an_export(tmp_path: Path, name: str, content: str, words: str) -> None:
+    path = tmp_path / name
+    path.write_text(content, encoding="utf-8")
+    with pytest.raises(PlanError, match=words):
+        plan_from_export(path)
+
+
+@pytest.mark.parametrize(
+    ("base", "options", "expected"),
+    [
+        # --similarity / --fill take a column out of the plan's carried columns
+        (FillPlan(carried_columns=("ID", "pH")), {"similarity": ("pH", "NO3")}, FillPlan(
+            similarity_columns=("pH", "NO3"), carried_columns=("ID",))),
+        # --carry replaces the carried columns and leaves similarity/fill
+        (FillPlan(similarity_columns=("pH", "NO3"), fill_columns=("NO3",)), {"carry": ("NO3",)}, FillPlan(
+            similarity_columns=("pH",), fill_columns=(), carried_columns=("NO3",))),
+        # weights merge, the option winning
+        (FillPlan(weights={"pH": 2.0, "NO3": 3.0}), {"weights": [("NO3", 0.0)]}, FillPlan(
+            weights={"pH": 2.0, "NO3": 0.0})),
+        (FillPlan(k=9, scaling="robust"), {"k": 3, "scaling": "none", "group": "Station"}, FillPlan(
+            k=3, scaling="none", group_column="Station")),
+        (FillPlan(k=9), {}, FillPlan(k=9)),
+    ],
+)  # fmt: skip
+def test_options_override_the_plan(base: FillPlan, options: dict[str, Any], expected: FillPlan) -> None:
+    assert build_plan(base, **options) == expected
+
+
+@pytest.mark.parametrize(
+    ("options", "words"),
+    [({"k": 0}, "k must be at least 1"), ({"weights": [("pH", -2.0)]}, "0 or more")],
+)
+def test_bad_options_are_plan_errors(options: dict[str, Any], words: str) -> None:
+    with pytest.raises(PlanError, match=words):
+        build_plan(FillPlan(), **options)
