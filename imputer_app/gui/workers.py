@@ -13,7 +13,7 @@ import traceback
 from collections.abc import Callable
 from typing import Any
 
-from PySide6.QtCore import QObject, QThread, Signal
+from PySide6.QtCore import QObject, Qt, QThread, Signal
 
 from imputer_app.errors import Cancelled, KinfillError
 from imputer_app.work import Progress
@@ -108,7 +108,9 @@ class TaskRunner(QObject):
         worker.failed.connect(self._on_failure)
         worker.cancelled.connect(self._on_cancel)
         for signal in (worker.succeeded, worker.failed, worker.cancelled):
-            signal.connect(thread.quit)
+            # Direct: quit() is thread-safe, and a queued call would wait for the GUI
+            # thread's event loop, which wait() blocks (so wait() could never succeed).
+            signal.connect(thread.quit, Qt.ConnectionType.DirectConnection)
         thread.finished.connect(lambda s=serial: self._forget(s))
         self._threads[serial] = (thread, worker)
         thread.start()

@@ -1,0 +1,426 @@
+"""The setup panel: what each column does, and how donors are found and combined.
+
+Top: one row per sheet column (role, kind, weight, unit, % gaps, entries beyond a
+limit). Below it, editors for the selected column(s) — several columns can be set at
+once — and the fill settings (k, scaling, neighbour weighting, numeric rule, group
+column, censored handling, cells without donors). Every change emits the new plan.
+"""
+
+from __future__ import annotations
+
+import itertools
+from dataclasses import replace
+from typing import TYPE_CHECKING, Any
+
+from PySide6.QtCore import QItemSelectionModel, Qt, Signal
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QComboBox,
+    QDoubleSpinBox,
+    QFormLayout,
+    QGroupBox,
+    QHeaderView,
+    QLabel,
+    QLineEdit,
+    QSpinBox,
+    QTableView,
+    QVBoxLayout,
+    QWidget,
+)
+
+from imputer_app.errors import KinfillError
+from imputer_app.gui.setup_model import (
+    ROLES,
+    ColumnChoice,
+    ColumnListModel,
+    choices_for_sheet,
+    choices_from_plan,
+    plan_from_choices,
+)
+from imputer_app.plan import FillPlan
+
+if TYPE_CHECKING:
+    from imputer_app.sheets import Sheet
+
+#: Readable labels of the plan's choice settings (value -> label), in menu order.
+CHOICE_LABELS: dict[str, dict[str, tuple[str, str]]] = {
+    "scaling": {
+        "zscore": ("z-score", "Each number column to mean 0 and standard deviation 1."),
+        "range": ("range 0–1", "Each number column to minimum 0 and maximum 1."),
+        "robust": ("robust", "Each number column centred on its median and divided by its IQR."),
+        "none": ("none", "Raw units: a column with large numbers dominates the distance."),
+    },
+    "neighbour_weighting": {
+        "uniform": ("equal", "All k donors count the same."),
+        "inverse_distance": ("nearer count more", "Donors are weighted by 1 / distance."),
+    },
+    "numeric_rule": {
+        "mean": ("mean", "The mean of the donors' values."),
+        "median": ("median", "The median of the donors' values (less swayed by one odd donor)."),
+    },
+    "censored": {
+        "half_limit": ("limit / 2", "A '<0.02' entry stands for 0.01."),
+        "limit": ("limit", "A '<0.02' entry stands for 0.02."),
+        "limit_sqrt2": ("limit / √2", "A '<0.02' entry stands for 0.0141 (Hornung & Reed 1990)."),
+        "fill_capped": ("kNN, capped", "Filled from donors like a gap, but never above its limit."),
+    },
+    "no_donor": {
+        "leave_empty": ("leave empty", "The cell stays empty and is listed under Unfilled."),
+        "column_mean": ("column mean", "The column's mean is written and flagged in the fill log."),
+    },
+}
+_CHOICE_TIPS = {
+    "scaling": "How number columns are put on one scale before distances are measured.",
+    "neighbour_weighting": "Whether nearer donors count more when their numbers are combined.",
+    "numeric_rule": "How the donors' numbers are combined (used when all donors count equally).",
+    "censored": "What number a below-limit entry such as <0.02 stands for; it stays flagged either way.",
+    "no_donor": "What happens to a cell for which no row can serve as donor.",
+}
+_MULTIPLE = "(several)"
+
+
+class ColumnSetup(QWidget):
+    """Per-column roles and the fill settings; emits ``plan_changed(FillPlan)``."""
+
+    plan_changed = Signal(object)
+
+    def __init__(self, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.setObjectName("columnSetup")
+        self.setAccessibleName("Column setup")
+        self._choices: list[ColumnChoice] = []
+        self._defaults: dict[str, str] = {}
+        self._group: str | None = None
+        self._base = FillPlan()
+        self._plan: FillPlan | None = None
+        self._quiet = False
+        self._build()
+        self._enable_editors()
+
+    # ------------------------------------------------------------------ layout
+    def _build(self) -> None:
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(4, 4, 4, 4)
+        self.model = ColumnListModel(self)
+        self.table = QTableView(self)
+        _name(
+            self.table, "setupTable", "Columns of the sheet", "Select one or more columns to set them below."
+        )
+        self.table.setModel(self.model)
+        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        self.table.setSelectionMode(QAbstractItemView.SelectionMode.ExtendedSelection)
+        self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+        self.table.verticalHeader().hide()
+        self.table.setTabKeyNavigation(False)
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        self.table.horizontalHeader().setStretchLastSection(True)
+        self.table.selectionModel().selectionChanged.connect(self._show_selected)
+        layout.addWidget(self.table, 3)
+        layout.addWidget(self._build_column_box())
+        layout.addWidget(self._build_fill_box())
+        self.message = QLabel(self)
+        _name(self.message, "setupMessage", "Setup problem", "Why the settings cannot be used as they are.")
+        self.message.setWordWrap(True)
+        layout.addWidget(self.message)
+        chain = self.focus_chain()
+        for first, second in itertools.pairwise(chain):
+            QWidget.setTabOrder(first, second)
+
+    def _build_column_box(self) -> QGroupBox:
+        box = QGroupBox("Selected column", self)
+        _name(box, "columnBox", "Selected column settings", "Settings of the column(s) selected above.")
+        self.column_box = box
+        form = QFormLayout(box)
+        self.role_combo = QComboBox(box)
+        _name(self.role_combo, "roleCombo", "Role", "What the selected column(s) do in the fill.")
+        for key, (label, tip) in ROLES.items():
+            self.role_combo.addItem(label, key)
+            self.role_combo.setItemData(self.role_combo.count() - 1, tip, Qt.ItemDataRole.ToolTipRole)
+        self.kind_combo = QComboBox(box)
+        _name(self.kind_combo, "kindCombo", "Kind", "Treat the column as numbers or as categories.")
+        self.kind_combo.addItem("as read", None)
+        self.kind_combo.addItem("number", "number")
+        self.kind_combo.addItem("category", "category")
+        self.weight_spin = QDoubleSpinBox(box)
+        _name(
+            self.weight_spin,
+            "weightSpin",
+            "Weight",
+            "How much the column counts towards similarity; 0 leaves it out.",
+        )
+        self.weight_spin.setRange(0.0, 10.0)
+        self.weight_spin.setSingleStep(0.5)
+        self.weight_spin.setDecimals(1)
+        self.lower_edit = _bound_edit(
+            box, "lowerEdit", "Lower bound", "Filled numbers never go below this (empty: no bound)."
+        )
+        self.upper_edit = _bound_edit(
+            box, "upperEdit", "Upper bound", "Filled numbers never go above this (empty: no bound)."
+        )
+        self.decimals_spin = QSpinBox(box)
+        _name(self.decimals_spin, "decimalsSpin", "Decimals", "Round filled numbers to this many decimals.")
+        self.decimals_spin.setRange(-1, 15)
+        self.decimals_spin.setSpecialValueText("as computed")
+        self.decimals_spin.setValue(-1)
+        for label, widget in (
+            ("&Role", self.role_combo),
+            ("&Kind", self.kind_combo),
+            ("&Weight", self.weight_spin),
+            ("&Lower bound", self.lower_edit),
+            ("&Upper bound", self.upper_edit),
+            ("&Decimals", self.decimals_spin),
+        ):
+            form.addRow(_buddy(label, widget, box), widget)
+        self.role_combo.activated.connect(lambda _i: self._edit_selected(role=self.role_combo.currentData()))
+        self.kind_combo.activated.connect(lambda _i: self._edit_selected(kind=self.kind_combo.currentData()))
+        self.weight_spin.valueChanged.connect(lambda v: self._edit_selected(weight=float(v)))
+        self.lower_edit.editingFinished.connect(lambda: self._edit_bound("lower", self.lower_edit))
+        self.upper_edit.editingFinished.connect(lambda: self._edit_bound("upper", self.upper_edit))
+        self.decimals_spin.valueChanged.connect(
+            lambda v: self._edit_selected(decimals=None if v < 0 else int(v))
+        )
+        return box
+
+    def _build_fill_box(self) -> QGroupBox:
+        box = QGroupBox("Fill settings", self)
+        _name(box, "fillBox", "Fill settings", "How donors are found and how their values are combined.")
+        form = QFormLayout(box)
+        self.k_spin = QSpinBox(box)
+        _name(
+            self.k_spin,
+            "kSpin",
+            "k, donors per cell",
+            "Number of nearest rows (donors) used for every filled cell.",
+        )
+        self.k_spin.setRange(1, 999)
+        self.k_spin.valueChanged.connect(self._emit)
+        form.addRow(_buddy("&k (donors per cell)", self.k_spin, box), self.k_spin)
+        self.group_combo = QComboBox(box)
+        _name(self.group_combo, "groupCombo", "Group column", "Take donors only from rows of the same group.")
+        self.group_combo.activated.connect(self._on_group)
+        form.addRow(_buddy("&Group by", self.group_combo, box), self.group_combo)
+        self.choice_combos: dict[str, QComboBox] = {}
+        titles = {
+            "scaling": "&Scaling",
+            "neighbour_weighting": "D&onor weighting",
+            "numeric_rule": "&Numbers from",
+            "censored": "&Below a limit",
+            "no_donor": "No donor &found",
+        }
+        for setting, labels in CHOICE_LABELS.items():
+            combo = QComboBox(box)
+            _name(combo, f"{setting}Combo", titles[setting].replace("&", ""), _CHOICE_TIPS[setting])
+            for value, (label, tip) in labels.items():
+                combo.addItem(label, value)
+                combo.setItemData(combo.count() - 1, tip, Qt.ItemDataRole.ToolTipRole)
+            combo.activated.connect(self._emit)
+            self.choice_combos[setting] = combo
+            form.addRow(_buddy(titles[setting], combo, box), combo)
+        return box
+
+    # ------------------------------------------------------------------ public
+    def focus_chain(self) -> list[QWidget]:
+        """The panel's controls in keyboard (Tab) order: column list, column editors, fill settings."""
+        editors: list[QWidget] = [self.role_combo, self.kind_combo, self.weight_spin]
+        editors += [self.lower_edit, self.upper_edit, self.decimals_spin, self.k_spin, self.group_combo]
+        return [self.table, *editors, *self.choice_combos.values()]
+
+    def set_sheet(
+        self, sheet: Sheet, plan: FillPlan | None = None, roles: dict[str, str] | None = None
+    ) -> None:
+        """Show ``sheet``'s columns with default roles, then ``plan``'s settings if given.
+
+        Parameters
+        ----------
+        sheet : Sheet
+            The sheet as read.
+        plan : FillPlan, optional
+            Settings to show (column settings it leaves open keep the defaults).
+        roles : dict, optional
+            Default role per column; computed by ``engine.default_roles`` when omitted.
+        """
+        if roles is None:
+            from imputer_app.engine import default_roles
+
+            roles = default_roles(sheet)
+        self._defaults = dict(roles)
+        self._choices = choices_for_sheet(sheet, roles)
+        self.k_spin.setMaximum(max(1, len(sheet.frame) - 1))
+        self._plan = None
+        self.set_plan(plan if plan is not None else self._base)
+        if self._choices:
+            first = next((c.name for c in self._choices if c.role in ("both", "fill")), self._choices[0].name)
+            self.select_columns([first])
+
+    def set_plan(self, plan: FillPlan) -> None:
+        """Show ``plan`` (its column settings are matched by name) and emit it."""
+        self._quiet = True
+        try:
+            self._base = plan
+            names = [c.name for c in self._choices]
+            self._group = plan.group_column if plan.group_column in names else None
+            self._choices = choices_from_plan(self._choices, plan, self._defaults)
+            self.k_spin.setValue(plan.k)
+            for setting, combo in self.choice_combos.items():
+                combo.setCurrentIndex(max(0, combo.findData(getattr(plan, setting))))
+            self._fill_group_combo()
+            self.model.set_choices(self._choices, self._group)
+            self._show_selected()
+        finally:
+            self._quiet = False
+        self._emit()
+
+    def set_k(self, k: int) -> None:
+        """Set k (for "Use this k" of the recovery test)."""
+        self.k_spin.setValue(int(k))
+
+    def plan(self) -> FillPlan | None:
+        """The plan shown (None while the settings are not valid)."""
+        return self._plan
+
+    def choices(self) -> list[ColumnChoice]:
+        """The column settings shown (for tests)."""
+        return list(self._choices)
+
+    def select_columns(self, names: list[str]) -> None:
+        """Select the setup rows of ``names`` (others are deselected)."""
+        selection = self.table.selectionModel()
+        selection.clearSelection()
+        flags = QItemSelectionModel.SelectionFlag.Select | QItemSelectionModel.SelectionFlag.Rows
+        for row, choice in enumerate(self._choices):
+            if choice.name in names:
+                selection.select(self.model.index(row, 0), flags)
+                selection.setCurrentIndex(
+                    self.model.index(row, 0), QItemSelectionModel.SelectionFlag.NoUpdate
+                )
+
+    # ----------------------------------------------------------------- editing
+    def _selected_rows(self) -> list[int]:
+        return sorted({i.row() for i in self.table.selectionModel().selectedRows()})
+
+    def _edit_selected(self, **changes: Any) -> None:
+        if self._quiet:
+            return
+        rows = self._selected_rows()
+        if not rows:
+            return
+        for row in rows:
+            self._choices[row] = replace(self._choices[row], **changes)
+        self.model.set_choices(self._choices, self._group)
+        self._emit()
+
+    def _edit_bound(self, side: str, edit: QLineEdit) -> None:
+        text = edit.text().strip().replace(",", ".")
+        if text == _MULTIPLE:
+            return
+        try:
+            value = float(text) if text else None
+        except ValueError:
+            self.message.setText(f"⚠ {side} bound must be a number or empty; got {edit.text()!r}")
+            return
+        self._edit_selected(**{side: value})
+
+    def _on_group(self, _index: int) -> None:
+        self._group = self.group_combo.currentData()
+        self.model.set_choices(self._choices, self._group)
+        self._show_selected()
+        self._emit()
+
+    def _fill_group_combo(self) -> None:
+        self.group_combo.clear()
+        self.group_combo.addItem("(no groups)", None)
+        for c in self._choices:
+            if c.shown_kind in ("category", "identifier") or c.detected_kind == "category":
+                self.group_combo.addItem(c.name, c.name)
+        self.group_combo.setCurrentIndex(max(0, self.group_combo.findData(self._group)))
+
+    def _show_selected(self, *_args: Any) -> None:
+        rows = self._selected_rows()
+        chosen = [self._choices[r] for r in rows]
+        self._quiet = True
+        try:
+            names = ", ".join(c.name for c in chosen[:3]) + (" …" if len(chosen) > 3 else "")
+            self.column_box.setTitle(f"Selected: {names}" if chosen else "Selected column (pick one above)")
+            self.role_combo.setCurrentIndex(_common_index(self.role_combo, [c.role for c in chosen]))
+            self.kind_combo.setCurrentIndex(_common_index(self.kind_combo, [c.kind for c in chosen]))
+            weights = {c.weight for c in chosen}
+            self.weight_spin.setValue(weights.pop() if len(weights) == 1 else 1.0)
+            for edit, side in ((self.lower_edit, "lower"), (self.upper_edit, "upper")):
+                values = {getattr(c, side) for c in chosen}
+                edit.setText(_MULTIPLE if len(values) > 1 else _bound_text(values.pop() if values else None))
+            decimals = {c.decimals for c in chosen}
+            value = decimals.pop() if len(decimals) == 1 else None
+            self.decimals_spin.setValue(-1 if value is None else value)
+        finally:
+            self._quiet = False
+        self._enable_editors()
+
+    def _enable_editors(self) -> None:
+        rows = self._selected_rows()
+        grouped = any(self._choices[r].name == self._group for r in rows)
+        for widget in (self.role_combo, self.kind_combo, self.weight_spin, self.lower_edit, self.upper_edit):
+            widget.setEnabled(bool(rows) and not grouped)
+        self.decimals_spin.setEnabled(bool(rows) and not grouped)
+
+    def _emit(self, *_args: Any) -> None:
+        if self._quiet or not self._choices:
+            return
+        base = self._base.replace(
+            k=self.k_spin.value(), **{s: c.currentData() for s, c in self.choice_combos.items()}
+        )
+        try:
+            plan = plan_from_choices(self._choices, base, self._group)
+        except KinfillError as exc:
+            self.message.setText(f"⚠ {exc}")
+            self._plan = None
+            return
+        self.message.setText(_summary(self._choices, self._group))
+        if plan != self._plan:
+            self._plan = plan
+            self.plan_changed.emit(plan)
+
+
+# ------------------------------------------------------------------- helpers
+def _name(widget: QWidget, name: str, accessible: str, tip: str) -> None:
+    if isinstance(widget, QComboBox):
+        # Long choice labels must not force the panel wide; the open list shows them whole.
+        widget.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToMinimumContentsLengthWithIcon)
+        widget.setMinimumContentsLength(8)
+    widget.setObjectName(name)
+    widget.setAccessibleName(accessible)
+    widget.setToolTip(tip)
+
+
+def _buddy(text: str, widget: QWidget, parent: QWidget) -> QLabel:
+    label = QLabel(text, parent)
+    label.setBuddy(widget)
+    label.setObjectName(f"{widget.objectName()}Label")
+    label.setAccessibleName(text.replace("&", ""))
+    return label
+
+
+def _bound_edit(parent: QWidget, name: str, accessible: str, tip: str) -> QLineEdit:
+    edit = QLineEdit(parent)
+    _name(edit, name, accessible, tip)
+    edit.setPlaceholderText("no bound")
+    edit.setClearButtonEnabled(True)
+    return edit
+
+
+def _bound_text(value: float | None) -> str:
+    return "" if value is None else f"{value:g}"
+
+
+def _common_index(combo: QComboBox, values: list[Any]) -> int:
+    """Index of the value shared by all selected columns, or -1 (blank) when they differ."""
+    if not values or len(set(values)) != 1:
+        return -1
+    return combo.findData(values[0])
+
+
+def _summary(choices: list[ColumnChoice], group: str | None) -> str:
+    sim = sum(c.role in ("both", "similarity") and c.name != group for c in choices)
+    fill = [c for c in choices if c.role in ("both", "fill") and c.name != group]
+    gaps = sum(c.gaps for c in fill)
+    text = f"{sim} similarity columns, {len(fill)} fill columns ({gaps} gaps to fill)"
+    return text + (f", donors from the same {group}" if group else "")

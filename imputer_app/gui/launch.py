@@ -1,0 +1,127 @@
+"""``kinfill-gui [FILE] [--register]``: start the desktop app (what a double-click runs).
+
+``--screenshot PATH`` opens FILE, saves a picture of the window once the sheet is
+shown, and quits (exit 0 when the sheet was read and the picture saved); the
+real-window test and the README screenshot use it.
+"""
+
+from __future__ import annotations
+
+import argparse
+import logging
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+
+from imputer_app import __version__
+
+SCREENSHOT_TIMEOUT_MS = 60_000
+#: Exit codes of ``--screenshot``: read failed, picture not saved, too slow.
+EXIT_READ_FAILED, EXIT_NOT_SAVED, EXIT_TIMEOUT = 1, 3, 4
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The ``kinfill-gui`` argument parser."""
+    parser = argparse.ArgumentParser(prog="kinfill-gui", description="Kinfill desktop app.")
+    parser.add_argument("file", nargs="?", help="sheet to open (xlsx, xlsm, xls, ods, csv, tsv)")
+    parser.add_argument(
+        "--register",
+        action="store_true",
+        help="install the launcher, icon and file types for the current user (Linux, xdg-utils)",
+    )
+    parser.add_argument(
+        "--screenshot", metavar="PATH", help="save a picture of the window after opening FILE, then quit"
+    )
+    parser.add_argument("--version", action="version", version=f"kinfill-gui {__version__}")
+    return parser
+
+
+def app_icon() -> object:
+    """The window icon from ``resources/kinfill.svg`` and ``.png`` (an empty icon if absent)."""
+    from PySide6.QtGui import QIcon
+
+    from imputer_app.gui.register import resources_dir
+
+    icon = QIcon()
+    for name in ("kinfill.svg", "kinfill.png"):
+        path = resources_dir() / name
+        if path.is_file():
+            icon.addFile(str(path))
+    return icon
+
+
+def _register() -> int:
+    from imputer_app.gui.register import RegisterError, register
+
+    try:
+        done = register()
+    except RegisterError as exc:
+        print(f"kinfill-gui: {exc}", file=sys.stderr)
+        return 2
+    for line in done:
+        print(f"- {line}")
+    return 0
+
+
+def _arrange_screenshot(window: object, app: object, target: Path) -> None:
+    """Save ``window``'s picture once its sheet is shown, then quit with the right code."""
+    from PySide6.QtCore import QTimer
+    from PySide6.QtWidgets import QApplication, QMainWindow
+
+    assert isinstance(window, QMainWindow) and isinstance(app, QApplication)
+
+    def shoot() -> None:
+        target.parent.mkdir(parents=True, exist_ok=True)
+        saved = window.grab().save(str(target))
+        window.close()
+        app.exit(0 if saved else EXIT_NOT_SAVED)
+
+    window.interactive = False  # type: ignore[attr-defined]
+    window.sheet_loaded.connect(lambda: QTimer.singleShot(400, shoot))  # type: ignore[attr-defined]
+    window.runner.failed.connect(lambda *_a: app.exit(EXIT_READ_FAILED))  # type: ignore[attr-defined]
+    QTimer.singleShot(SCREENSHOT_TIMEOUT_MS, lambda: app.exit(EXIT_TIMEOUT))
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the desktop app and return its exit code."""
+    args = build_parser().parse_args(argv)
+    logging.basicConfig(level=logging.WARNING, format="kinfill-gui: %(levelname)s %(name)s: %(message)s")
+    if args.register:
+        return _register()
+    if args.screenshot and not args.file:
+        print("kinfill-gui: --screenshot needs a FILE to open", file=sys.stderr)
+        return 2
+
+    from PySide6.QtCore import QTimer
+    from PySide6.QtGui import QIcon
+    from PySide6.QtWidgets import QApplication
+
+    from imputer_app.gui.main_window import MainWindow
+
+    app = QApplication.instance() or QApplication([sys.argv[0] if sys.argv else "kinfill-gui"])
+    assert isinstance(app, QApplication)
+    app.setApplicationName("Kinfill")
+    app.setOrganizationName("Kinfill")
+    app.setApplicationVersion(__version__)
+    app.setDesktopFileName("kinfill")
+    icon = app_icon()
+    assert isinstance(icon, QIcon)
+    app.setWindowIcon(icon)
+    window = MainWindow()
+    window.setWindowIcon(icon)
+    if args.screenshot:
+        window.resize(1400, 860)
+        _arrange_screenshot(window, app, Path(args.screenshot))
+    window.show()
+    if args.file:
+        path = Path(args.file).expanduser()
+        # A double-click asks for the worksheet of a multi-sheet workbook; a screenshot never asks.
+        options: dict[str, object] | None = {} if args.screenshot else None
+        QTimer.singleShot(0, lambda: window.open_path(path.resolve() if path.exists() else path, options))
+    code = app.exec()
+    window.runner.wait()
+    return int(code)
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,587 @@
+"""The main window: column setup | data table with legend and gap map | test, donors, unfilled.
+
+The window is thin: the :class:`~imputer_app.gui.state.Session` holds what the user
+works on, panels show it, and reading, filling and exporting run in a
+:class:`~imputer_app.gui.workers.TaskRunner` with progress and Cancel in the status
+bar. Dialog and file questions live in :mod:`imputer_app.gui.file_actions`.
+"""
+
+from __future__ import annotations
+
+import logging
+from collections.abc import Callable
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from PySide6.QtCore import QModelIndex, Qt, Signal
+from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent
+from PySide6.QtWidgets import (
+    QLabel,
+    QMainWindow,
+    QMenu,
+    QScrollArea,
+    QSplitter,
+    QTabWidget,
+    QToolBar,
+    QWidget,
+)
+
+from imputer_app.gui import file_actions as fa
+from imputer_app.gui.about import AboutDialog
+from imputer_app.gui.busy import BusyBar
+from imputer_app.gui.column_setup import ColumnSetup
+from imputer_app.gui.data_view import DataView
+from imputer_app.gui.donor_panel import DonorPanel
+from imputer_app.gui.markers import CENSORED, palette_is_dark
+from imputer_app.gui.recovery_panel import RecoveryPanel
+from imputer_app.gui.settings import AppSettings
+from imputer_app.gui.state import Session
+from imputer_app.gui.unfilled_panel import UnfilledPanel
+from imputer_app.gui.window_actions import build_actions, build_menus
+from imputer_app.gui.workers import TaskRunner
+from imputer_app.plan import FillPlan
+
+if TYPE_CHECKING:
+    from imputer_app.engine import FillResult
+    from imputer_app.sheets import Sheet
+
+log = logging.getLogger(__name__)
+
+
+class MainWindow(QMainWindow):
+    """Kinfill's window. Signals say when background work has delivered."""
+
+    sheet_loaded = Signal()
+    preview_ready = Signal()
+    exported = Signal(list)
+
+    def __init__(self, settings: AppSettings | None = None, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.setObjectName("mainWindow")
+        self.setAccessibleName("Kinfill")
+        self.settings = settings or AppSettings()
+        self.session = Session()
+        self.session.plan = self.settings.last_options()
+        self.runner = TaskRunner(self)
+        self.runner.failed.connect(self._on_failed)
+        self.runner.cancelled.connect(
+            lambda: self.statusBar().showMessage("Stopped; nothing was changed.", 8000)
+        )
+        self.runner.finished.connect(self._on_finished)
+        self.runner.running_changed.connect(lambda _r: self._update_actions())
+        self._on_done: Callable[[Any], None] | None = None
+        #: False in unattended runs (``--screenshot``): problems go to the log, not to a message box.
+        self.interactive = True
+        self.recent_menu = QMenu("&Recent files", self)
+        self.toolbar: QToolBar | None = None
+        self.setAcceptDrops(True)
+        self._build()
+        self.actions_ = build_actions(self)
+        build_menus(self, self.actions_)
+        self.session.subscribe(self._on_session)
+        self._restore_layout()
+        self._update_title()
+        self._update_actions()
+
+    # ------------------------------------------------------------------ layout
+    def _build(self) -> None:
+        self.setup = ColumnSetup(self)
+        self.setup.plan_changed.connect(self._on_plan_changed)
+        setup_scroll = QScrollArea(self)
+        setup_scroll.setObjectName("setupScroll")
+        setup_scroll.setAccessibleName("Column setup area")
+        setup_scroll.setWidgetResizable(True)
+        setup_scroll.setWidget(self.setup)
+        setup_scroll.setMinimumWidth(240)
+        setup_scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+
+        self.data = DataView(self)
+        self.table, self.table_model, self.gap_map = self.data.table, self.data.model, self.data.gap_map
+        self.table_split, self.notice = self.data.splitter, self.data.notice
+        self.table.selectionModel().currentChanged.connect(self._on_current_cell)
+        self.data.cell_not_found.connect(lambda text: self.statusBar().showMessage(text, 5000))
+
+        self.tabs = QTabWidget(self)
+        self.tabs.setObjectName("panelTabs")
+        self.tabs.setAccessibleName("Recovery test, donors and unfilled cells")
+        self.recovery_panel = RecoveryPanel(self.tabs)
+        self.donor_panel = DonorPanel(self.tabs)
+        self.unfilled_panel = UnfilledPanel(self.tabs)
+        self._pages: dict[QWidget, QWidget] = {}
+        self.tabs.setToolTip("Recovery test, donors of the selected cell, and cells left empty")
+        for panel, title, tip in (
+            (self.recovery_panel, "&Recovery test", "Choose k: hide known values and score every k"),
+            (self.donor_panel, "&Donors", "Where the selected filled value came from"),
+            (self.unfilled_panel, "U&nfilled", "Cells the fill could not fill, with the reason"),
+        ):
+            # A scroll area lets the panels column be narrower than a panel on small screens.
+            page = QScrollArea(self.tabs)
+            page.setObjectName(f"{panel.objectName()}Page")
+            page.setAccessibleName(title.replace("&", ""))
+            page.setWidgetResizable(True)
+            page.setFrameShape(QScrollArea.Shape.NoFrame)
+            page.setWidget(panel)
+            self._pages[panel] = page
+            self.tabs.addTab(page, title)
+            self.tabs.setTabToolTip(self.tabs.count() - 1, tip)
+        self.recovery_panel.use_k.connect(self._use_k)
+        self.recovery_panel.report_ready.connect(self.session.set_report)
+        self.recovery_panel.report_ready.connect(lambda _r: self._fit_panel(self.recovery_panel))
+        self.donor_panel.jump_requested.connect(self.select_cell)
+        self.unfilled_panel.jump_requested.connect(self.select_cell)
+
+        self.splitter = QSplitter(Qt.Orientation.Horizontal, self)
+        self.splitter.setObjectName("mainSplitter")
+        self.splitter.setAccessibleName("Setup, data and panels")
+        for widget in (setup_scroll, self.data, self.tabs):
+            self.splitter.addWidget(widget)
+        self.splitter.setStretchFactor(0, 0)
+        self.splitter.setStretchFactor(1, 1)
+        self.splitter.setStretchFactor(2, 0)
+        self.splitter.setChildrenCollapsible(False)
+        self._sizes_restored = False
+        self.setCentralWidget(self.splitter)
+        self.summary = QLabel(self)
+        self.summary.setObjectName("sheetSummary")
+        self.summary.setAccessibleName("Sheet summary")
+        self.statusBar().setObjectName("statusBar")
+        self.statusBar().addPermanentWidget(self.summary)
+        self.busy = BusyBar(self.runner, self)
+        self.statusBar().addPermanentWidget(self.busy)
+        QWidget.setTabOrder(self.setup.focus_chain()[-1], self.table)
+        QWidget.setTabOrder(self.gap_map, self.tabs)
+
+    # ------------------------------------------------------------- background
+    def run_job(self, title: str, job: Callable[[Any, Any], Any], on_done: Callable[[Any], None]) -> bool:
+        """Run ``job(progress, cancel)`` off the GUI thread; ``on_done(result)`` on success.
+
+        Returns False (and starts nothing) while another job of the window is still at work:
+        one job at a time, so that, say, a dropped file never cancels an export half-way.
+        """
+        if self._on_done is not None:
+            busy = self.busy.label.text()
+            self.statusBar().showMessage(f"Still busy with: {busy} Wait, or press Cancel.", 6000)
+            return False
+        self._on_done = on_done
+        self.busy.start(title)
+        self.statusBar().showMessage(title)
+        self.runner.start(job)
+        self._update_actions()
+        return True
+
+    def _on_finished(self, result: Any) -> None:
+        handler, self._on_done = self._on_done, None
+        self.statusBar().clearMessage()
+        if handler is not None:
+            try:
+                handler(result)
+            except Exception as exc:
+                log.exception("could not show a result")
+                self.show_error(f"internal fault: {exc}")
+
+    def _on_cancelled(self) -> None:
+        self._on_done = None
+        self.statusBar().showMessage("Stopped; nothing was changed.", 8000)
+
+    def _on_failed(self, message: str, details: str) -> None:
+        self._on_done = None
+        if details:
+            log.error("background work failed:\n%s", details)
+        self.statusBar().showMessage("Failed; nothing was changed.", 8000)
+        self.show_error(message)
+
+    def show_error(self, message: str) -> None:
+        """Show a one-line problem in a message box."""
+        first = message.strip().splitlines()[0] if message.strip() else "unknown problem"
+        if self.interactive:
+            fa.warn(self, first)
+        else:
+            log.error("%s", first)
+
+    # ------------------------------------------------------------------ opening
+    def open_path(
+        self, path: str | Path, options: dict[str, Any] | None = None, confirmed: bool = False
+    ) -> None:
+        """Read ``path`` in the background (asks for a worksheet when there are several).
+
+        Parameters
+        ----------
+        path : str or Path
+            The sheet to read.
+        options : dict, optional
+            ``read_sheet`` keywords; a ``_sheet`` entry is a sheet already read with them.
+        confirmed : bool
+            The user already agreed to lose an unexported fill.
+        """
+        path = Path(path)
+        if not confirmed and not fa.confirm_discard(self, self.session.dirty):
+            return
+        if options is None:
+            options = fa.ask_open_options(self, path)
+            if options is None:
+                return
+        options = dict(options)
+        sheet = options.pop("_sheet", None)
+        if sheet is not None:
+            self._show_sheet(sheet)
+            return
+
+        def job(progress: Any, cancel: Any) -> Sheet:
+            from imputer_app.sheets import read_sheet
+
+            return read_sheet(path, progress=progress, cancel=cancel, **options)
+
+        self.run_job(f"Reading {path.name}…", job, self._show_sheet)
+
+    def open_dialog(self, with_options: bool = False) -> None:
+        """File > Open (or Open with options): choose a sheet."""
+        if not fa.confirm_discard(self, self.session.dirty):
+            return
+        path = fa.ask_sheet_path(self)
+        if path is None:
+            return
+        options = fa.options_dialog(self, path) if with_options else None
+        if with_options and options is None:
+            return
+        self.open_path(path, options, confirmed=True)
+
+    def _show_sheet(self, sheet: Sheet) -> None:
+        self.recovery_panel.cancel()  # a test of the previous sheet must not report on this one
+        roles = _default_roles(sheet)
+        self.session.load(sheet)
+        self.setup.set_sheet(sheet, self.session.plan, roles)
+        plan = self.setup.plan()
+        if plan is not None:
+            self.session.set_plan(plan)
+        self.recent_changed(self.settings.add_recent(sheet.source.path))
+        self.settings.set_last_folder(sheet.source.path)
+        problems = "; ".join(sheet.problems[:3])
+        self.notice.setText(f"Remarks on reading: {problems}" if problems else "")
+        self.statusBar().showMessage(f"Opened {Path(sheet.source.path).name}.", 5000)
+        self.sheet_loaded.emit()
+
+    def recent_changed(self, files: list[Path]) -> None:
+        """Rebuild File > Recent files."""
+        menu: QMenu = self.recent_menu
+        menu.clear()
+        for number, path in enumerate(files, start=1):
+            action = menu.addAction(f"&{number} {path.name}")
+            action.setObjectName(f"actionRecent{number}")
+            action.setToolTip(str(path))
+            action.setStatusTip(str(path))
+            action.triggered.connect(lambda _c=False, p=path: self.open_path(p))
+        menu.setEnabled(bool(files))
+        if files:
+            menu.addSeparator()
+            clear = menu.addAction("&Clear list")
+            clear.setObjectName("actionClearRecent")
+            clear.triggered.connect(self._clear_recent)
+
+    def _clear_recent(self) -> None:
+        self.settings.clear_recent()
+        self.recent_changed([])
+
+    # ------------------------------------------------------------------- plans
+    def _on_plan_changed(self, plan: FillPlan) -> None:
+        self.session.set_plan(plan)
+        self.settings.save_options(plan)
+
+    def _use_k(self, k: int) -> None:
+        self.setup.set_k(k)
+        self.statusBar().showMessage(f"k set to {k}; preview the fill to see its effect.", 6000)
+
+    def open_plan(self, path: str | Path | None = None) -> None:
+        """Load a ``*.plan.toml`` into the setup (its columns must exist in the sheet)."""
+        if self.session.sheet is None:
+            self.show_error("Open a sheet first; a plan is matched to the sheet's columns.")
+            return
+        path = Path(path) if path is not None else fa.ask_plan_path(self, save=False)
+        if path is None:
+            return
+        try:
+            plan = FillPlan.load(path)
+            plan.check_columns(list(map(str, self.session.sheet.frame.columns)))
+        except Exception as exc:
+            self.show_error(str(exc))
+            return
+        self.setup.set_plan(plan)
+        self.statusBar().showMessage(f"Plan {path.name} loaded.", 5000)
+
+    def save_plan(self, path: str | Path | None = None) -> Path | None:
+        """Save the setup's plan as ``*.plan.toml``."""
+        plan = self.setup.plan() if self.session.sheet is not None else self.session.plan
+        if plan is None:
+            self.show_error("The settings are not valid yet; see the note under the setup.")
+            return None
+        target = Path(path) if path is not None else fa.ask_plan_path(self, save=True)
+        if target is None:
+            return None
+        try:
+            written = plan.save(target)
+        except Exception as exc:
+            self.show_error(str(exc))
+            return None
+        self.statusBar().showMessage(f"Plan saved to {written}.", 6000)
+        return written
+
+    # -------------------------------------------------------------------- fill
+    def run_recovery_test(self) -> None:
+        """Fill > Run recovery test."""
+        self.show_panel(self.recovery_panel)
+        self.recovery_panel.run()
+
+    def preview_fill(self) -> None:
+        """Compute the fill in the background and show it over the data."""
+        sheet, plan = self.session.sheet, self.session.plan
+        if sheet is None:
+            return
+
+        def job(progress: Any, cancel: Any) -> FillResult:
+            from imputer_app.engine import impute
+
+            return impute(sheet, plan, progress=progress, cancel=cancel)
+
+        def done(result: FillResult) -> None:
+            if self.session.sheet is sheet and self.session.plan == plan:
+                self.session.set_preview(result)
+                proposed = int(result.filled.to_numpy().sum())
+                self.statusBar().showMessage(
+                    f"Preview: {proposed} values proposed, nothing changed yet. "
+                    "Select a marked cell to see its donors; Apply (Ctrl+Return) keeps them.",
+                    15000,
+                )
+                self.preview_ready.emit()
+
+        self.run_job("Computing the fill preview…", job, done)
+
+    def apply_fill(self) -> None:
+        """Write the preview into the working table."""
+        if self.session.can_apply:
+            self.session.apply()
+            self.statusBar().showMessage(
+                "Applied. Filled values are estimates, not measurements; "
+                "Export writes the sheet with every filled cell marked, and its fill log.",
+                10000,
+            )
+
+    def undo(self) -> None:
+        """Take back the last applied fill."""
+        if self.session.can_undo:
+            self.session.undo()
+
+    def redo(self) -> None:
+        """Apply again the fill last taken back."""
+        if self.session.can_redo:
+            self.session.redo()
+
+    def export(self, path: str | Path | None = None) -> None:
+        """Write the applied fill and its log (never over the source; asks before replacing)."""
+        sheet, result, report = self.session.sheet, self.session.applied, self.session.report
+        if sheet is None or result is None:
+            self.show_error("Nothing to export yet: preview a fill and apply it first.")
+            return
+        target = fa.ask_export_path(self, Path(sheet.source.path), path)
+        if target is None:
+            return
+
+        def job(progress: Any, cancel: Any) -> list[Path]:
+            from imputer_app.sheets import write_result
+
+            return write_result(target, sheet, result, result.plan, report, progress=progress, cancel=cancel)
+
+        def done(paths: list[Path]) -> None:
+            if self.session.applied is result:
+                self.session.mark_exported()
+            names = ", ".join(Path(p).name for p in paths)
+            self.statusBar().showMessage(f"Exported {names} to {Path(target).parent}.", 10000)
+            self.exported.emit(list(paths))
+
+        self.run_job(f"Exporting {target.name}…", job, done)
+
+    # ------------------------------------------------------------------- table
+    def shown_result(self) -> FillResult | None:
+        """The fill drawn over the table: the preview, else the applied fill."""
+        return self.session.preview if self.session.preview is not None else self.session.applied
+
+    def select_position(self, row: int, column: int) -> None:
+        """Make a table cell current and scroll to it."""
+        self.data.select_position(row, column)
+
+    def select_cell(self, row_label: Any, column: str) -> None:
+        """Select the cell of a row label and column (from the panels' jump requests)."""
+        self.data.select_cell(row_label, column)
+
+    def next_gap(self) -> None:
+        """Go to the next gap, unreadable or censored cell."""
+        self.data.next_gap()
+
+    def _on_current_cell(self, current: QModelIndex, _previous: QModelIndex) -> None:
+        result = self.shown_result()
+        if result is None or not current.isValid():
+            self.donor_panel.clear()
+            return
+        row, col = current.row(), current.column()
+        if self.table_model.is_filled(row, col) or self.table_model.codes[row, col] == CENSORED:
+            sheet = self.session.sheet
+            notes = sheet.cell_notes if sheet is not None else None
+            label = self.table_model.row_label(row)
+            self.donor_panel.show_cell(result, label, self.table_model.column_names()[col], notes=notes)
+            if self.table_model.is_filled(row, col) and self.current_panel() is not self.unfilled_panel:
+                self.show_panel(self.donor_panel)
+        else:
+            self.donor_panel.clear()
+
+    def show_panel(self, panel: QWidget) -> None:
+        """Bring a panel's tab to the front."""
+        self.tabs.setCurrentWidget(self._pages.get(panel, panel))
+
+    def _fit_panel(self, panel: QWidget) -> None:
+        """Widen the panels column (from the table) when a panel has grown beyond it."""
+        page = self._pages.get(panel)
+        if not isinstance(page, QScrollArea):
+            return
+        missing = panel.minimumSizeHint().width() - page.viewport().width()
+        sizes = self.splitter.sizes()
+        if missing > 0 and sizes[1] - missing > 300:
+            self.splitter.setSizes([sizes[0], sizes[1] - missing, sizes[2] + missing])
+
+    def current_panel(self) -> QWidget | None:
+        """The panel whose tab is in front."""
+        page = self.tabs.currentWidget()
+        return next((p for p, w in self._pages.items() if w is page), None)
+
+    # ------------------------------------------------------------------ session
+    def _on_session(self, event: str) -> None:
+        if event == "sheet":
+            self.data.set_sheet(self.session.sheet)
+            self.recovery_panel.set_source(self.session.sheet, self.session.plan)
+        if event in ("sheet", "preview", "applied"):
+            self._refresh_layer()
+        if event == "plan" and self.session.sheet is not None:
+            self.recovery_panel.set_source(self.session.sheet, self.session.plan)
+        self._update_title()
+        self._update_actions()
+
+    def _refresh_layer(self) -> None:
+        preview, applied = self.session.preview, self.session.applied
+        if preview is not None:
+            self.data.set_layer(preview, "preview")
+        else:
+            self.data.set_layer(applied, "applied")
+        result = self.shown_result()
+        self.unfilled_panel.set_result(result)
+        self.donor_panel.clear()
+        self._on_current_cell(self.table.currentIndex(), QModelIndex())
+        self.summary.setText(fa.summary_text(self.table_model, self.session))
+        warnings = "; ".join(result.warnings[:3]) if result is not None and result.warnings else ""
+        if warnings:
+            self.notice.setText(f"Remarks on the fill: {warnings}")
+
+    def _update_title(self) -> None:
+        name = self.session.path.name if self.session.path is not None else "no sheet"
+        self.setWindowTitle(f"{name}[*] — Kinfill")
+        self.setWindowModified(self.session.dirty)
+
+    def _update_actions(self) -> None:
+        if not hasattr(self, "actions_"):
+            return
+        busy = self.runner.is_running()
+        has = self.session.sheet is not None
+        enable = {
+            "open": not busy,
+            "open_options": not busy,
+            "recent": not busy,
+            "open_plan": has and not busy,
+            "save_plan": has,
+            "export": self.session.applied is not None and not busy,
+            "undo": self.session.can_undo and not busy,
+            "redo": self.session.can_redo and not busy,
+            "recovery": has,
+            "preview": has and not busy and self.setup.plan() is not None,
+            "apply": self.session.can_apply and not busy,
+            "next_gap": has,
+        }
+        for key, on in enable.items():
+            action = self.actions_.get(key)
+            if isinstance(action, QAction):
+                action.setEnabled(on)
+        self.recent_menu.setEnabled(not busy and bool(self.settings.recent_files()))
+
+    # ----------------------------------------------------------------- windows
+    def show_about(self) -> None:
+        """Help > About."""
+        AboutDialog(self).exec()
+
+    def dragEnterEvent(self, event: QDragEnterEvent) -> None:
+        """Accept dropped local files."""
+        if fa.dropped_path(event.mimeData()) is not None:
+            event.acceptProposedAction()
+
+    def dropEvent(self, event: QDropEvent) -> None:
+        """Open a dropped sheet, or load a dropped plan."""
+        path = fa.dropped_path(event.mimeData())
+        if path is None:
+            return
+        event.acceptProposedAction()
+        if path.name.endswith(".toml"):
+            self.open_plan(path)
+        else:
+            self.open_path(path)
+
+    def changeEvent(self, event: Any) -> None:
+        """Follow the system palette (light or dark markers)."""
+        from PySide6.QtCore import QEvent
+
+        if event.type() in (QEvent.Type.PaletteChange, QEvent.Type.ApplicationPaletteChange):
+            self.table_model.set_dark(palette_is_dark(self.palette()))
+        super().changeEvent(event)
+
+    def _restore_layout(self) -> None:
+        geometry = self.settings.bytes_value("window/geometry")
+        if geometry is None or not self.restoreGeometry(geometry):
+            self.resize(1400, 860)
+        for key, splitter in (("window/splitter", self.splitter), ("window/tableSplitter", self.table_split)):
+            state = self.settings.bytes_value(key)
+            if state is not None:
+                restored = splitter.restoreState(state)
+                self._sizes_restored = self._sizes_restored or (restored and splitter is self.splitter)
+        state = self.settings.bytes_value("window/state")
+        if state is not None:
+            self.restoreState(state)
+        self.recent_changed(self.settings.recent_files())
+
+    def showEvent(self, event: Any) -> None:
+        """On the first show without remembered sizes, share the width sensibly."""
+        super().showEvent(event)
+        if not self._sizes_restored:
+            self._sizes_restored = True
+            width = max(self.width(), 900)
+            setup = min(330, max(260, int(width * 0.21)))
+            # The recovery panel's widest row (its "use k" buttons) grows once a test has run.
+            panels = max(self.recovery_panel.minimumSizeHint().width() + 48, int(width * 0.3))
+            self.splitter.setSizes([setup, max(300, width - setup - panels), panels])
+            self.table_split.setSizes([max(200, self.table_split.width() - 56), 56])
+
+    def save_layout(self) -> None:
+        """Remember geometry and splitter positions."""
+        self.settings.set_bytes("window/geometry", self.saveGeometry())
+        self.settings.set_bytes("window/state", self.saveState())
+        self.settings.set_bytes("window/splitter", self.splitter.saveState())
+        self.settings.set_bytes("window/tableSplitter", self.table_split.saveState())
+        self.settings.sync()
+
+    def closeEvent(self, event: QCloseEvent) -> None:
+        """Ask before losing an applied fill that was not exported; stop background work."""
+        if not fa.confirm_discard(self, self.session.dirty, closing=True):
+            event.ignore()
+            return
+        self.save_layout()
+        self.runner.wait()
+        self.recovery_panel.shutdown()
+        event.accept()
+
+
+def _default_roles(sheet: Sheet) -> dict[str, str]:
+    from imputer_app.engine import default_roles
+
+    return default_roles(sheet)

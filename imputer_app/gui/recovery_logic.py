@@ -1,0 +1,275 @@
+"""Qt-free: the recovery panel's request, its per-k table and its summary in plain words.
+
+A :class:`RecoveryRequest` is the immutable set of choices a user makes in the panel;
+:meth:`RecoveryRequest.job` turns it into a worker job that calls
+:func:`imputer_app.validation.recovery_test`. :func:`report_table` and
+:func:`summary_text` describe a finished :class:`~imputer_app.validation.RecoveryReport`.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any
+
+import pandas as pd
+
+from imputer_app import validation
+from imputer_app.errors import KinfillError
+from imputer_app.gui.formatting import NOT_AVAILABLE, Cell, number_cell
+from imputer_app.plan import FillPlan
+from imputer_app.work import CancelFlag, Progress
+
+#: Largest k the panel offers (larger k is rarely useful and slow to score).
+K_LIMIT = 100
+
+#: Hiding styles: value passed to recovery_test, label, explanation.
+MASKINGS = (
+    ("random", "Random known cells",
+     "Hide a share of each fill column's known cells at random (gaps assumed MCAR)"),
+    ("pattern", "The sheet's own gap patterns",
+     "Copy the gap patterns of the sheet's incomplete rows onto complete rows, "
+     "so the test looks like the sheet's real gaps"),
+)
+
+
+@dataclass(frozen=True)
+class RecoveryRequest:
+    """The choices of one recovery test run.
+
+    Attributes
+    ----------
+    hide_fraction : float
+        Share of known cells hidden per repeat, in (0, 1).
+    repeats : int
+        Number of independent hidings (>= 1); more repeats give smaller standard errors.
+    k_from, k_to : int
+        Inclusive range of k values scored.
+    masking : {"random", "pattern"}
+        How cells are chosen for hiding.
+    seed : int
+        Seed of the hiding, so the same request gives the same report.
+    """
+
+    hide_fraction: float = 0.1
+    repeats: int = 5
+    k_from: int = 1
+    k_to: int = 20
+    masking: str = "random"
+    seed: int = 0
+
+    @property
+    def ks(self) -> list[int]:
+        """The k values to score, ascending."""
+        low, high = sorted((int(self.k_from), int(self.k_to)))
+        return list(range(max(1, low), high + 1))
+
+    def job(self, data: Any, plan: FillPlan) -> Callable[[Progress, CancelFlag], Any]:
+        """Return ``job(progress, cancel) -> RecoveryReport`` for a worker thread.
+
+        ``data`` (a DataFrame or Sheet) and ``plan`` are only read, never modified.
+        """
+        ks = self.ks
+
+        def run(progress: Progress, cancel: CancelFlag) -> Any:
+            # Looked up at call time so that tests can stand in a slow or failing test.
+            return validation.recovery_test(
+                data, plan, ks=ks, hide_fraction=self.hide_fraction, repeats=self.repeats,
+                seed=self.seed, masking=self.masking, progress=progress, cancel=cancel,
+            )
+
+        return run
+
+
+def frame_of(data: Any) -> pd.DataFrame:
+    """Return the DataFrame of a Sheet-like object, or ``data`` itself."""
+    return data.frame if hasattr(data, "frame") else data
+
+
+def tested_columns(data: Any, plan: FillPlan) -> list[str]:
+    """Return the columns a recovery test scores: the plan's fill columns.
+
+    Unset fill columns resolve as the engine does (similarity columns with gaps); a sheet
+    without gaps is tested on every similarity column, as ``recovery_test`` does.
+    """
+    frame = frame_of(data)
+    if plan.fill_columns is not None:
+        return [c for c in plan.fill_columns if c in frame.columns]
+    if plan.similarity_columns is not None:
+        similar = [c for c in plan.similarity_columns if c in frame.columns]
+    else:
+        try:
+            from imputer_app.engine import default_roles
+
+            roles = default_roles(data)
+        except KinfillError:
+            return [str(c) for c in frame.columns]
+        excluded = {*plan.carried_columns, plan.group_column}
+        similar = [c for c, role in roles.items() if role in ("similarity", "fill") and c not in excluded]
+    with_gaps = [c for c in similar if bool(frame[c].isna().any())]
+    return with_gaps or similar
+
+
+def k_ceiling(data: Any, plan: FillPlan) -> int:
+    """Return the largest k worth testing: ``min(100, donors)``.
+
+    ``donors`` is the most a hidden cell can have: the known cells of the best-filled
+    tested column, less the hidden cell itself. At least 1.
+    """
+    frame = frame_of(data)
+    known = [int(frame[c].notna().sum()) for c in tested_columns(data, plan)]
+    donors = max(known, default=1) - 1
+    return max(1, min(K_LIMIT, donors))
+
+
+# ---------------------------------------------------------------------- per-k table
+def _metric(kind: str) -> str:
+    return "NRMSE" if kind == "number" else "error rate"
+
+
+def report_headers(report: Any) -> tuple[list[str], list[str]]:
+    """Return the per-k table's column titles and their tooltips."""
+    has_numbers = "number" in report.kinds.values()
+    has_categories = "category" in report.kinds.values()
+    headers = ["k", "Choice"]
+    tips = ["Number of donors averaged", "Which k the rules pick: lowest error, or the one-SE rule"]
+    if has_numbers:
+        headers += ["NRMSE", "SE"]
+        tips += ["Mean NRMSE over the number fill columns (RMSE / standard deviation); lower is better",
+                 "Standard error of the NRMSE over the repeats"]
+    if has_categories:
+        headers += ["Error rate", "Error rate SE"]
+        tips += ["Share of hidden category cells filled with the wrong class; lower is better",
+                 "Standard error of the error rate over the repeats"]
+    for column, kind in report.kinds.items():
+        headers.append(f"{column} {_metric(kind)}")
+        tips.append(f"Mean {_metric(kind)} of column '{column}' over the repeats")
+    return headers, tips
+
+
+def _choice(k: int, report: Any) -> str:
+    names = [name for name, value in (("best", report.best_k), ("one-SE", report.best_k_1se)) if value == k]
+    return ", ".join(names)
+
+
+def _row_numbers(report: Any, values: pd.Series, per_column: dict[str, Any], strong: bool) -> list[Cell]:
+    """Cells after the first two: overall scores, then per-column scores."""
+    cells: list[Cell] = []
+    if "number" in report.kinds.values():
+        cells += [number_cell(values.get("score"), strong=strong), number_cell(values.get("se"))]
+    if "category" in report.kinds.values():
+        cells += [number_cell(values.get("category_error"), strong=strong),
+                  number_cell(values.get("category_se"))]
+    cells += [number_cell(per_column.get(column)) for column in report.kinds]
+    return cells
+
+
+def report_rows(report: Any) -> list[list[Cell]]:
+    """Return one row per tested k, then the column-average baseline row.
+
+    Raw values (``Cell.value``) are the report's own numbers: ``overall`` for the
+    overall columns, ``summary[(column, "mean")]`` per column, ``baseline`` for the
+    last row.
+    """
+    rows: list[list[Cell]] = []
+    for k, values in report.overall.iterrows():
+        k = int(k)
+        chosen = _choice(k, report)
+        per_column = {
+            column: report.summary[(column, "mean")].get(k, math.nan)
+            for column in report.kinds
+            if (column, "mean") in report.summary.columns
+        }
+        head = [Cell(str(k), k, strong=bool(chosen)), Cell(chosen, chosen, strong=bool(chosen))]
+        rows.append(head + _row_numbers(report, values, per_column, bool(chosen)))
+    base = report.baseline
+    overall = base.loc["overall"] if "overall" in base.index else pd.Series(dtype=float)
+    per_column = {c: base.loc[c, "score"] for c in report.kinds if c in base.index}
+    head = [Cell("average", "average", "Every hidden cell filled with its column's average "
+                 "(most common class for categories): the bar kNN must beat"),
+            Cell("baseline", "baseline")]
+    rows.append(head + _row_numbers(report, overall, per_column, False))
+    return rows
+
+
+# ---------------------------------------------------------------------- summary
+def _score(frame: pd.DataFrame, key: Any, name: Any) -> float:
+    try:
+        return float(frame.loc[key, name])
+    except (KeyError, TypeError, ValueError):
+        return math.nan
+
+
+def verdict(best: float, best_se: float, baseline: float) -> str:
+    """Say in words whether neighbours beat the column average.
+
+    Parameters
+    ----------
+    best : float
+        Score of the best k (lower is better).
+    best_se : float
+        Its standard error (NaN counts as 0).
+    baseline : float
+        Score of the column-average fill of the same hidden cells.
+    """
+    if math.isnan(best) or math.isnan(baseline):
+        return "no comparison with the column average"
+    se = 0.0 if math.isnan(best_se) else best_se
+    if best + se < baseline:
+        return "neighbours help"
+    if best < baseline:
+        return "neighbours help only a little (within one standard error)"
+    return "neighbours do not beat the column average; check the similarity columns"
+
+
+def summary_text(report: Any) -> str:
+    """Return the one-line summary of a recovery test.
+
+    Example: ``best k = 7 (NRMSE 0.41); one-SE rule suggests k = 12; column average
+    scores 0.98 — neighbours help``.
+    """
+    name = report.score_name
+    metric = "NRMSE" if name == "score" else "error rate"
+    se_name = "se" if name == "score" else "category_se"
+    best = _score(report.overall, report.best_k, name)
+    baseline = _score(report.baseline, "overall", name)
+    text = f"best k = {report.best_k} ({metric} {_two(best)})"
+    if report.best_k_1se == report.best_k:
+        text += "; one-SE rule agrees"
+    else:
+        text += f"; one-SE rule suggests k = {report.best_k_1se}"
+    text += f"; column average scores {_two(baseline)}"
+    text += " — " + verdict(best, _score(report.overall, report.best_k, se_name), baseline)
+    if report.best_k_1se == max(report.ks) and report.best_k_1se != report.best_k:
+        text += (f". The one-SE k is the largest k tested; try k above {max(report.ks)} "
+                 "to see where the error rises")
+    if name == "score" and "category" in report.kinds.values():
+        cat = _score(report.overall, report.best_k, "category_error")
+        cat_base = _score(report.baseline, "overall", "category_error")
+        text += (f". Category columns at k = {report.best_k}: error rate {_two(cat)} "
+                 f"(most common class: {_two(cat_base)})")
+    no_gain = columns_without_gain(report, report.best_k)
+    if no_gain:
+        text += f". At k = {report.best_k}, no gain over the column average for: {', '.join(no_gain)}"
+    return text
+
+
+def columns_without_gain(report: Any, k: int) -> list[str]:
+    """Fill columns whose error at ``k`` is not below their own column-average error.
+
+    Such a column is filled no better by neighbours than by its average, a hint that the
+    similarity columns say little about it.
+    """
+    worse = []
+    for column in report.kinds:
+        knn = _score(report.summary, k, (column, "mean")) if (column, "mean") in report.summary else math.nan
+        base = _score(report.baseline, column, "score")
+        if not (math.isnan(knn) or math.isnan(base)) and knn >= base:
+            worse.append(column)
+    return worse
+
+
+def _two(value: float) -> str:
+    """Two decimals, as errors near 1 need them (1.03 must not read as 1)."""
+    return NOT_AVAILABLE if math.isnan(value) else f"{value:.2f}"

@@ -1,0 +1,536 @@
+"""The recovery panel: hide known cells, fill them for every k, and choose k from the errors.
+
+The user sets the share of known cells to hide, the number of repeats, the k range and
+the hiding style, and runs :func:`imputer_app.validation.recovery_test` in a worker
+thread (:class:`~imputer_app.gui.workers.TaskRunner`). The result is shown three ways:
+a chart of error against k (drawn by :func:`imputer_app.charts.error_vs_k.plot_error_vs_k`),
+the numbers per k in a table, and one summary sentence. Buttons hand the chosen k to
+the main window through :attr:`RecoveryPanel.use_k`.
+
+Words and numbers come from :mod:`imputer_app.gui.recovery_logic` (Qt-free).
+"""
+
+from __future__ import annotations
+
+import itertools
+import logging
+from pathlib import Path
+from typing import Any
+
+from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
+from matplotlib.figure import Figure
+from PySide6.QtCore import QEvent, QObject, Qt, Signal
+from PySide6.QtGui import QKeyEvent
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QComboBox,
+    QDoubleSpinBox,
+    QFileDialog,
+    QGridLayout,
+    QGroupBox,
+    QHBoxLayout,
+    QHeaderView,
+    QLabel,
+    QProgressBar,
+    QPushButton,
+    QSizePolicy,
+    QSpinBox,
+    QSplitter,
+    QStackedWidget,
+    QStyle,
+    QTableView,
+    QVBoxLayout,
+    QWidget,
+)
+
+from imputer_app.charts.error_vs_k import save_figure
+from imputer_app.gui.chart_view import draw_chart, fit_for_screen, palette_style
+from imputer_app.gui.formatting import format_value
+from imputer_app.gui.records_model import RAW_ROLE, RecordsModel
+from imputer_app.gui.recovery_logic import (
+    MASKINGS,
+    RecoveryRequest,
+    k_ceiling,
+    report_headers,
+    report_rows,
+    summary_text,
+)
+from imputer_app.gui.workers import TaskRunner
+from imputer_app.plan import FillPlan
+
+log = logging.getLogger(__name__)
+
+SPIN_WIDTH = 90
+NARROW_CHART = 760  # pixels; below this the legend goes under the chart
+IDLE_TEXT = "Run the recovery test to see how well each k recovers known values."
+CHART_FILTERS = "PNG image (*.png);;SVG drawing (*.svg)"
+
+
+class KTable(QTableView):
+    """Per-k numbers; Enter on a row asks to use that row's k."""
+
+    row_chosen = Signal(int)
+
+    def keyPressEvent(self, event: QKeyEvent) -> None:
+        """Enter or Return on a row emits :attr:`row_chosen`; other keys as usual."""
+        if event.key() in (Qt.Key.Key_Return, Qt.Key.Key_Enter) and self.currentIndex().isValid():
+            self.row_chosen.emit(self.currentIndex().row())
+            return
+        super().keyPressEvent(event)
+
+
+class RecoveryPanel(QWidget):
+    """Run the recovery test and choose k from its evidence.
+
+    Signals
+    -------
+    use_k(int)
+        The user chose a k (best, one-SE or a row of the table).
+    report_ready(RecoveryReport)
+        A test finished; the report is also in :attr:`report`.
+    """
+
+    use_k = Signal(int)
+    report_ready = Signal(object)
+
+    def __init__(self, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.setObjectName("recoveryPanel")
+        self.setAccessibleName("Recovery test")
+        self._data: Any = None
+        self._plan: FillPlan | None = None
+        self._report: Any = None
+        self._report_source: tuple[Any, FillPlan | None] = (None, None)
+        self._run_source: tuple[Any, FillPlan | None] = (None, None)
+        self._summary = IDLE_TEXT
+        self._busy = False
+        self._narrow = False
+        self.runner = TaskRunner(self)
+        self.runner.progressed.connect(self._on_progress)
+        self.runner.finished.connect(self._on_finished)
+        self.runner.failed.connect(self._on_failed)
+        self.runner.cancelled.connect(self._on_cancelled)
+        self._build()
+        self._set_running(False)
+        self._show_report(None)
+
+    # ------------------------------------------------------------------ building
+    def _name(self, widget: QWidget, name: str, accessible: str, tip: str) -> None:
+        widget.setObjectName(name)
+        widget.setAccessibleName(accessible)
+        widget.setToolTip(tip)
+
+    def _button(self, name: str, text: str, tip: str) -> QPushButton:
+        button = QPushButton(text, self)
+        self._name(button, name, text.replace("…", ""), tip)
+        button.setAutoDefault(True)  # Enter activates a focused button outside dialogs too
+        return button
+
+    def _build(self) -> None:
+        layout = QVBoxLayout(self)
+        layout.addWidget(self._build_settings())
+        layout.addLayout(self._build_run_row())
+        self.status = QLabel(self)
+        self._name(self.status, "recoveryStatus", "Recovery test message",
+                   "Messages about the last run (errors, stops, remarks)")
+        self.status.setWordWrap(True)
+        self.status_icon = QLabel(self)
+        self._name(self.status_icon, "recoveryStatusIcon", "Problem", "The last run did not finish")
+        self.status_icon.setPixmap(
+            self.style().standardIcon(QStyle.StandardPixmap.SP_MessageBoxWarning).pixmap(16, 16))
+        status_row = QHBoxLayout()
+        status_row.addWidget(self.status_icon)
+        status_row.addWidget(self.status, 1)
+        layout.addLayout(status_row)
+        self.summary = QLabel(self)
+        self._name(self.summary, "recoverySummary", "Recovery test summary",
+                   "Best k, the k the one-standard-error rule suggests, and the column-average baseline")
+        self.summary.setWordWrap(True)
+        self.summary.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        font = self.summary.font()
+        font.setBold(True)
+        self.summary.setFont(font)
+        layout.addWidget(self.summary)
+        layout.addWidget(self._build_results(), 1)
+        layout.addLayout(self._build_choice_row())
+        self._set_tab_order()
+
+    def _spin(self, box: QWidget, name: str, accessible: str, tip: str, low: int, high: int) -> QSpinBox:
+        spin = QSpinBox(box)
+        self._name(spin, name, accessible, tip)
+        spin.setRange(low, high)
+        spin.setMaximumWidth(SPIN_WIDTH)
+        return spin
+
+    def _build_settings(self) -> QGroupBox:
+        box = QGroupBox("Recovery test settings", self)
+        self._name(box, "recoverySettings", "Recovery test settings",
+                   "Hide known cells, fill them for every k and measure the error")
+        grid = QGridLayout(box)
+        self.hide_fraction = QDoubleSpinBox(box)
+        self._name(self.hide_fraction, "recoveryHideFraction", "Share of known cells to hide",
+                   "Share of each fill column's known cells hidden in each repeat (0.10 hides 10%)")
+        self.hide_fraction.setRange(0.01, 0.5)
+        self.hide_fraction.setSingleStep(0.01)
+        self.hide_fraction.setDecimals(2)
+        self.hide_fraction.setValue(0.1)
+        self.hide_fraction.setMaximumWidth(SPIN_WIDTH)
+        self.repeats = self._spin(box, "recoveryRepeats", "Repeats",
+                                  "How many times to hide a fresh set of cells; more repeats give "
+                                  "steadier errors and smaller standard errors", 1, 50)
+        self.repeats.setValue(5)
+        self.k_from = self._spin(box, "recoveryKFrom", "Smallest k", "Smallest number of donors to try", 1, 1)
+        self.k_to = self._spin(box, "recoveryKTo", "Largest k",
+                               "Largest number of donors to try (at most 100, and no more than "
+                               "the donors available)", 1, 1)
+        self.k_from.valueChanged.connect(lambda v: self.k_to.setValue(max(v, self.k_to.value())))
+        self.k_to.valueChanged.connect(lambda v: self.k_from.setValue(min(v, self.k_from.value())))
+        k_range = QHBoxLayout()
+        k_range.addWidget(self.k_from)
+        k_range.addWidget(self._buddy("t&o", self.k_to, box))
+        k_range.addWidget(self.k_to)
+        k_range.addStretch(1)
+        self.masking = QComboBox(box)
+        self._name(self.masking, "recoveryMasking", "Hiding style", "How the cells to hide are chosen")
+        for i, (value, label, tip) in enumerate(MASKINGS):
+            self.masking.addItem(label, value)
+            self.masking.setItemData(i, tip, Qt.ItemDataRole.ToolTipRole)
+        self.seed = self._spin(box, "recoverySeed", "Random seed",
+                               "Seed of the hiding: the same seed and settings give the same result",
+                               0, 2_147_483_647)
+        left = [("&Hide share:", self.hide_fraction), ("&Repeats:", self.repeats), ("S&eed:", self.seed)]
+        for row, (text, field) in enumerate(left):
+            grid.addWidget(self._buddy(text, field, box), row, 0)
+            grid.addWidget(field, row, 1)
+        grid.addWidget(self._buddy("&k from:", self.k_from, box), 0, 2)
+        grid.addLayout(k_range, 0, 3)
+        grid.addWidget(self._buddy("Hiding st&yle:", self.masking, box), 1, 2)
+        grid.addWidget(self.masking, 1, 3)
+        grid.setColumnStretch(3, 1)
+        grid.setColumnMinimumWidth(1, SPIN_WIDTH)
+        return box
+
+    @staticmethod
+    def _buddy(text: str, field: QWidget, parent: QWidget) -> QLabel:
+        label = QLabel(text, parent)
+        label.setBuddy(field)  # Alt + the underlined letter moves to the field
+        return label
+
+    def _build_run_row(self) -> QHBoxLayout:
+        row = QHBoxLayout()
+        self.run_button = self._button("recoveryRun", "&Run recovery test",
+                                       "Hide known cells, fill them for every k and score the error (Enter)")
+        self.run_button.clicked.connect(self.run)
+        self.cancel_button = self._button("recoveryCancel", "&Cancel",
+                                          "Stop the running test; the previous result is kept")
+        self.cancel_button.clicked.connect(self.cancel)
+        self.progress = QProgressBar(self)
+        self._name(self.progress, "recoveryProgress", "Recovery test progress",
+                   "Progress of the running test")
+        self.progress.setRange(0, 1)
+        self.progress.setValue(0)
+        row.addWidget(self.run_button)
+        row.addWidget(self.cancel_button)
+        row.addWidget(self.progress, 1)
+        return row
+
+    def _build_results(self) -> QSplitter:
+        splitter = QSplitter(Qt.Orientation.Vertical, self)
+        splitter.setObjectName("recoverySplitter")
+        self.chart_stack = QStackedWidget(splitter)
+        self.chart_stack.setObjectName("recoveryChartStack")
+        self.placeholder = QLabel(IDLE_TEXT, self.chart_stack)
+        self._name(self.placeholder, "recoveryPlaceholder", "No result yet", IDLE_TEXT)
+        self.placeholder.setAlignment(Qt.AlignmentFlag.AlignCenter)
+        self.placeholder.setWordWrap(True)
+        self.figure = Figure(figsize=(5, 3), layout="constrained")
+        self.canvas = FigureCanvasQTAgg(self.figure)
+        self._name(self.canvas, "recoveryChart", "Chart of error against k",
+                   "Error against k: overall and per column, with standard-error bars; "
+                   "the column average as a line; best k and one-SE k marked")
+        self.canvas.setFocusPolicy(Qt.FocusPolicy.NoFocus)
+        self.canvas.installEventFilter(self)
+        self.canvas.setMinimumHeight(180)
+        self.canvas.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Expanding)
+        self.chart_stack.addWidget(self.placeholder)
+        self.chart_stack.addWidget(self.canvas)
+        self.model = RecordsModel(parent=self)
+        self.table = KTable(splitter)
+        self._name(self.table, "recoveryTable", "Errors per k",
+                   "Error for every k and the column-average baseline; Enter or double-click uses that k")
+        self.table.setModel(self.model)
+        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
+        self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+        self.table.setTabKeyNavigation(False)
+        self.table.verticalHeader().setVisible(False)
+        self.table.verticalHeader().setDefaultSectionSize(self.fontMetrics().height() + 8)
+        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        self.table.row_chosen.connect(self._use_row)
+        self.table.doubleClicked.connect(lambda index: self._use_row(index.row()))
+        self.table.selectionModel().currentRowChanged.connect(lambda *_: self._update_choice_buttons())
+        splitter.addWidget(self.chart_stack)
+        splitter.addWidget(self.table)
+        splitter.setStretchFactor(0, 3)
+        splitter.setStretchFactor(1, 2)
+        return splitter
+
+    def _build_choice_row(self) -> QHBoxLayout:
+        row = QHBoxLayout()
+        self.use_best_button = self._button("recoveryUseBest", "Use &best k",
+                                            "Set k to the value with the lowest error")
+        self.use_best_button.clicked.connect(lambda: self._emit_k(self._report.best_k))
+        self.use_one_se_button = self._button(
+            "recoveryUseOneSe", "Use &one-SE k",
+            "Set k to the largest k whose error is within one standard error of the best "
+            "(a smoother fill that does about as well)")
+        self.use_one_se_button.clicked.connect(lambda: self._emit_k(self._report.best_k_1se))
+        self.use_selected_button = self._button("recoveryUseSelected", "Use &selected k",
+                                                "Set k to the k of the selected table row")
+        self.use_selected_button.clicked.connect(lambda: self._use_row(self.table.currentIndex().row()))
+        self.save_button = self._button("recoverySaveChart", "Sa&ve chart…",
+                                        "Save the chart as a PNG image or an SVG drawing")
+        self.save_button.clicked.connect(self.save_chart)
+        self.chart_columns = QComboBox(self)
+        self._name(self.chart_columns, "recoveryChartColumns", "Columns drawn in the chart",
+                   "Draw every fill column's own line, none, or one column beside the overall error")
+        self.chart_columns.currentIndexChanged.connect(self._redraw)
+        self.chart_columns.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToContents)
+        for button in (self.use_best_button, self.use_one_se_button, self.use_selected_button):
+            row.addWidget(button)
+        row.addStretch(1)
+        row.addWidget(self._buddy("C&hart shows:", self.chart_columns, self))
+        row.addWidget(self.chart_columns)
+        row.addWidget(self.save_button)
+        return row
+
+    def _set_tab_order(self) -> None:
+        chain = [self.hide_fraction, self.repeats, self.k_from, self.k_to, self.masking, self.seed,
+                 self.run_button, self.cancel_button, self.table, self.use_best_button,
+                 self.use_one_se_button, self.use_selected_button, self.chart_columns, self.save_button]
+        for first, second in itertools.pairwise(chain):
+            QWidget.setTabOrder(first, second)
+
+    # ------------------------------------------------------------------ API
+    def set_source(self, data: Any, plan: FillPlan) -> None:
+        """Set what to test: ``data`` (Sheet or DataFrame) filled by ``plan``.
+
+        The last report stays on screen; when it was made for other data or settings
+        (other than k), the panel says so. A running test is not interrupted.
+        """
+        self._data = data
+        self._plan = plan
+        ceiling = k_ceiling(data, plan) if data is not None else 1
+        for spin in (self.k_from, self.k_to):
+            spin.setMaximum(ceiling)
+        if self.k_to.value() <= 1 < ceiling:
+            self.k_to.setValue(min(20, ceiling))
+        self._update_stale_note()
+        self._set_running(self._busy)
+
+    @property
+    def report(self) -> Any:
+        """The latest :class:`~imputer_app.validation.RecoveryReport`, or None."""
+        return self._report
+
+    def request(self) -> RecoveryRequest:
+        """The test the controls describe."""
+        return RecoveryRequest(
+            hide_fraction=round(self.hide_fraction.value(), 4), repeats=self.repeats.value(),
+            k_from=self.k_from.value(), k_to=self.k_to.value(),
+            masking=str(self.masking.currentData()), seed=self.seed.value(),
+        )
+
+    def run(self) -> None:
+        """Start the recovery test in a worker thread (does nothing without a source)."""
+        if self._data is None or self._plan is None or self._busy:
+            return
+        self._run_source = (self._data, self._plan)
+        self._show_status("", problem=False)
+        self._set_running(True)
+        self.progress.setRange(0, 0)  # busy until the first progress report
+        # A run that just ended may still be winding its thread down; start() handles that.
+        self.runner.start(self.request().job(self._data, self._plan))
+
+    def cancel(self) -> None:
+        """Stop a running test; the previous report and everything else stay as they were."""
+        self.runner.cancel()
+
+    def shutdown(self, msecs: int = 10_000) -> bool:
+        """Cancel a running test and wait for its thread (call before the window closes)."""
+        return self.runner.wait(msecs)
+
+    def save_chart(self) -> Path | None:
+        """Ask for a file name and save the chart as PNG or SVG; return the path written."""
+        if self._report is None:
+            return None
+        name, chosen = QFileDialog.getSaveFileName(self, "Save chart", self._chart_name(), CHART_FILTERS)
+        if not name:
+            return None
+        path = Path(name)
+        if path.suffix.lower() not in (".png", ".svg"):
+            path = path.with_suffix(".svg" if "svg" in (chosen or "").lower() else ".png")
+        figure = Figure(figsize=(7, 4.5), layout="constrained")  # light, print-ready colours
+        try:
+            save_figure(draw_chart(self._report, figure, self.chart_columns.currentData()), path)
+        except (OSError, ValueError) as exc:
+            self._show_status(f"Could not save the chart to {path}: {exc}", problem=True)
+            return None
+        self._show_status(f"Chart saved to {path}.", problem=False)
+        return path
+
+    def _chart_name(self) -> str:
+        """Suggested file: beside the sheet, named after it (never the sheet itself)."""
+        source = getattr(getattr(self._data, "source", None), "path", None)
+        if source is None:
+            return "error_vs_k.png"
+        source = Path(source)
+        return str(source.with_name(f"{source.stem}.error_vs_k.png"))
+
+    # ------------------------------------------------------------------ runner
+    def _on_progress(self, done: int, total: int) -> None:
+        self.progress.setRange(0, max(1, total))
+        self.progress.setValue(min(done, max(1, total)))
+
+    def _on_finished(self, report: Any) -> None:
+        self._report = report
+        self._report_source = self._run_source
+        try:
+            self._show_report(report)
+        except Exception as exc:  # a drawing fault must not lose the report
+            log.exception("could not show the recovery report")
+            self._show_status(f"The test finished but could not be shown: {exc}", problem=True)
+        self._set_running(False, "finished")
+        self.report_ready.emit(report)
+
+    def _on_failed(self, message: str, details: str) -> None:
+        self._set_running(False, "failed")
+        if details:
+            log.error("recovery test failed:\n%s", details)
+        first_line = message.strip().splitlines()[0] if message.strip() else "unknown error"
+        self._show_status(f"Recovery test failed: {first_line}", problem=True)
+
+    def _on_cancelled(self) -> None:
+        self._set_running(False, "stopped")
+        self._show_status("Stopped. The previous result is kept.", problem=False)
+
+    def _set_running(self, running: bool, outcome: str = "") -> None:
+        """Lock the settings while a test runs; ``outcome`` labels the idle progress bar."""
+        self._busy = running
+        for widget in (self.hide_fraction, self.repeats, self.k_from, self.k_to, self.masking, self.seed):
+            widget.setEnabled(not running)
+        self.run_button.setEnabled(not running and self._data is not None)
+        self.cancel_button.setEnabled(running)
+        if running:
+            self.progress.setFormat("%p%")
+        elif outcome or self._report is None:
+            self.progress.setRange(0, 1)
+            self.progress.setValue(1 if outcome == "finished" else 0)
+            self.progress.setFormat(outcome or "not run yet")
+        self._update_choice_buttons()
+
+    # ------------------------------------------------------------------ showing
+    def _show_status(self, text: str, *, problem: bool) -> None:
+        self.status.setText(text)
+        self.status.setAccessibleDescription(text)
+        self.status.setVisible(bool(text))
+        self.status_icon.setVisible(problem and bool(text))
+
+    def _show_report(self, report: Any) -> None:
+        if report is None:
+            self.model.set_rows([], headers=["k"])
+            self._summary = IDLE_TEXT
+            self.chart_stack.setCurrentWidget(self.placeholder)
+            self._show_status("", problem=False)
+        else:
+            headers, tips = report_headers(report)
+            self.model.set_rows(report_rows(report), headers, tips)
+            self._summary = summary_text(report)
+            self._fill_chart_columns(report)
+            self._redraw()
+            self.chart_stack.setCurrentWidget(self.canvas)
+            best_row = list(report.overall.index).index(report.best_k)
+            self.table.setCurrentIndex(self.model.index(best_row, 0))
+            self.table.scrollTo(self.model.index(best_row, 0))
+            warnings = getattr(report, "warnings", ())
+            self._show_status("Note: " + "; ".join(warnings) if warnings else "", problem=False)
+        self.canvas.setAccessibleDescription(self._summary)
+        self._update_stale_note()
+        self._update_choice_buttons()
+
+    def _fill_chart_columns(self, report: Any) -> None:
+        kind = "number" if report.score_name == "score" else "category"
+        columns = [c for c, k in report.kinds.items() if k == kind]
+        self.chart_columns.blockSignals(True)
+        self.chart_columns.clear()
+        self.chart_columns.addItem("all columns", None)
+        self.chart_columns.addItem("overall only", ())
+        for column in columns:
+            self.chart_columns.addItem(column, (column,))
+        self.chart_columns.blockSignals(False)
+
+    def _redraw(self) -> None:
+        if self._report is None:
+            return
+        self._narrow = self.canvas.width() < NARROW_CHART
+        with palette_style(self.palette()):
+            fit_for_screen(draw_chart(self._report, self.figure, self.chart_columns.currentData()),
+                           narrow=self._narrow)
+        self.canvas.draw_idle()
+
+    def eventFilter(self, watched: QObject, event: QEvent) -> bool:
+        """Move the chart's legend below or beside the axes when the chart's width crosses a limit."""
+        if (watched is self.canvas and event.type() == QEvent.Type.Resize and self._report is not None
+                and (self.canvas.width() < NARROW_CHART) != self._narrow):
+            self._redraw()
+        return super().eventFilter(watched, event)
+
+    def _update_stale_note(self) -> None:
+        data, plan = self._report_source
+        stale = self._report is not None and (
+            data is not self._data or plan is None or self._plan is None
+            or plan.replace(k=self._plan.k) != self._plan
+        )
+        text = self._summary
+        if stale:
+            text += "\n(Made with other data or settings; run the test again to update.)"
+        self.summary.setText(text)
+        self.summary.setAccessibleDescription(text)
+        self.summary.setVisible(self._report is not None)
+
+    def _update_choice_buttons(self) -> None:
+        have = self._report is not None
+        if have:
+            self.use_best_button.setText(f"Use &best k ({self._report.best_k})")
+            self.use_one_se_button.setText(f"Use &one-SE k ({self._report.best_k_1se})")
+        else:
+            self.use_best_button.setText("Use &best k")
+            self.use_one_se_button.setText("Use &one-SE k")
+        self.use_best_button.setEnabled(have)
+        self.use_one_se_button.setEnabled(have)
+        self.use_selected_button.setEnabled(have and self._selected_k() is not None)
+        self.save_button.setEnabled(have)
+        self.chart_columns.setEnabled(have)
+
+    def _selected_k(self, row: int | None = None) -> int | None:
+        row = self.table.currentIndex().row() if row is None else row
+        if self._report is None or not 0 <= row < self.model.rowCount():
+            return None
+        value = self.model.index(row, 0).data(RAW_ROLE)
+        return int(value) if isinstance(value, int) else None
+
+    def _use_row(self, row: int) -> None:
+        k = self._selected_k(row)
+        if k is not None:
+            self._emit_k(k)
+
+    def _emit_k(self, k: int) -> None:
+        self._show_status(f"k set to {format_value(k)}.", problem=False)
+        self.use_k.emit(int(k))
+
+    def keyPressEvent(self, event: QKeyEvent) -> None:
+        """Enter in a settings field (spin boxes and combos pass it on) starts the test."""
+        if event.key() in (Qt.Key.Key_Return, Qt.Key.Key_Enter) and self.run_button.isEnabled():
+            self.run()
+            return
+        super().keyPressEvent(event)

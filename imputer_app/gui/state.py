@@ -1,0 +1,227 @@
+"""The app's session state, free of Qt so that it can be tested without a screen.
+
+A :class:`Session` holds what the user is working on: the sheet as read, the current
+plan, the latest recovery report, a preview fill (computed, not yet applied) and the
+history of applied fills with undo and redo.
+
+Every fill starts from the sheet as read, so filled values never act as donors for a
+later fill; applying a new fill replaces the one applied before (and Undo brings the
+earlier one back). The working table is therefore the sheet as read with the current
+applied fill's values written in.
+
+Widgets observe the session through :meth:`Session.subscribe`; they change it only
+through its methods, and redraw from it when told.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from imputer_app.plan import FillPlan
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+    from imputer_app.engine import FillResult
+    from imputer_app.sheets import Sheet
+
+#: Names of the changes a listener is told about.
+EVENTS = ("sheet", "plan", "report", "preview", "applied", "saved")
+
+Listener = Callable[[str], None]
+
+
+class SessionError(RuntimeError):
+    """A session method was called when it does not apply (a programming error)."""
+
+
+class Session:
+    """What the user is working on, with undo and redo of applied fills.
+
+    Examples
+    --------
+    >>> s = Session()
+    >>> s.has_sheet, s.can_undo, s.dirty
+    (False, False, False)
+    """
+
+    def __init__(self) -> None:
+        self.sheet: Sheet | None = None
+        self.path: Path | None = None
+        self.plan: FillPlan = FillPlan()
+        self.report: Any = None
+        self.preview: FillResult | None = None
+        # history[:position] are the applied fills; history[position:] can be redone.
+        self._history: list[FillResult] = []
+        self._position = 0
+        self._exported: FillResult | None = None
+        self._listeners: list[Listener] = []
+
+    # ---------------------------------------------------------------- observers
+    def subscribe(self, listener: Listener) -> None:
+        """Call ``listener(event)`` after every change; ``event`` is one of :data:`EVENTS`."""
+        self._listeners.append(listener)
+
+    def _emit(self, event: str) -> None:
+        for listener in list(self._listeners):
+            listener(event)
+
+    # ------------------------------------------------------------------ queries
+    @property
+    def has_sheet(self) -> bool:
+        """True once a sheet has been loaded."""
+        return self.sheet is not None
+
+    @property
+    def applied(self) -> FillResult | None:
+        """The fill currently applied to the working table (None: the sheet as read)."""
+        return self._history[self._position - 1] if self._position else None
+
+    @property
+    def working(self) -> pd.DataFrame:
+        """The working table: the sheet as read with the applied fill written in."""
+        if self.sheet is None:
+            raise SessionError("no sheet is loaded")
+        applied = self.applied
+        return applied.frame if applied is not None else self.sheet.frame
+
+    @property
+    def can_undo(self) -> bool:
+        """True when an applied fill can be taken back."""
+        return self._position > 0
+
+    @property
+    def can_redo(self) -> bool:
+        """True when a taken-back fill can be applied again."""
+        return self._position < len(self._history)
+
+    @property
+    def can_apply(self) -> bool:
+        """True when a preview waits to be applied."""
+        return self.preview is not None
+
+    @property
+    def dirty(self) -> bool:
+        """True when an applied fill has not been exported yet (closing would lose it)."""
+        applied = self.applied
+        return applied is not None and applied is not self._exported
+
+    # ------------------------------------------------------------------ changes
+    def load(self, sheet: Sheet, path: str | Path | None = None, plan: FillPlan | None = None) -> None:
+        """Start a new session on ``sheet``; forgets preview, report and history.
+
+        Parameters
+        ----------
+        sheet : Sheet
+            The sheet as read.
+        path : str or Path, optional
+            Where it came from (defaults to ``sheet.source.path``).
+        plan : FillPlan, optional
+            The plan to start with (default: the current plan's column-free settings).
+        """
+        self.sheet = sheet
+        self.path = Path(path) if path is not None else Path(sheet.source.path)
+        self.plan = plan if plan is not None else column_free(self.plan)
+        self.report = None
+        self.preview = None
+        self._history.clear()
+        self._position = 0
+        self._exported = None
+        self._emit("sheet")
+
+    def set_plan(self, plan: FillPlan) -> None:
+        """Use ``plan`` from now on; a preview made with another plan is dropped."""
+        if plan == self.plan:
+            return
+        self.plan = plan
+        if self.preview is not None:
+            self.preview = None
+            self._emit("preview")
+        self._emit("plan")
+
+    def set_report(self, report: Any) -> None:
+        """Keep the latest recovery report (passed to the export)."""
+        self.report = report
+        self._emit("report")
+
+    def set_preview(self, result: FillResult | None) -> None:
+        """Show ``result`` as a preview layer; nothing in the working table changes."""
+        self._require_sheet()
+        self.preview = result
+        self._emit("preview")
+
+    def apply(self) -> FillResult:
+        """Make the preview the applied fill; redo history beyond this point is dropped."""
+        if self.preview is None:
+            raise SessionError("there is no preview to apply")
+        result = self.preview
+        del self._history[self._position :]
+        self._history.append(result)
+        self._position += 1
+        self.preview = None
+        self._emit("preview")
+        self._emit("applied")
+        return result
+
+    def undo(self) -> None:
+        """Take back the last applied fill (the one before it, if any, is shown again)."""
+        if not self.can_undo:
+            raise SessionError("nothing to undo")
+        self._position -= 1
+        self._emit("applied")
+
+    def redo(self) -> None:
+        """Apply again the fill last taken back."""
+        if not self.can_redo:
+            raise SessionError("nothing to redo")
+        self._position += 1
+        self._emit("applied")
+
+    def mark_exported(self) -> None:
+        """Record that the applied fill has been written out (no longer dirty)."""
+        self._exported = self.applied
+        self._emit("saved")
+
+    def _require_sheet(self) -> None:
+        if self.sheet is None:
+            raise SessionError("no sheet is loaded")
+
+
+def column_free(plan: FillPlan) -> FillPlan:
+    """Return ``plan`` without any setting that names a column.
+
+    Used to carry the general options (k, scaling, rules) from one sheet to the next.
+    """
+    return plan.replace(
+        similarity_columns=None,
+        fill_columns=None,
+        carried_columns=(),
+        weights={},
+        group_column=None,
+        bounds={},
+        decimals={},
+        kinds={},
+    )
+
+
+def default_export_path(source: str | Path) -> Path:
+    """Return ``<folder>/<stem>.filled.xlsx`` next to ``source``.
+
+    >>> default_export_path("/data/river.csv").name
+    'river.filled.xlsx'
+    """
+    source = Path(source)
+    return source.with_name(f"{source.stem}.filled.xlsx")
+
+
+def same_file(a: str | Path, b: str | Path) -> bool:
+    """True when ``a`` and ``b`` name the same file (after resolving links)."""
+    pa, pb = Path(a), Path(b)
+    try:
+        if pa.exists() and pb.exists():
+            return pa.samefile(pb)
+    except OSError:
+        pass
+    return pa.resolve() == pb.resolve()
