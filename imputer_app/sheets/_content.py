@@ -225,7 +225,9 @@ def _layout(sheet: Sheet | None, frame: pd.DataFrame, has_units: bool) -> Layout
         header = int(sheet.source.header_row)
         first = int(frame.index[0])
         units = (sheet.source.units_row or header + 1) if has_units else None
-        if header < first and (units is None or header < units < first):
+        # header_row 0 means the file had no header row: there is no row above the data
+        # to put the names in, so fall back to the compact layout below.
+        if 1 <= header < first and (units is None or header < units < first):
             return Layout(header, units, frame.index.to_numpy(dtype=np.int64), True)
     units = 2 if has_units else None
     first_data = 3 if has_units else 2

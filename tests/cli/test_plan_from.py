@@ -111,3 +111,18 @@ def test_options_override_the_plan(base: FillPlan, options: dict[str, Any], expe
 def test_bad_options_are_plan_errors(options: dict[str, Any], words: str) -> None:
     with pytest.raises(PlanError, match=words):
         build_plan(FillPlan(), **options)
+
+
+def test_xlsx_export_keeps_the_exact_plan_even_for_awkward_names(tmp_path: Path) -> None:
+    # Names holding "; " or "=" cannot be parsed back from the readable rows, so the
+    # "About this fill" sheet also carries the plan as JSON, which --plan-from prefers.
+    import pandas as pd
+
+    from imputer_app.engine import impute
+    from imputer_app.sheets import write_result
+
+    frame = pd.DataFrame({"a; b": [1.0, 2.0, None, 4.0], "x=y": [1.0, 2.0, 3.0, 4.0]})
+    plan = FillPlan(k=2, weights={"a; b": 2.0, "x=y": 0.5}, bounds={"a; b": (0.0, None)})
+    export = tmp_path / "awkward.xlsx"
+    write_result(export, None, impute(frame, plan), plan)
+    assert plan_from_export(export) == plan

@@ -140,3 +140,21 @@ def test_recovery_test_sheet_with_the_real_chart(tmp_path) -> None:
     assert recovery["chosen k (used for this fill)"] == report.best_k
     assert recovery["best k (lowest mean error)"] == report.best_k
     assert recovery["k by the one-standard-error rule"] == report.best_k_1se
+
+
+def test_sheet_read_without_a_header_row_exports_names_above_the_data(tmp_path) -> None:
+    # header_row=0 means "no header row": the export must still put the generated
+    # names in row 1 and never try to write a row 0 (ECMA-376 rows start at 1).
+    source = tmp_path / "bare.csv"
+    source.write_text("1.0,2.0\n2.0,\n3.0,6.0\n4.0,8.0\n", encoding="utf-8")
+    sheet = read_sheet(source, header_row=0)
+    plan = FillPlan(k=2, scaling="none")
+    result = impute(sheet, plan)
+    target = tmp_path / "bare.filled.xlsx"
+    write_result(target, sheet, result, plan)
+    cells = openpyxl_cells(target, "Filled")
+    assert cells[(1, 1)] == sheet.frame.columns[0]
+    assert [cells[(r, 1)] for r in range(2, 6)] == [1.0, 2.0, 3.0, 4.0]
+    # Row 2 of the file (value 2.0) gets the mean of its two nearest donors' second column.
+    assert cells[(3, 2)] == pytest.approx((2.0 + 6.0) / 2)
+    assert calamine_cells(target, "Filled")[(3, 2)] == pytest.approx(4.0)
