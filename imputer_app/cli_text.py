@@ -48,8 +48,21 @@ def fill_summary(source: Path, result: Any, written: Sequence[Path]) -> str:
                 lines.append(f"censored entries stood in by {words}: {count} (flagged as censored)")
     lines.extend(_unfilled_lines(result.unfilled))
     lines.append("wrote:")
-    lines.extend(f"  {path}" for path in written)
+    lines.extend(f"  {path}{_what_it_holds(path)}" for path in written)
+    lines.append("Filled values are estimates, not measurements (see the cautions in the export).")
     return "\n".join(lines)
+
+
+def _what_it_holds(path: Path) -> str:
+    """Say where the cleaned table and its fill log are, so nobody has to guess."""
+    name = path.name
+    if name.endswith(".xlsx"):
+        return '  (cleaned sheet "Filled", fill log in sheet "Fill log", run record in "About this fill")'
+    for suffix, words in ((".fill-log.csv", "fill log"), (".run.json", "run record"),
+                          (".not-filled.csv", "cells left empty, with reasons")):
+        if name.endswith(suffix):
+            return f"  ({words})"
+    return "  (cleaned table)"
 
 
 def listing(items: Sequence[str], limit: int = 10) -> str:
