@@ -11,10 +11,11 @@ flat (one row per target cell, sorted by column then row) and handed out per col
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Iterator, Mapping
 from concurrent.futures import ThreadPoolExecutor
 from contextlib import AbstractContextManager, nullcontext
 from dataclasses import dataclass, field
+from itertools import repeat
 
 import numpy as np
 from numpy.typing import NDArray
@@ -188,18 +189,18 @@ def nearest_donors(
     active = np.flatnonzero(want.any(axis=0) & ok.any(axis=0))
     steps = 1
     if len(active):
-        with _one_blas_thread():
-            search = BlockSearch(DistanceModel(table.features), table.groups, budget)
-            steps = _Jobs(search, want, ok, kmax, active).run(cells, progress, cancel)
+        search = BlockSearch(DistanceModel(table.features), table.groups, budget)
+        steps = _Jobs(search, want, ok, kmax, active).run(cells, progress, cancel)
     report(progress, steps, steps)
     return cells.split(names)
 
 
 def _one_blas_thread() -> AbstractContextManager[object]:
-    """Run BLAS on one thread during the search.
+    """Run BLAS on one thread while worker threads search chunks side by side.
 
-    The search alternates many modest matrix products with numpy work; idle BLAS threads
-    spinning between products slow that work down, by 2-3x on a busy two-core machine.
+    Each worker alternates modest matrix products with numpy work; BLAS threads of their
+    own would compete with the workers (and, idle between products, spin on the cores:
+    measured 2-3x slower on a busy two-core machine).
     """
     try:
         from threadpoolctl import threadpool_limits  # installed with scikit-learn
@@ -236,30 +237,60 @@ class _Jobs:
             jobs.append((self.dense, np.flatnonzero(self.want[:, self.dense].any(axis=1))))
         jobs += [(np.array([j]), np.flatnonzero(self.want[:, j])) for j in self.sparse]
         # candidate factors are copied one job at a time (a job per sparse column adds up)
-        sizes = [self.search.sizes(int(self.ok[:, cols].any(axis=1).sum())) for cols, _ in jobs]
+        sizes = [self._sizes(cols, rows) for cols, rows in jobs]
         total = sum(
             max(1, math.ceil(len(rows) / size[0])) for (_, rows), size in zip(jobs, sizes, strict=True)
         )
-        done = 0
         short: list[tuple[IntArray, IntArray]] = []
-        with ThreadPoolExecutor(max_workers=WORKERS) as pool:
-            for (cols, rows), (chunk, tile) in zip(jobs, sizes, strict=True):
-                cand = self._candidates(cols)
-                length = self._list_size(cols, cand)
-                # chunks run on the workers (numpy and BLAS release the GIL); results are taken in order
-                found = pool.map(lambda part: (part, self.search.nearest(part, cand, length, tile, cancel)),
-                                 chunks(rows, chunk))  # fmt: skip
-                for part, best in found:
-                    miss = self._take(cells, cols, part, best)
-                    if length < len(cand) and len(miss[0]):
-                        short.append(miss)
-                    done += 1
-                    report(progress, done, total + 1)
-        if short:
-            self._exact(
-                cells, np.concatenate([s[0] for s in short]), np.concatenate([s[1] for s in short]), cancel
-            )
+        with _one_blas_thread():
+            pool = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="kinfill-search")
+            try:
+                done = 0
+                for (cols, rows), (chunk, tile) in zip(jobs, sizes, strict=True):
+                    for miss in self._search_job(pool, cells, cols, rows, chunk, tile, cancel):
+                        short += [miss] if len(miss[0]) else []
+                        done += 1
+                        report(progress, done, total + 1)
+            finally:  # on an error or a cancel, chunks not started are dropped
+                pool.shutdown(wait=True, cancel_futures=True)
+            if short:
+                col, row = (np.concatenate(a) for a in zip(*short, strict=True))
+                self._exact(cells, col, row, cancel)
         return total + 1
+
+    def _sizes(self, cols: IntArray, rows: IntArray) -> tuple[int, int]:
+        """Rows per chunk and candidates per tile; at least one chunk per worker when rows allow."""
+        chunk, tile = self.search.sizes(int(self.ok[:, cols].any(axis=1).sum()))
+        if len(rows) >= 32 * WORKERS:
+            chunk = min(chunk, math.ceil(len(rows) / WORKERS))
+        return chunk, tile
+
+    def _search_job(
+        self,
+        pool: ThreadPoolExecutor,
+        cells: _Cells,
+        cols: IntArray,
+        rows: IntArray,
+        chunk: int,
+        tile: int,
+        cancel: CancelFlag | None,
+    ) -> Iterator[tuple[IntArray, IntArray]]:
+        """Search ``rows`` for the columns ``cols`` chunk by chunk; yield each chunk's short cells.
+
+        Chunks are searched on the pool's threads (numpy and BLAS release the GIL) and
+        taken in order here.
+        """
+        cand = self._candidates(cols)
+        length = self._list_size(cols, cand)
+        parts = list(chunks(rows, chunk))
+        found = pool.map(
+            self.search.nearest, parts, repeat(cand), repeat(length), repeat(tile), repeat(cancel)
+        )
+        for part, best in zip(parts, found, strict=True):
+            miss = self._take(cells, cols, part, best)
+            if length >= len(cand):  # every candidate was kept: nothing more to find
+                miss = (miss[0][:0], miss[1][:0])
+            yield miss
 
     def _take(
         self, cells: _Cells, cols: IntArray, part: IntArray, best: tuple[IntArray, FloatArray]
