@@ -12,6 +12,7 @@ saved from the app and run here gives the same export. Exit codes:
 from __future__ import annotations
 
 import argparse
+import contextlib
 import importlib
 import json
 import os
@@ -313,6 +314,12 @@ def main(argv: Sequence[str] | None = None) -> int:
     except (Cancelled, KeyboardInterrupt):
         print(f"{prog}: stopped; nothing written", file=sys.stderr)
         return EXIT_STOPPED
+    except BrokenPipeError:
+        # The reader of our output (e.g. `| head`) went away; the work itself is done.
+        # Point stdout at nothing so the interpreter's final flush cannot fail again.
+        with contextlib.suppress(OSError, ValueError, AttributeError):
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return EXIT_OK
     except Exception as exc:
         if debug:
             traceback.print_exc()
@@ -339,6 +346,7 @@ def run_fill(args: argparse.Namespace) -> int:
     from imputer_app.sheets import write_result
 
     sidecars = _sidecars(out)
+    _refuse_input(sidecars, source)
     _refuse_overwrite(sidecars, args.force)
     old_sidecars = [p for p in sidecars if p.exists()]
     bar = TextProgress(sys.stderr)
@@ -351,7 +359,7 @@ def run_fill(args: argparse.Namespace) -> int:
         bar.done()
     _print_notes(sheet.problems, result.warnings)
     print(fill_summary(source, result, written))
-    _remove_stale(old_sidecars, written)
+    _remove_stale(old_sidecars, written, source)
     return EXIT_OK
 
 
@@ -359,6 +367,7 @@ def run_score_k(args: argparse.Namespace) -> int:
     """``kinfill score-k``: run the recovery test and print the per-k table."""
     source = _existing_input(args.input)
     outputs = [p for p in (args.json, args.plot) if p is not None]
+    _refuse_input(outputs, source)
     _refuse_overwrite(outputs, args.force)
     if args.plot is not None and args.plot.suffix.lower() not in (".png", ".svg"):
         raise UsageError(f"--plot must end in .png or .svg; got {args.plot.name}")
@@ -385,7 +394,7 @@ def run_score_k(args: argparse.Namespace) -> int:
     _print_notes(sheet.problems, getattr(report, "warnings", ()))
     print(recovery_table(report))
     if args.json is not None:
-        _write_text(args.json, json.dumps(report.to_dict(), indent=2, ensure_ascii=False) + "\n")
+        _write_text(args.json, json.dumps(_score_record(report, sheet), indent=2, ensure_ascii=False) + "\n")
         print(f"wrote {args.json}")
     if args.plot is not None:
         _write_plot(report, args.plot)
@@ -397,6 +406,7 @@ def run_plan(args: argparse.Namespace) -> int:
     """``kinfill plan``: write the plan Kinfill would use for a sheet, roles spelled out."""
     source = _existing_input(args.input)
     out: Path = args.out if args.out is not None else source.with_name(source.stem + PLAN_SUFFIX)
+    _refuse_input([out], source)
     _refuse_overwrite([out], args.force)
     plan = plan_for(args)
     from imputer_app.engine import prepare
@@ -488,7 +498,7 @@ def _fill_output(source: Path, out: Path | None) -> Path:
     target = out if out is not None else source.with_name(source.stem + ".filled.xlsx")
     if target.suffix.lower() not in OUTPUT_SUFFIXES:
         raise UsageError(f"--out must end in {' or '.join(OUTPUT_SUFFIXES)}; got {target.name}")
-    if target.resolve() == source.resolve():
+    if _same_file(target, source):
         raise UsageError(f"--out is the input file {source.name}; Kinfill never overwrites its input")
     if not target.parent.is_dir():
         raise UsageError(f"folder not found for --out: {target.parent}")
@@ -504,12 +514,32 @@ def _sidecars(out: Path) -> list[Path]:
     return [p for p in side_files(out, with_unfilled=True).values() if p != out]
 
 
-def _remove_stale(old_sidecars: Sequence[Path], written: Sequence[Path]) -> None:
+def _remove_stale(old_sidecars: Sequence[Path], written: Sequence[Path], source: Path) -> None:
     """Remove side files of an earlier export (replaced with --force) that this one lacks."""
     for path in old_sidecars:
-        if path not in written and path.exists():
+        if path not in written and path.exists() and not _same_file(path, source):
             path.unlink()
             print(f"removed {path} (left over from an earlier export)")
+
+
+def _same_file(path: Path, source: Path) -> bool:
+    """True when ``path`` names ``source`` (also through a link or another spelling)."""
+    if path.resolve() == source.resolve():
+        return True
+    try:
+        return path.exists() and os.path.samefile(path, source)
+    except OSError:
+        return False
+
+
+def _refuse_input(paths: Sequence[Path], source: Path) -> None:
+    """Refuse any output that is the input sheet: --force replaces outputs, never the input."""
+    for path in paths:
+        if _same_file(path, source):
+            raise UsageError(
+                f"{path.name} would replace the input file {source.name}; "
+                "Kinfill never overwrites its input, choose another name"
+            )
 
 
 def _refuse_overwrite(paths: Sequence[Path], force: bool) -> None:
@@ -517,6 +547,20 @@ def _refuse_overwrite(paths: Sequence[Path], force: bool) -> None:
     if existing and not force:
         names = ", ".join(str(p) for p in existing)
         raise UsageError(f"{names} already exist{'s' if len(existing) == 1 else ''}; add --force to replace")
+
+
+def _score_record(report: Any, sheet: Sheet) -> dict[str, Any]:
+    """The recovery report as JSON, with the input it was run on and the cautions."""
+    from imputer_app import CAUTIONS
+
+    source = sheet.source
+    given = {
+        "file": source.path.name,
+        "sha256": source.sha256,
+        "sheet": source.sheet,
+        "header_row": source.header_row,
+    }
+    return {"input": given, **report.to_dict(), "cautions": CAUTIONS}
 
 
 def _write_text(path: Path, text: str) -> None:

@@ -42,6 +42,7 @@ def fill_summary(source: Path, result: Any, written: Sequence[Path]) -> str:
         means = int((log["method"] == "column_mean").sum())
         if means:
             lines.append(f"  {means} of them with the column mean (no donor)")
+        lines.extend(_censored_fill_lines(log))
         for method, words in SUBSTITUTIONS.items():
             count = int((log["method"] == method).sum())
             if count:
@@ -51,6 +52,30 @@ def fill_summary(source: Path, result: Any, written: Sequence[Path]) -> str:
     lines.extend(f"  {path}{_what_it_holds(path)}" for path in written)
     lines.append("Filled values are estimates, not measurements (see the cautions in the export).")
     return "\n".join(lines)
+
+
+def _censored_fill_lines(log: Any) -> list[str]:
+    """Count censored entries that kNN filled: they are in "filled" but are not gaps.
+
+    A below-limit entry of unknown limit ("< LOD" with no limit column) gets a kNN value
+    from measured donors with no cap, so it deserves a look before use.
+    """
+    if "original_state" not in log.columns:
+        return []
+    censored = log["original_state"] == "censored"
+    capped = int((censored & (log["method"] == "knn_capped")).sum())
+    uncapped = int((censored & (log["method"] == "knn")).sum())
+    lines = []
+    if capped:
+        lines.append(
+            f"  of them censored entries filled by kNN, capped at their limit: {capped} (flagged as censored)"
+        )
+    if uncapped:
+        lines.append(
+            f"  of them censored entries of unknown limit filled by kNN, no cap: {uncapped} "
+            "(flagged as censored)"
+        )
+    return lines
 
 
 def _what_it_holds(path: Path) -> str:
@@ -121,6 +146,11 @@ def recovery_table(report: Any) -> str:
         lines.append(text + ("  <- " + ", ".join(marks) if marks else ""))
     lines.append(_baseline_line(report.baseline, show_numbers, show_categories))
     lines.append(f"best k: {report.best_k}    one-SE k: {report.best_k_1se}")
+    if show_numbers and _no_k_beats_average(overall, report.baseline):
+        lines.append(
+            "warning: no k tested beats the column average here; the neighbours add nothing "
+            "(check the similarity columns and weights)"
+        )
     by_column = listing([f"{col} {k}" for col, k in report.best_k_by_column.items()])
     if by_column:
         lines.append(f"best k by column: {by_column}")
@@ -136,6 +166,13 @@ def _baseline_line(baseline: Any, show_numbers: bool, show_categories: bool) -> 
     if show_categories:
         text += f"  {_num(_get(row, 'category_error'), 10)}  {'':>7}"
     return text + "  <- column average (no kNN)"
+
+
+def _no_k_beats_average(overall: Any, baseline: Any) -> bool:
+    """True when the column-average NRMSE is at or below every k's NRMSE."""
+    average = _get(baseline.loc["overall"] if "overall" in baseline.index else None, "score")
+    scores = [float(v) for v in overall["score"] if math.isfinite(float(v))]
+    return math.isfinite(average) and bool(scores) and min(scores) >= average
 
 
 def _get(row: Any, key: str) -> float:

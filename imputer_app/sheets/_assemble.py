@@ -119,6 +119,10 @@ def assemble(
         frame = _cell_notes(column, built, rows)
         if not frame.empty:
             note_frames.append(frame)
+        if found.kind == "empty":
+            problems.append(
+                f"column '{column.name}' holds no value (every cell is blank or a missing marker)"
+            )
         problems += _cell_problems(column, found.kind, frame, workbook)
     cell_notes = (
         pd.concat(note_frames, ignore_index=True) if note_frames else pd.DataFrame(columns=list(NOTE_COLUMNS))
@@ -207,7 +211,7 @@ def _cell_problems(column: Column, kind: str, notes: pd.DataFrame, workbook: boo
     for row, text in zip(bad["row"].head(MAX_LISTED), bad["text"].head(MAX_LISTED), strict=True):
         cell = f" (cell {letter}{row})" if workbook else ""
         problems.append(
-            f"'{column.name}' row {row}{cell}: '{text}' is not {what}; the cell is left empty "
+            f"'{column.name}' row {row}{cell}: '{text}' is not {what}; it is read as a gap "
             "and marked text_in_number"
         )
     if len(bad) > MAX_LISTED:

@@ -7,7 +7,9 @@ Detection, on the cells that are neither blank nor a missing marker:
 - ``number``: at least half are numbers or censored entries (the rest become
   ``text_in_number`` cells, each reported), unless most are whole numbers written with
   leading zeros ("007"), which are codes;
-- ``identifier``: text whose values are all different (at least 3 of them);
+- ``identifier``: text whose values are all different (at least 3 of them), or a running
+  number (1, 2, 3, ... with no gap, at least 10 rows), which counts samples rather
+  than measures them;
 - ``category``: any other text.
 """
 
@@ -28,6 +30,8 @@ OBSERVED, MISSING, CENSORED_STATE, TEXT_IN_NUMBER = range(4)
 DATE_SHARE = 0.8
 NUMBER_SHARE = 0.5
 MIN_IDENTIFIER_VALUES = 3
+#: Rows a 1, 2, 3, ... column needs before it is taken for a sample counter, not a measure.
+MIN_RUNNING_ROWS = 10
 
 #: Text date formats tried in this order; the first that reads the most cells wins.
 DATE_FORMATS: tuple[tuple[str, str], ...] = (
@@ -82,6 +86,9 @@ def detect_kind(parsed: ParsedColumn) -> Detected:
             return Detected("date", fmt, f"dates written as text read as {words}" if fmt else None)
     codes = numeric >= NUMBER_SHARE * total and _zero_padded(parsed)
     if numeric and numeric >= NUMBER_SHARE * total and not codes:
+        if _running_number(parsed):
+            # A sample counter (1, 2, 3, ...) says nothing about how similar samples are.
+            return Detected("identifier", None, "a running number (each row one more) read as an identifier")
         return Detected("number")
     note = "numbers written with leading zeros (such as 007) read as codes" if codes else None
     labels = category_text(parsed)
@@ -89,6 +96,17 @@ def detect_kind(parsed: ParsedColumn) -> Detected:
     if values.size >= MIN_IDENTIFIER_VALUES and pd.unique(values).size == values.size:
         return Detected("identifier", None, note)
     return Detected("category", None, note)
+
+
+def _running_number(parsed: ParsedColumn) -> bool:
+    """True when every cell is a whole number and each row's is one more than the last."""
+    values = parsed.number
+    return bool(
+        values.size >= MIN_RUNNING_ROWS
+        and (parsed.cls == NUMBER).all()
+        and np.array_equal(values, np.round(values))
+        and np.array_equal(np.diff(values), np.ones(values.size - 1))
+    )
 
 
 def _zero_padded(parsed: ParsedColumn) -> bool:

@@ -148,7 +148,7 @@ def test_text_in_number_column_is_reported(tmp_path: Path, cell: str) -> None:
     assert notes[["state", "text"]].values.tolist() == [["text_in_number", cell]]
     problems = read_sheet(tmp_path / "cell.csv").problems
     assert problems == [
-        f"'x' row 6: '{cell}' is not a number; the cell is left empty and marked text_in_number"
+        f"'x' row 6: '{cell}' is not a number; it is read as a gap and marked text_in_number"
     ]
 
 

@@ -153,7 +153,7 @@ def test_cell_notes_and_problems(tmp_path: Path, writer: str) -> None:
     assert (note(sheet, 6, "pH")["state"], note(sheet, 6, "pH")["text"]) == (M, "n.d.")
     text_problem = [p for p in sheet.problems if "broken vial" in p]
     assert text_problem == [
-        "'conductivity' row 8 (cell G8): 'broken vial' is not a number; the cell is left empty "
+        "'conductivity' row 8 (cell G8): 'broken vial' is not a number; it is read as a gap "
         "and marked text_in_number"
     ]
     assert any("'nitrate': 1 censored cell(s) such as 'below LOD'" in p for p in sheet.problems)
