@@ -154,8 +154,8 @@ def support_words(support: str, nearest: float, threshold: float) -> str:
         )
     if support == "ok":
         return (
-            f"Ordinary support: the nearest donor is at distance {near}, within the nearest-donor "
-            f"distances of 95% of the cells filled in this sheet (threshold {limit})."
+            f"Ordinary support: the nearest donor is at distance {near}, under the threshold "
+            f"{limit} that only 5% of the cells filled in this sheet exceed."
         )
     return "Not applicable: this value was not taken from donors."
 

@@ -20,7 +20,6 @@ from PySide6.QtWidgets import (
     QFormLayout,
     QGroupBox,
     QHeaderView,
-    QLabel,
     QLineEdit,
     QSpinBox,
     QTableView,
@@ -37,6 +36,7 @@ from imputer_app.gui.setup_model import (
     choices_from_plan,
     plan_from_choices,
 )
+from imputer_app.gui.widgets import buddy, compact, named, row_height, text_label
 from imputer_app.plan import FillPlan
 
 if TYPE_CHECKING:
@@ -102,15 +102,14 @@ class ColumnSetup(QWidget):
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
         self.model = ColumnListModel(self)
-        self.table = QTableView(self)
-        _name(
-            self.table, "setupTable", "Columns of the sheet", "Select one or more columns to set them below."
-        )
+        self.table = named(QTableView(self), "setupTable", "Columns of the sheet",
+                           "Select one or more columns to set them below.")
         self.table.setModel(self.model)
         self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.ExtendedSelection)
         self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
         self.table.verticalHeader().hide()
+        self.table.verticalHeader().setDefaultSectionSize(row_height(self))
         self.table.setTabKeyNavigation(False)
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
         self.table.horizontalHeader().setStretchLastSection(True)
@@ -118,36 +117,31 @@ class ColumnSetup(QWidget):
         layout.addWidget(self.table, 3)
         layout.addWidget(self._build_column_box())
         layout.addWidget(self._build_fill_box())
-        self.message = QLabel(self)
-        _name(self.message, "setupMessage", "Setup problem", "Why the settings cannot be used as they are.")
-        self.message.setWordWrap(True)
+        self.message = text_label(self, "setupMessage", "Setup problem",
+                                  "Why the settings cannot be used as they are.")
         layout.addWidget(self.message)
         chain = self.focus_chain()
         for first, second in itertools.pairwise(chain):
             QWidget.setTabOrder(first, second)
 
+    # Every Alt+letter of the window has one owner: the menus (F, E, I, V, H), the tabs
+    # (R, D, N) and the recovery panel (T, C, B, O, P, M, Y) keep theirs; fields left
+    # without one are reached with Tab.
     def _build_column_box(self) -> QGroupBox:
-        box = QGroupBox("Selected column", self)
-        _name(box, "columnBox", "Selected column settings", "Settings of the column(s) selected above.")
+        box = named(QGroupBox("Selected column", self), "columnBox", "Selected column settings",
+                    "Settings of the column(s) selected above.")
         self.column_box = box
         form = QFormLayout(box)
-        self.role_combo = QComboBox(box)
-        _name(self.role_combo, "roleCombo", "Role", "What the selected column(s) do in the fill.")
+        self.role_combo = _combo(box, "roleCombo", "Role", "What the selected column(s) do in the fill.")
         for key, (label, tip) in ROLES.items():
             self.role_combo.addItem(label, key)
             self.role_combo.setItemData(self.role_combo.count() - 1, tip, Qt.ItemDataRole.ToolTipRole)
-        self.kind_combo = QComboBox(box)
-        _name(self.kind_combo, "kindCombo", "Kind", "Treat the column as numbers or as categories.")
+        self.kind_combo = _combo(box, "kindCombo", "Kind", "Treat the column as numbers or as categories.")
         self.kind_combo.addItem("as read", None)
         self.kind_combo.addItem("number", "number")
         self.kind_combo.addItem("category", "category")
-        self.weight_spin = QDoubleSpinBox(box)
-        _name(
-            self.weight_spin,
-            "weightSpin",
-            "Weight",
-            "How much the column counts towards similarity; 0 leaves it out.",
-        )
+        self.weight_spin = named(QDoubleSpinBox(box), "weightSpin", "Weight",
+                                 "How much the column counts towards similarity; 0 leaves it out.")
         self.weight_spin.setRange(0.0, 10.0)
         self.weight_spin.setSingleStep(0.5)
         self.weight_spin.setDecimals(1)
@@ -157,20 +151,20 @@ class ColumnSetup(QWidget):
         self.upper_edit = _bound_edit(
             box, "upperEdit", "Upper bound", "Filled numbers never go above this (empty: no bound)."
         )
-        self.decimals_spin = QSpinBox(box)
-        _name(self.decimals_spin, "decimalsSpin", "Decimals", "Round filled numbers to this many decimals.")
+        self.decimals_spin = named(QSpinBox(box), "decimalsSpin", "Decimals",
+                                   "Round filled numbers to this many decimals.")
         self.decimals_spin.setRange(-1, 15)
         self.decimals_spin.setSpecialValueText("as computed")
         self.decimals_spin.setValue(-1)
         for label, widget in (
-            ("&Role", self.role_combo),
-            ("&Kind", self.kind_combo),
+            ("Ro&le", self.role_combo),
+            ("Kind", self.kind_combo),
             ("&Weight", self.weight_spin),
-            ("&Lower bound", self.lower_edit),
+            ("Lower bound", self.lower_edit),
             ("&Upper bound", self.upper_edit),
-            ("&Decimals", self.decimals_spin),
+            ("Decimals", self.decimals_spin),
         ):
-            form.addRow(_buddy(label, widget, box), widget)
+            form.addRow(buddy(label, widget, box), widget)
         self.role_combo.activated.connect(lambda _i: self._edit_selected(role=self.role_combo.currentData()))
         self.kind_combo.activated.connect(lambda _i: self._edit_selected(kind=self.kind_combo.currentData()))
         self.weight_spin.valueChanged.connect(lambda v: self._edit_selected(weight=float(v)))
@@ -182,40 +176,34 @@ class ColumnSetup(QWidget):
         return box
 
     def _build_fill_box(self) -> QGroupBox:
-        box = QGroupBox("Fill settings", self)
-        _name(box, "fillBox", "Fill settings", "How donors are found and how their values are combined.")
+        box = named(QGroupBox("Fill settings", self), "fillBox", "Fill settings",
+                    "How donors are found and how their values are combined.")
         form = QFormLayout(box)
-        self.k_spin = QSpinBox(box)
-        _name(
-            self.k_spin,
-            "kSpin",
-            "k, donors per cell",
-            "Number of nearest rows (donors) used for every filled cell.",
-        )
+        self.k_spin = named(QSpinBox(box), "kSpin", "k, donors per cell",
+                            "Number of nearest rows (donors) used for every filled cell.")
         self.k_spin.setRange(1, 999)
         self.k_spin.valueChanged.connect(self._emit)
-        form.addRow(_buddy("&k (donors per cell)", self.k_spin, box), self.k_spin)
-        self.group_combo = QComboBox(box)
-        _name(self.group_combo, "groupCombo", "Group column", "Take donors only from rows of the same group.")
+        form.addRow(buddy("&k (donors per cell)", self.k_spin, box), self.k_spin)
+        self.group_combo = _combo(box, "groupCombo", "Group column",
+                                  "Take donors only from rows of the same group.")
         self.group_combo.activated.connect(self._on_group)
-        form.addRow(_buddy("&Group by", self.group_combo, box), self.group_combo)
+        form.addRow(buddy("&Group by", self.group_combo, box), self.group_combo)
         self.choice_combos: dict[str, QComboBox] = {}
         titles = {
             "scaling": "&Scaling",
-            "neighbour_weighting": "D&onor weighting",
-            "numeric_rule": "&Numbers from",
-            "censored": "&Below a limit",
-            "no_donor": "No donor &found",
+            "neighbour_weighting": "Donor weighting",
+            "numeric_rule": "Numbers from",
+            "censored": "Below &a limit",
+            "no_donor": "No donor found",
         }
         for setting, labels in CHOICE_LABELS.items():
-            combo = QComboBox(box)
-            _name(combo, f"{setting}Combo", titles[setting].replace("&", ""), _CHOICE_TIPS[setting])
+            combo = _combo(box, f"{setting}Combo", titles[setting].replace("&", ""), _CHOICE_TIPS[setting])
             for value, (label, tip) in labels.items():
                 combo.addItem(label, value)
                 combo.setItemData(combo.count() - 1, tip, Qt.ItemDataRole.ToolTipRole)
             combo.activated.connect(self._emit)
             self.choice_combos[setting] = combo
-            form.addRow(_buddy(titles[setting], combo, box), combo)
+            form.addRow(buddy(titles[setting], combo, box), combo)
         return box
 
     # ------------------------------------------------------------------ public
@@ -381,27 +369,13 @@ class ColumnSetup(QWidget):
 
 
 # ------------------------------------------------------------------- helpers
-def _name(widget: QWidget, name: str, accessible: str, tip: str) -> None:
-    if isinstance(widget, QComboBox):
-        # Long choice labels must not force the panel wide; the open list shows them whole.
-        widget.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToMinimumContentsLengthWithIcon)
-        widget.setMinimumContentsLength(8)
-    widget.setObjectName(name)
-    widget.setAccessibleName(accessible)
-    widget.setToolTip(tip)
-
-
-def _buddy(text: str, widget: QWidget, parent: QWidget) -> QLabel:
-    label = QLabel(text, parent)
-    label.setBuddy(widget)
-    label.setObjectName(f"{widget.objectName()}Label")
-    label.setAccessibleName(text.replace("&", ""))
-    return label
+def _combo(parent: QWidget, name: str, accessible: str, tip: str) -> QComboBox:
+    # Long choice labels must not force the panel wide; the open list shows them whole.
+    return compact(named(QComboBox(parent), name, accessible, tip))
 
 
 def _bound_edit(parent: QWidget, name: str, accessible: str, tip: str) -> QLineEdit:
-    edit = QLineEdit(parent)
-    _name(edit, name, accessible, tip)
+    edit = named(QLineEdit(parent), name, accessible, tip)
     edit.setPlaceholderText("no bound")
     edit.setClearButtonEnabled(True)
     return edit

@@ -8,25 +8,17 @@ nearest first.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from typing import Any
 
 import pandas as pd
-from PySide6.QtCore import QModelIndex, Qt, Signal
-from PySide6.QtGui import QKeyEvent
-from PySide6.QtWidgets import (
-    QAbstractItemView,
-    QFormLayout,
-    QHeaderView,
-    QLabel,
-    QStyle,
-    QTableView,
-    QVBoxLayout,
-    QWidget,
-)
+from PySide6.QtCore import QModelIndex, Signal
+from PySide6.QtWidgets import QFormLayout, QHeaderView, QLabel, QStyle, QVBoxLayout, QWidget
 
 from imputer_app.gui.cell_story import CellStory, describe_cell
-from imputer_app.gui.formatting import Cell, format_label, format_value, number_cell
+from imputer_app.gui.formatting import Cell, common_decimals, fixed_cell, format_label
 from imputer_app.gui.records_model import RAW_ROLE, RecordsModel
+from imputer_app.gui.widgets import RecordTable, named, text_label
 
 EMPTY_TEXT = "Select a cell in the table to see where its value came from."
 
@@ -36,19 +28,6 @@ DONOR_TIPS = (
     "Distance to the filled row over the similarity columns (after scaling and weights); smaller is closer",
     "The donor's value in this column",
 )
-
-
-class DonorTable(QTableView):
-    """Donor rows, nearest first; Enter or a double-click asks to show that row."""
-
-    row_chosen = Signal(int)
-
-    def keyPressEvent(self, event: QKeyEvent) -> None:
-        """Enter or Return on a donor emits :attr:`row_chosen`; other keys as usual."""
-        if event.key() in (Qt.Key.Key_Return, Qt.Key.Key_Enter) and self.currentIndex().isValid():
-            self.row_chosen.emit(self.currentIndex().row())
-            return
-        super().keyPressEvent(event)
 
 
 class DonorPanel(QWidget):
@@ -88,9 +67,8 @@ class DonorPanel(QWidget):
         self.facts.setContentsMargins(0, 0, 0, 0)
         layout.addWidget(self.facts_box)
 
-        self.support_icon = QLabel(self)
-        self.support_icon.setObjectName("donorSupportIcon")
-        self.support_icon.setAccessibleName("Weak support warning")
+        self.support_icon = named(QLabel(self), "donorSupportIcon", "Weak support warning",
+                                  "Weak support: the donors are far from this row")
         warning = self.style().standardIcon(QStyle.StandardPixmap.SP_MessageBoxWarning)
         self.support_icon.setPixmap(warning.pixmap(16, 16))
         self.support_text = self._label("donorSupportText", "Support of the filled value",
@@ -106,31 +84,17 @@ class DonorPanel(QWidget):
         self.donors_title.setText("Donors, nearest first:")
         layout.addWidget(self.donors_title)
         self.model = RecordsModel(DONOR_HEADERS, DONOR_TIPS, self)
-        self.table = DonorTable(self)
-        self.table.setObjectName("donorTable")
-        self.table.setAccessibleName("Donor rows, nearest first")
-        self.table.setToolTip("Donor rows, nearest first. Enter or double-click shows the row in the sheet.")
-        self.table.setModel(self.model)
-        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
-        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
-        self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
-        self.table.setTabKeyNavigation(False)
-        self.table.verticalHeader().setVisible(False)
-        self.table.verticalHeader().setDefaultSectionSize(self.fontMetrics().height() + 8)
+        self.table = RecordTable(
+            self, self.model, "donorTable", "Donor rows, nearest first",
+            "Donor rows, nearest first. Enter or double-click shows the row in the sheet.",
+        )
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Stretch)
-        self.table.doubleClicked.connect(lambda index: self._choose(index.row()))
-        self.table.row_chosen.connect(self._choose)
+        self.table.chosen.connect(lambda index: self._choose(index.row()))
         layout.addWidget(self.table, 1)
         layout.addStretch(0)  # keeps the text at the top when there is no donor table
 
     def _label(self, name: str, accessible: str, tip: str) -> QLabel:
-        label = QLabel(self)
-        label.setObjectName(name)
-        label.setAccessibleName(accessible)
-        label.setToolTip(tip)
-        label.setWordWrap(True)
-        label.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
-        return label
+        return text_label(self, name, accessible, tip, selectable=True)
 
     # ------------------------------------------------------------------ API
     def show_cell(
@@ -180,15 +144,7 @@ class DonorPanel(QWidget):
         has_donors = bool(story.donors)
         self.donors_title.setVisible(has_donors)
         self.table.setVisible(has_donors)
-        self.model.set_rows([self._donor_row(d) for d in story.donors])
-
-    @staticmethod
-    def _donor_row(donor: Any) -> list[Cell]:
-        label = Cell(format_label(donor.label), donor.label, "Row label in the sheet")
-        distance = number_cell(donor.distance, digits=4)
-        value = donor.value
-        shown = Cell(value, value) if isinstance(value, str) else Cell(format_value(value), value)
-        return [label, distance, shown]
+        self.model.set_rows(donor_rows(story.donors))
 
     def _choose(self, row: int) -> None:
         if 0 <= row < self.model.rowCount() and self._column:
@@ -197,3 +153,22 @@ class DonorPanel(QWidget):
     def donor_index(self, row: int) -> QModelIndex:
         """Return the model index of donor ``row`` (first column), for keyboard tests."""
         return self.model.index(row, 0)
+
+
+def donor_rows(donors: Sequence[Any]) -> list[list[Cell]]:
+    """The donor table's rows: label, distance and value, each column with one count of decimals.
+
+    Distances get 4 significant digits of the largest; numeric donor values the decimals
+    the most precise of them needs, so ``7.10`` and ``7.17`` line up. The raw numbers
+    stay exact (for sorting and tests).
+    """
+    distance_decimals = common_decimals([d.distance for d in donors], digits=4)
+    value_decimals = common_decimals([d.value for d in donors])
+    return [
+        [
+            Cell(format_label(d.label), d.label, "Row label in the sheet"),
+            fixed_cell(d.distance, distance_decimals),
+            fixed_cell(d.value, value_decimals),
+        ]
+        for d in donors
+    ]

@@ -49,14 +49,15 @@ def confirm_discard(parent: QWidget, dirty: bool, closing: bool = False) -> bool
     if not dirty:
         return True
     action = "Close Kinfill" if closing else "Open another sheet"
-    answer = QMessageBox.question(
-        parent,
-        TITLE,
-        f"The applied fill has not been exported. {action} and lose it?",
-        QMessageBox.StandardButton.Discard | QMessageBox.StandardButton.Cancel,
-        QMessageBox.StandardButton.Cancel,
-    )
-    return answer == QMessageBox.StandardButton.Discard
+    text = f"The applied fill has not been exported. {action} and lose it?"
+    return agree(parent, text, QMessageBox.StandardButton.Discard, QMessageBox.StandardButton.Cancel)
+
+
+def agree(
+    parent: QWidget, text: str, yes: QMessageBox.StandardButton, no: QMessageBox.StandardButton
+) -> bool:
+    """Ask ``text`` with two buttons; True when the user picks ``yes`` (``no`` is the safe default)."""
+    return QMessageBox.question(parent, TITLE, text, yes | no, no) == yes
 
 
 def ask_sheet_path(parent: QWidget) -> Path | None:
@@ -143,16 +144,10 @@ def ask_export_path(parent: QWidget, source: Path, path: str | Path | None = Non
     if same_file(target, source):
         warn(parent, f"Kinfill never writes over the sheet it read ({source.name}); choose another name.")
         return None
-    if target.exists():
-        answer = QMessageBox.question(
-            parent,
-            TITLE,
-            f"{target.name} already exists in {target.parent}. Replace it?",
-            QMessageBox.StandardButton.Yes | QMessageBox.StandardButton.No,
-            QMessageBox.StandardButton.No,
-        )
-        if answer != QMessageBox.StandardButton.Yes:
-            return None
+    replace = f"{target.name} already exists in {target.parent}. Replace it?"
+    if target.exists() and not agree(parent, replace, QMessageBox.StandardButton.Yes,
+                                     QMessageBox.StandardButton.No):
+        return None
     _remember(parent, target)
     return target
 
@@ -185,6 +180,6 @@ def summary_text(model: SheetTableModel, session: Session) -> str:
     if result is not None:
         left = len(result.unfilled) if result.unfilled is not None else 0
         weak = int((fill == 2).sum())
-        kind = "proposed (not applied)" if session.preview is not None else "filled"
-        text += f" · {filled} {kind}, {weak} weak, {left} left empty"
+        kind = "preview: {} proposed" if session.preview is not None else "applied: {} filled"
+        text += f" · {kind.format(filled)}, {weak} weak, {left} left empty"
     return text

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -81,3 +82,50 @@ def number_cell(value: Any, *, digits: int = 4, tooltip: str = "", strong: bool 
     except (TypeError, ValueError):
         return Cell(text, value, tooltip, strong)
     return Cell(text, number, tooltip or ("not available" if math.isnan(number) else ""), strong)
+
+
+def common_decimals(values: Sequence[Any], digits: int | None = None) -> int:
+    """Return one count of decimals that shows a list of numbers alike (a tidy column).
+
+    With ``digits=None``, the most decimals any value needs at 6 significant digits
+    (measured values keep their precision: ``7.17`` and ``7.1`` both get 2). With a
+    number, that many significant digits of the largest magnitude (distances). Text,
+    NaN and None are passed over; the result is between 0 and 8.
+
+    >>> common_decimals([7.17, 7.1, 7.3])
+    2
+    >>> common_decimals([0.2171, 0.694, 1.016], digits=4)
+    3
+    """
+    numbers = []
+    for value in values:
+        if isinstance(value, bool | str) or value is None:
+            continue
+        try:
+            number = float(value)
+        except (TypeError, ValueError):
+            continue
+        if math.isfinite(number):
+            numbers.append(number)
+    if not numbers:
+        return 0
+    if digits is None:
+        shown = (format_value(n).lower() for n in numbers)
+        needed = [len(t.split(".")[1]) if "." in t and "e" not in t else 0 for t in shown]
+        return min(max(needed), 8)
+    largest = max(abs(n) for n in numbers)
+    if largest == 0:
+        return 0
+    return max(0, min(digits - 1 - math.floor(math.log10(largest)), 8))
+
+
+def fixed_cell(value: Any, decimals: int, tooltip: str = "") -> Cell:
+    """A :class:`Cell` for a number with exactly ``decimals`` decimals (text stays as it is)."""
+    if isinstance(value, str):
+        return Cell(value, value, tooltip)
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return Cell(format_value(value), value, tooltip)
+    text = NOT_AVAILABLE if math.isnan(number) else f"{number:.{decimals}f}"
+    return Cell(text, number, tooltip)

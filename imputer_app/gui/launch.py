@@ -2,7 +2,11 @@
 
 ``--screenshot PATH`` opens FILE, saves a picture of the window once the sheet is
 shown, and quits (exit 0 when the sheet was read and the picture saved); the
-real-window test and the README screenshot use it.
+real-window test and the README screenshot use it. ``--screenshot-state`` takes the
+picture later: after the recovery test (its best k in use), or after a fill preview
+with the first filled cell selected and its donors shown::
+
+    kinfill-gui sample_sheets/river_survey.xlsx --screenshot docs/screenshot.png --screenshot-state preview
 """
 
 from __future__ import annotations
@@ -10,14 +14,16 @@ from __future__ import annotations
 import argparse
 import logging
 import sys
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from pathlib import Path
 
 from imputer_app import __version__
 
 SCREENSHOT_TIMEOUT_MS = 60_000
-#: Exit codes of ``--screenshot``: read failed, picture not saved, too slow.
+#: Exit codes of ``--screenshot``: reading (or testing, filling) failed, picture not saved, too slow.
 EXIT_READ_FAILED, EXIT_NOT_SAVED, EXIT_TIMEOUT = 1, 3, 4
+#: What ``--screenshot-state`` can show.
+SCREENSHOT_STATES = ("sheet", "recovery", "preview")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -31,6 +37,13 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument(
         "--screenshot", metavar="PATH", help="save a picture of the window after opening FILE, then quit"
+    )
+    parser.add_argument(
+        "--screenshot-state",
+        choices=SCREENSHOT_STATES,
+        default="sheet",
+        help="with --screenshot: the sheet as read (default), the recovery test's result, "
+        "or a fill preview with the first filled cell's donors",
     )
     parser.add_argument("--version", action="version", version=f"kinfill-gui {__version__}")
     return parser
@@ -63,8 +76,43 @@ def _register() -> int:
     return 0
 
 
-def _arrange_screenshot(window: object, app: object, target: Path) -> None:
-    """Save ``window``'s picture once its sheet is shown, then quit with the right code."""
+def drive_to(window: object, state: str, done: Callable[[], None]) -> None:
+    """Bring a window whose sheet is shown to ``state``, then call ``done``.
+
+    ``"sheet"``: as it is. ``"recovery"``: run the recovery test with the panel's
+    settings and use its best k. ``"preview"``: that, then preview the fill and select
+    the first filled cell, so the donor panel shows where its value came from.
+    """
+    from imputer_app.gui.main_window import MainWindow
+
+    assert isinstance(window, MainWindow) and state in SCREENSHOT_STATES
+    panel = window.recovery_panel
+
+    def tested(report: object) -> None:
+        panel.report_ready.disconnect(tested)
+        panel.use_best_button.click()
+        if state == "recovery":
+            done()
+        else:
+            window.preview_ready.connect(previewed)
+            window.preview_fill()
+
+    def previewed() -> None:
+        window.preview_ready.disconnect(previewed)
+        filled = window.table_model.fill_codes.nonzero()
+        if filled[0].size:
+            window.select_position(int(filled[0][0]), int(filled[1][0]))
+        done()
+
+    if state == "sheet":
+        done()
+        return
+    panel.report_ready.connect(tested)
+    window.run_recovery_test()
+
+
+def _arrange_screenshot(window: object, app: object, target: Path, state: str = "sheet") -> None:
+    """Save ``window``'s picture once it shows ``state``, then quit with the right code."""
     from PySide6.QtCore import QTimer
     from PySide6.QtWidgets import QApplication, QMainWindow
 
@@ -77,8 +125,11 @@ def _arrange_screenshot(window: object, app: object, target: Path) -> None:
         app.exit(0 if saved else EXIT_NOT_SAVED)
 
     window.interactive = False  # type: ignore[attr-defined]
-    window.sheet_loaded.connect(lambda: QTimer.singleShot(400, shoot))  # type: ignore[attr-defined]
-    window.runner.failed.connect(lambda *_a: app.exit(EXIT_READ_FAILED))  # type: ignore[attr-defined]
+    window.sheet_loaded.connect(  # type: ignore[attr-defined]
+        lambda: drive_to(window, state, lambda: QTimer.singleShot(400, shoot))
+    )
+    for runner in (window.runner, window.recovery_panel.runner):  # type: ignore[attr-defined]
+        runner.failed.connect(lambda *_a: app.exit(EXIT_READ_FAILED))
     QTimer.singleShot(SCREENSHOT_TIMEOUT_MS, lambda: app.exit(EXIT_TIMEOUT))
 
 
@@ -97,6 +148,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     from PySide6.QtWidgets import QApplication
 
     from imputer_app.gui.main_window import MainWindow
+    from imputer_app.gui.window_layout import DEFAULT_SIZE
 
     app = QApplication.instance() or QApplication([sys.argv[0] if sys.argv else "kinfill-gui"])
     assert isinstance(app, QApplication)
@@ -110,8 +162,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     window = MainWindow()
     window.setWindowIcon(icon)
     if args.screenshot:
-        window.resize(1400, 860)
-        _arrange_screenshot(window, app, Path(args.screenshot))
+        window.resize(*DEFAULT_SIZE)
+        _arrange_screenshot(window, app, Path(args.screenshot), args.screenshot_state)
     window.show()
     if args.file:
         path = Path(args.file).expanduser()

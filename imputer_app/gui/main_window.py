@@ -27,6 +27,7 @@ from PySide6.QtWidgets import (
 )
 
 from imputer_app.gui import file_actions as fa
+from imputer_app.gui import window_layout
 from imputer_app.gui.about import AboutDialog
 from imputer_app.gui.busy import BusyBar
 from imputer_app.gui.column_setup import ColumnSetup
@@ -46,6 +47,7 @@ if TYPE_CHECKING:
     from imputer_app.sheets import Sheet
 
 log = logging.getLogger(__name__)
+
 
 
 class MainWindow(QMainWindow):
@@ -79,7 +81,8 @@ class MainWindow(QMainWindow):
         self.actions_ = build_actions(self)
         build_menus(self, self.actions_)
         self.session.subscribe(self._on_session)
-        self._restore_layout()
+        self._sizes_restored = window_layout.restore_layout(self)
+        self.recent_changed(self.settings.recent_files())
         self._update_title()
         self._update_actions()
 
@@ -94,6 +97,7 @@ class MainWindow(QMainWindow):
         setup_scroll.setWidget(self.setup)
         setup_scroll.setMinimumWidth(240)
         setup_scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+        setup_scroll.setFocusPolicy(Qt.FocusPolicy.NoFocus)  # Tab goes to its controls, not to it
 
         self.data = DataView(self)
         self.table, self.table_model, self.gap_map = self.data.table, self.data.model, self.data.gap_map
@@ -120,6 +124,7 @@ class MainWindow(QMainWindow):
             page.setAccessibleName(title.replace("&", ""))
             page.setWidgetResizable(True)
             page.setFrameShape(QScrollArea.Shape.NoFrame)
+            page.setFocusPolicy(Qt.FocusPolicy.NoFocus)
             page.setWidget(panel)
             self._pages[panel] = page
             self.tabs.addTab(page, title)
@@ -139,11 +144,12 @@ class MainWindow(QMainWindow):
         self.splitter.setStretchFactor(1, 1)
         self.splitter.setStretchFactor(2, 0)
         self.splitter.setChildrenCollapsible(False)
-        self._sizes_restored = False
         self.setCentralWidget(self.splitter)
         self.summary = QLabel(self)
         self.summary.setObjectName("sheetSummary")
         self.summary.setAccessibleName("Sheet summary")
+        self.summary.setToolTip("Size of the sheet, its gaps, and what the fill shown over it holds")
+        self.summary.setContentsMargins(16, 0, 4, 0)  # keeps it apart from a long status message
         self.statusBar().setObjectName("statusBar")
         self.statusBar().addPermanentWidget(self.summary)
         self.busy = BusyBar(self.runner, self)
@@ -347,7 +353,7 @@ class MainWindow(QMainWindow):
                 proposed = int(result.filled.to_numpy().sum())
                 self.statusBar().showMessage(
                     f"Preview: {proposed} values proposed, nothing changed yet. "
-                    "Select a marked cell to see its donors; Apply (Ctrl+Return) keeps them.",
+                    "Select one to see its donors; Ctrl+Return applies.",
                     15000,
                 )
                 self.preview_ready.emit()
@@ -360,7 +366,7 @@ class MainWindow(QMainWindow):
             self.session.apply()
             self.statusBar().showMessage(
                 "Applied. Filled values are estimates, not measurements; "
-                "Export writes the sheet with every filled cell marked, and its fill log.",
+                "Export (Ctrl+E) writes them marked, with the fill log.",
                 10000,
             )
 
@@ -445,6 +451,10 @@ class MainWindow(QMainWindow):
         if missing > 0 and sizes[1] - missing > 300:
             self.splitter.setSizes([sizes[0], sizes[1] - missing, sizes[2] + missing])
 
+    def panels(self) -> list[QWidget]:
+        """The panels of the tabs: recovery test, donors, unfilled cells."""
+        return list(self._pages)
+
     def current_panel(self) -> QWidget | None:
         """The panel whose tab is in front."""
         page = self.tabs.currentWidget()
@@ -478,8 +488,8 @@ class MainWindow(QMainWindow):
             self.notice.setText(f"Remarks on the fill: {warnings}")
 
     def _update_title(self) -> None:
-        name = self.session.path.name if self.session.path is not None else "no sheet"
-        self.setWindowTitle(f"{name}[*] — Kinfill")
+        path = self.session.path
+        self.setWindowTitle(f"{path.name}[*] — Kinfill" if path is not None else "Kinfill")
         self.setWindowModified(self.session.dirty)
 
     def _update_actions(self) -> None:
@@ -536,39 +546,16 @@ class MainWindow(QMainWindow):
             self.table_model.set_dark(palette_is_dark(self.palette()))
         super().changeEvent(event)
 
-    def _restore_layout(self) -> None:
-        geometry = self.settings.bytes_value("window/geometry")
-        if geometry is None or not self.restoreGeometry(geometry):
-            self.resize(1400, 860)
-        for key, splitter in (("window/splitter", self.splitter), ("window/tableSplitter", self.table_split)):
-            state = self.settings.bytes_value(key)
-            if state is not None:
-                restored = splitter.restoreState(state)
-                self._sizes_restored = self._sizes_restored or (restored and splitter is self.splitter)
-        state = self.settings.bytes_value("window/state")
-        if state is not None:
-            self.restoreState(state)
-        self.recent_changed(self.settings.recent_files())
-
     def showEvent(self, event: Any) -> None:
         """On the first show without remembered sizes, share the width sensibly."""
         super().showEvent(event)
         if not self._sizes_restored:
             self._sizes_restored = True
-            width = max(self.width(), 900)
-            setup = min(330, max(260, int(width * 0.21)))
-            # The recovery panel's widest row (its "use k" buttons) grows once a test has run.
-            panels = max(self.recovery_panel.minimumSizeHint().width() + 48, int(width * 0.3))
-            self.splitter.setSizes([setup, max(300, width - setup - panels), panels])
-            self.table_split.setSizes([max(200, self.table_split.width() - 56), 56])
+            window_layout.share_width(self)
 
     def save_layout(self) -> None:
         """Remember geometry and splitter positions."""
-        self.settings.set_bytes("window/geometry", self.saveGeometry())
-        self.settings.set_bytes("window/state", self.saveState())
-        self.settings.set_bytes("window/splitter", self.splitter.saveState())
-        self.settings.set_bytes("window/tableSplitter", self.table_split.saveState())
-        self.settings.sync()
+        window_layout.save_layout(self)
 
     def closeEvent(self, event: QCloseEvent) -> None:
         """Ask before losing an applied fill that was not exported; stop background work."""

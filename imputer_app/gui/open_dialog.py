@@ -20,7 +20,6 @@ from PySide6.QtWidgets import (
     QDialog,
     QDialogButtonBox,
     QFormLayout,
-    QLabel,
     QLineEdit,
     QSpinBox,
     QTableView,
@@ -29,6 +28,7 @@ from PySide6.QtWidgets import (
 )
 
 from imputer_app.gui.table_model import SheetTableModel
+from imputer_app.gui.widgets import buddy, named, row_height, text_label
 from imputer_app.gui.workers import TaskRunner
 
 if TYPE_CHECKING:
@@ -102,27 +102,20 @@ class OpenDialog(QDialog):
     def _build(self, sheets: list[str], header_row: int | None, markers: list[str | float] | None) -> None:
         layout = QVBoxLayout(self)
         form = QFormLayout()
-        self.sheet_combo = QComboBox(self)
-        self.sheet_combo.setObjectName("sheetCombo")
-        self.sheet_combo.setAccessibleName("Worksheet")
-        self.sheet_combo.setToolTip("The worksheet of the workbook to open.")
+        self.sheet_combo = named(
+            QComboBox(self), "sheetCombo", "Worksheet", "The worksheet of the workbook to open."
+        )
         self.sheet_combo.addItems(sheets)
         self.sheet_combo.setEnabled(len(sheets) > 1)
-        self.header_spin = QSpinBox(self)
-        self.header_spin.setObjectName("headerSpin")
-        self.header_spin.setAccessibleName("Header row")
-        self.header_spin.setToolTip(
-            "Row of the file that holds the column names; 'find it' lets Kinfill look."
-        )
+        self.header_spin = named(QSpinBox(self), "headerSpin", "Header row",
+                                 "Row of the file that holds the column names; 'find it' lets Kinfill look.")
         self.header_spin.setRange(0, 10_000)
         self.header_spin.setSpecialValueText("find it")
         self.header_spin.setValue(header_row or 0)
-        self.markers_edit = QLineEdit(self)
-        self.markers_edit.setObjectName("markersEdit")
-        self.markers_edit.setAccessibleName("Extra missing-value markers")
-        self.markers_edit.setToolTip(
+        self.markers_edit = named(
+            QLineEdit(self), "markersEdit", "Extra missing-value markers",
             "Texts or numbers that mean 'no value' in this file, separated by commas (e.g. -999, lost). "
-            "They are added to Kinfill's own list: NA, N/A, n.d., nd, -, --, ?, missing, #N/A, NaN."
+            "They are added to Kinfill's own list: NA, N/A, n.d., nd, -, --, ?, missing, #N/A, NaN.",
         )
         self.markers_edit.setPlaceholderText("added to NA, n.d., -, … (e.g. -999, lost)")
         self.markers_edit.setText(", ".join(f"{m:g}" if isinstance(m, float) else m for m in markers or []))
@@ -131,23 +124,17 @@ class OpenDialog(QDialog):
             ("&Header row", self.header_spin),
             ("Extra &missing markers", self.markers_edit),
         ):
-            label = QLabel(text, self)
-            label.setBuddy(widget)
-            label.setObjectName(f"{widget.objectName()}Label")
-            form.addRow(label, widget)
+            form.addRow(buddy(text, widget, self), widget)
         layout.addLayout(form)
-        self.status = QLabel("Reading…", self)
-        self.status.setObjectName("openStatus")
-        self.status.setAccessibleName("Reading status")
-        self.status.setWordWrap(True)
+        self.status = text_label(self, "openStatus", "Reading status", "What Kinfill found in the file")
+        self.status.setText("Reading…")
         layout.addWidget(self.status)
         self.model = SheetTableModel(self)
-        self.preview = QTableView(self)
-        self.preview.setObjectName("openPreview")
-        self.preview.setAccessibleName("Preview of the first rows")
-        self.preview.setToolTip(f"The first {PREVIEW_ROWS} rows as Kinfill reads them, with cell markers.")
+        self.preview = named(QTableView(self), "openPreview", "Preview of the first rows",
+                             f"The first {PREVIEW_ROWS} rows as Kinfill reads them, with cell markers.")
         self.preview.setModel(self.model)
         self.preview.setTabKeyNavigation(False)
+        self.preview.verticalHeader().setDefaultSectionSize(row_height(self))  # as compact as the main table
         layout.addWidget(self.preview, 1)
         self.buttons = QDialogButtonBox(
             QDialogButtonBox.StandardButton.Open | QDialogButtonBox.StandardButton.Cancel, self

@@ -11,18 +11,17 @@ from __future__ import annotations
 from collections.abc import Sequence
 from typing import Any
 
-from PySide6.QtCore import QAbstractTableModel, QModelIndex, QObject, QPersistentModelIndex, Qt
+from PySide6.QtCore import QObject, Qt
 from PySide6.QtGui import QFont
 
+from imputer_app.gui.flat_model import FlatTableModel, Index
 from imputer_app.gui.formatting import Cell
 
 #: Role holding a cell's raw value (float, int or str), used for sorting and by tests.
 RAW_ROLE = int(Qt.ItemDataRole.UserRole) + 1
 
-_Index = QModelIndex | QPersistentModelIndex
 
-
-class RecordsModel(QAbstractTableModel):
+class RecordsModel(FlatTableModel):
     """Read-only rows of :class:`Cell` under fixed headers.
 
     Parameters
@@ -63,15 +62,11 @@ class RecordsModel(QAbstractTableModel):
         return list(self._headers)
 
     # ------------------------------------------------------------------ Qt model
-    def rowCount(self, parent: _Index = QModelIndex()) -> int:  # noqa: B008 - Qt's signature
-        """Number of rows (0 under any parent: a flat table)."""
-        return 0 if parent.isValid() else len(self._rows)
+    def table_shape(self) -> tuple[int, int]:
+        """Number of rows and of columns."""
+        return len(self._rows), len(self._headers)
 
-    def columnCount(self, parent: _Index = QModelIndex()) -> int:  # noqa: B008 - Qt's signature
-        """Number of columns (0 under any parent: a flat table)."""
-        return 0 if parent.isValid() else len(self._headers)
-
-    def data(self, index: _Index, role: int = Qt.ItemDataRole.DisplayRole) -> Any:
+    def data(self, index: Index, role: int = Qt.ItemDataRole.DisplayRole) -> Any:
         """Text, raw value (:data:`RAW_ROLE`), tooltip, bold font or alignment of a cell."""
         if not index.isValid():
             return None

@@ -227,7 +227,7 @@ def summary_text(report: Any) -> str:
     """Return the one-line summary of a recovery test.
 
     Example: ``best k = 7 (NRMSE 0.41); one-SE rule suggests k = 12; column average
-    scores 0.98 — neighbours help``.
+    scores 0.98 — neighbours help.``
     """
     name = report.score_name
     metric = "NRMSE" if name == "score" else "error rate"
@@ -252,7 +252,7 @@ def summary_text(report: Any) -> str:
     no_gain = columns_without_gain(report, report.best_k)
     if no_gain:
         text += f". At k = {report.best_k}, no gain over the column average for: {', '.join(no_gain)}"
-    return text
+    return text + "."
 
 
 def columns_without_gain(report: Any, k: int) -> list[str]:

@@ -26,19 +26,15 @@ from PySide6.QtWidgets import (
     QComboBox,
     QDoubleSpinBox,
     QFileDialog,
-    QGridLayout,
     QGroupBox,
     QHBoxLayout,
     QHeaderView,
     QLabel,
     QProgressBar,
-    QPushButton,
     QSizePolicy,
     QSpinBox,
-    QSplitter,
     QStackedWidget,
     QStyle,
-    QTableView,
     QVBoxLayout,
     QWidget,
 )
@@ -55,28 +51,27 @@ from imputer_app.gui.recovery_logic import (
     report_rows,
     summary_text,
 )
+from imputer_app.gui.widgets import (
+    CompactSplitter,
+    RecordTable,
+    Reflow,
+    buddy,
+    button,
+    compact,
+    named,
+    text_label,
+)
 from imputer_app.gui.workers import TaskRunner
 from imputer_app.plan import FillPlan
 
 log = logging.getLogger(__name__)
 
 SPIN_WIDTH = 90
+CHART_MIN_HEIGHT = 150
+MAX_CHART_COLUMNS = 10  # more fill columns: the chart starts with the overall error only
 NARROW_CHART = 760  # pixels; below this the legend goes under the chart
 IDLE_TEXT = "Run the recovery test to see how well each k recovers known values."
 CHART_FILTERS = "PNG image (*.png);;SVG drawing (*.svg)"
-
-
-class KTable(QTableView):
-    """Per-k numbers; Enter on a row asks to use that row's k."""
-
-    row_chosen = Signal(int)
-
-    def keyPressEvent(self, event: QKeyEvent) -> None:
-        """Enter or Return on a row emits :attr:`row_chosen`; other keys as usual."""
-        if event.key() in (Qt.Key.Key_Return, Qt.Key.Key_Enter) and self.currentIndex().isValid():
-            self.row_chosen.emit(self.currentIndex().row())
-            return
-        super().keyPressEvent(event)
 
 
 class RecoveryPanel(QWidget):
@@ -115,61 +110,43 @@ class RecoveryPanel(QWidget):
         self._show_report(None)
 
     # ------------------------------------------------------------------ building
-    def _name(self, widget: QWidget, name: str, accessible: str, tip: str) -> None:
-        widget.setObjectName(name)
-        widget.setAccessibleName(accessible)
-        widget.setToolTip(tip)
-
-    def _button(self, name: str, text: str, tip: str) -> QPushButton:
-        button = QPushButton(text, self)
-        self._name(button, name, text.replace("…", ""), tip)
-        button.setAutoDefault(True)  # Enter activates a focused button outside dialogs too
-        return button
-
     def _build(self) -> None:
         layout = QVBoxLayout(self)
         layout.addWidget(self._build_settings())
         layout.addLayout(self._build_run_row())
-        self.status = QLabel(self)
-        self._name(self.status, "recoveryStatus", "Recovery test message",
-                   "Messages about the last run (errors, stops, remarks)")
-        self.status.setWordWrap(True)
-        self.status_icon = QLabel(self)
-        self._name(self.status_icon, "recoveryStatusIcon", "Problem", "The last run did not finish")
+        self.status = text_label(self, "recoveryStatus", "Recovery test message",
+                                 "Messages about the last run (errors, stops, remarks)")
+        self.status_icon = named(QLabel(self), "recoveryStatusIcon", "Problem", "The last run did not finish")
         self.status_icon.setPixmap(
             self.style().standardIcon(QStyle.StandardPixmap.SP_MessageBoxWarning).pixmap(16, 16))
         status_row = QHBoxLayout()
         status_row.addWidget(self.status_icon)
         status_row.addWidget(self.status, 1)
         layout.addLayout(status_row)
-        self.summary = QLabel(self)
-        self._name(self.summary, "recoverySummary", "Recovery test summary",
-                   "Best k, the k the one-standard-error rule suggests, and the column-average baseline")
-        self.summary.setWordWrap(True)
-        self.summary.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.summary = text_label(
+            self, "recoverySummary", "Recovery test summary",
+            "Best k, the k the one-standard-error rule suggests, and the column-average baseline",
+            selectable=True)
         font = self.summary.font()
         font.setBold(True)
         self.summary.setFont(font)
         layout.addWidget(self.summary)
         layout.addWidget(self._build_results(), 1)
-        layout.addLayout(self._build_choice_row())
+        layout.addWidget(self._build_choices())
         self._set_tab_order()
 
     def _spin(self, box: QWidget, name: str, accessible: str, tip: str, low: int, high: int) -> QSpinBox:
-        spin = QSpinBox(box)
-        self._name(spin, name, accessible, tip)
+        spin = named(QSpinBox(box), name, accessible, tip)
         spin.setRange(low, high)
         spin.setMaximumWidth(SPIN_WIDTH)
         return spin
 
     def _build_settings(self) -> QGroupBox:
-        box = QGroupBox("Recovery test settings", self)
-        self._name(box, "recoverySettings", "Recovery test settings",
-                   "Hide known cells, fill them for every k and measure the error")
-        grid = QGridLayout(box)
-        self.hide_fraction = QDoubleSpinBox(box)
-        self._name(self.hide_fraction, "recoveryHideFraction", "Share of known cells to hide",
-                   "Share of each fill column's known cells hidden in each repeat (0.10 hides 10%)")
+        box = named(QGroupBox("Recovery test settings", self), "recoverySettings", "Recovery test settings",
+                    "Hide known cells, fill them for every k and measure the error")
+        self.hide_fraction = named(
+            QDoubleSpinBox(box), "recoveryHideFraction", "Share of known cells to hide",
+            "Share of each fill column's known cells hidden in each repeat (0.10 hides 10%)")
         self.hide_fraction.setRange(0.01, 0.5)
         self.hide_fraction.setSingleStep(0.01)
         self.hide_fraction.setDecimals(2)
@@ -185,48 +162,43 @@ class RecoveryPanel(QWidget):
                                "the donors available)", 1, 1)
         self.k_from.valueChanged.connect(lambda v: self.k_to.setValue(max(v, self.k_to.value())))
         self.k_to.valueChanged.connect(lambda v: self.k_from.setValue(min(v, self.k_from.value())))
-        k_range = QHBoxLayout()
-        k_range.addWidget(self.k_from)
-        k_range.addWidget(self._buddy("t&o", self.k_to, box))
-        k_range.addWidget(self.k_to)
-        k_range.addStretch(1)
-        self.masking = QComboBox(box)
-        self._name(self.masking, "recoveryMasking", "Hiding style", "How the cells to hide are chosen")
+        k_range = QWidget(box)
+        k_row = QHBoxLayout(k_range)
+        k_row.setContentsMargins(0, 0, 0, 0)
+        k_row.addWidget(self.k_from)
+        k_row.addWidget(buddy("to", self.k_to, k_range))
+        k_row.addWidget(self.k_to)
+        k_row.addStretch(1)
+        self.masking = compact(named(QComboBox(box), "recoveryMasking", "Hiding style",
+                                     "How the cells to hide are chosen"), 12)
         for i, (value, label, tip) in enumerate(MASKINGS):
             self.masking.addItem(label, value)
             self.masking.setItemData(i, tip, Qt.ItemDataRole.ToolTipRole)
         self.seed = self._spin(box, "recoverySeed", "Random seed",
                                "Seed of the hiding: the same seed and settings give the same result",
                                0, 2_147_483_647)
-        left = [("&Hide share:", self.hide_fraction), ("&Repeats:", self.repeats), ("S&eed:", self.seed)]
-        for row, (text, field) in enumerate(left):
-            grid.addWidget(self._buddy(text, field, box), row, 0)
-            grid.addWidget(field, row, 1)
-        grid.addWidget(self._buddy("&k from:", self.k_from, box), 0, 2)
-        grid.addLayout(k_range, 0, 3)
-        grid.addWidget(self._buddy("Hiding st&yle:", self.masking, box), 1, 2)
-        grid.addWidget(self.masking, 1, 3)
-        grid.setColumnStretch(3, 1)
-        grid.setColumnMinimumWidth(1, SPIN_WIDTH)
+        # Every Alt+letter of the window has one owner (menus, tabs, buttons, the setup's
+        # labels); fields left without one are reached with Tab.
+        pairs = [(buddy("Hide share:", self.hide_fraction, box), self.hide_fraction),
+                 (buddy("Re&peats:", self.repeats, box), self.repeats),
+                 (buddy("k fro&m:", self.k_from, box), k_range),
+                 (buddy("Hiding st&yle:", self.masking, box), self.masking),
+                 (buddy("Seed:", self.seed, box), self.seed)]
+        self.settings_flow = Reflow(pairs, box)
+        QVBoxLayout(box).addWidget(self.settings_flow)
         return box
-
-    @staticmethod
-    def _buddy(text: str, field: QWidget, parent: QWidget) -> QLabel:
-        label = QLabel(text, parent)
-        label.setBuddy(field)  # Alt + the underlined letter moves to the field
-        return label
 
     def _build_run_row(self) -> QHBoxLayout:
         row = QHBoxLayout()
-        self.run_button = self._button("recoveryRun", "&Run recovery test",
-                                       "Hide known cells, fill them for every k and score the error (Enter)")
+        self.run_button = button(self, "recoveryRun", "Run recovery &test",
+                                 "Hide known cells, fill them for every k and score the error (Ctrl+T; "
+                                 "Enter in a setting)")
         self.run_button.clicked.connect(self.run)
-        self.cancel_button = self._button("recoveryCancel", "&Cancel",
-                                          "Stop the running test; the previous result is kept")
+        self.cancel_button = button(self, "recoveryCancel", "&Cancel",
+                                    "Stop the running test; the previous result is kept")
         self.cancel_button.clicked.connect(self.cancel)
-        self.progress = QProgressBar(self)
-        self._name(self.progress, "recoveryProgress", "Recovery test progress",
-                   "Progress of the running test")
+        self.progress = named(QProgressBar(self), "recoveryProgress", "Recovery test progress",
+                              "Progress of the running test")
         self.progress.setRange(0, 1)
         self.progress.setValue(0)
         row.addWidget(self.run_button)
@@ -234,75 +206,72 @@ class RecoveryPanel(QWidget):
         row.addWidget(self.progress, 1)
         return row
 
-    def _build_results(self) -> QSplitter:
-        splitter = QSplitter(Qt.Orientation.Vertical, self)
+    def _build_results(self) -> CompactSplitter:
+        splitter = CompactSplitter(Qt.Orientation.Vertical, self)
         splitter.setObjectName("recoverySplitter")
         self.chart_stack = QStackedWidget(splitter)
         self.chart_stack.setObjectName("recoveryChartStack")
-        self.placeholder = QLabel(IDLE_TEXT, self.chart_stack)
-        self._name(self.placeholder, "recoveryPlaceholder", "No result yet", IDLE_TEXT)
+        self.placeholder = named(QLabel(IDLE_TEXT, self.chart_stack), "recoveryPlaceholder", "No result yet",
+                                 IDLE_TEXT)
         self.placeholder.setAlignment(Qt.AlignmentFlag.AlignCenter)
         self.placeholder.setWordWrap(True)
         self.figure = Figure(figsize=(5, 3), layout="constrained")
-        self.canvas = FigureCanvasQTAgg(self.figure)
-        self._name(self.canvas, "recoveryChart", "Chart of error against k",
-                   "Error against k: overall and per column, with standard-error bars; "
-                   "the column average as a line; best k and one-SE k marked")
+        self.canvas = named(FigureCanvasQTAgg(self.figure), "recoveryChart", "Chart of error against k",
+                            "Error against k: overall and per column, with standard-error bars; "
+                            "the column average as a line; best k and one-SE k marked. Numbers are "
+                            "scored by NRMSE (RMSE / column SD), categories by the share of wrong classes")
         self.canvas.setFocusPolicy(Qt.FocusPolicy.NoFocus)
         self.canvas.installEventFilter(self)
-        self.canvas.setMinimumHeight(180)
+        self.canvas.setMinimumSize(160, CHART_MIN_HEIGHT)
         self.canvas.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Expanding)
         self.chart_stack.addWidget(self.placeholder)
         self.chart_stack.addWidget(self.canvas)
         self.model = RecordsModel(parent=self)
-        self.table = KTable(splitter)
-        self._name(self.table, "recoveryTable", "Errors per k",
-                   "Error for every k and the column-average baseline; Enter or double-click uses that k")
-        self.table.setModel(self.model)
-        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
-        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
-        self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
-        self.table.setTabKeyNavigation(False)
-        self.table.verticalHeader().setVisible(False)
-        self.table.verticalHeader().setDefaultSectionSize(self.fontMetrics().height() + 8)
+        self.table = RecordTable(splitter, self.model, "recoveryTable", "Errors per k",
+                                 "Error for every k and the column-average baseline; "
+                                 "Enter or double-click uses that k")
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
-        self.table.row_chosen.connect(self._use_row)
-        self.table.doubleClicked.connect(lambda index: self._use_row(index.row()))
+        self.table.chosen.connect(lambda index: self._use_row(index.row()))
         self.table.selectionModel().currentRowChanged.connect(lambda *_: self._update_choice_buttons())
         splitter.addWidget(self.chart_stack)
         splitter.addWidget(self.table)
-        splitter.setStretchFactor(0, 3)
-        splitter.setStretchFactor(1, 2)
+        splitter.setStretchFactor(0, 2)  # the chart, with its legend, needs the height more
+        splitter.setStretchFactor(1, 1)
+        splitter.setChildrenCollapsible(False)
         return splitter
 
-    def _build_choice_row(self) -> QHBoxLayout:
-        row = QHBoxLayout()
-        self.use_best_button = self._button("recoveryUseBest", "Use &best k",
-                                            "Set k to the value with the lowest error")
+    def _build_choices(self) -> Reflow:
+        """The "use this k" buttons and the chart's controls; they wrap onto more rows when narrow."""
+        self.use_best_button = button(self, "recoveryUseBest", "Use &best k",
+                                      "Set k to the value with the lowest error")
         self.use_best_button.clicked.connect(lambda: self._emit_k(self._report.best_k))
-        self.use_one_se_button = self._button(
-            "recoveryUseOneSe", "Use &one-SE k",
+        self.use_one_se_button = button(
+            self, "recoveryUseOneSe", "Use &one-SE k",
             "Set k to the largest k whose error is within one standard error of the best "
             "(a smoother fill that does about as well)")
         self.use_one_se_button.clicked.connect(lambda: self._emit_k(self._report.best_k_1se))
-        self.use_selected_button = self._button("recoveryUseSelected", "Use &selected k",
-                                                "Set k to the k of the selected table row")
+        self.use_selected_button = button(self, "recoveryUseSelected", "Use selected k",
+                                          "Set k to the k of the selected table row (or press Enter "
+                                          "on the row)")
         self.use_selected_button.clicked.connect(lambda: self._use_row(self.table.currentIndex().row()))
-        self.save_button = self._button("recoverySaveChart", "Sa&ve chart…",
-                                        "Save the chart as a PNG image or an SVG drawing")
+        self.save_button = button(self, "recoverySaveChart", "Save chart…",
+                                  "Save the chart as a PNG image or an SVG drawing")
         self.save_button.clicked.connect(self.save_chart)
-        self.chart_columns = QComboBox(self)
-        self._name(self.chart_columns, "recoveryChartColumns", "Columns drawn in the chart",
-                   "Draw every fill column's own line, none, or one column beside the overall error")
+        self.chart_columns = compact(named(
+            QComboBox(self), "recoveryChartColumns", "Columns drawn in the chart",
+            "Draw every fill column's own line, none, or one column beside the overall error"))
         self.chart_columns.currentIndexChanged.connect(self._redraw)
-        self.chart_columns.setSizeAdjustPolicy(QComboBox.SizeAdjustPolicy.AdjustToContents)
-        for button in (self.use_best_button, self.use_one_se_button, self.use_selected_button):
-            row.addWidget(button)
-        row.addStretch(1)
-        row.addWidget(self._buddy("C&hart shows:", self.chart_columns, self))
-        row.addWidget(self.chart_columns)
-        row.addWidget(self.save_button)
-        return row
+        k_buttons = Reflow([(None, b) for b in (self.use_best_button, self.use_one_se_button,
+                                                  self.use_selected_button)], self, max_columns=3,
+                           stretch=False)
+        chart = QWidget(self)
+        chart_row = QHBoxLayout(chart)
+        chart_row.setContentsMargins(0, 0, 0, 0)
+        chart_row.addStretch(1)
+        chart_row.addWidget(buddy("Chart shows:", self.chart_columns, chart))
+        chart_row.addWidget(self.chart_columns)
+        chart_row.addWidget(self.save_button)
+        return Reflow([(None, k_buttons), (None, chart)], self)
 
     def _set_tab_order(self) -> None:
         chain = [self.hide_fraction, self.repeats, self.k_from, self.k_to, self.masking, self.seed,
@@ -451,7 +420,8 @@ class RecoveryPanel(QWidget):
             self.chart_stack.setCurrentWidget(self.canvas)
             best_row = list(report.overall.index).index(report.best_k)
             self.table.setCurrentIndex(self.model.index(best_row, 0))
-            self.table.scrollTo(self.model.index(best_row, 0))
+            # centred, so the best row stays in sight when the splitter shrinks the table
+            self.table.scrollTo(self.model.index(best_row, 0), QAbstractItemView.ScrollHint.PositionAtCenter)
             warnings = getattr(report, "warnings", ())
             self._show_status("Note: " + "; ".join(warnings) if warnings else "", problem=False)
         self.canvas.setAccessibleDescription(self._summary)
@@ -467,15 +437,21 @@ class RecoveryPanel(QWidget):
         self.chart_columns.addItem("overall only", ())
         for column in columns:
             self.chart_columns.addItem(column, (column,))
+        # Dozens of lines are a tangle on a small chart: start with the overall error then.
+        self.chart_columns.setCurrentIndex(1 if len(columns) > MAX_CHART_COLUMNS else 0)
         self.chart_columns.blockSignals(False)
 
     def _redraw(self) -> None:
         if self._report is None:
             return
         self._narrow = self.canvas.width() < NARROW_CHART
+        chosen = self.chart_columns.currentData()
+        drawn = self._report.kinds if chosen is None else chosen
+        # With many columns the legend names only the overall line, the baseline and the marks.
+        unlisted = tuple(drawn) if len(drawn) > MAX_CHART_COLUMNS else ()
         with palette_style(self.palette()):
-            fit_for_screen(draw_chart(self._report, self.figure, self.chart_columns.currentData()),
-                           narrow=self._narrow)
+            figure = draw_chart(self._report, self.figure, chosen)
+            fit_for_screen(figure, narrow=self._narrow, unlisted=unlisted)
         self.canvas.draw_idle()
 
     def eventFilter(self, watched: QObject, event: QEvent) -> bool:

@@ -11,14 +11,14 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, Any
 
-from PySide6.QtCore import QAbstractTableModel, QModelIndex, QPersistentModelIndex, Qt
+from PySide6.QtCore import Qt
 
+from imputer_app.gui.flat_model import FlatTableModel, Index
 from imputer_app.plan import FillPlan
 
 if TYPE_CHECKING:
     from imputer_app.sheets import Sheet
 
-Index = QModelIndex | QPersistentModelIndex
 
 #: Column roles shown to the user, with their labels and meaning.
 ROLES: dict[str, tuple[str, str]] = {
@@ -157,7 +157,7 @@ def choices_from_plan(
     return out
 
 
-class ColumnListModel(QAbstractTableModel):
+class ColumnListModel(FlatTableModel):
     """One row per sheet column: name, role, kind, weight, unit, % gaps, censored count."""
 
     def __init__(self, parent: Any = None) -> None:
@@ -178,13 +178,9 @@ class ColumnListModel(QAbstractTableModel):
         self._choices, self._group = list(choices), group
         self.endResetModel()
 
-    def rowCount(self, parent: Index = QModelIndex()) -> int:  # noqa: B008 - Qt's signature
-        """Number of sheet columns."""
-        return 0 if parent.isValid() else len(self._choices)
-
-    def columnCount(self, parent: Index = QModelIndex()) -> int:  # noqa: B008 - Qt's signature
-        """Number of facts shown per column."""
-        return 0 if parent.isValid() else len(HEADERS)
+    def table_shape(self) -> tuple[int, int]:
+        """One row per sheet column, one column per fact shown."""
+        return len(self._choices), len(HEADERS)
 
     def role_label(self, choice: ColumnChoice) -> str:
         """Readable role of a column (the group column shows as such)."""

@@ -13,9 +13,10 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
-from PySide6.QtCore import QAbstractTableModel, QModelIndex, QPersistentModelIndex, Qt
+from PySide6.QtCore import Qt
 from PySide6.QtGui import QFont
 
+from imputer_app.gui.flat_model import FlatTableModel, Index
 from imputer_app.gui.markers import (
     CENSORED,
     CODE_MARKERS,
@@ -34,7 +35,6 @@ if TYPE_CHECKING:
     from imputer_app.engine import FillResult
     from imputer_app.sheets import Sheet
 
-Index = QModelIndex | QPersistentModelIndex
 _STATE_WORDS = {
     OBSERVED: "measured",
     MISSING: "gap",
@@ -44,7 +44,7 @@ _STATE_WORDS = {
 _MAX_DECIMALS = 6
 
 
-class SheetTableModel(QAbstractTableModel):
+class SheetTableModel(FlatTableModel):
     """Read-only table of a :class:`~imputer_app.sheets.Sheet` with an optional fill layer.
 
     The layer is a :class:`~imputer_app.engine.FillResult` shown either as a
@@ -180,13 +180,9 @@ class SheetTableModel(QAbstractTableModel):
         return "filled" if self._layer_kind == "applied" else "preview"
 
     # -------------------------------------------------------------- Qt interface
-    def rowCount(self, parent: Index = QModelIndex()) -> int:  # noqa: B008 - Qt's signature
-        """Number of data rows."""
-        return 0 if parent.isValid() else len(self._labels)
-
-    def columnCount(self, parent: Index = QModelIndex()) -> int:  # noqa: B008 - Qt's signature
-        """Number of columns."""
-        return 0 if parent.isValid() else len(self._names)
+    def table_shape(self) -> tuple[int, int]:
+        """Number of data rows and of columns."""
+        return len(self._labels), len(self._names)
 
     def data(self, index: Index, role: int = Qt.ItemDataRole.DisplayRole) -> Any:
         """Return the cell's text, colours, font, tooltip or accessible text."""

@@ -12,20 +12,11 @@ from typing import Any
 
 import pandas as pd
 from PySide6.QtCore import QModelIndex, QRegularExpression, QSortFilterProxyModel, Qt, Signal
-from PySide6.QtGui import QKeyEvent
-from PySide6.QtWidgets import (
-    QAbstractItemView,
-    QComboBox,
-    QHBoxLayout,
-    QHeaderView,
-    QLabel,
-    QTableView,
-    QVBoxLayout,
-    QWidget,
-)
+from PySide6.QtWidgets import QComboBox, QHBoxLayout, QHeaderView, QVBoxLayout, QWidget
 
 from imputer_app.gui.formatting import Cell, format_label
 from imputer_app.gui.records_model import RAW_ROLE, RecordsModel
+from imputer_app.gui.widgets import RecordTable, buddy, named, text_label
 
 HEADERS = ("Row", "Column", "Reason")
 HEADER_TIPS = ("Row label in the sheet", "Column of the empty cell", "Why the cell could not be filled")
@@ -59,19 +50,6 @@ def count_text(total: int, shown: int, has_result: bool) -> str:
     return text + ". Click one, or press Enter, to show it in the sheet."
 
 
-class UnfilledTable(QTableView):
-    """The list of empty cells; Enter on the current entry asks to show it."""
-
-    entry_chosen = Signal(QModelIndex)
-
-    def keyPressEvent(self, event: QKeyEvent) -> None:
-        """Enter or Return on an entry emits :attr:`entry_chosen`; other keys as usual."""
-        if event.key() in (Qt.Key.Key_Return, Qt.Key.Key_Enter) and self.currentIndex().isValid():
-            self.entry_chosen.emit(self.currentIndex())
-            return
-        super().keyPressEvent(event)
-
-
 class UnfilledPanel(QWidget):
     """List the cells a fill left empty, with their reasons.
 
@@ -93,22 +71,15 @@ class UnfilledPanel(QWidget):
 
     def _build(self) -> None:
         layout = QVBoxLayout(self)
-        self.count_label = QLabel(self)
-        self.count_label.setObjectName("unfilledCount")
-        self.count_label.setAccessibleName("Number of cells left empty")
-        self.count_label.setToolTip("How many cells the fill could not fill")
-        self.count_label.setWordWrap(True)
+        self.count_label = text_label(self, "unfilledCount", "Number of cells left empty",
+                                      "How many cells the fill could not fill")
         layout.addWidget(self.count_label)
 
         filter_row = QHBoxLayout()
-        label = QLabel("&Show:", self)
-        self.reason_filter = QComboBox(self)
-        self.reason_filter.setObjectName("unfilledReasonFilter")
-        self.reason_filter.setAccessibleName("Show cells with this reason")
-        self.reason_filter.setToolTip("Show every empty cell, or only those with one reason")
+        self.reason_filter = named(QComboBox(self), "unfilledReasonFilter", "Show cells with this reason",
+                                   "Show every empty cell, or only those with one reason")
         self.reason_filter.currentIndexChanged.connect(self._apply_filter)
-        label.setBuddy(self.reason_filter)
-        filter_row.addWidget(label)
+        filter_row.addWidget(buddy("Show:", self.reason_filter, self))
         filter_row.addWidget(self.reason_filter, 1)
         layout.addLayout(filter_row)
 
@@ -118,25 +89,17 @@ class UnfilledPanel(QWidget):
         self.proxy.setSortRole(RAW_ROLE)
         self.proxy.setFilterKeyColumn(REASON)
         self.proxy.setFilterRole(RAW_ROLE)
-        self.table = UnfilledTable(self)
-        self.table.setObjectName("unfilledTable")
-        self.table.setAccessibleName("Cells left empty and why")
-        self.table.setToolTip("Click an entry, or press Enter, to show the cell in the sheet. "
-                              "Click a column title to sort.")
-        self.table.setModel(self.proxy)
+        self.table = RecordTable(
+            self, self.proxy, "unfilledTable", "Cells left empty and why",
+            "Click an entry, or press Enter, to show the cell in the sheet. Click a column title to sort.",
+        )
         self.table.setSortingEnabled(True)
-        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
-        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
-        self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
-        self.table.setTabKeyNavigation(False)
-        self.table.verticalHeader().setVisible(False)
-        self.table.verticalHeader().setDefaultSectionSize(self.fontMetrics().height() + 8)
         header = self.table.horizontalHeader()
         header.setSectionResizeMode(ROW, QHeaderView.ResizeMode.ResizeToContents)
         header.setSectionResizeMode(COLUMN, QHeaderView.ResizeMode.ResizeToContents)
         header.setStretchLastSection(True)
         self.table.clicked.connect(self._choose)
-        self.table.entry_chosen.connect(self._choose)
+        self.table.chosen.connect(self._choose)
         layout.addWidget(self.table, 1)
         QWidget.setTabOrder(self.reason_filter, self.table)
 

@@ -44,3 +44,39 @@ def test_a_missing_file_fails_the_screenshot_run(tmp_path):
         private_env(tmp_path / "home", QT_QPA_PLATFORM="offscreen"),
     )
     assert done.returncode == launch.EXIT_READ_FAILED and not png.exists()
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("state", launch.SCREENSHOT_STATES)
+def test_screenshot_states_bring_the_window_there(qtbot, samples_dir, state):
+    """``--screenshot-state``: the sheet as read; the recovery test with its best k in use;
+    then a fill preview with the first filled cell selected and its donors shown."""
+    import numpy as np
+
+    from imputer_app.gui.main_window import MainWindow
+    from imputer_app.gui.settings import AppSettings
+
+    window = MainWindow(AppSettings())
+    qtbot.addWidget(window)
+    window.show()
+    with qtbot.waitSignal(window.sheet_loaded, timeout=30_000):
+        window.open_path(samples_dir / "river_survey.xlsx", {})
+    window.recovery_panel.k_to.setValue(6)
+    window.recovery_panel.repeats.setValue(2)
+    k_before = window.session.plan.k
+    reached: list[str] = []
+    launch.drive_to(window, state, lambda: reached.append(state))
+    qtbot.waitUntil(lambda: reached == [state], timeout=60_000)
+    report, preview = window.session.report, window.session.preview
+    if state == "sheet":
+        assert report is None and preview is None and window.session.plan.k == k_before
+        return
+    assert window.session.plan.k == report.best_k
+    if state == "recovery":
+        assert preview is None
+        return
+    first = np.argwhere(window.table_model.fill_codes > 0)[0]
+    current = window.table.currentIndex()
+    assert (current.row(), current.column()) == tuple(int(v) for v in first)
+    assert preview.plan.k == report.best_k
+    assert window.current_panel() is window.donor_panel and window.donor_panel.story.status == "filled"
