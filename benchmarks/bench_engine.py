@@ -9,10 +9,14 @@ filled values only, what KNNImputer returns and what the recovery test runs) and
 ``impute`` is the whole public call, which also builds the fill log, the flags and the
 filled DataFrame. Each timing is the best of a few runs; ratios are measured in the
 same process on the same arrays, so they compare across machines.
+
+Set ``KINFILL_BENCH_CASES`` to a comma-separated subset of ``long,wide,large`` to run
+only those cases while iterating (default: all three).
 """
 
 from __future__ import annotations
 
+import os
 import resource
 import subprocess
 import sys
@@ -28,6 +32,7 @@ from imputer_app.engine import combine, impute, nearest_donors, prepare
 from imputer_app.plan import FillPlan
 
 PLAN = FillPlan(k=5, scaling="none")
+CASES = ("long", "wide", "large")
 
 
 def _data(n_rows: int, n_cols: int, gap: float, seed: int = 0) -> tuple[np.ndarray, pd.DataFrame]:
@@ -98,13 +103,27 @@ def big() -> None:
           f"(data and imports alone {before:.2f} GB; goal < 2 GB)", flush=True)  # fmt: skip
 
 
+def _wanted() -> tuple[str, ...]:
+    """The cases named in ``KINFILL_BENCH_CASES`` (every case when it is unset or empty)."""
+    named = [c.strip() for c in os.environ.get("KINFILL_BENCH_CASES", "").split(",") if c.strip()]
+    unknown = sorted(set(named) - set(CASES))
+    if unknown:
+        known = ", ".join(CASES)
+        raise SystemExit(f"KINFILL_BENCH_CASES: unknown case(s) {', '.join(unknown)}; known: {known}")
+    return tuple(named) or CASES
+
+
 def main() -> None:
-    """Run every case and print timings and ratios."""
-    compare("long", 20_000, 20, 0.10, goal=10, repeats=1)
-    compare("wide", 300, 5_000, 0.05, goal=5, repeats=3)
-    # a fresh interpreter, so that the peak memory is this case's alone
-    code = "from benchmarks.bench_engine import big; big()"
-    subprocess.run([sys.executable, "-c", code], check=True)
+    """Run every case (or those in ``KINFILL_BENCH_CASES``) and print timings and ratios."""
+    wanted = _wanted()
+    if "long" in wanted:
+        compare("long", 20_000, 20, 0.10, goal=10, repeats=1)
+    if "wide" in wanted:
+        compare("wide", 300, 5_000, 0.05, goal=5, repeats=3)
+    if "large" in wanted:
+        # a fresh interpreter, so that the peak memory is this case's alone
+        code = "from benchmarks.bench_engine import big; big()"
+        subprocess.run([sys.executable, "-c", code], check=True)
 
 
 if __name__ == "__main__":

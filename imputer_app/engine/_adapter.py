@@ -8,6 +8,7 @@ flags, fill log and the table of cells left empty).
 
 from __future__ import annotations
 
+import copy
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
@@ -16,10 +17,17 @@ import numpy as np
 import pandas as pd
 from numpy.typing import NDArray
 
-from imputer_app.engine._columns import Columns, has_gap, scaled_features
-from imputer_app.engine._combine import combine
-from imputer_app.engine._log import Censored, Records, fill_records, substitution_records
-from imputer_app.engine._search import nearest_donors
+from imputer_app.engine._columns import Columns, scaled_features
+from imputer_app.engine._log import (
+    Censored,
+    LogTable,
+    Records,
+    fill_records,
+    repeated,
+    substitution_records,
+)
+from imputer_app.engine._search import search_cells
+from imputer_app.engine._stack import Stack
 from imputer_app.engine._support import weak_threshold
 from imputer_app.engine._table import PreparedTable
 from imputer_app.errors import PlanError
@@ -140,12 +148,15 @@ def _kinds(inp: _Input, plan: FillPlan) -> dict[str, str]:
     """Detected kind of every column, with the plan's overrides applied."""
     frame = inp.frame
     has_values = frame.notna().any(axis=0).to_numpy()
+    dtypes = frame.dtypes.tolist()
+    plain = {dtype: _plain_number(dtype) for dtype in set(dtypes)}  # a wide table has few dtypes
+    sheet_kinds = inp.sheet_kinds or {}
     kinds = {}
-    for col, dtype, has in zip(inp.names, frame.dtypes.tolist(), has_values.tolist(), strict=True):
-        kind = (inp.sheet_kinds or {}).get(col)
-        if kind is None and has and _plain_number(dtype):
+    for col, dtype, has in zip(inp.names, dtypes, has_values.tolist(), strict=True):
+        kind = plan.kinds.get(col) or sheet_kinds.get(col)
+        if kind is None and has and plain[dtype]:
             kind = "number"  # the common case, without looking at the values
-        kinds[col] = plan.kinds.get(col, kind or detect_kind(frame[col]))
+        kinds[col] = kind or detect_kind(frame[col])
     return kinds
 
 
@@ -191,17 +202,38 @@ def default_roles(data: Any) -> dict[str, str]:
 
 
 # ---------------------------------------------------------------- censored cells
-def _censored(inp: _Input, col: str) -> Censored | None:
-    """Censored cells of ``col`` from the sheet's states and cell notes (None if none)."""
-    if inp.states is None or col not in inp.states.columns:
-        return None
-    mask = np.asarray(inp.states[col].astype(object) == "censored", dtype=bool)
-    if not mask.any():
-        return None
+def _state_masks(inp: _Input, columns: list[str], words: tuple[str, ...]) -> dict[str, NDArray[np.bool_]]:
+    """Per state word, bool (n_rows, len(columns)): the sheet's state of the cell is that word.
+
+    All False without states or for a column the states lack. Categorical states (what
+    the sheet reader gives) are compared by code, column by column: far faster than
+    turning the whole table of states into text.
+    """
+    out = {word: np.zeros((len(inp.frame), len(columns)), dtype=bool) for word in words}
+    if inp.states is None:
+        return out
+    for j, col in enumerate(columns):
+        if col not in inp.states.columns:
+            continue
+        series = inp.states[col]
+        if isinstance(series.dtype, pd.CategoricalDtype):
+            codes, classes = series.cat.codes.to_numpy(), series.cat.categories
+            for word in words:
+                if word in classes:
+                    out[word][:, j] = codes == classes.get_loc(word)
+        else:
+            text = series.astype(object).to_numpy()
+            for word in words:
+                out[word][:, j] = text == word
+    return out
+
+
+def _censored(inp: _Input, col: str, mask: NDArray[np.bool_]) -> Censored:
+    """Censored cells ``mask`` of ``col`` with their side, limit and text from the cell notes."""
     n = len(mask)
     side = np.full(n, "", dtype="<U1")
     limit = np.full(n, np.nan)
-    text = np.full(n, "", dtype=object)
+    text = repeated("", n)
     notes = inp.notes
     if notes is not None and len(notes) and {"row", "column"} <= set(notes.columns):
         mine = notes[notes["column"] == col]
@@ -244,17 +276,15 @@ def _read_columns(
     position = {name: j for j, name in enumerate(inp.names)}
     used = list(dict.fromkeys(used))
     numbers = [c for c in used if kinds[c] == "number"]
-    block = _number_block(inp.frame, numbers)
-    marked = _censored_columns(inp, numbers)
-    for j, col in enumerate(numbers):
-        values = block[:, j]
-        cen = _censored(inp, col) if col in marked else None
-        if cen is not None:
-            out.censored[col] = cen
-            values = np.where(cen.mask, cen.substitute(censored), values)
-        if hide is not None:
-            values = np.where(hide[:, position[col]], np.nan, values)
-        out.numbers[col] = values
+    block = _number_block(inp.frame, numbers)  # a new array: written in place below
+    marked = _state_masks(inp, numbers, ("censored",))["censored"]
+    for j in np.flatnonzero(marked.any(axis=0)).tolist():
+        cen = out.censored[numbers[j]] = _censored(inp, numbers[j], marked[:, j])
+        block[:, j] = np.where(cen.mask, cen.substitute(censored), block[:, j])
+    if hide is not None and numbers:
+        block[hide[:, [position[c] for c in numbers]]] = np.nan
+    out.block, out.where = block, {col: j for j, col in enumerate(numbers)}
+    out.numbers = {col: block[:, j] for j, col in enumerate(numbers)}
     for col in used:
         if kinds[col] != "number":
             codes, labels = _codes(inp.frame[col])
@@ -266,25 +296,16 @@ def _read_columns(
 
 def _number_block(frame: pd.DataFrame, columns: list[str]) -> NDArray[np.float64]:
     """Float array (n_rows, len(columns)); numeric dtypes read in one go, others checked."""
-    out = np.empty((len(frame), len(columns)))
     dtypes = dict(zip(frame.columns.tolist(), frame.dtypes.tolist(), strict=True))
+    if columns == list(dtypes) and set(dtypes.values()) <= {np.dtype(np.float64)}:
+        return frame.to_numpy(dtype=np.float64, na_value=np.nan, copy=True)  # the common case: one copy
+    out = np.empty((len(frame), len(columns)))
     plain = [j for j, c in enumerate(columns) if _plain_number(dtypes[c])]
     if plain:
         out[:, plain] = frame[[columns[j] for j in plain]].to_numpy(dtype=float, na_value=np.nan)
     for j in sorted(set(range(len(columns))) - set(plain)):
         out[:, j] = _numbers(frame, columns[j])
     return out
-
-
-def _censored_columns(inp: _Input, columns: list[str]) -> set[str]:
-    """The columns among ``columns`` with at least one censored cell."""
-    if inp.states is None or not columns:
-        return set()
-    present = [c for c in columns if c in inp.states.columns]
-    if not present:
-        return set()
-    hit = (inp.states[present].astype(object).to_numpy() == "censored").any(axis=0)
-    return {c for c, h in zip(present, hit, strict=True) if h}
 
 
 def _groups(inp: _Input, plan: FillPlan, hide: NDArray[np.bool_] | None) -> tuple[Any, NDArray[np.generic]]:
@@ -341,7 +362,8 @@ def _prepare(
             kinds_all[col] = "category" if kinds_all[col] == "identifier" else "number"
     cols = _read_columns(inp, [*sim, *(plan.fill_columns or ())], kinds_all, plan.censored, hide)
     if plan.fill_columns is None:
-        fill = tuple(c for c in sim if c != plan.group_column and has_gap(cols, c))
+        gappy = cols.gap_columns()
+        fill = tuple(c for c in sim if c != plan.group_column and c in gappy)
     else:
         fill = plan.fill_columns
     resolved = plan.replace(
@@ -361,10 +383,11 @@ def _prepare(
     cap_upper: dict[str, NDArray[np.float64]] = {}
     cap_lower: dict[str, NDArray[np.float64]] = {}
     unknown_limit: dict[str, NDArray[np.bool_]] = {}
+    finite = np.isfinite(cols.block)
     for col in fill:
         if kinds[col] == "number":
             values[col] = cols.numbers[col]
-            observed[col] = np.isfinite(cols.numbers[col])
+            observed[col] = finite[:, cols.where[col]]
             cen = cols.censored.get(col)
             if cen is not None:
                 unknown_limit[col] = cen.mask & ~np.isfinite(cen.limit)
@@ -434,11 +457,12 @@ def impute(
     raise_if_cancelled(cancel)
     inp = _unpack(data)
     table, censored = _prepare(inp, plan)
-    donors = nearest_donors(table, kmax=table.plan.k, progress=progress, cancel=cancel)
-    values = combine(table, donors, [table.plan.k])[table.plan.k]
-    threshold = weak_threshold(donors.values())
-    records = Records()
-    fill_records(table, donors, values, threshold, records)
+    # one flat search over every fill column: values and log rows are worked out for all at once
+    found, cell_col = search_cells(table, kmax=table.plan.k, progress=progress, cancel=cancel)
+    stack = Stack.of_cells(table.fill_columns, found, cell_col)
+    threshold = weak_threshold([stack.donors])
+    records = Records(inp.names)
+    fill_records(table, stack, threshold, records)
     for col, cen in censored.items():
         substitution_records(col, cen, table.plan.censored, records)
         if col not in table.fill_columns:  # a censored entry with no number and no fill stays empty
@@ -454,31 +478,24 @@ def _result(
 ) -> FillResult:
     frame = inp.frame
     labels = frame.index
-    pos = records.field("pos").astype(np.intp)
-    colpos = frame.columns.get_indexer(pd.Index(records.field("column"))).astype(np.intp)
-    methods = records.field("method")
-    values = records.field("value")
+    log = records.log_table(table.row_labels)
     filled = np.zeros(frame.shape, dtype=bool)
-    knn = np.isin(methods, ("knn", "knn_capped", "column_mean"))
-    filled[pos[knn], colpos[knn]] = True
-    flags = np.zeros(frame.shape, dtype=bool)  # every censored cell, whatever its column's role
-    if inp.states is not None:
-        present = [c for c in inp.names if c in inp.states.columns]
-        marked = inp.states[present].astype(object).to_numpy() == "censored"
-        flags[:, [inp.names.index(c) for c in present]] = marked
+    filled[log.pos[log.filled], log.column[log.filled]] = True
+    states = _state_masks(inp, list(inp.names), ("censored", "text_in_number"))
+    flags = states["censored"]  # every censored cell, whatever its column's role
     unfilled = pd.DataFrame(
         {
-            "row": labels[records.field("pos", "empty").astype(np.intp)],
-            "column": records.field("column", "empty"),
-            "reason": records.field("reason", "empty"),
+            "row": labels[records.empty_field("pos")],
+            "column": records.empty_field("column"),
+            "reason": records.empty_field("reason"),
         },
         columns=list(UNFILLED_COLUMNS),
     )
     return FillResult(
-        frame=_filled_frame(frame, table, pos, colpos, values),
-        filled=pd.DataFrame(filled, index=labels, columns=frame.columns),
-        censored=pd.DataFrame(flags, index=labels, columns=frame.columns),
-        log=_log_frame(inp, pos, colpos, records),
+        frame=_filled_frame(frame, table, log.pos, log.column, log.fields["value"]),
+        filled=pd.DataFrame(filled, index=labels, columns=frame.columns, copy=False),
+        censored=pd.DataFrame(flags, index=labels, columns=frame.columns, copy=False),
+        log=_log_frame(inp, log, states),
         unfilled=unfilled.reset_index(drop=True),
         plan=table.plan,
         warnings=table.warnings,
@@ -494,13 +511,18 @@ def _filled_frame(
     values: NDArray[Any],
 ) -> pd.DataFrame:
     """A copy of ``frame`` with ``values`` written at (pos, colpos)."""
+    written = np.flatnonzero(np.bincount(colpos, minlength=frame.shape[1]))
+    dtypes = frame.dtypes.tolist()
+    numbers = [table.kinds.get(table.columns[j], "number") == "number" for j in written.tolist()]
+    if set(dtypes) <= {np.dtype(np.float64)} and all(numbers):  # the common case: one copy, one write
+        block = frame.to_numpy(dtype=np.float64, copy=True)
+        block[pos, colpos] = values.astype(np.float64)
+        out = pd.DataFrame(block, index=frame.index, columns=frame.columns, copy=False)
+        out.attrs = copy.deepcopy(frame.attrs)
+        return out
     out = frame.copy(deep=True)
-    written = np.unique(colpos)
-    dtypes = frame.dtypes.to_numpy()
-    fast = np.array(
-        [dtypes[j] == np.float64 and table.kinds.get(table.columns[j]) == "number" for j in written],
-        dtype=bool,
-    )
+    floats = [dtypes[j] == np.float64 for j in written.tolist()]
+    fast = np.array(floats, dtype=bool) & np.array(numbers, dtype=bool)
     if fast.any():  # float columns: one write into the frame's float block
         cols = written[fast]
         block = frame.iloc[:, cols].to_numpy(dtype=np.float64, copy=True)
@@ -514,24 +536,17 @@ def _filled_frame(
     return out
 
 
-def _log_frame(
-    inp: _Input, pos: NDArray[np.intp], colpos: NDArray[np.intp], records: Records
-) -> pd.DataFrame:
-    """The fill log, ordered by row and then by column."""
-    order = np.lexsort((colpos, pos))
-    if inp.states is not None and len(pos):
-        states = inp.states.to_numpy(dtype=object)[pos, colpos]
-        state = np.where(np.isin(states, ("censored", "text_in_number")), states, "missing").astype(object)
-    else:
-        state = np.full(len(pos), "missing", dtype=object)
-    columns: dict[str, Any] = {"row": inp.frame.index.to_numpy()[pos[order]], "original_state": state[order]}
-    for name in LOG_COLUMNS[1:]:
-        if name != "original_state":
-            columns[name] = records.field(name)[order]
-    log = pd.DataFrame(columns, columns=list(LOG_COLUMNS))
-    log["k"] = log["k"].astype(np.int64)
-    log["spread"] = log["spread"].astype(np.float64)
-    return log
+def _log_frame(inp: _Input, log: LogTable, states: Mapping[str, NDArray[np.bool_]]) -> pd.DataFrame:
+    """The fill log as a DataFrame (already ordered by row and then by column).
+
+    ``states`` holds the cells marked ``censored`` and ``text_in_number``; others were gaps.
+    """
+    pos, colpos = log.pos, log.column
+    state = repeated("missing", len(pos))
+    for word in ("text_in_number", "censored"):
+        state[states[word][pos, colpos]] = word
+    columns: dict[str, Any] = {"row": inp.frame.index.to_numpy()[pos], "original_state": state, **log.fields}
+    return pd.DataFrame(columns, columns=list(LOG_COLUMNS))
 
 
 def _write(original: pd.Series, pos: NDArray[np.intp], values: NDArray[np.object_], kind: str) -> pd.Series:

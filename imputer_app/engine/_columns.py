@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from collections.abc import Mapping
-from dataclasses import dataclass
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
 
 import numpy as np
 from numpy.typing import NDArray
@@ -16,19 +16,30 @@ from imputer_app.plan import FillPlan
 
 @dataclass
 class Columns:
-    """Raw per-column arrays of the used columns (after hide and censored handling)."""
+    """Raw per-column arrays of the used columns (after hide and censored handling).
+
+    Numeric columns are the columns of one float ``block`` (n_rows, n_numbers), so
+    that work on all of them (gaps, scaling) is one array operation; ``numbers``
+    holds views of its columns.
+    """
 
     numbers: dict[str, NDArray[np.float64]]
     codes: dict[str, NDArray[np.intp]]
     labels: dict[str, NDArray[np.generic]]
     censored: dict[str, Censored]
+    block: NDArray[np.float64] = field(default_factory=lambda: np.empty((0, 0)))
+    where: dict[str, int] = field(default_factory=dict)  # numeric column -> column of ``block``
 
+    def number_matrix(self, names: Sequence[str]) -> NDArray[np.float64]:
+        """The numeric columns ``names`` as an (n_rows, len(names)) array (``block`` itself if all)."""
+        at = [self.where[c] for c in names]
+        return self.block if at == list(range(self.block.shape[1])) else self.block[:, at]
 
-def has_gap(cols: Columns, col: str) -> bool:
-    """True when ``col`` has a cell without a value."""
-    if col in cols.numbers:
-        return bool(np.isnan(cols.numbers[col]).any())
-    return bool((cols.codes[col] < 0).any())
+    def gap_columns(self) -> set[str]:
+        """The columns with at least one cell without a value."""
+        gaps = np.asarray(np.isnan(self.block).any(axis=0), dtype=bool)
+        out = {c for c, j in self.where.items() if gaps[j]}
+        return out | {c for c, codes in self.codes.items() if (codes < 0).any()}
 
 
 def scaled_features(
@@ -36,27 +47,28 @@ def scaled_features(
 ) -> tuple[Features, list[str]]:
     """Scaled similarity columns and weights; constant or zero-weight columns left out."""
     warnings: list[str] = []
-    sim = [c for c in plan.similarity_columns or () if plan.weight(c) > 0]
+    weight = {c: plan.weight(c) for c in plan.similarity_columns or ()}
+    sim = [c for c in plan.similarity_columns or () if weight[c] > 0]
     num = [c for c in sim if kinds[c] == "number"]
     cat = [c for c in sim if kinds[c] != "number"]
     n = len(next(iter(cols.numbers.values()), next(iter(cols.codes.values()), np.empty(0))))
-    x = np.column_stack([cols.numbers[c] for c in num]) if num else np.empty((n, 0))
+    x = cols.number_matrix(num) if num else np.empty((n, 0))
     codes = np.column_stack([cols.codes[c] for c in cat]) if cat else np.empty((n, 0), dtype=np.intp)
     fitted = fit_scale(x, plan.scaling if scale else "none")
     keep_num = ~fitted.constant
     keep_cat = np.array(
         [len(np.unique(codes[:, j][codes[:, j] >= 0])) > 1 for j in range(len(cat))], dtype=bool
     )
-    for col, ok, values in [*zip(num, keep_num, x.T, strict=True), *zip(cat, keep_cat, codes.T, strict=True)]:
-        if not ok:
-            has = np.isfinite(values).any() if values.dtype.kind == "f" else (values >= 0).any()
-            why = "is constant" if has else "has no values"
-            warnings.append(f"column {col!r} {why}; left out of the distance")
-    for col in np.asarray(num)[fitted.fallback].tolist() if num else []:
-        warnings.append(f"column {col!r} has zero interquartile range; scaled by its standard deviation")
+    left_out = [(num[j], np.isfinite(x[:, j]).any()) for j in np.flatnonzero(~keep_num).tolist()]
+    left_out += [(cat[j], (codes[:, j] >= 0).any()) for j in np.flatnonzero(~keep_cat).tolist()]
+    for col, has in left_out:
+        why = "is constant" if has else "has no values"
+        warnings.append(f"column {col!r} {why}; left out of the distance")
+    for j in np.flatnonzero(fitted.fallback).tolist():
+        warnings.append(f"column {num[j]!r} has zero interquartile range; scaled by its standard deviation")
     scaled = apply_scale(x, fitted)[:, keep_num]
-    w_num = np.array([plan.weight(c) for c in num])[keep_num] if num else np.empty(0)
-    w_cat = np.array([plan.weight(c) for c in cat])[keep_cat] if cat else np.empty(0)
+    w_num = np.array([weight[c] for c in num])[keep_num] if num else np.empty(0)
+    w_cat = np.array([weight[c] for c in cat])[keep_cat] if cat else np.empty(0)
     total = float(w_num.sum() + w_cat.sum())
     if total <= 0 and (plan.fill_columns or ()):
         warnings.append(

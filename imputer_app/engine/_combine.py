@@ -9,66 +9,18 @@ fill columns are worked on together as one stack of cells.
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
 
 from imputer_app.engine._search import ColumnDonors
+from imputer_app.engine._stack import Stack
 from imputer_app.engine._table import PreparedTable
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.intp]
-
-
-@dataclass(frozen=True)
-class Stack:
-    """The target cells of several fill columns as one flat set of donors.
-
-    Attributes
-    ----------
-    columns : tuple of str
-    donors : ColumnDonors
-        All cells, column after column (``rows`` ascending within a column).
-    col : ndarray of int, shape (cells,)
-        Position in ``columns`` of each cell's column.
-    offsets : ndarray of int, shape (len(columns) + 1,)
-        Cells of column ``i`` are ``offsets[i]:offsets[i + 1]``.
-    """
-
-    columns: tuple[str, ...]
-    donors: ColumnDonors
-    col: IntArray
-    offsets: IntArray
-
-    @classmethod
-    def of(cls, donors: Mapping[str, ColumnDonors], columns: Sequence[str]) -> Stack:
-        """Stack ``donors[c]`` for ``c`` in ``columns``."""
-        parts = [donors[c] for c in columns]
-        sizes = np.array([len(p.rows) for p in parts], dtype=np.intp)
-        kmax = max((p.index.shape[1] for p in parts), default=0)
-        flat = ColumnDonors(
-            rows=np.concatenate([p.rows for p in parts]) if parts else np.empty(0, dtype=np.intp),
-            index=np.vstack([p.index for p in parts]) if parts else np.empty((0, kmax), dtype=np.intp),
-            distance=np.vstack([p.distance for p in parts]) if parts else np.empty((0, kmax)),
-            count=np.concatenate([p.count for p in parts]) if parts else np.empty(0, dtype=np.intp),
-        )
-        col = np.repeat(np.arange(len(parts)), sizes)
-        return cls(tuple(columns), flat, col, np.concatenate([[0], np.cumsum(sizes)]).astype(np.intp))
-
-    def split(self, values: NDArray[np.generic]) -> dict[str, NDArray[np.generic]]:
-        """Per column, the part of a per-cell array that belongs to it."""
-        return {
-            c: values[a:b] for c, a, b in zip(self.columns, self.offsets[:-1], self.offsets[1:], strict=True)
-        }
-
-    def gather(self, matrix: NDArray[Any], fill: float = np.nan) -> NDArray[Any]:
-        """Donors' entries of ``matrix`` (n_rows, n_columns): shape (cells, kmax), ``fill`` pads."""
-        index = self.donors.index
-        got = matrix[np.maximum(index, 0), self.col[:, None]]
-        return np.where(index >= 0, got, fill)
 
 
 def _used(count: IntArray, k: int) -> IntArray:
@@ -152,13 +104,24 @@ def median_values(v: FloatArray, donors: ColumnDonors, ks: Iterable[int]) -> dic
 
 
 def spread(v: FloatArray, donors: ColumnDonors, k: int) -> FloatArray:
-    """Sample standard deviation of the first ``min(k, count)`` donors' values (NaN below 2)."""
+    """Sample standard deviation of the first ``min(k, count)`` donors' values (NaN below 2).
+
+    The steps of ``np.nanstd(..., ddof=1)`` (zeros in place of the unused donors), without
+    its checks and copies.
+    """
     used = _used(donors.count, k)
-    part = np.where(np.arange(v.shape[1])[None, :] < used[:, None], v, np.nan)[:, :k]
     out = np.full(len(used), np.nan)
-    many = used >= 2
-    if many.any():
-        out[many] = np.nanstd(part[many], axis=1, ddof=1)
+    many = np.flatnonzero(used >= 2)
+    if not len(many):
+        return out
+    n = used[many]
+    unused = np.arange(min(k, v.shape[1]))[None, :] >= n[:, None]
+    part = v[many, : unused.shape[1]]
+    part[unused] = 0.0
+    part -= part.sum(axis=1, keepdims=True) / n[:, None]
+    part[unused] = 0.0
+    np.multiply(part, part, out=part)
+    out[many] = np.sqrt(part.sum(axis=1) / (n - 1))
     return out
 
 
@@ -226,6 +189,8 @@ class Finish:
         decimals = np.array([plan.decimals.get(c, -1) for c in stack.columns], dtype=np.intp)[stack.col]
         cap_hi, cap_lo = np.full(len(stack.col), np.nan), np.full(len(stack.col), np.nan)
         for i, c in enumerate(stack.columns):
+            if c not in table.cap_upper and c not in table.cap_lower:
+                continue
             cells = slice(stack.offsets[i], stack.offsets[i + 1])
             rows = stack.donors.rows[cells]
             if c in table.cap_upper:
@@ -247,10 +212,19 @@ class Finish:
         return out
 
 
-def number_values(table: PreparedTable, stack: Stack, ks: Iterable[int]) -> dict[int, FloatArray]:
-    """Finished fill values of every cell of a stack of numeric columns, per k."""
-    matrix = np.column_stack([table.values[c] for c in stack.columns]) if stack.columns else np.empty((0, 0))
-    v = stack.gather(matrix)
+def stack_values(table: PreparedTable, stack: Stack) -> FloatArray:
+    """Donors' raw values of every cell of a stack of numeric columns, (cells, kmax); NaN pads."""
+    return np.asarray(stack.gather([table.values[c] for c in stack.columns]), dtype=np.float64)
+
+
+def number_values(
+    table: PreparedTable, stack: Stack, ks: Iterable[int], v: FloatArray | None = None
+) -> dict[int, FloatArray]:
+    """Finished fill values of every cell of a stack of numeric columns, per k.
+
+    ``v`` is :func:`stack_values` when the caller has it already.
+    """
+    v = stack_values(table, stack) if v is None else v
     plan = table.plan
     if plan.neighbour_weighting == "inverse_distance":
         raw = mean_values(v, stack.donors, ks, inverse_distance=True)

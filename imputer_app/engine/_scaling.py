@@ -46,6 +46,17 @@ def _nan_stat(func: str, x: NDArray[np.float64], *args: float) -> NDArray[np.flo
     return out
 
 
+def _extremes(x: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Column minimum and maximum ignoring NaN (NaN for an all-NaN column), without copies.
+
+    ``fmin``/``fmax`` skip NaN by themselves, and a minimum does not depend on the order
+    of the values, so no contiguous copy is needed (unlike the sums of a mean).
+    """
+    if x.shape[0] == 0:
+        return np.full(x.shape[1], np.nan), np.full(x.shape[1], np.nan)
+    return np.fmin.reduce(x, axis=0), np.fmax.reduce(x, axis=0)
+
+
 def fit_scale(x: NDArray[np.float64], method: str) -> Scale:
     """Compute the centre and spread of every column of ``x``.
 
@@ -62,8 +73,7 @@ def fit_scale(x: NDArray[np.float64], method: str) -> Scale:
     Scale
     """
     n_cols = x.shape[1]
-    lo = _nan_stat("nanmin", x)
-    hi = _nan_stat("nanmax", x)
+    lo, hi = _extremes(x)
     with np.errstate(invalid="ignore"):
         constant = ~(hi > lo)  # also True for all-NaN columns
     fallback = np.zeros(n_cols, dtype=bool)
@@ -101,6 +111,9 @@ def apply_scale(x: NDArray[np.float64], scale: Scale) -> NDArray[np.float64]:
     ndarray of shape (n_rows, n_columns), a new array.
     """
     safe = np.where(scale.constant, 1.0, scale.spread)
-    out = (x - scale.center) / safe
+    if scale.center.any() or (safe != 1.0).any():
+        out = (x - scale.center) / safe
+    else:  # no scaling: (x - 0) / 1 is x exactly, so a copy does (without two temporaries)
+        out = np.array(x, dtype=np.float64, copy=True)
     out[:, scale.constant] = np.nan
     return out

@@ -120,16 +120,12 @@ class _Cells:
         self.index[at] = index
         self.d2[at] = d2
 
-    def split(self, names: tuple[str, ...]) -> dict[str, ColumnDonors]:
+    def flat(self) -> tuple[ColumnDonors, IntArray]:
         valid = self.index >= 0
         with np.errstate(invalid="ignore"):
             distance = np.where(valid, np.sqrt(self.d2), np.inf)
         count = valid.sum(axis=1).astype(np.intp)
-        bounds = np.searchsorted(self.col, np.arange(len(names) + 1))
-        return {
-            name: ColumnDonors(self.row[a:b], self.index[a:b], distance[a:b], count[a:b])
-            for name, a, b in zip(names, bounds[:-1], bounds[1:], strict=True)
-        }
+        return ColumnDonors(self.row, self.index, distance, count), self.col
 
 
 def nearest_donors(
@@ -172,6 +168,34 @@ def nearest_donors(
     >>> donors = nearest_donors(prepare(frame, FillPlan()), kmax=5)  # doctest: +SKIP
     >>> donors["nitrate"].index[0]  # row positions of the first target's donors  # doctest: +SKIP
     """
+    found, col = search_cells(
+        table, kmax=kmax, targets=targets, progress=progress, cancel=cancel, budget=budget
+    )
+    bounds = np.searchsorted(col, np.arange(len(table.fill_columns) + 1))
+    return {
+        name: ColumnDonors(found.rows[a:b], found.index[a:b], found.distance[a:b], found.count[a:b])
+        for name, a, b in zip(table.fill_columns, bounds[:-1], bounds[1:], strict=True)
+    }
+
+
+def search_cells(
+    table: PreparedTable,
+    *,
+    kmax: int,
+    targets: Mapping[str, BoolArray] | None = None,
+    progress: Progress | None = None,
+    cancel: CancelFlag | None = None,
+    budget: int = BLOCK_BYTES,
+) -> tuple[ColumnDonors, IntArray]:
+    """:func:`nearest_donors` for all fill columns as one flat set of cells (no split per column).
+
+    Returns
+    -------
+    donors : ColumnDonors
+        Every target cell, sorted by column and then row.
+    col : ndarray of int, shape (cells,)
+        Each cell's column, as a position in ``table.fill_columns``.
+    """
     if kmax < 1:
         raise ValueError(f"kmax must be at least 1; got {kmax}")
     raise_if_cancelled(cancel)
@@ -192,7 +216,7 @@ def nearest_donors(
         search = BlockSearch(DistanceModel(table.features), table.groups, budget)
         steps = _Jobs(search, want, ok, kmax, active).run(cells, progress, cancel)
     report(progress, steps, steps)
-    return cells.split(names)
+    return cells.flat()
 
 
 def _one_blas_thread() -> AbstractContextManager[object]:

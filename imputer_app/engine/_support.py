@@ -34,14 +34,18 @@ def weak_threshold(donors: Iterable[ColumnDonors], percentile: float = WEAK_PERC
     return float(np.percentile(pooled, percentile))
 
 
-def support_flags(donors: ColumnDonors, threshold: float) -> NDArray[np.str_]:
-    """Per target: ``"weak"`` when the nearest donor is beyond ``threshold``, else ``"ok"``.
+#: Words for the support levels of :func:`support_levels`.
+SUPPORT_WORDS = ("", "ok", "weak")
 
-    Targets without a donor get ``""``.
+
+def support_levels(donors: ColumnDonors, threshold: float) -> NDArray[np.intp]:
+    """Per target, a position in :data:`SUPPORT_WORDS`.
+
+    ``weak`` (2) when the nearest donor is beyond ``threshold``, else ``ok`` (1); 0 (no
+    word) for a target without a donor.
     """
     if donors.index.shape[1] == 0:
-        return np.full(len(donors.rows), "", dtype="<U4")
-    nearest = donors.distance[:, 0]
-    flags = np.where(nearest > threshold, "weak", "ok").astype("<U4")
-    flags[donors.count == 0] = ""
-    return flags
+        return np.zeros(len(donors.rows), dtype=np.intp)
+    levels = np.where(donors.distance[:, 0] > threshold, 2, 1).astype(np.intp)
+    levels[donors.count == 0] = 0
+    return levels

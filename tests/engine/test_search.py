@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from imputer_app.engine import nearest_donors, prepare
-from imputer_app.engine._distance import pairwise_distances
+from imputer_app.engine import _nearest, nearest_donors, prepare
+from imputer_app.engine._distance import DistanceModel, Features, pairwise_distances
 from imputer_app.engine._nearest import top_l
 from imputer_app.plan import FillPlan
 from tests.engine.helpers import random_frame
@@ -153,3 +153,65 @@ def test_tiles_beyond_the_first_block_match_brute_force(budget: int) -> None:
         rows, index = _brute_grouped(x, groups, j, 4)
         assert found[col].rows.tolist() == rows.tolist()
         np.testing.assert_array_equal(found[col].index, index)
+
+
+@pytest.mark.parametrize("kmax", [1, 5, 30])
+def test_growing_tiles_match_brute_force(monkeypatch: pytest.MonkeyPatch, kmax: int) -> None:
+    # Common practice, no source: the k nearest by a full stable sort. A tiny head and
+    # small first steps make the bound search run through many growing tiles (and reach
+    # rows whose list is not yet full) on a table small enough for brute force; whole
+    # numbers make many exact ties, which must go to the earlier row whatever kmax is.
+    monkeypatch.setattr(_nearest, "HEAD", 32)
+    monkeypatch.setattr(_nearest, "STEP_MIN", 8)
+    rng = np.random.default_rng(kmax)
+    x = rng.integers(0, 4, size=(400, 4)).astype(float)
+    x[rng.random(x.shape) < 0.25] = np.nan
+    frame = pd.DataFrame(x, columns=["a", "b", "c", "d"])
+    table = prepare(frame, FillPlan(scaling="none"))
+    found = nearest_donors(table, kmax=kmax, budget=2**16)
+    for col in table.fill_columns:
+        rows, index = _brute(frame, col, kmax)
+        assert found[col].rows.tolist() == rows
+        np.testing.assert_array_equal(found[col].index, index)
+
+
+def test_one_search_up_to_30_starts_with_the_search_for_5() -> None:
+    # The recovery test searches once with kmax = max(ks) and reads every k from the prefix:
+    # the first 5 donors of a kmax=30 search must be the kmax=5 search's, ties included
+    # (common practice, no source).
+    frame = (random_frame(3000, 4, 0.2, seed=11) * 2).round()
+    table = prepare(frame, FillPlan(scaling="none"))
+    short, long = nearest_donors(table, kmax=5), nearest_donors(table, kmax=30)
+    for col in table.fill_columns:
+        np.testing.assert_array_equal(long[col].index[:, :5], short[col].index)
+        np.testing.assert_array_equal(long[col].distance[:, :5], short[col].distance)
+        assert set(long[col].count.tolist()) == {0, 30}  # 0: a row with no similarity value
+
+
+@pytest.mark.parametrize("whole", [True, False])
+def test_pair_distances_equal_the_block(whole: bool) -> None:
+    # The search reads gathered candidates' distances pair by pair and the head's from a
+    # matrix-product block; both compute Dixon's (1979) weighted distance, so they agree
+    # (exactly for whole numbers and weights that are powers of two, so ties stay ties;
+    # otherwise up to rounding). Rows sharing no column have none (inf).
+    rng = np.random.default_rng(4)
+    x = rng.normal(size=(200, 5)) * 3
+    x = x.round() if whole else x
+    x[rng.random(x.shape) < 0.35] = np.nan
+    codes = rng.integers(-1, 3, size=(200, 2))
+    weights = np.array([1.0, 2.0, 0.5, 1.0, 4.0])
+    code_weights = np.array([1.0, 0.25])
+    total = float(weights.sum() + code_weights.sum())
+    model = DistanceModel(Features(x, weights, codes, code_weights, total))
+    targets = model.targets(np.arange(0, 200, 3))
+    block = model.block(targets, model.candidates())
+    which = np.repeat(np.arange(len(targets.rows)), 200)
+    others = np.tile(np.arange(200), len(targets.rows))
+    pairs = model.pairs(targets, which, others).reshape(block.shape)
+    np.testing.assert_array_equal(np.isinf(pairs), np.isinf(block))
+    assert np.isinf(pairs).any()  # the gap share leaves some rows with no shared column
+    if whole:
+        np.testing.assert_array_equal(pairs, block)
+    else:
+        finite = np.isfinite(block)
+        np.testing.assert_allclose(pairs[finite], block[finite], rtol=1e-12, atol=1e-12)
