@@ -57,23 +57,23 @@ def fill_summary(source: Path, result: Any, written: Sequence[Path]) -> str:
 def _censored_fill_lines(log: Any) -> list[str]:
     """Count censored entries that kNN filled: they are in "filled" but are not gaps.
 
-    A below-limit entry of unknown limit ("< LOD" with no limit column) gets a kNN value
-    from measured donors with no cap, so it deserves a look before use.
+    A below-limit entry with no limit written ("< LOD" and no limit column) is filled by
+    kNN and kept below the column's lowest measured value, so it deserves a look.
     """
     if "original_state" not in log.columns:
         return []
-    censored = log["original_state"] == "censored"
-    capped = int((censored & (log["method"] == "knn_capped")).sum())
-    uncapped = int((censored & (log["method"] == "knn")).sum())
+    knn = (log["original_state"] == "censored") & log["method"].isin(["knn", "knn_capped"])
+    unknown = knn & log["note"].astype(str).str.contains("no limit written", regex=False)
+    capped = int((knn & ~unknown).sum())
     lines = []
     if capped:
         lines.append(
             f"  of them censored entries filled by kNN, capped at their limit: {capped} (flagged as censored)"
         )
-    if uncapped:
+    if unknown.any():
         lines.append(
-            f"  of them censored entries of unknown limit filled by kNN, no cap: {uncapped} "
-            "(flagged as censored)"
+            "  of them censored entries with no limit written, filled by kNN and kept beyond the "
+            f"column's measured values: {int(unknown.sum())} (flagged as censored)"
         )
     return lines
 

@@ -391,9 +391,10 @@ def _prepare(
             cen = cols.censored.get(col)
             if cen is not None:
                 unknown_limit[col] = cen.mask & ~np.isfinite(cen.limit)
-            if cen is not None and resolved.censored == "fill_capped":
-                cap_upper[col] = np.where(cen.mask & (cen.side != ">"), cen.limit, np.nan)
-                cap_lower[col] = np.where(cen.mask & (cen.side == ">"), cen.limit, np.nan)
+                measured = values[col][observed[col] & ~cen.mask]  # not the stand-ins for limits
+                caps = _censored_caps(cen, unknown_limit[col], measured, resolved.censored)
+                if caps is not None:
+                    cap_upper[col], cap_lower[col] = caps
         else:
             values[col] = cols.codes[col]
             observed[col] = cols.codes[col] >= 0
@@ -417,6 +418,26 @@ def _prepare(
         cap_lower=cap_lower,
         unknown_limit=unknown_limit,
     ), cols.censored
+
+
+def _censored_caps(
+    cen: Any, unknown: NDArray[np.bool_], measured: NDArray[Any], mode: str
+) -> tuple[NDArray[np.float64], NDArray[np.float64]] | None:
+    """Upper and lower caps for censored cells filled by kNN, or None when none is.
+
+    With ``fill_capped`` every censored cell is capped at its limit. A cell whose limit
+    is unknown ("<LOD" with no number) is filled by kNN in every mode; it is still below
+    every measured value of its column (each passed the same limit), so the smallest
+    measured value caps it (the largest, for an above-range entry).
+    """
+    capping = cen.mask & ((mode == "fill_capped") | unknown)
+    if not capping.any():
+        return None
+    below = cen.side != ">"
+    limit = cen.limit
+    if unknown.any() and measured.size:
+        limit = np.where(unknown, np.where(below, measured.min(), measured.max()), limit)
+    return np.where(capping & below, limit, np.nan), np.where(capping & ~below, limit, np.nan)
 
 
 # ---------------------------------------------------------------- impute

@@ -388,7 +388,7 @@ def _knn_records(
         pos=found.rows[at], column=columns[stack.col[at]], value=written[at], method=method[at],
         k=used[at], donors=found.index[at, :width], distances=found.distance[at, :width],
         donor_values=shown[at, :width], spread=spreads[at], support=support_levels(found, threshold)[at],
-        note=_notes(table, stack, used, capped)[at],
+        note=_notes(table, stack, used, capped, written)[at],
     )  # fmt: skip
     out.add_log(piece)
     none = np.flatnonzero(~has)
@@ -397,29 +397,48 @@ def _knn_records(
 
 
 def _notes(
-    table: PreparedTable, stack: Stack, used: NDArray[np.intp], capped: Finish | None
+    table: PreparedTable, stack: Stack, used: NDArray[np.intp], capped: Finish | None, written: NDArray[Any]
 ) -> NDArray[np.object_]:
     k = table.plan.k
     parts: dict[int, list[str]] = {}
     for i in np.flatnonzero((used < k) & (used > 0)).tolist():
         parts.setdefault(i, []).append(f"only {used[i]} donor{'s' if used[i] != 1 else ''} (k={k})")
+    unknown = _unknown_limit_cells(table, stack, len(used))
+    noted = np.zeros(len(used), dtype=bool)
     if capped is not None:
-        for limits, word in ((capped.cap_upper, "below"), (capped.cap_lower, "above")):
+        sides = ((capped.cap_upper, "below", "lowest"), (capped.cap_lower, "above", "highest"))
+        for limits, word, side in sides:
             for i in np.flatnonzero(np.isfinite(limits)).tolist():
-                parts.setdefault(i, []).append(
-                    f"censored entry {word} {limits[i]:g}; kNN value kept on that side of the limit"
-                )
-    for j, col in enumerate(stack.columns):
-        unknown = table.unknown_limit.get(col)
-        if unknown is not None and unknown.any():
-            start = int(stack.offsets[j])
-            rows = stack.donors.rows[start : stack.offsets[j + 1]]
-            for i in (np.flatnonzero(unknown[rows]) + start).tolist():
-                parts.setdefault(i, []).append("censored entry with unknown limit; filled by kNN")
+                note = _cap_note(float(limits[i]), written[i], word, side, bool(unknown[i]))
+                parts.setdefault(i, []).append(note)
+                noted[i] = True
+    for i in np.flatnonzero(unknown & ~noted).tolist():  # no measured value to cap with
+        parts.setdefault(i, []).append("censored entry with no limit written; filled by kNN")
     notes = repeated("", len(used))
     for i, words in parts.items():
         notes[i] = "; ".join(words)
     return notes
+
+
+def _unknown_limit_cells(table: PreparedTable, stack: Stack, n: int) -> NDArray[np.bool_]:
+    """True for the stacked cells that are censored entries with no limit written."""
+    unknown = np.zeros(n, dtype=bool)
+    for j, col in enumerate(stack.columns):
+        mask = table.unknown_limit.get(col)
+        if mask is not None and mask.any():
+            start, stop = int(stack.offsets[j]), int(stack.offsets[j + 1])
+            unknown[start:stop] = mask[stack.donors.rows[start:stop]]
+    return unknown
+
+
+def _cap_note(limit: float, value: Any, word: str, side: str, unknown: bool) -> str:
+    """Say how a censored cell's kNN value relates to the limit that capped it."""
+    if unknown:
+        where = f"kept at or {word} the {side} measured value of the column ({limit:g})"
+        return f"censored entry with no limit written; filled by kNN, {where}"
+    if isinstance(value, float) and value == limit:
+        return f"censored entry {word} {limit:g}; the kNN value lay beyond it, so the limit was used"
+    return f"censored entry {word} {limit:g}; kNN value kept on that side of the limit"
 
 
 def _no_donor(table: PreparedTable, col: str, rows: NDArray[np.intp], out: Records) -> None:

@@ -46,7 +46,8 @@ def lab(tmp_path: Path) -> Path:
             "fill_capped",
             [
                 "  of them censored entries filled by kNN, capped at their limit: 1 (flagged as censored)",
-                "  of them censored entries of unknown limit filled by kNN, no cap: 1 (flagged as censored)",
+                "  of them censored entries with no limit written, filled by kNN and kept beyond the "
+                "column's measured values: 1 (flagged as censored)",
             ],
             id="fill_capped",
         ),
@@ -54,7 +55,8 @@ def lab(tmp_path: Path) -> Path:
             "half_limit",
             [
                 "censored entries stood in by half the limit: 1 (flagged as censored)",
-                "  of them censored entries of unknown limit filled by kNN, no cap: 1 (flagged as censored)",
+                "  of them censored entries with no limit written, filled by kNN and kept beyond the "
+                "column's measured values: 1 (flagged as censored)",
             ],
             id="half_limit",
         ),

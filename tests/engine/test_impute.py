@@ -239,14 +239,30 @@ def test_censored_substitution(mode: str, value: float) -> None:
     log = result.log.set_index(["row", "column"])
     assert log.loc[(4, "lead"), "method"] == mode and log.loc[(4, "lead"), "original_state"] == "censored"
     assert log.loc[(5, "hi"), "method"] == "limit" and log.loc[(4, "lead"), "support"] == ""
-    # unknown limit: filled by kNN and noted; the substituted cell 4 may be its donor
-    assert log.loc[(7, "lead"), "method"] == "knn" and result.filled.loc[7, "lead"]
-    assert "unknown limit" in log.loc[(7, "lead"), "note"]
+    # unknown limit: filled by kNN, kept at or below the smallest measured lead (0.5),
+    # and noted; the substituted cell 4 may be its donor
+    assert log.loc[(7, "lead"), "method"] == "knn_capped" and result.filled.loc[7, "lead"]
+    assert "no limit written" in log.loc[(7, "lead"), "note"] and "(0.5)" in log.loc[(7, "lead"), "note"]
+    assert result.frame.loc[7, "lead"] == pytest.approx((value + 0.6) / 2)  # below 0.5: not cut
     assert log.loc[(7, "lead"), "donors"] == (4, 3)  # x 1.19: nearest 1.2 (the substituted cell), then 1.1
     assert log.loc[(7, "lead"), "donor_values"] == pytest.approx((value, 0.6))
     # the substituted number is an observed value in the distance too
     table = prepare(sheet, plan)
     assert table.features.numbers[2, 1] == pytest.approx(value)
+
+
+def test_censored_entry_without_a_limit_stays_below_every_measured_value() -> None:
+    # A "<LOD" with no number still passed no measurement's limit, so it cannot sit in
+    # the middle of the measured range (common practice, no source).
+    frame = pd.DataFrame(
+        {"x": [1.0, 2.0, 3.0, 2.1], "conc": [1500.0, 1600.0, 1800.0, np.nan]}, index=[2, 3, 4, 5]
+    )
+    sheet = fake_sheet(frame, [(5, "conc", "<LOD", "<", np.nan)])
+    result = impute(sheet, FillPlan(k=2, scaling="none", similarity_columns=("x",), fill_columns=("conc",)))
+    assert result.frame.loc[5, "conc"] == 1500.0  # kNN mean 1700 capped at the lowest measured
+    entry = result.log.set_index(["row", "column"]).loc[(5, "conc")]
+    assert entry["method"] == "knn_capped" and "lowest measured value" in entry["note"]
+    assert result.censored.loc[5, "conc"] and result.filled.loc[5, "conc"]
 
 
 def test_censored_fill_capped() -> None:
@@ -262,6 +278,8 @@ def test_censored_fill_capped() -> None:
     # ">2000" in row 5 (x 5.0): donors rows 6 (500) and 7 (105): mean below 2000 -> raised to 2000
     assert result.frame.loc[5, "hi"] == 2000.0 and log.loc[(5, "hi"), "method"] == "knn_capped"
     assert result.censored.loc[4, "lead"] and result.censored.loc[5, "hi"]
+    # the log says the kNN value lay beyond the limit, so nobody mistakes 0.2 for a neighbour mean
+    assert "the limit was used" in log.loc[(4, "lead"), "note"]
 
 
 # ---------------------------------------------------------------- safety
