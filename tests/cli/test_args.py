@@ -15,15 +15,11 @@ import pytest
 import imputer_app
 from imputer_app import cli
 from imputer_app.cli_progress import StopFlag, TextProgress, render_bar, stop_on_ctrl_c
+from tests.cli.helpers import run
 
 ROOT = Path(__file__).resolve().parents[2]
 DEMO_XLSX = ROOT / "sample_sheets" / "river_survey.xlsx"
 
-
-def run(argv: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
-    code = cli.main(argv)
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 def assert_one_line(err: str) -> None:

@@ -12,7 +12,6 @@ import os
 import shutil
 import signal
 import sys
-from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
@@ -20,18 +19,13 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from imputer_app import cli
 from imputer_app.plan import FillPlan
+from tests.cli.helpers import run
 
 ROOT = Path(__file__).resolve().parents[2]
 SAMPLES = ROOT / "sample_sheets"
 MEASURES = ["pH", "Conductivity", "Nitrate", "Phosphate", "Dissolved oxygen", "Temperature", "Turbidity"]
 
-
-def run(argv: Sequence[object], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
-    code = cli.main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 @pytest.fixture(params=["river_survey.xlsx", "river_survey.csv"])

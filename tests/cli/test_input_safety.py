@@ -9,20 +9,15 @@ earlier csv export (a sheet named like such a side file).
 from __future__ import annotations
 
 import shutil
-from collections.abc import Sequence
 from pathlib import Path
 
 import pytest
 
 from imputer_app import cli
+from tests.cli.helpers import run
 
 DEMO_CSV = Path(__file__).resolve().parents[2] / "sample_sheets" / "river_survey.csv"
 
-
-def run(argv: Sequence[object], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
-    code = cli.main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 @pytest.fixture

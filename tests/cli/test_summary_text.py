@@ -10,26 +10,21 @@ from __future__ import annotations
 
 import json
 import math
-from collections.abc import Sequence
 from pathlib import Path
 from types import SimpleNamespace
 
 import pandas as pd
 import pytest
 
-from imputer_app import CAUTIONS, cli
+from imputer_app import CAUTIONS
 from imputer_app.cli_text import recovery_table
 from imputer_app.plan import FillPlan
 from imputer_app.sheets import read_sheet
+from tests.cli.helpers import run
 
 # b: one gap (row 6), one "<0.5" (row 3) and one "< LOD" without a limit column (row 8).
 SHEET = "id;a;b;c\nS1;1,5;1500;2,0\nS2;3;<0,5;4,0\nS3;4,5;1800;5,5\nS4;4,7;;5,6\nS5;2;1700;3\nS6;1;< LOD;2\n"
 
-
-def run(argv: Sequence[object], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
-    code = cli.main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 @pytest.fixture
