@@ -358,7 +358,7 @@ def run_fill(args: argparse.Namespace) -> int:
     finally:
         bar.done()
     _print_notes(sheet.problems, result.warnings)
-    print(fill_summary(source, result, written))
+    print(fill_summary(source, result, written, sheet))
     _remove_stale(old_sidecars, written, source)
     return EXIT_OK
 

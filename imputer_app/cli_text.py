@@ -7,6 +7,8 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
+import pandas as pd
+
 #: Fill-log methods that stand a number in for a censored entry (no kNN involved).
 SUBSTITUTIONS = {
     "limit": "the limit",
@@ -15,7 +17,7 @@ SUBSTITUTIONS = {
 }
 
 
-def fill_summary(source: Path, result: Any, written: Sequence[Path]) -> str:
+def fill_summary(source: Path, result: Any, written: Sequence[Path], sheet: Any = None) -> str:
     """Return the summary of ``kinfill fill``: cells filled, left empty, and files written.
 
     Parameters
@@ -26,6 +28,8 @@ def fill_summary(source: Path, result: Any, written: Sequence[Path]) -> str:
         The fill (``filled``, ``log``, ``unfilled``, ``plan``).
     written : sequence of Path
         Files the export wrote.
+    sheet : Sheet or None, default=None
+        The sheet as read; its ``cell_notes`` tell censored entries with no limit written.
     """
     log = result.log
     filled = result.filled
@@ -42,7 +46,7 @@ def fill_summary(source: Path, result: Any, written: Sequence[Path]) -> str:
         means = int((log["method"] == "column_mean").sum())
         if means:
             lines.append(f"  {means} of them with the column mean (no donor)")
-        lines.extend(_censored_fill_lines(log))
+        lines.extend(_censored_fill_lines(log, _no_limit_cells(sheet)))
         for method, words in SUBSTITUTIONS.items():
             count = int((log["method"] == method).sum())
             if count:
@@ -54,7 +58,16 @@ def fill_summary(source: Path, result: Any, written: Sequence[Path]) -> str:
     return "\n".join(lines)
 
 
-def _censored_fill_lines(log: Any) -> list[str]:
+def _no_limit_cells(sheet: Any) -> set[tuple[Any, str]]:
+    """(row label, column) of censored entries whose limit the sheet did not give."""
+    notes = getattr(sheet, "cell_notes", None)
+    if notes is None or not len(notes):
+        return set()
+    unknown = notes[(notes["state"] == "censored") & notes["limit"].isna()]
+    return set(zip(unknown["row"], unknown["column"], strict=True))
+
+
+def _censored_fill_lines(log: Any, no_limit: set[tuple[Any, str]]) -> list[str]:
     """Count censored entries that kNN filled: they are in "filled" but are not gaps.
 
     A below-limit entry with no limit written ("< LOD" and no limit column) is filled by
@@ -63,7 +76,8 @@ def _censored_fill_lines(log: Any) -> list[str]:
     if "original_state" not in log.columns:
         return []
     knn = (log["original_state"] == "censored") & log["method"].isin(["knn", "knn_capped"])
-    unknown = knn & log["note"].astype(str).str.contains("no limit written", regex=False)
+    cells = pd.Series(list(zip(log["row"], log["column"], strict=True)), index=log.index)
+    unknown = knn & cells.isin(no_limit)
     capped = int((knn & ~unknown).sum())
     lines = []
     if capped:
