@@ -18,6 +18,7 @@ costs two products of shape (m, K) x (K, n).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from functools import cached_property
 
@@ -29,6 +30,10 @@ IntArray = NDArray[np.intp]
 
 #: Pairs per batch in :meth:`DistanceModel.pairs` (their temporaries stay in cache).
 PAIR_BATCH = 4096
+#: Numeric columns per slab in :meth:`DistanceModel.gram` (bounds its temporaries).
+SLAB = 1024
+#: More different column weights than this: :meth:`DistanceModel.gram` weighs per column.
+WEIGHT_GROUPS = 4
 
 
 @dataclass(frozen=True)
@@ -114,55 +119,67 @@ class DistanceModel:
     ``x, y`` zero-filled and ``m`` the observed masks; the categorical mismatch is
     ``sum_j w_j m_x m_y - sum_j w_j [x_j == y_j]`` with one-hot class indicators; the
     shared weight is ``(w m_x) . m_y``. The total weight is folded into the left
-    factors. Each column is first shifted by its mean rounded to a whole number: a
-    shift does not change a difference, keeps whole-number data whole (so their
-    products are exact) and reduces rounding error when values are large compared with
-    their spread.
+    factors. Each column is first shifted (:func:`shifted`). The factors are built on
+    first use: when targets and candidates are the same rows, :meth:`gram` works from
+    the numbers slab by slab instead.
     """
 
     def __init__(self, features: Features) -> None:
-        x = features.numbers
+        self._x = x = features.numbers
         n, p = x.shape
-        mask = np.isfinite(x)
-        z = np.where(mask, x, 0.0)
-        z -= np.round(z.sum(axis=0) / np.maximum(mask.sum(axis=0), 1))
-        z *= mask
-        onehot, cmask = _onehot(features.codes)
+        self._onehot, self._cmask = _onehot(features.codes)
         tw = float(features.total_weight)
         w, cw = features.number_weights, features.code_weights
-        q, h = cmask.shape[1], onehot.shape[1]
-        self.width = k = 3 * p + q + h  # distance factors; the shared-weight factors follow
-        self.right = right = np.empty((n, k + p + q))
-        # right: m | z^2 | -2z | cmask | onehot || m | cmask   (written in place: no temporaries)
-        right[:, :p] = mask
-        np.multiply(z, z, out=right[:, p : 2 * p])
-        np.multiply(z, -2.0, out=right[:, 2 * p : 3 * p])
-        right[:, 3 * p : 3 * p + q] = cmask
-        right[:, 3 * p + q : k] = onehot
-        right[:, k : k + p] = right[:, :p]
-        right[:, k + p :] = cmask
-        # left: w z^2 | w m | w z | cw cmask | -cw onehot (all x W_all) || w m | cw cmask, which is
-        # right with the first two blocks swapped, times a scale per column: built per chunk
+        q, h = self._cmask.shape[1], self._onehot.shape[1]
+        self.width = 3 * p + q + h  # distance factors; the shared-weight factors follow
+        self.factor_width = self.width + p + q
         self._p = p
         self._codes = features.codes
         self._w, self._tw_w = np.asarray(w, dtype=np.float64), w * tw
         self._cw, self._tw_cw = np.asarray(cw, dtype=np.float64), cw * tw
+        self._tw = tw
+        # left: w z^2 | w m | w z | cw cmask | -cw onehot (all x W_all) || w m | cw cmask, which is
+        # right with the first two blocks swapped, times a scale per column: built per chunk
         self._scale = np.concatenate(
             [w * tw, w * tw, w * (-tw / 2), cw * tw, -_expand(cw * tw, features.codes), w, cw]
         )
         self.n_rows = int(n)
 
     @cached_property
+    def _shifted(self) -> tuple[FloatArray, NDArray[np.bool_]]:
+        """:func:`shifted` numbers of every column, and where they are observed."""
+        return shifted(self._x)
+
+    @cached_property
+    def right(self) -> FloatArray:
+        """Right-hand factors of every row: ``m | z^2 | -2z | cmask | onehot || m | cmask``.
+
+        Built on first use: a search that only needs :meth:`square` never pays for them
+        (``5 p`` numbers per row).
+        """
+        p, k = self._p, self.width
+        (z, mask), q = self._shifted, self._cmask.shape[1]
+        right = np.empty((self.n_rows, self.factor_width))
+        # written in place: no temporaries
+        right[:, :p] = mask
+        np.multiply(z, z, out=right[:, p : 2 * p])
+        np.multiply(z, -2.0, out=right[:, 2 * p : 3 * p])
+        right[:, 3 * p : 3 * p + q] = self._cmask
+        right[:, 3 * p + q : k] = self._onehot
+        right[:, k : k + p] = mask
+        right[:, k + p :] = self._cmask
+        return right
+
+    @cached_property
     def _values(self) -> tuple[FloatArray, IntArray]:
         """Shifted numbers with NaN gaps and class codes, row-major, for :meth:`pairs`.
 
-        Built on first use (a search whose head covers every candidate never needs them);
-        ``-2z x -0.5`` is exact, so the values are the factors' own.
+        Built on first use (a search whose head covers every candidate never needs them).
         """
-        p = self._p
-        z = self.right[:, 2 * p : 3 * p] * -0.5
-        z[self.right[:, :p] == 0.0] = np.nan  # a difference with a gap is NaN
-        return np.ascontiguousarray(z), np.ascontiguousarray(self._codes, dtype=np.intp)
+        z, mask = self._shifted
+        z = z.copy()
+        z[~mask] = np.nan  # a difference with a gap is NaN
+        return z, np.ascontiguousarray(self._codes, dtype=np.intp)
 
     def targets(self, rows: IntArray) -> Targets:
         """``rows`` with their left-hand factors."""
@@ -281,6 +298,100 @@ class DistanceModel:
         total, shared = self.products(targets, cand, part)
         return ratio(total, shared, out=total)
 
+    def slabs(self, parts: int = 1) -> list[tuple[IntArray, float | None]]:
+        """Numeric columns in runs at most :data:`SLAB` wide, for :meth:`gram`.
+
+        Columns are grouped by weight (when there are at most :data:`WEIGHT_GROUPS`
+        different weights; otherwise one group with ``None``: a weight per column). Each
+        group is cut into a multiple of ``parts`` runs of near-equal width, so that
+        ``parts`` workers taking every ``parts``-th run share the work evenly. Columns
+        of weight 0 add nothing and are left out.
+        """
+        w = self._w
+        weights = np.unique(w[w > 0])
+        groups: list[tuple[IntArray, float | None]] = [(np.flatnonzero(w == v), float(v)) for v in weights]
+        if len(weights) > WEIGHT_GROUPS:
+            groups = [(np.flatnonzero(w > 0), None)]
+        out: list[tuple[IntArray, float | None]] = []
+        for cols, weight in groups:
+            runs = parts * math.ceil(len(cols) / (SLAB * parts))
+            out += [(run, weight) for run in np.array_split(cols, runs) if len(run)]
+        return out
+
+    def gram(self, rows: IntArray, cols: IntArray, weight: float | None) -> tuple[FloatArray, FloatArray]:
+        """The numeric columns ``cols`` among ``rows``, symmetric.
+
+        ``sum_j m_x m_y (x - y)^2 = S + S^T - 2 z z^T`` with ``S = z^2 . m^T``: one general
+        product and two symmetric ones (``a @ a.T``, which BLAS does in half the work),
+        where :meth:`products` needs four general products against other rows. With a
+        weight per column (``weight`` None) the two are general products of ``w z`` and
+        ``w m``: three products in all.
+
+        Parameters
+        ----------
+        rows : ndarray of int, shape (m,)
+            Row positions, ascending.
+        cols : ndarray of int
+            Numeric column positions.
+        weight : float or None
+            The weight every column of ``cols`` has, or None to use each column's own.
+
+        Returns
+        -------
+        total : ndarray of shape (m, m)
+            ``sum_j w_j delta_j^2`` over the columns both rows have.
+        shared : ndarray of shape (m, m)
+            ``sum_j w_j`` over the columns both rows have.
+        """
+        z, seen = shifted(self._x[:, cols])  # per slab, on the worker that asks: no full copy
+        if len(rows) < self.n_rows:
+            z, seen = z[rows], seen[rows]
+        mask = seen.astype(np.float64)
+        if weight is None:
+            w = self._w[cols]
+            total = np.matmul(z * z * w, mask.T)
+            total += total.T.copy()
+            total -= 2.0 * ((z * w) @ z.T)
+            return total, (mask * w) @ mask.T
+        total = np.matmul(z * z, mask.T)
+        total += total.T.copy()
+        total -= 2.0 * (z @ z.T)  # the same array on both sides: numpy asks BLAS for syrk
+        # counts up to SLAB are exact in float32, whose product is twice as fast
+        count = seen.astype(np.float32)
+        shared = np.asarray(count @ count.T, dtype=np.float64)
+        total *= weight
+        shared *= weight
+        return total, shared
+
+    def gram_categories(self, rows: IntArray) -> tuple[FloatArray, FloatArray]:
+        """:meth:`gram` for the categorical columns: mismatch weight and shared weight."""
+        cmask, onehot = self._cmask[rows], self._onehot[rows]
+        shared = (cmask * self._cw) @ cmask.T
+        total = shared - (onehot * _expand(self._cw, self._codes)) @ onehot.T
+        return total, shared
+
+    def square(self, rows: IntArray, total: FloatArray, shared: FloatArray) -> FloatArray:
+        """Squared distances among ``rows`` from the summed :meth:`gram` parts (written into ``total``).
+
+        Parameters
+        ----------
+        rows : ndarray of int, shape (m,)
+            The rows the parts were summed over.
+        total, shared : ndarray of shape (m, m)
+            Sums of :meth:`gram` over :meth:`slabs`, without the categorical part.
+
+        Returns
+        -------
+        ndarray of shape (m, m)
+            Symmetric; ``inf`` where two rows share no column.
+        """
+        if self._codes.shape[1]:
+            cat_total, cat_shared = self.gram_categories(rows)
+            total += cat_total
+            shared += cat_shared
+        total *= self._tw
+        return ratio(total, shared, out=total)
+
     def squared(self, rows: IntArray) -> tuple[FloatArray, NDArray[np.bool_]]:
         """Squared distances from ``rows`` to every row, and where rows share a column.
 
@@ -292,6 +403,20 @@ class DistanceModel:
         """
         d2 = self.block(self.targets(rows), self.candidates())
         return d2, np.isfinite(d2)
+
+
+def shifted(x: FloatArray) -> tuple[FloatArray, NDArray[np.bool_]]:
+    """``x`` with each column shifted by its mean rounded to a whole number, gaps 0; and the observed mask.
+
+    A shift does not change a difference, keeps whole-number data whole (so products of
+    them are exact) and reduces rounding error when values are large compared with
+    their spread.
+    """
+    mask = np.isfinite(x)
+    z = np.where(mask, x, 0.0)
+    z -= np.round(z.sum(axis=0) / np.maximum(mask.sum(axis=0), 1))
+    z *= mask
+    return z, mask
 
 
 def ratio(total: FloatArray, shared: FloatArray, out: FloatArray | None = None) -> FloatArray:

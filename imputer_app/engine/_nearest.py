@@ -15,6 +15,7 @@ group are never candidates; rows sharing no similarity column have no distance.
 from __future__ import annotations
 
 from collections.abc import Iterator
+from concurrent.futures import Executor
 from dataclasses import dataclass
 
 import numpy as np
@@ -125,7 +126,7 @@ class BlockSearch:
         """Rows per chunk and candidates per tile for the byte budget."""
         per_cell = 8 * 4  # the block and its temporaries
         tile = max(256, min(n_cand, self.budget // (per_cell * 256)))
-        width = self.model.right.shape[1]
+        width = self.model.factor_width
         chunk = max(16, min(1024, self.budget // (per_cell * max(tile, 1)), self.budget // (8 * width)))
         return chunk, max(tile, 1)
 
@@ -138,6 +139,53 @@ class BlockSearch:
             block[self_hit[ok], at[ok]] = np.inf
         if self.groups is not None:
             block[self.groups[rows][:, None] != self.groups[ids][None, :]] = np.inf
+
+    def squares(self, rows: IntArray, cand: IntArray) -> bool:
+        """Whether :meth:`among` suits ``rows`` against the candidates ``cand``.
+
+        The symmetric block over both sets costs about half the work per pair of the
+        row-by-row products (:meth:`DistanceModel.gram`), so it pays when the targets
+        and candidates are mostly the same rows; it must fit the byte budget (about a
+        dozen blocks of that size live at once).
+        """
+        n = len(np.union1d(rows, cand))
+        return 12 * 8 * n * n <= self.budget and n * n <= 2 * len(rows) * len(cand)
+
+    def among(
+        self, rows: IntArray, cand: IntArray, pool: Executor, workers: int, cancel: CancelFlag | None
+    ) -> FloatArray:
+        """Squared distances from ``rows`` to the candidates ``cand``, from one symmetric block.
+
+        The block covers every row of either set; its column slabs are shared out over
+        ``workers`` tasks on ``pool``, each summing its own. Self-matches and rows of
+        other groups are set to ``inf``.
+
+        Returns
+        -------
+        ndarray of shape (len(rows), len(cand))
+        """
+        union = np.union1d(rows, cand)
+        slabs = self.model.slabs(workers)
+
+        def part(share: list[tuple[IntArray, float]]) -> tuple[FloatArray, FloatArray]:
+            total, shared = np.zeros((len(union), len(union))), np.zeros((len(union), len(union)))
+            for cols, weight in share:
+                raise_if_cancelled(cancel)
+                t, s = self.model.gram(union, cols, weight)
+                total += t
+                shared += s
+            return total, shared
+
+        raise_if_cancelled(cancel)
+        sums = list(pool.map(part, [slabs[i::workers] for i in range(workers)]))
+        total, shared = sums[0]
+        for t, s in sums[1:]:
+            total += t
+            shared += s
+        d2 = self.model.square(union, total, shared)
+        block = d2[np.ix_(np.searchsorted(union, rows), np.searchsorted(union, cand))]
+        self._exclude(block, rows, cand)
+        return block
 
     def nearest(
         self, rows: IntArray, cand: Candidates, size: int, tile: int, cancel: CancelFlag | None

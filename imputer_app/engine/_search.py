@@ -15,19 +15,20 @@ from collections.abc import Iterator, Mapping
 from concurrent.futures import ThreadPoolExecutor
 from contextlib import AbstractContextManager, nullcontext
 from dataclasses import dataclass, field
-from itertools import repeat
 
 import numpy as np
 from numpy.typing import NDArray
 
-from imputer_app.engine._distance import Candidates, DistanceModel
-from imputer_app.engine._nearest import BlockSearch, chunks
+from imputer_app.engine._distance import DistanceModel
+from imputer_app.engine._nearest import BlockSearch, chunks, top_l
 from imputer_app.engine._table import PreparedTable
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
 IntArray = NDArray[np.intp]
 FloatArray = NDArray[np.float64]
 BoolArray = NDArray[np.bool_]
+#: Cells of one chunk: column, row, donors, squared distances, short of kmax donors.
+_Found = tuple[IntArray, IntArray, IntArray, FloatArray, BoolArray]
 
 #: Bytes allowed for one distance block and its temporaries.
 BLOCK_BYTES = 64 * 2**20
@@ -82,10 +83,16 @@ def first_donors(
         candidates may exist beyond it).
     """
     good = ok & np.isfinite(cd2)
-    pos = np.argsort(~good, axis=1, kind="stable")[:, :kmax]
-    got = np.take_along_axis(good, pos, axis=1)
-    idx = np.where(got, np.take_along_axis(cand, pos, axis=1), -1)
-    d2 = np.where(got, np.take_along_axis(cd2, pos, axis=1), np.inf)
+    head = min(kmax, good.shape[1])
+    idx, d2 = cand[:, :head].copy(), cd2[:, :head].copy()
+    got = good[:, :head].copy()
+    # most cells' first kmax candidates are all donors; only the others need a sort
+    redo = np.flatnonzero(~got.all(axis=1))
+    if len(redo):
+        pos = np.argsort(~good[redo], axis=1, kind="stable")[:, :head]
+        got[redo] = np.take_along_axis(good[redo], pos, axis=1)
+        idx[redo] = np.where(got[redo], np.take_along_axis(cand[redo], pos, axis=1), -1)
+        d2[redo] = np.where(got[redo], np.take_along_axis(cd2[redo], pos, axis=1), np.inf)
     if idx.shape[1] < kmax:
         pad = kmax - idx.shape[1]
         idx = np.hstack([idx, np.full((len(idx), pad), -1, dtype=np.intp)])
@@ -96,27 +103,34 @@ def first_donors(
 
 @dataclass
 class _Cells:
-    """All target cells, sorted by (column, row), and their donors so far."""
+    """All target cells, sorted by (column, row), and their donors so far.
+
+    ``slot[col, row]`` is the position of cell (row, col) in that order (only written,
+    and read, where the cell is a target).
+    """
 
     col: IntArray
     row: IntArray
     index: IntArray
     d2: FloatArray
-    n_rows: int
+    slot: IntArray
 
     @classmethod
     def of(cls, want: BoolArray, kmax: int) -> _Cells:
-        col, row = np.nonzero(want.T)
+        flat = np.flatnonzero(want.T)
+        col, row = np.divmod(flat, len(want))
+        slot = np.empty(want.shape[::-1], dtype=np.intp)
+        slot.ravel()[flat] = np.arange(len(flat))
         return cls(
             col,
             row,
             np.full((len(col), kmax), -1, dtype=np.intp),
             np.full((len(col), kmax), np.inf),
-            len(want),
+            slot,
         )
 
     def put(self, col: IntArray, row: IntArray, index: IntArray, d2: FloatArray) -> None:
-        at = np.searchsorted(self.col * self.n_rows + self.row, col * self.n_rows + row)
+        at = self.slot[col, row]
         self.index[at] = index
         self.d2[at] = d2
 
@@ -301,39 +315,52 @@ class _Jobs:
     ) -> Iterator[tuple[IntArray, IntArray]]:
         """Search ``rows`` for the columns ``cols`` chunk by chunk; yield each chunk's short cells.
 
-        Chunks are searched on the pool's threads (numpy and BLAS release the GIL) and
-        taken in order here.
+        Chunks are searched, and their cells given donors, on the pool's threads (numpy
+        and BLAS release the GIL); the results are stored in order here.
         """
-        cand = self._candidates(cols)
-        length = self._list_size(cols, cand)
-        parts = list(chunks(rows, chunk))
-        found = pool.map(
-            self.search.nearest, parts, repeat(cand), repeat(length), repeat(tile), repeat(cancel)
-        )
-        for part, best in zip(parts, found, strict=True):
-            miss = self._take(cells, cols, part, best)
-            if length >= len(cand):  # every candidate was kept: nothing more to find
-                miss = (miss[0][:0], miss[1][:0])
-            yield miss
+        index = np.flatnonzero(self.ok[:, cols].any(axis=1))
+        length = self._list_size(cols, index)
+        everyone = length >= len(index)  # every candidate is kept: nothing more to find
+        if self.search.squares(rows, index):
+            block = self.search.among(rows, index, pool, WORKERS, cancel)
 
-    def _take(
-        self, cells: _Cells, cols: IntArray, part: IntArray, best: tuple[IntArray, FloatArray]
-    ) -> tuple[IntArray, IntArray]:
-        """Store the donors of every target cell of ``part``; return the short cells (col, row)."""
+            def from_block(at: IntArray) -> _Found:
+                raise_if_cancelled(cancel)
+                idx, d2 = top_l(block[at], length)
+                return self._donors(cols, rows[at], (index[idx], d2), everyone)
+
+            found = pool.map(from_block, chunks(np.arange(len(rows)), chunk))
+        else:
+            cand = self.search.model.candidates(index)
+
+            def search(part: IntArray) -> _Found:
+                best = self.search.nearest(part, cand, length, tile, cancel)
+                return self._donors(cols, part, best, everyone)
+
+            found = pool.map(search, chunks(rows, chunk))
+        for col, row, idx, d2, short in found:
+            cells.put(col, row, idx, d2)
+            yield col[short], row[short]
+
+    def _donors(
+        self, cols: IntArray, part: IntArray, best: tuple[IntArray, FloatArray], everyone: bool
+    ) -> _Found:
+        """The donors of every target cell of ``part`` from its rows' candidate lists ``best``.
+
+        Returns the cells (column, row), their donors and squared distances, and which
+        cells are short of ``kmax`` donors (never when ``everyone``: the lists hold every
+        candidate, so there is nothing more to find).
+        """
         r, j = np.nonzero(self.want[np.ix_(part, cols)])
         col = cols[j]
         cand, cd2 = best[0][r], best[1][r]
         ok = self.ok[np.maximum(cand, 0), col[:, None]]
         idx, d2, short = first_donors(cand, cd2, ok, self.kmax)
-        cells.put(col, part[r], idx, d2)
-        return col[short], part[r][short]
+        return col, part[r], idx, d2, short & (not everyone)
 
-    def _candidates(self, cols: IntArray) -> Candidates:
-        return self.search.model.candidates(np.flatnonzero(self.ok[:, cols].any(axis=1)))
-
-    def _list_size(self, cols: IntArray, cand: Candidates) -> int:
+    def _list_size(self, cols: IntArray, cand: IntArray) -> int:
         """Candidates kept per row so that nearly every cell finds kmax donors among them."""
-        share = float(self.ok[np.ix_(cand.index, cols)].mean(axis=0).min()) if len(cand) else 1.0
+        share = float(self.ok[np.ix_(cand, cols)].mean(axis=0).min()) if len(cand) else 1.0
         # expected donors in the list: share x length; a cell short of kmax is searched again
         return min(len(cand), math.ceil(self.kmax / max(share, 1e-9) * 1.3) + 4)
 

@@ -168,3 +168,18 @@ def test_flat_search_is_the_per_column_search_stacked() -> None:
     column = np.where(part.col == 0, 0, 5)[:, None]
     expected = np.where(index >= 0, x[np.maximum(index, 0), column], np.nan)
     np.testing.assert_array_equal(part.gather([table.values["c0"], table.values["c5"]]), expected)
+
+
+@pytest.mark.parametrize("enabled", [True, False])
+def test_tuples_leave_the_garbage_collector_as_they_found_it(enabled: bool) -> None:
+    # The collector is paused while tuples are made, and only turned back on if it was on.
+    import gc
+
+    was = gc.isenabled()
+    try:
+        (gc.enable if enabled else gc.disable)()
+        out = tuples(np.arange(12.0).reshape(4, 3), np.array([3, 1, 0, 2]))
+        assert gc.isenabled() is enabled
+    finally:
+        (gc.enable if was else gc.disable)()
+    assert out.tolist() == [(0.0, 1.0, 2.0), (3.0,), (), (9.0, 10.0)]

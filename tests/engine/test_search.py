@@ -9,6 +9,7 @@ import pytest
 from imputer_app.engine import _nearest, nearest_donors, prepare
 from imputer_app.engine._distance import DistanceModel, Features, pairwise_distances
 from imputer_app.engine._nearest import top_l
+from imputer_app.engine._search import first_donors
 from imputer_app.plan import FillPlan
 from tests.engine.helpers import random_frame
 
@@ -215,3 +216,23 @@ def test_pair_distances_equal_the_block(whole: bool) -> None:
     else:
         finite = np.isfinite(block)
         np.testing.assert_allclose(pairs[finite], block[finite], rtol=1e-12, atol=1e-12)
+
+
+@pytest.mark.parametrize(("kmax", "share"), [(1, 0.95), (5, 0.95), (5, 0.4), (12, 0.9)])
+def test_first_donors_equal_a_plain_scan(kmax: int, share: float) -> None:
+    # Common practice, no source: walk each cell's list nearest first and keep the donors.
+    # Most cells' first kmax candidates are all donors (the quick way); the others, the
+    # lists padded with inf, and kmax longer than the list take the sort.
+    rng = np.random.default_rng(kmax)
+    cand = rng.integers(0, 500, size=(400, 10))
+    d2 = np.sort(rng.random((400, 10)), axis=1)
+    d2[:40, 7:] = np.inf
+    cand[:40, 7:] = -1
+    ok = rng.random((400, 10)) < share
+    idx, dist, short = first_donors(cand, d2, ok, kmax)
+    for i in range(400):
+        keep = [t for t in range(10) if ok[i, t] and np.isfinite(d2[i, t])][:kmax]
+        want_idx = cand[i, keep].tolist() + [-1] * (kmax - len(keep))
+        want_d2 = d2[i, keep].tolist() + [np.inf] * (kmax - len(keep))
+        assert idx[i].tolist() == want_idx and dist[i].tolist() == want_d2
+        assert short[i] == (len(keep) < kmax and np.isfinite(d2[i, -1]))
