@@ -343,9 +343,9 @@ class DistanceModel:
         shared : ndarray of shape (m, m)
             ``sum_j w_j`` over the columns both rows have.
         """
-        z, seen = shifted(self._x[:, cols])  # per slab, on the worker that asks: no full copy
-        if len(rows) < self.n_rows:
-            z, seen = z[rows], seen[rows]
+        # per slab, on the worker that asks: no full copy; any whole shift keeps the differences
+        every = len(rows) == self.n_rows
+        z, seen = shifted(self._x[:, cols] if every else self._x[np.ix_(rows, cols)])
         mask = seen.astype(np.float64)
         if weight is None:
             w = self._w[cols]

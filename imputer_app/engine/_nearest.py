@@ -14,8 +14,8 @@ group are never candidates; rows sharing no similarity column have no distance.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
-from concurrent.futures import Executor
+from collections.abc import Callable, Iterator
+from concurrent.futures import Executor, wait
 from dataclasses import dataclass
 
 import numpy as np
@@ -101,6 +101,8 @@ GROW = 0.25
 STEP_MIN = 256
 #: Slack on the bound so that rounding never drops a candidate (the merge decides exactly).
 SLACK = 1.0 + 1e-9
+#: Seconds between progress reports while a symmetric block is summed on the workers.
+PROGRESS_SECONDS = 0.1
 #: Stand-in bound while a row has fewer than ``size`` candidates: every row sharing a column passes.
 OPEN = 1e300
 
@@ -145,20 +147,28 @@ class BlockSearch:
 
         The symmetric block over both sets costs about half the work per pair of the
         row-by-row products (:meth:`DistanceModel.gram`), so it pays when the targets
-        and candidates are mostly the same rows; it must fit the byte budget (about a
-        dozen blocks of that size live at once).
+        and candidates are mostly the same rows; it must fit the byte budget (counted:
+        up to 16 blocks of that size live at once, 8 of them per worker's sums and
+        products).
         """
         n = len(np.union1d(rows, cand))
-        return 12 * 8 * n * n <= self.budget and n * n <= 2 * len(rows) * len(cand)
+        return 16 * 8 * n * n <= self.budget and n * n <= 2 * len(rows) * len(cand)
 
     def among(
-        self, rows: IntArray, cand: IntArray, pool: Executor, workers: int, cancel: CancelFlag | None
+        self,
+        rows: IntArray,
+        cand: IntArray,
+        pool: Executor,
+        workers: int,
+        cancel: CancelFlag | None,
+        advance: Callable[[int], None] | None = None,
     ) -> FloatArray:
         """Squared distances from ``rows`` to the candidates ``cand``, from one symmetric block.
 
         The block covers every row of either set; its column slabs are shared out over
-        ``workers`` tasks on ``pool``, each summing its own. Self-matches and rows of
-        other groups are set to ``inf``.
+        ``workers`` tasks on ``pool``, each summing its own (a fixed order: the same
+        numbers every run). ``advance(n)`` is called on this thread as slabs finish.
+        Self-matches and rows of other groups are set to ``inf``.
 
         Returns
         -------
@@ -166,18 +176,30 @@ class BlockSearch:
         """
         union = np.union1d(rows, cand)
         slabs = self.model.slabs(workers)
+        finished: list[int] = []  # one entry per slab done (list.append is atomic)
 
-        def part(share: list[tuple[IntArray, float]]) -> tuple[FloatArray, FloatArray]:
+        def part(share: list[tuple[IntArray, float | None]]) -> tuple[FloatArray, FloatArray]:
             total, shared = np.zeros((len(union), len(union))), np.zeros((len(union), len(union)))
             for cols, weight in share:
                 raise_if_cancelled(cancel)
                 t, s = self.model.gram(union, cols, weight)
                 total += t
                 shared += s
+                finished.append(1)
             return total, shared
 
         raise_if_cancelled(cancel)
-        sums = list(pool.map(part, [slabs[i::workers] for i in range(workers)]))
+        futures = [pool.submit(part, slabs[i::workers]) for i in range(workers)]
+        told = 0
+        while told < len(slabs):
+            done, _ = wait(futures, timeout=PROGRESS_SECONDS)
+            now = len(finished)
+            if advance is not None and now > told:
+                advance(now - told)
+            told = now
+            if len(done) == len(futures):
+                break
+        sums = [f.result() for f in futures]  # raises a worker's error (a cancel) here
         total, shared = sums[0]
         for t, s in sums[1:]:
             total += t

@@ -11,7 +11,7 @@ flat (one row per target cell, sorted by column then row) and handed out per col
 from __future__ import annotations
 
 import math
-from collections.abc import Iterator, Mapping
+from collections.abc import Callable, Iterator, Mapping
 from concurrent.futures import ThreadPoolExecutor
 from contextlib import AbstractContextManager, nullcontext
 from dataclasses import dataclass, field
@@ -247,6 +247,19 @@ def _one_blas_thread() -> AbstractContextManager[object]:
     return threadpool_limits(limits=1, user_api="blas")
 
 
+@dataclass(frozen=True)
+class _Job:
+    """One search: target ``rows`` for the fill columns ``cols`` among the candidates ``index``."""
+
+    cols: IntArray
+    rows: IntArray
+    index: IntArray
+    chunk: int
+    tile: int
+    square: bool  # one symmetric block (BlockSearch.among) instead of row-by-row products
+    steps: int  # progress steps: one per chunk, plus one per slab of a symmetric block
+
+
 @dataclass
 class _Jobs:
     """The searches to run: dense columns together, each sparse column alone."""
@@ -266,78 +279,87 @@ class _Jobs:
         self.sparse = self.active[donors < DENSE_SHARE * total]
 
     def run(self, cells: _Cells, progress: Progress | None, cancel: CancelFlag | None) -> int:
-        """Search, reporting progress per chunk; short cells are searched again exactly.
+        """Search, reporting progress per chunk (and per slab of a symmetric block).
 
-        Returns the number of progress steps (the last is reported by the caller).
+        Short cells are searched again exactly. Returns the number of progress steps
+        (the last is reported by the caller).
         """
-        jobs: list[tuple[IntArray, IntArray]] = []
+        jobs: list[_Job] = []
         if len(self.dense):
-            jobs.append((self.dense, np.flatnonzero(self.want[:, self.dense].any(axis=1))))
-        jobs += [(np.array([j]), np.flatnonzero(self.want[:, j])) for j in self.sparse]
-        # candidate factors are copied one job at a time (a job per sparse column adds up)
-        sizes = [self._sizes(cols, rows) for cols, rows in jobs]
-        total = sum(
-            max(1, math.ceil(len(rows) / size[0])) for (_, rows), size in zip(jobs, sizes, strict=True)
-        )
+            jobs.append(self._job(self.dense, np.flatnonzero(self.want[:, self.dense].any(axis=1))))
+        jobs += [self._job(np.array([j]), np.flatnonzero(self.want[:, j])) for j in self.sparse]
+        total = sum(job.steps for job in jobs) + 1
+        done = 0
+
+        def advance(steps: int) -> None:
+            nonlocal done
+            done += steps
+            report(progress, done, total)
+
         short: list[tuple[IntArray, IntArray]] = []
         with _one_blas_thread():
             pool = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="kinfill-search")
             try:
-                done = 0
-                for (cols, rows), (chunk, tile) in zip(jobs, sizes, strict=True):
-                    for miss in self._search_job(pool, cells, cols, rows, chunk, tile, cancel):
+                for job in jobs:
+                    for miss in self._search_job(pool, cells, job, cancel, advance):
                         short += [miss] if len(miss[0]) else []
-                        done += 1
-                        report(progress, done, total + 1)
+                        advance(1)
             finally:  # on an error or a cancel, chunks not started are dropped
                 pool.shutdown(wait=True, cancel_futures=True)
             if short:
                 col, row = (np.concatenate(a) for a in zip(*short, strict=True))
                 self._exact(cells, col, row, cancel)
-        return total + 1
+        return total
 
-    def _sizes(self, cols: IntArray, rows: IntArray) -> tuple[int, int]:
-        """Rows per chunk and candidates per tile; at least one chunk per worker when rows allow."""
-        chunk, tile = self.search.sizes(int(self.ok[:, cols].any(axis=1).sum()))
+    def _job(self, cols: IntArray, rows: IntArray) -> _Job:
+        """Plan the search of ``rows`` for the columns ``cols``.
+
+        At least one chunk per worker when rows allow; a symmetric block adds one
+        progress step per column slab.
+        """
+        index = np.flatnonzero(self.ok[:, cols].any(axis=1))
+        chunk, tile = self.search.sizes(len(index))
         if len(rows) >= 32 * WORKERS:
             chunk = min(chunk, math.ceil(len(rows) / WORKERS))
-        return chunk, tile
+        square = self.search.squares(rows, index)
+        slabs = len(self.search.model.slabs(WORKERS)) if square else 0
+        steps = max(1, math.ceil(len(rows) / chunk)) + slabs
+        return _Job(cols, rows, index, chunk, tile, square, steps)
 
     def _search_job(
         self,
         pool: ThreadPoolExecutor,
         cells: _Cells,
-        cols: IntArray,
-        rows: IntArray,
-        chunk: int,
-        tile: int,
+        job: _Job,
         cancel: CancelFlag | None,
+        advance: Callable[[int], None],
     ) -> Iterator[tuple[IntArray, IntArray]]:
-        """Search ``rows`` for the columns ``cols`` chunk by chunk; yield each chunk's short cells.
+        """Search one job chunk by chunk; yield each chunk's short cells.
 
         Chunks are searched, and their cells given donors, on the pool's threads (numpy
-        and BLAS release the GIL); the results are stored in order here.
+        and BLAS release the GIL); the results are stored in order here. ``advance`` is
+        told of every slab of a symmetric block as it is done.
         """
-        index = np.flatnonzero(self.ok[:, cols].any(axis=1))
+        cols, rows, index = job.cols, job.rows, job.index
         length = self._list_size(cols, index)
         everyone = length >= len(index)  # every candidate is kept: nothing more to find
-        if self.search.squares(rows, index):
-            block = self.search.among(rows, index, pool, WORKERS, cancel)
+        if job.square:
+            block = self.search.among(rows, index, pool, WORKERS, cancel, advance)
 
             def from_block(at: IntArray) -> _Found:
                 raise_if_cancelled(cancel)
                 idx, d2 = top_l(block[at], length)
                 return self._donors(cols, rows[at], (index[idx], d2), everyone)
 
-            found = pool.map(from_block, chunks(np.arange(len(rows)), chunk))
+            found = pool.map(from_block, chunks(np.arange(len(rows)), job.chunk))
         else:
             cand = self.search.model.candidates(index)
 
             def search(part: IntArray) -> _Found:
-                best = self.search.nearest(part, cand, length, tile, cancel)
+                best = self.search.nearest(part, cand, length, job.tile, cancel)
                 return self._donors(cols, part, best, everyone)
 
-            found = pool.map(search, chunks(rows, chunk))
+            found = pool.map(search, chunks(rows, job.chunk))
         for col, row, idx, d2, short in found:
             cells.put(col, row, idx, d2)
             yield col[short], row[short]

@@ -164,3 +164,19 @@ def test_square_path_leaves_the_input_frame_unchanged() -> None:
     before = frame.copy()
     impute(frame, FillPlan(k=3))
     pd.testing.assert_frame_equal(frame, before)
+
+
+def test_progress_counts_every_slab_of_the_square_block(monkeypatch: pytest.MonkeyPatch) -> None:
+    # Progress is reported while the workers sum the slabs (polled here every millisecond),
+    # never goes back, and ends at its total, which counts the 250 slabs.
+    from imputer_app.engine import _nearest
+
+    monkeypatch.setattr(_distance, "SLAB", 8)
+    monkeypatch.setattr(_nearest, "PROGRESS_SECONDS", 0.001)
+    table = prepare(random_frame(60, 2000, 0.05, seed=3), FillPlan())
+    calls: list[tuple[int, int]] = []
+    nearest_donors(table, kmax=3, progress=lambda d, t: calls.append((d, t)))
+    done = [d for d, _ in calls]
+    assert len({t for _, t in calls}) == 1 and calls[0][1] >= 250
+    assert done == sorted(done) and done[-1] == calls[0][1]
+    assert len(calls) > 5
