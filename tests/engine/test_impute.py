@@ -318,10 +318,43 @@ def test_impute_cancel_and_progress() -> None:
     calls: list[tuple[int, int]] = []
     impute(frame, FillPlan(), progress=lambda d, t: calls.append((d, t)))
     assert calls and calls[-1][0] == calls[-1][1]
+    # the bar is full only once the log is built: the search's last step is one short
+    assert calls[-2] == (calls[-1][0] - 1, calls[-1][1])
+    assert all(t == calls[-1][1] for _, t in calls)
     flag = threading.Event()
     flag.set()
     with pytest.raises(Cancelled):
         impute(frame, FillPlan(), cancel=flag)
+
+
+@pytest.mark.parametrize("late", [False, True])
+def test_cancel_is_checked_inside_prepare_and_while_building_the_result(
+    monkeypatch: pytest.MonkeyPatch, late: bool
+) -> None:
+    # The first check is on entry and the second inside the preparation (before scaling):
+    # a cancel then never reaches the search. The last check of a whole run is inside
+    # the building of the result (after the log's tuples): a cancel there still stops it.
+    from imputer_app.engine._log import Records
+
+    frame = random_frame(200, 3, 0.1, seed=2)
+    steps: list[str] = []
+    search, log_table = engine._adapter.search_cells, Records.log_table
+    monkeypatch.setattr(
+        engine._adapter, "search_cells", lambda *a, **k: steps.append("search") or search(*a, **k)
+    )
+    monkeypatch.setattr(Records, "log_table", lambda *a, **k: steps.append("log") or log_table(*a, **k))
+    checks: list[int] = []
+    impute(frame, FillPlan(), cancel=lambda: bool(checks.append(1)))
+    stop_at, checks[:], steps[:] = (len(checks) if late else 2), [], []
+
+    def cancel() -> bool:
+        checks.append(1)
+        return len(checks) >= stop_at
+
+    with pytest.raises(Cancelled):
+        impute(frame, FillPlan(), cancel=cancel)
+    assert steps == (["search", "log"] if late else [])
+    assert len(checks) == stop_at
 
 
 def test_same_input_same_result() -> None:
