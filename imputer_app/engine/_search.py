@@ -249,11 +249,14 @@ def _one_blas_thread() -> AbstractContextManager[object]:
 
 @dataclass(frozen=True)
 class _Job:
-    """One search: target ``rows`` for the fill columns ``cols`` among the candidates ``index``."""
+    """One search: target ``rows`` for the fill columns ``cols``.
+
+    Its candidates (rows observed in any of ``cols``) are found again when it runs: one
+    job per sparse column, all planned up front, would otherwise hold them all at once.
+    """
 
     cols: IntArray
     rows: IntArray
-    index: IntArray
     chunk: int
     tile: int
     square: bool  # one symmetric block (BlockSearch.among) instead of row-by-row products
@@ -324,7 +327,7 @@ class _Jobs:
         square = self.search.squares(rows, index)
         slabs = len(self.search.model.slabs(WORKERS)) if square else 0
         steps = max(1, math.ceil(len(rows) / chunk)) + slabs
-        return _Job(cols, rows, index, chunk, tile, square, steps)
+        return _Job(cols, rows, chunk, tile, square, steps)
 
     def _search_job(
         self,
@@ -340,7 +343,8 @@ class _Jobs:
         and BLAS release the GIL); the results are stored in order here. ``advance`` is
         told of every slab of a symmetric block as it is done.
         """
-        cols, rows, index = job.cols, job.rows, job.index
+        cols, rows = job.cols, job.rows
+        index = np.flatnonzero(self.ok[:, cols].any(axis=1))
         length = self._list_size(cols, index)
         everyone = length >= len(index)  # every candidate is kept: nothing more to find
         if job.square:
