@@ -487,10 +487,11 @@ def impute(
     table, censored = _prepare(inp, plan, cancel=cancel)
     # the search's steps, and one more for the values and the log (up to 40 % of the time on a
     # wide sheet), so that the bar is not full while the log is built
-    steps = [0]
+    steps = 0
 
     def searching(done: int, total: int) -> None:
-        steps[0] = total
+        nonlocal steps
+        steps = total
         report(progress, done, total + 1)
 
     # one flat search over every fill column: values and log rows are worked out for all at once
@@ -507,7 +508,7 @@ def impute(
             records.add_empty(left, col, [why] * len(left))
     raise_if_cancelled(cancel)
     result = _result(inp, table, censored, records, threshold, cancel)
-    report(progress, steps[0] + 1, steps[0] + 1)
+    report(progress, steps + 1, steps + 1)
     return result
 
 

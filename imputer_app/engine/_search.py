@@ -89,10 +89,12 @@ def first_donors(
     # most cells' first kmax candidates are all donors; only the others need a sort
     redo = np.flatnonzero(~got.all(axis=1))
     if len(redo):
-        pos = np.argsort(~good[redo], axis=1, kind="stable")[:, :head]
-        got[redo] = np.take_along_axis(good[redo], pos, axis=1)
-        idx[redo] = np.where(got[redo], np.take_along_axis(cand[redo], pos, axis=1), -1)
-        d2[redo] = np.where(got[redo], np.take_along_axis(cd2[redo], pos, axis=1), np.inf)
+        sub = good[redo]
+        pos = np.argsort(~sub, axis=1, kind="stable")[:, :head]
+        found = np.take_along_axis(sub, pos, axis=1)
+        got[redo] = found
+        idx[redo] = np.where(found, np.take_along_axis(cand[redo], pos, axis=1), -1)
+        d2[redo] = np.where(found, np.take_along_axis(cd2[redo], pos, axis=1), np.inf)
     if idx.shape[1] < kmax:
         pad = kmax - idx.shape[1]
         idx = np.hstack([idx, np.full((len(idx), pad), -1, dtype=np.intp)])
