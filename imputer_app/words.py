@@ -1,0 +1,106 @@
+"""The one home of Kinfill's words: choice labels, censored methods, log column lists.
+
+Every layer (engine notes, exports, command line, app) imports its wording from here,
+so that a setting or a method is described the same way wherever a user meets it.
+This module imports nothing from the package; it sits at the bottom of the layers.
+
+Examples
+--------
+>>> SUBSTITUTION_PHRASES["half_limit"]
+'half the limit'
+>>> CHOICE_WORDS["censored"]["limit"].label
+'limit'
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+#: Columns of ``FillResult.log``, in the order the engine builds them.
+LOG_COLUMNS = (
+    "row", "column", "value", "original_state", "method", "k", "donors",
+    "distances", "donor_values", "spread", "support", "note",
+)  # fmt: skip
+
+#: Columns of ``FillResult.unfilled``: cells left empty and why.
+UNFILLED_COLUMNS = ("row", "column", "reason")
+
+#: What number a substituted below-limit entry stands for, as a phrase that completes
+#: "replaced by ..." (Hornung & Reed 1990 for the limit divided by sqrt(2)).
+SUBSTITUTION_PHRASES = {
+    "limit": "the limit",
+    "half_limit": "half the limit",
+    "limit_sqrt2": "the limit divided by sqrt(2) (Hornung & Reed 1990)",
+}
+
+#: The cell states a sheet can give a cell, in plain words.
+STATE_WORDS = {
+    "observed": "measured",
+    "missing": "empty in the sheet",
+    "censored": "a below- or above-limit entry",
+    "text_in_number": "text in a number column (unreadable as a number)",
+}
+
+
+@dataclass(frozen=True)
+class ChoiceWords:
+    """How one allowed value of a choice setting is shown.
+
+    Attributes
+    ----------
+    label : str
+        A few words for a drop-down list or a summary line.
+    explanation : str
+        One sentence for a tooltip or ``--help``.
+    """
+
+    label: str
+    explanation: str
+
+
+#: Per choice setting of a plan (``plan.CHOICES``), the words for each allowed value.
+CHOICE_WORDS: dict[str, dict[str, ChoiceWords]] = {
+    "scaling": {
+        "zscore": ChoiceWords("z-score", "Each number column to mean 0 and standard deviation 1."),
+        "range": ChoiceWords("range 0–1", "Each number column to minimum 0 and maximum 1."),
+        "robust": ChoiceWords("robust", "Each number column centred on its median and divided by its IQR."),
+        "none": ChoiceWords("none", "Raw units: a column with large numbers dominates the distance."),
+    },
+    "neighbour_weighting": {
+        "uniform": ChoiceWords("equal", "All k donors count the same."),
+        "inverse_distance": ChoiceWords("nearer count more", "Donors are weighted by 1 / distance."),
+    },
+    "numeric_rule": {
+        "mean": ChoiceWords("mean", "The mean of the donors' values."),
+        "median": ChoiceWords("median", "The median of the donors' values (less swayed by one odd donor)."),
+    },
+    "censored": {
+        "half_limit": ChoiceWords("limit / 2", "A '<0.02' entry stands for 0.01."),
+        "limit": ChoiceWords("limit", "A '<0.02' entry stands for 0.02."),
+        "limit_sqrt2": ChoiceWords("limit / √2", "A '<0.02' entry stands for 0.0141 (Hornung & Reed 1990)."),
+        "fill_capped": ChoiceWords("kNN, capped", "Filled from donors like a gap, but never above its limit."),
+    },
+    "no_donor": {
+        "leave_empty": ChoiceWords("leave empty", "The cell stays empty and is listed under Unfilled."),
+        "column_mean": ChoiceWords("column mean", "The column's mean is written and flagged in the fill log."),
+    },
+}
+
+#: Per choice setting, one sentence on what the setting decides.
+SETTING_TIPS = {
+    "scaling": "How number columns are put on one scale before distances are measured.",
+    "neighbour_weighting": "Whether nearer donors count more when their numbers are combined.",
+    "numeric_rule": "How the donors' numbers are combined (used when all donors count equally).",
+    "censored": "What number a below-limit entry such as <0.02 stands for; it stays flagged either way.",
+    "no_donor": "What happens to a cell for which no row can serve as donor.",
+}
+
+__all__ = [
+    "CHOICE_WORDS",
+    "LOG_COLUMNS",
+    "SETTING_TIPS",
+    "STATE_WORDS",
+    "SUBSTITUTION_PHRASES",
+    "UNFILLED_COLUMNS",
+    "ChoiceWords",
+]
