@@ -3,12 +3,15 @@
 The package is layered (arrows point down only)::
 
     gui/         PySide6 windows over Qt-free state objects
-    cli.py       headless commands
+    cli/         headless commands (``kinfill``)
     validation/  recovery test (hide known cells, fill, score every k)
     sheets/      read and write spreadsheets, cell states
     charts/      matplotlib figures shared by exports, CLI and GUI
     engine/      distances, neighbour search, aggregation (numpy core)
     plan.py      the settings of a fill
+    work.py      progress and cancel, shared by every long step
+    errors.py    the errors a user can act on
+    words.py     the one home of shared wording and column lists
 """
 
 __version__ = "0.1.0"

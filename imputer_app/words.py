@@ -22,6 +22,13 @@ LOG_COLUMNS = (
     "distances", "donor_values", "spread", "support", "note",
 )  # fmt: skip
 
+#: Columns of the fill log as exported (xlsx sheet "Fill log" and the csv fill log):
+#: where and what first, then how the value was found.
+EXPORT_LOG_COLUMNS = (
+    "row", "column", "original_state", "method", "value", "k",
+    "donors", "distances", "donor_values", "spread", "support", "note",
+)  # fmt: skip
+
 #: Columns of ``FillResult.unfilled``: cells left empty and why.
 UNFILLED_COLUMNS = ("row", "column", "reason")
 
@@ -78,11 +85,15 @@ CHOICE_WORDS: dict[str, dict[str, ChoiceWords]] = {
         "half_limit": ChoiceWords("limit / 2", "A '<0.02' entry stands for 0.01."),
         "limit": ChoiceWords("limit", "A '<0.02' entry stands for 0.02."),
         "limit_sqrt2": ChoiceWords("limit / √2", "A '<0.02' entry stands for 0.0141 (Hornung & Reed 1990)."),
-        "fill_capped": ChoiceWords("kNN, capped", "Filled from donors like a gap, but never above its limit."),
+        "fill_capped": ChoiceWords(
+            "kNN, capped", "Filled from donors like a gap, but never above its limit."
+        ),
     },
     "no_donor": {
         "leave_empty": ChoiceWords("leave empty", "The cell stays empty and is listed under Unfilled."),
-        "column_mean": ChoiceWords("column mean", "The column's mean is written and flagged in the fill log."),
+        "column_mean": ChoiceWords(
+            "column mean", "The column's mean is written and flagged in the fill log."
+        ),
     },
 }
 
@@ -97,6 +108,7 @@ SETTING_TIPS = {
 
 __all__ = [
     "CHOICE_WORDS",
+    "EXPORT_LOG_COLUMNS",
     "LOG_COLUMNS",
     "SETTING_TIPS",
     "STATE_WORDS",

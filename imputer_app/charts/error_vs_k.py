@@ -35,15 +35,25 @@ SAVE_FORMATS = ("png", "svg")
 
 
 class ErrorVsK(Protocol):
-    """What the chart reads from a recovery report (``RecoveryReport`` has it all)."""
+    """What the chart reads from a recovery report (``RecoveryReport`` has it all).
 
-    ks: tuple[int, ...]
-    overall: pd.DataFrame
-    summary: pd.DataFrame
-    baseline: pd.DataFrame
-    best_k: int
-    best_k_1se: int
-    kinds: dict[str, str]
+    Read-only members, so that a frozen dataclass such as ``RecoveryReport`` matches.
+    """
+
+    @property
+    def ks(self) -> tuple[int, ...]: ...  # noqa: D102
+    @property
+    def overall(self) -> pd.DataFrame: ...  # noqa: D102
+    @property
+    def summary(self) -> pd.DataFrame: ...  # noqa: D102
+    @property
+    def baseline(self) -> pd.DataFrame: ...  # noqa: D102
+    @property
+    def best_k(self) -> int: ...  # noqa: D102
+    @property
+    def best_k_1se(self) -> int: ...  # noqa: D102
+    @property
+    def kinds(self) -> dict[str, str]: ...  # noqa: D102
 
 
 def plot_error_vs_k(

@@ -1,7 +1,26 @@
-"""Read and write spreadsheets, keeping every cell's state (no Qt here)."""
+"""Read and write spreadsheets, keeping every cell's state (no Qt here).
 
+Also reads an export back: :func:`read_export_plan` returns the plan an earlier export
+recorded, beside the writer that records it.
+"""
+
+from imputer_app.sheets._atomic import same_file
+from imputer_app.sheets._export_plan import read_export_plan
 from imputer_app.sheets._model import CELL_STATES, ColumnInfo, Sheet, SourceInfo
 from imputer_app.sheets._read import list_sheets, read_sheet
-from imputer_app.sheets._write import write_result
+from imputer_app.sheets._run_record import RecoveryEvidence
+from imputer_app.sheets._write import export_side_files, write_result
 
-__all__ = ["CELL_STATES", "ColumnInfo", "Sheet", "SourceInfo", "list_sheets", "read_sheet", "write_result"]
+__all__ = [
+    "CELL_STATES",
+    "ColumnInfo",
+    "RecoveryEvidence",
+    "Sheet",
+    "SourceInfo",
+    "export_side_files",
+    "list_sheets",
+    "read_export_plan",
+    "read_sheet",
+    "same_file",
+    "write_result",
+]

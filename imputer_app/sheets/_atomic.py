@@ -45,7 +45,7 @@ def check_targets(targets: Sequence[Path], source: Path | None) -> list[Path]:
     checked: list[Path] = []
     for target in targets:
         full = Path(os.path.abspath(target))
-        if source is not None and _same_file(full, Path(source)):
+        if source is not None and same_file(full, Path(source)):
             raise ExportError(
                 f"refusing to write {full.name}: it is the input file {source}; "
                 "choose another name (Kinfill never overwrites its input)"
@@ -58,11 +58,29 @@ def check_targets(targets: Sequence[Path], source: Path | None) -> list[Path]:
     return checked
 
 
-def _same_file(target: Path, source: Path) -> bool:
-    if target.resolve() == source.resolve():
+def same_file(path: str | os.PathLike[str], source: str | os.PathLike[str]) -> bool:
+    """Return True when ``path`` names the file ``source`` (the "is this the input file" check).
+
+    Sees through another spelling of the same path, symbolic links, hard links and
+    case-insensitive file systems; a path that does not exist is never the input.
+
+    Parameters
+    ----------
+    path : str or path-like
+        A file Kinfill is about to write.
+    source : str or path-like
+        The input file, which Kinfill never overwrites.
+
+    Examples
+    --------
+    >>> same_file("a/../b.xlsx", "b.xlsx")
+    True
+    """
+    path, source = Path(path), Path(source)
+    if path.resolve() == source.resolve():
         return True
     try:  # hard links and case-insensitive file systems
-        return target.exists() and os.path.samefile(target, source)
+        return path.exists() and os.path.samefile(path, source)
     except OSError:
         return False
 

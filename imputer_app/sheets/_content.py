@@ -9,7 +9,7 @@ gathers, per cell, its mark (plain, filled, censored) and any original text to s
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
@@ -17,30 +17,17 @@ import numpy as np
 import pandas as pd
 
 from imputer_app.errors import ExportError
+from imputer_app.words import EXPORT_LOG_COLUMNS, SUBSTITUTION_PHRASES, UNFILLED_COLUMNS
 
 if TYPE_CHECKING:
+    from imputer_app.engine import FillResult
     from imputer_app.sheets._model import Sheet
 
 #: Cell marks (codes into a writer's styles).
 PLAIN, FILLED, CENSORED = 0, 1, 2
 
-#: Columns of the fill log as exported (same order in the xlsx sheet and the csv).
-LOG_COLUMNS = (
-    "row", "column", "original_state", "method", "value", "k",
-    "donors", "distances", "donor_values", "spread", "support", "note",
-)  # fmt: skip
-
-#: Columns of the list of cells left empty.
-UNFILLED_COLUMNS = ("row", "column", "reason")
-
 #: Donors listed in a cell comment before "... more" (the fill log lists all).
 COMMENT_DONORS = 10
-
-_METHOD_WORDS = {
-    "limit": "the limit",
-    "half_limit": "half the limit",
-    "limit_sqrt2": "the limit divided by √2 (Hornung & Reed 1990)",
-}
 
 
 @dataclass(frozen=True)
@@ -79,9 +66,9 @@ class ExportContent:
     log_cells : ndarray of int of shape (n_log, 2)
         Row and column position of each log row (-1 when not found).
     log_table : DataFrame
-        The fill log for export, columns :data:`LOG_COLUMNS`.
+        The fill log for export, columns :data:`~imputer_app.words.EXPORT_LOG_COLUMNS`.
     unfilled : DataFrame
-        Cells left empty, columns :data:`UNFILLED_COLUMNS`.
+        Cells left empty, columns :data:`~imputer_app.words.UNFILLED_COLUMNS`.
     layout : Layout
         Row placement for a worksheet.
     """
@@ -110,7 +97,7 @@ class ExportContent:
         return int(np.count_nonzero(self.marks))
 
 
-def build_content(sheet: Sheet | None, result: Any) -> ExportContent:
+def build_content(sheet: Sheet | None, result: FillResult) -> ExportContent:
     """Gather the export's content from ``sheet`` (may be None) and ``result``.
 
     Parameters
@@ -159,7 +146,7 @@ def build_content(sheet: Sheet | None, result: Any) -> ExportContent:
     )
 
 
-def _check_shapes(sheet: Sheet | None, result: Any) -> None:
+def _check_shapes(sheet: Sheet | None, result: FillResult) -> None:
     frame = result.frame
     for name in ("filled", "censored"):
         if getattr(result, name).shape != frame.shape:
@@ -249,7 +236,7 @@ def distance_text(value: Any) -> str:
     return format(float(value), ".6g")
 
 
-def join_text(values: Iterable[Any], fmt: Any = value_text) -> str:
+def join_text(values: Iterable[Any] | None, fmt: Callable[[Any], str] = value_text) -> str:
     """Join a tuple of values with ``"; "`` (None gives '')."""
     if values is None or (isinstance(values, float) and math.isnan(values)):
         return ""
@@ -257,14 +244,14 @@ def join_text(values: Iterable[Any], fmt: Any = value_text) -> str:
 
 
 def log_table(log: pd.DataFrame) -> pd.DataFrame:
-    """Return ``FillResult.log`` as an export table (columns :data:`LOG_COLUMNS`).
+    """Return ``FillResult.log`` as an export table (columns ``words.EXPORT_LOG_COLUMNS``).
 
     Tuples (donors, distances, donor values) become ``"; "``-joined text; the value
     keeps its type (number or text); ``spread`` stays a float (NaN when not applicable).
     """
     n = len(log)
     if n == 0:
-        return pd.DataFrame({c: pd.Series([], dtype=object) for c in LOG_COLUMNS})
+        return pd.DataFrame({c: pd.Series([], dtype=object) for c in EXPORT_LOG_COLUMNS})
     k = pd.to_numeric(log["k"], errors="coerce")
     return pd.DataFrame(
         {
@@ -311,8 +298,8 @@ def _log_comment(entry: Mapping[Any, Any], original: str | None, number: bool) -
     method = str(entry["method"])
     value = value_text(entry["value"])
     censored = f'Censored entry "{original}"' if original else "Censored entry"
-    if method in _METHOD_WORDS:
-        return f"{censored}: written as {_METHOD_WORDS[method]} ({value})."
+    if method in SUBSTITUTION_PHRASES:
+        return f"{censored}: written as {SUBSTITUTION_PHRASES[method]} ({value})."
     k = value_text(entry["k"])
     if method == "column_mean":
         lines = [f"Filled by Kinfill with the column mean ({value}): no donor was available."]

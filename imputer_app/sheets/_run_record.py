@@ -14,14 +14,16 @@ import platform
 from collections.abc import Mapping
 from datetime import UTC, datetime
 from importlib import metadata
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Protocol
 
 import numpy as np
 import pandas as pd
 
 from imputer_app import CAUTIONS, __version__
+from imputer_app.charts import ErrorVsK
 
 if TYPE_CHECKING:
+    from imputer_app.engine import FillResult
     from imputer_app.plan import FillPlan
     from imputer_app.sheets._content import ExportContent
     from imputer_app.sheets._model import Sheet
@@ -30,6 +32,9 @@ if TYPE_CHECKING:
 LIBRARIES = (
     "numpy", "pandas", "scikit-learn", "openpyxl", "python-calamine", "xlsxwriter", "matplotlib",
 )  # fmt: skip
+
+#: Name of the xlsx export's sheet that shows the run record (read back by _export_plan).
+ABOUT_SHEET = "About this fill"
 
 #: Section titles of "About this fill", in order, keyed by the record's keys.
 SECTIONS = {
@@ -59,6 +64,19 @@ LABELS = {
 }
 
 
+class RecoveryEvidence(ErrorVsK, Protocol):
+    """What an export reads from a recovery report (``validation.RecoveryReport`` has it all).
+
+    ``sheets`` sits beside ``validation`` in the layers, so it names what it reads here
+    instead of importing the report's class.
+    """
+
+    @property
+    def settings(self) -> dict[str, Any]: ...
+
+    def to_frame(self) -> pd.DataFrame: ...
+
+
 def utc_now() -> str:
     """Return the current time as ISO 8601 UTC text to the second."""
     return datetime.now(UTC).isoformat(timespec="seconds").replace("+00:00", "Z")
@@ -77,9 +95,9 @@ def library_versions() -> dict[str, str]:
 
 def build_record(
     sheet: Sheet | None,
-    result: Any,
+    result: FillResult,
     plan: FillPlan,
-    report: Any,
+    report: RecoveryEvidence | None,
     content: ExportContent,
     output: Mapping[str, Any],
 ) -> dict[str, Any]:
@@ -144,7 +162,7 @@ def _input(sheet: Sheet | None) -> dict[str, Any]:
     }
 
 
-def _recovery(report: Any, chosen_k: int) -> dict[str, Any] | None:
+def _recovery(report: RecoveryEvidence | None, chosen_k: int) -> dict[str, Any] | None:
     """Summarise a recovery report through its documented attributes."""
     if report is None:
         return None
@@ -162,7 +180,7 @@ def _recovery(report: Any, chosen_k: int) -> dict[str, Any] | None:
     return summary
 
 
-def recovery_table(report: Any) -> pd.DataFrame:
+def recovery_table(report: RecoveryEvidence) -> pd.DataFrame:
     """Return ``report.to_frame()`` with its index as ordinary columns."""
     table = report.to_frame()
     if not isinstance(table.index, pd.RangeIndex) or table.index.name is not None:

@@ -4,18 +4,19 @@ from __future__ import annotations
 
 from os import PathLike
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 from imputer_app.errors import ExportError
 from imputer_app.sheets import _write_xlsx
 from imputer_app.sheets._atomic import atomic_outputs
 from imputer_app.sheets._content import ExportContent, Layout, build_content
-from imputer_app.sheets._run_record import build_record
+from imputer_app.sheets._run_record import RecoveryEvidence, build_record
 from imputer_app.sheets._ticker import Ticker
 from imputer_app.sheets._write_csv import dialect_for, side_files, write_csv
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled
 
 if TYPE_CHECKING:
+    from imputer_app.engine import FillResult
     from imputer_app.plan import FillPlan
     from imputer_app.sheets._model import Sheet
 
@@ -26,9 +27,9 @@ FORMATS = {".xlsx": "xlsx", ".csv": "csv", ".tsv": "csv"}
 def write_result(
     path: str | PathLike[str],
     sheet: Sheet | None,
-    result: Any,
+    result: FillResult,
     plan: FillPlan,
-    report: Any = None,
+    report: RecoveryEvidence | None = None,
     *,
     progress: Progress | None = None,
     cancel: CancelFlag | None = None,
@@ -106,13 +107,30 @@ def write_result(
     return files
 
 
+def export_side_files(path: str | PathLike[str]) -> list[Path]:
+    """Return the files an export to ``path`` may write beside ``path`` itself.
+
+    None for xlsx (one workbook); for csv/tsv the fill log, the run record and the
+    list of cells left empty (written only when cells stayed empty).
+
+    Examples
+    --------
+    >>> [p.name for p in export_side_files("june.filled.csv")]
+    ['june.filled.fill-log.csv', 'june.filled.run.json', 'june.filled.not-filled.csv']
+    """
+    target = Path(path)
+    if FORMATS.get(target.suffix.lower()) != "csv":
+        return []
+    return [p for p in side_files(target, with_unfilled=True).values() if p != target]
+
+
 def _export_xlsx(
     target: Path,
     source: Path | None,
     sheet: Sheet | None,
-    result: Any,
+    result: FillResult,
     plan: FillPlan,
-    report: Any,
+    report: RecoveryEvidence | None,
     content: ExportContent,
     ticker: Ticker,
 ) -> list[Path]:
@@ -139,9 +157,9 @@ def _export_csv(
     target: Path,
     source: Path | None,
     sheet: Sheet | None,
-    result: Any,
+    result: FillResult,
     plan: FillPlan,
-    report: Any,
+    report: RecoveryEvidence | None,
     content: ExportContent,
     ticker: Ticker,
 ) -> list[Path]:

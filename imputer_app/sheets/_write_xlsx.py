@@ -27,7 +27,7 @@ from xlsxwriter.worksheet import Worksheet
 
 from imputer_app.errors import ExportError
 from imputer_app.sheets._content import CENSORED, FILLED, ExportContent, cell_comments
-from imputer_app.sheets._run_record import about_rows, recovery_table
+from imputer_app.sheets._run_record import ABOUT_SHEET, RecoveryEvidence, about_rows, recovery_table
 from imputer_app.sheets._sheetxml import ColumnCells, column_letter, excel_serial, render_line, render_rows
 from imputer_app.sheets._ticker import Ticker
 from imputer_app.sheets._xlsx_package import splice_sheets
@@ -79,7 +79,7 @@ def check_fits(content: ExportContent) -> None:
         )
 
 
-def chart_png(report: Any) -> tuple[bytes | None, str]:
+def chart_png(report: RecoveryEvidence) -> tuple[bytes | None, str]:
     """Return the error-vs-k chart of ``report`` as PNG bytes, and a note for the record."""
     try:
         from imputer_app.charts.error_vs_k import plot_error_vs_k
@@ -98,7 +98,7 @@ def write_xlsx(
     target: Path,
     content: ExportContent,
     record: dict[str, Any],
-    report: Any,
+    report: RecoveryEvidence | None,
     chart: bytes | None,
     with_comments: bool,
     ticker: Ticker,
@@ -158,7 +158,7 @@ def _formats(book: xlsxwriter.Workbook) -> dict[str, Format]:
 def _skeleton(
     content: ExportContent,
     record: dict[str, Any],
-    report: Any,
+    report: RecoveryEvidence | None,
     chart: bytes | None,
     comments: dict[tuple[int, int], str],
     ticker: Ticker,
@@ -179,7 +179,7 @@ def _skeleton(
         _table_skeleton(book.add_worksheet("Not filled"), content.unfilled)
     if report is not None:
         _recovery_sheet(book.add_worksheet("Recovery test"), report, record, chart, formats)
-    _about_sheet(book.add_worksheet("About this fill"), record, formats)
+    _about_sheet(book.add_worksheet(ABOUT_SHEET), record, formats)
     filled.activate()
     book.close()  # assigns every format its xf_index
     return buffer.getvalue(), formats
@@ -251,7 +251,11 @@ def _put(sheet: Worksheet, row: int, col: int, value: Any, fmt: Format | None = 
 
 
 def _recovery_sheet(
-    sheet: Worksheet, report: Any, record: dict[str, Any], chart: bytes | None, formats: dict[str, Format]
+    sheet: Worksheet,
+    report: RecoveryEvidence,
+    record: dict[str, Any],
+    chart: bytes | None,
+    formats: dict[str, Format],
 ) -> None:
     table = recovery_table(report)
     for j, name in enumerate(table.columns):

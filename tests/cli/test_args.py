@@ -7,14 +7,13 @@ import os
 import signal
 import subprocess
 import sys
-import types
 from pathlib import Path
 
 import pytest
 
 import imputer_app
-from imputer_app import cli
-from imputer_app.cli_progress import StopFlag, TextProgress, render_bar, stop_on_ctrl_c
+from imputer_app.cli import commands
+from imputer_app.cli.progress import StopFlag, TextProgress, render_bar, stop_on_ctrl_c
 from tests.cli.helpers import run
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -174,7 +173,7 @@ def test_internal_fault_exit_1_one_line(
     def broken(args: object) -> int:
         raise RuntimeError("kaboom")
 
-    monkeypatch.setattr(cli, "run_plan", broken)
+    monkeypatch.setattr(commands, "run_plan", broken)
     code, _, err = run(["plan", str(DEMO_XLSX)], capsys)
     assert code == 1
     assert_one_line(err)
@@ -188,25 +187,10 @@ def test_debug_shows_the_traceback(
     def broken(args: object) -> int:
         raise RuntimeError("kaboom")
 
-    monkeypatch.setattr(cli, "run_plan", broken)
+    monkeypatch.setattr(commands, "run_plan", broken)
     code, _, err = run([*where, str(DEMO_XLSX)], capsys)
     assert code == 1
     assert "Traceback" in err and "kaboom" in err
-
-
-def test_gui_not_built_yet(monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]) -> None:
-    real = cli.importlib.import_module
-
-    def missing(name: str) -> types.ModuleType:
-        if name == "imputer_app.gui.launch":
-            raise ModuleNotFoundError(f"No module named {name!r}", name=name)
-        return real(name)
-
-    monkeypatch.setattr(cli.importlib, "import_module", missing)
-    code, _, err = run(["gui"], capsys)
-    assert code == 1
-    assert_one_line(err)
-    assert "not built yet" in err
 
 
 @pytest.mark.parametrize(("argv", "expected"), [(["gui"], []), (["gui", str(DEMO_XLSX)], [str(DEMO_XLSX)])])
@@ -219,9 +203,10 @@ def test_gui_hands_the_file_to_the_app(
         seen.append(list(args))
         return 0
 
-    fake = types.ModuleType("imputer_app.gui.launch")
-    fake.main = fake_main  # type: ignore[attr-defined]
-    monkeypatch.setattr(cli.importlib, "import_module", lambda name: fake)
+    from imputer_app.gui import launch
+
+    monkeypatch.setenv("QT_QPA_PLATFORM", "offscreen")
+    monkeypatch.setattr(launch, "main", fake_main)
     code, _, _ = run(argv, capsys)
     assert code == 0 and seen == [expected]
 
@@ -229,11 +214,15 @@ def test_gui_hands_the_file_to_the_app(
 def test_gui_without_a_display_says_so(
     monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    monkeypatch.setattr(cli.sys, "platform", "linux")
+    from imputer_app.gui import launch
+
+    opened: list[object] = []
+    monkeypatch.setattr(commands.sys, "platform", "linux")
     for name in ("DISPLAY", "WAYLAND_DISPLAY", "QT_QPA_PLATFORM"):
         monkeypatch.delenv(name, raising=False)
-    monkeypatch.setattr(cli.importlib, "import_module", lambda name: types.ModuleType(name))
+    monkeypatch.setattr(launch, "main", opened.append)
     code, _, err = run(["gui"], capsys)
+    assert opened == []
     assert code == 2
     assert_one_line(err)
     assert "no display found" in err and "kinfill fill" in err
@@ -293,7 +282,7 @@ def test_ctrl_c_stops_and_writes_nothing(
     def interrupted_read(*args: object, **kwargs: object) -> None:
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(cli, "_read", interrupted_read)
+    monkeypatch.setattr(commands, "read_input", interrupted_read)
     out = tmp_path / "out.xlsx"
     code, stdout, err = run(["fill", str(DEMO_XLSX), "--out", str(out)], capsys)
     assert code == 130 and stdout == ""

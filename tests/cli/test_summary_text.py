@@ -17,7 +17,7 @@ import pandas as pd
 import pytest
 
 from imputer_app import CAUTIONS
-from imputer_app.cli_text import recovery_table
+from imputer_app.cli.text import recovery_table
 from imputer_app.plan import FillPlan
 from imputer_app.sheets import read_sheet
 from tests.cli.helpers import run

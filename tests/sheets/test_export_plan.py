@@ -1,18 +1,18 @@
-"""Reading the plan back out of an export's run record (``kinfill fill --plan-from``)."""
+"""Reading the plan back out of an export (``read_export_plan``, behind ``kinfill fill --plan-from``)."""
 
 from __future__ import annotations
 
 import json
 from pathlib import Path
-from typing import Any
 
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from imputer_app.cli_plan import build_plan, plan_from_about_rows, plan_from_export
 from imputer_app.errors import PlanError
 from imputer_app.plan import CHOICES, KINDS, FillPlan
+from imputer_app.sheets import read_export_plan
+from imputer_app.sheets._export_plan import plan_from_about_rows
 from imputer_app.sheets._run_record import about_rows
 
 # "About this fill" joins lists with "; " and tables as "name=value", so names used
@@ -61,10 +61,10 @@ def test_run_json_gives_the_plan_back(tmp_path: Path) -> None:
     plan = FillPlan(k=4, weights={"Dissolved oxygen": 0.5}, bounds={"pH; lab": (0.0, 14.0)})
     record = tmp_path / "out.run.json"
     record.write_text(json.dumps({"plan": plan.to_dict(), "plan_resolved": {}}), encoding="utf-8")
-    assert plan_from_export(record) == plan
+    assert read_export_plan(record) == plan
     table = tmp_path / "out.csv"
     table.write_text("a\n1\n", encoding="utf-8")
-    assert plan_from_export(table) == plan  # a csv export's record sits beside it
+    assert read_export_plan(table) == plan  # a csv export's record sits beside it
 
 
 @pytest.mark.parametrize(
@@ -80,37 +80,7 @@ def test_not_an_export(tmp_path: Path, name: str, content: str, words: str) -> N
     path = tmp_path / name
     path.write_text(content, encoding="utf-8")
     with pytest.raises(PlanError, match=words):
-        plan_from_export(path)
-
-
-@pytest.mark.parametrize(
-    ("base", "options", "expected"),
-    [
-        # --similarity / --fill take a column out of the plan's carried columns
-        (FillPlan(carried_columns=("ID", "pH")), {"similarity": ("pH", "NO3")}, FillPlan(
-            similarity_columns=("pH", "NO3"), carried_columns=("ID",))),
-        # --carry replaces the carried columns and leaves similarity/fill
-        (FillPlan(similarity_columns=("pH", "NO3"), fill_columns=("NO3",)), {"carry": ("NO3",)}, FillPlan(
-            similarity_columns=("pH",), fill_columns=(), carried_columns=("NO3",))),
-        # weights merge, the option winning
-        (FillPlan(weights={"pH": 2.0, "NO3": 3.0}), {"weights": [("NO3", 0.0)]}, FillPlan(
-            weights={"pH": 2.0, "NO3": 0.0})),
-        (FillPlan(k=9, scaling="robust"), {"k": 3, "scaling": "none", "group": "Station"}, FillPlan(
-            k=3, scaling="none", group_column="Station")),
-        (FillPlan(k=9), {}, FillPlan(k=9)),
-    ],
-)  # fmt: skip
-def test_options_override_the_plan(base: FillPlan, options: dict[str, Any], expected: FillPlan) -> None:
-    assert build_plan(base, **options) == expected
-
-
-@pytest.mark.parametrize(
-    ("options", "words"),
-    [({"k": 0}, "k must be at least 1"), ({"weights": [("pH", -2.0)]}, "0 or more")],
-)
-def test_bad_options_are_plan_errors(options: dict[str, Any], words: str) -> None:
-    with pytest.raises(PlanError, match=words):
-        build_plan(FillPlan(), **options)
+        read_export_plan(path)
 
 
 def test_xlsx_export_keeps_the_exact_plan_even_for_awkward_names(tmp_path: Path) -> None:
@@ -125,4 +95,4 @@ def test_xlsx_export_keeps_the_exact_plan_even_for_awkward_names(tmp_path: Path)
     plan = FillPlan(k=2, weights={"a; b": 2.0, "x=y": 0.5}, bounds={"a; b": (0.0, None)})
     export = tmp_path / "awkward.xlsx"
     write_result(export, None, impute(frame, plan), plan)
-    assert plan_from_export(export) == plan
+    assert read_export_plan(export) == plan

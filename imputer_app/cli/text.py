@@ -5,19 +5,21 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import pandas as pd
 
-#: Fill-log methods that stand a number in for a censored entry (no kNN involved).
-SUBSTITUTIONS = {
-    "limit": "the limit",
-    "half_limit": "half the limit",
-    "limit_sqrt2": "the limit / sqrt(2)",
-}
+from imputer_app.words import SUBSTITUTION_PHRASES
+
+if TYPE_CHECKING:
+    from imputer_app.engine import FillResult
+    from imputer_app.sheets import Sheet
+    from imputer_app.validation import RecoveryReport
 
 
-def fill_summary(source: Path, result: Any, written: Sequence[Path], sheet: Any = None) -> str:
+def fill_summary(
+    source: Path, result: FillResult, written: Sequence[Path], sheet: Sheet | None = None
+) -> str:
     """Return the summary of ``kinfill fill``: cells filled, left empty, and files written.
 
     Parameters
@@ -47,7 +49,7 @@ def fill_summary(source: Path, result: Any, written: Sequence[Path], sheet: Any 
         if means:
             lines.append(f"  {means} of them with the column mean (no donor)")
         lines.extend(_censored_fill_lines(log, _no_limit_cells(sheet)))
-        for method, words in SUBSTITUTIONS.items():
+        for method, words in SUBSTITUTION_PHRASES.items():
             count = int((log["method"] == method).sum())
             if count:
                 lines.append(f"censored entries stood in by {words}: {count} (flagged as censored)")
@@ -58,16 +60,16 @@ def fill_summary(source: Path, result: Any, written: Sequence[Path], sheet: Any 
     return "\n".join(lines)
 
 
-def _no_limit_cells(sheet: Any) -> set[tuple[Any, str]]:
+def _no_limit_cells(sheet: Sheet | None) -> set[tuple[Any, str]]:
     """(row label, column) of censored entries whose limit the sheet did not give."""
-    notes = getattr(sheet, "cell_notes", None)
+    notes = sheet.cell_notes if sheet is not None else None
     if notes is None or not len(notes):
         return set()
     unknown = notes[(notes["state"] == "censored") & notes["limit"].isna()]
     return set(zip(unknown["row"], unknown["column"], strict=True))
 
 
-def _censored_fill_lines(log: Any, no_limit: set[tuple[Any, str]]) -> list[str]:
+def _censored_fill_lines(log: pd.DataFrame, no_limit: set[tuple[Any, str]]) -> list[str]:
     """Count censored entries that kNN filled: they are in "filled" but are not gaps.
 
     A below-limit entry with no limit written ("< LOD" and no limit column) is filled by
@@ -97,8 +99,11 @@ def _what_it_holds(path: Path) -> str:
     name = path.name
     if name.endswith(".xlsx"):
         return '  (cleaned sheet "Filled", fill log in sheet "Fill log", run record in "About this fill")'
-    for suffix, words in ((".fill-log.csv", "fill log"), (".run.json", "run record"),
-                          (".not-filled.csv", "cells left empty, with reasons")):
+    for suffix, words in (
+        (".fill-log.csv", "fill log"),
+        (".run.json", "run record"),
+        (".not-filled.csv", "cells left empty, with reasons"),
+    ):
         if name.endswith(suffix):
             return f"  ({words})"
     return "  (cleaned table)"
@@ -117,7 +122,7 @@ def listing(items: Sequence[str], limit: int = 10) -> str:
     return ", ".join(items[:limit]) + f" and {len(items) - limit} more"
 
 
-def _unfilled_lines(unfilled: Any) -> list[str]:
+def _unfilled_lines(unfilled: pd.DataFrame) -> list[str]:
     if not len(unfilled):
         return ["left empty: none"]
     lines = [f"left empty {len(unfilled)} cells:"]
@@ -126,7 +131,7 @@ def _unfilled_lines(unfilled: Any) -> list[str]:
     return lines
 
 
-def recovery_table(report: Any) -> str:
+def recovery_table(report: RecoveryReport) -> str:
     """Return the per-k table of ``kinfill score-k`` with the best and one-SE k.
 
     Parameters
@@ -150,8 +155,10 @@ def recovery_table(report: Any) -> str:
     if show_categories:
         header += f"  {'error rate':>10}  {'SE':>7}"
     lines.append(header)
-    for k, row in overall.iterrows():
-        text = f"{int(k):>4}"
+    for position in range(len(overall)):
+        k = int(overall.index[position])
+        row = overall.iloc[position]
+        text = f"{k:>4}"
         if show_numbers:
             text += f"  {_num(row['score'], 8)}  {_num(row['se'], 7)}"
         if show_categories:
@@ -172,9 +179,9 @@ def recovery_table(report: Any) -> str:
     return "\n".join(lines)
 
 
-def _baseline_line(baseline: Any, show_numbers: bool, show_categories: bool) -> str:
+def _baseline_line(baseline: pd.DataFrame, show_numbers: bool, show_categories: bool) -> str:
     text = f"{'avg':>4}"
-    row = baseline.loc["overall"] if "overall" in baseline.index else None
+    row = _overall_row(baseline)
     if show_numbers:
         text += f"  {_num(_get(row, 'score'), 8)}  {'':>7}"
     if show_categories:
@@ -182,26 +189,32 @@ def _baseline_line(baseline: Any, show_numbers: bool, show_categories: bool) -> 
     return text + "  <- column average (no kNN)"
 
 
-def _no_k_beats_average(overall: Any, baseline: Any) -> bool:
+def _no_k_beats_average(overall: pd.DataFrame, baseline: pd.DataFrame) -> bool:
     """True when the column-average NRMSE is at or below every k's NRMSE."""
-    average = _get(baseline.loc["overall"] if "overall" in baseline.index else None, "score")
+    average = _get(_overall_row(baseline), "score")
     scores = [float(v) for v in overall["score"] if math.isfinite(float(v))]
     return math.isfinite(average) and bool(scores) and min(scores) >= average
 
 
-def _get(row: Any, key: str) -> float:
+def _overall_row(baseline: pd.DataFrame) -> pd.Series | None:
+    """The baseline's ``overall`` row (all fill columns together), if it has one."""
+    row = baseline.loc["overall"] if "overall" in baseline.index else None
+    return row if isinstance(row, pd.Series) else None
+
+
+def _get(row: pd.Series | None, key: str) -> float:
     if row is None or key not in row.index:
         return math.nan
     return float(row[key])
 
 
-def _any_finite(values: Any) -> bool:
+def _any_finite(values: pd.Series | None) -> bool:
     if values is None:
         return False
     return any(isinstance(v, int | float) and math.isfinite(v) for v in values)
 
 
-def _num(value: float, width: int) -> str:
+def _num(value: float | None, width: int) -> str:
     if value is None or not math.isfinite(float(value)):
         return f"{'-':>{width}}"
     return f"{float(value):>{width}.4f}"

@@ -1,0 +1,72 @@
+"""Checks on the files a command reads and writes: the input exists, outputs never replace it.
+
+``--force`` replaces earlier outputs, never the input sheet; the "is this the input
+file" test is the export's own (:func:`imputer_app.sheets.same_file`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from pathlib import Path
+
+from imputer_app.cli.exit_codes import UsageError
+from imputer_app.errors import ExportError
+from imputer_app.sheets import same_file
+
+#: Output formats ``kinfill fill`` can write, by extension.
+OUTPUT_SUFFIXES = (".xlsx", ".csv", ".tsv")
+
+
+def existing_input(path: Path) -> Path:
+    """Return ``path`` when it is an existing file; else raise :class:`UsageError`."""
+    if not path.exists():
+        raise UsageError(f"file not found: {path}")
+    if path.is_dir():
+        raise UsageError(f"{path} is a folder; give a sheet file")
+    return path
+
+
+def fill_output(source: Path, out: Path | None) -> Path:
+    """Return the export file of ``kinfill fill``: ``--out`` or ``<input>.filled.xlsx``, checked."""
+    target = out if out is not None else source.with_name(source.stem + ".filled.xlsx")
+    if target.suffix.lower() not in OUTPUT_SUFFIXES:
+        raise UsageError(f"--out must end in {' or '.join(OUTPUT_SUFFIXES)}; got {target.name}")
+    if same_file(target, source):
+        raise UsageError(f"--out is the input file {source.name}; Kinfill never overwrites its input")
+    if not target.parent.is_dir():
+        raise UsageError(f"folder not found for --out: {target.parent}")
+    return target
+
+
+def remove_stale(old_sidecars: Sequence[Path], written: Sequence[Path], source: Path) -> None:
+    """Remove side files of an earlier export (replaced with --force) that this one lacks."""
+    for path in old_sidecars:
+        if path not in written and path.exists() and not same_file(path, source):
+            path.unlink()
+            print(f"removed {path} (left over from an earlier export)")
+
+
+def refuse_input(paths: Sequence[Path], source: Path) -> None:
+    """Refuse any output that is the input sheet: --force replaces outputs, never the input."""
+    for path in paths:
+        if same_file(path, source):
+            raise UsageError(
+                f"{path.name} would replace the input file {source.name}; "
+                "Kinfill never overwrites its input, choose another name"
+            )
+
+
+def refuse_overwrite(paths: Sequence[Path], force: bool) -> None:
+    """Refuse outputs that exist already unless ``--force`` was given."""
+    existing = [p for p in paths if p.exists()]
+    if existing and not force:
+        names = ", ".join(str(p) for p in existing)
+        raise UsageError(f"{names} already exist{'s' if len(existing) == 1 else ''}; add --force to replace")
+
+
+def write_text(path: Path, text: str) -> None:
+    """Write a small UTF-8 text output (the ``--json`` report); a failure is one line."""
+    try:
+        path.write_text(text, encoding="utf-8")
+    except OSError as exc:
+        raise ExportError(f"cannot write {path}: {exc.strerror or exc}") from exc
