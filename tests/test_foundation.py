@@ -13,8 +13,14 @@ import pytest
 import imputer_app
 
 BIN = Path(sys.executable).parent
-QT_FREE = ["imputer_app.engine", "imputer_app.validation", "imputer_app.sheets", "imputer_app.charts",
-           "imputer_app.plan", "imputer_app.cli"]
+QT_FREE = [
+    "imputer_app.engine",
+    "imputer_app.validation",
+    "imputer_app.sheets",
+    "imputer_app.charts",
+    "imputer_app.plan",
+    "imputer_app.cli",
+]
 
 
 @pytest.mark.parametrize("module", QT_FREE)
@@ -25,29 +31,149 @@ def test_core_packages_import_without_qt(module):
     assert out.stdout.strip() == "False"
 
 
-@pytest.mark.parametrize("package", ["imputer_app.engine", "imputer_app.validation", "imputer_app.sheets",
-                                     "imputer_app.charts"])
-def test_public_names_resolve_and_are_sorted(package):
+PUBLIC_PACKAGES = [
+    "imputer_app",
+    "imputer_app.charts",
+    "imputer_app.cli",
+    "imputer_app.engine",
+    "imputer_app.sheets",
+    "imputer_app.validation",
+    "imputer_app.words",
+]
+
+
+@pytest.mark.parametrize("package", PUBLIC_PACKAGES)
+def test_public_names_are_declared_sorted_and_resolve(package):
     module = importlib.import_module(package)
-    names = getattr(module, "__all__", [])
-    assert names == sorted(names)
+    assert hasattr(module, "__all__"), f"{package} must declare its public names in __all__"
+    names = list(module.__all__)
+    # The order ruff keeps __all__ in (RUF022): CONSTANTS, then Classes, then functions.
+    assert names and names == sorted(
+        names, key=lambda n: (0 if n.isupper() else 1 if n[0].isupper() else 2, n)
+    )
     for name in names:
         assert getattr(module, name) is not None
 
 
-def test_public_contract_names():
-    # DESIGN.md "Public contract": these four imports are what users and tests rely on.
+# The public names of the packages below, each checked by what it does in the tests
+# that follow; a new public name must be added to one of them.
+CHECKED = {
+    "imputer_app.sheets": {
+        "CELL_STATES", "ColumnInfo", "RecoveryEvidence", "Sheet", "SourceInfo", "export_side_files",
+        "list_sheets", "read_export_plan", "read_sheet", "same_file", "write_result",
+    },
+    "imputer_app.charts": {"ErrorVsK", "plot_error_vs_k", "save_figure"},
+    "imputer_app.cli": {
+        "EXIT_FAULT", "EXIT_OK", "EXIT_STOPPED", "EXIT_USAGE", "UsageError", "build_parser", "main",
+    },
+}  # fmt: skip
+
+
+@pytest.mark.parametrize("package", sorted(CHECKED))
+def test_every_public_name_has_a_behaviour_check(package):
+    assert set(importlib.import_module(package).__all__) == CHECKED[package]
+
+
+def test_a_fill_round_trips_through_the_public_names(tmp_path):
+    # Five rows, one gap: with k = 2 the gap's nearest rows by "a" are those with
+    # a = 3.0 and 2.0 (against 2.9), so the fill is the mean of their b: (30 + 20) / 2.
+
     from imputer_app.engine import impute
     from imputer_app.plan import FillPlan
-    from imputer_app.sheets import read_sheet, write_result
-    from imputer_app.validation import recovery_test
+    from imputer_app.sheets import (
+        CELL_STATES,
+        Sheet,
+        export_side_files,
+        read_export_plan,
+        read_sheet,
+        same_file,
+        write_result,
+    )
 
-    assert callable(impute) and callable(recovery_test) and callable(read_sheet) and callable(write_result)
-    assert FillPlan().k >= 1
+    source = tmp_path / "tiny.csv"
+    source.write_text("a,b\n1.0,10\n2.0,20\n3.0,30\n2.9,\n9.0,90\n", encoding="utf-8")
+    sheet = read_sheet(source)
+    assert isinstance(sheet, Sheet) and sheet.source.path.name == "tiny.csv"
+    assert set(sheet.states["b"].astype(str)) <= set(CELL_STATES) and "missing" in set(sheet.states["b"])
+    assert [c.name for c in sheet.columns] == ["a", "b"] and sheet.source.sha256
+    plan = FillPlan(k=2, similarity_columns=("a",), fill_columns=("b",))
+    result = impute(sheet, plan)
+    assert result.frame["b"].iloc[3] == pytest.approx(25.0)
+    out = tmp_path / "tiny.filled.csv"
+    written = write_result(out, sheet, result, plan)
+    assert written[0] == out and set(written[1:]) <= set(export_side_files(out))
+    assert [p.name for p in export_side_files(out)] == [
+        "tiny.filled.fill-log.csv", "tiny.filled.run.json", "tiny.filled.not-filled.csv",
+    ]  # fmt: skip
+    assert export_side_files(tmp_path / "tiny.filled.xlsx") == []
+    assert read_sheet(out).frame["b"].tolist() == pytest.approx([10, 20, 30, 25, 90])
+    assert read_export_plan(out) == plan
+    assert same_file(tmp_path / "." / "tiny.csv", source) and not same_file(out, source)
 
 
-@pytest.mark.parametrize("command", [[str(BIN / "kinfill"), "--version"],
-                                     [sys.executable, "-m", "imputer_app", "--version"]])
+def test_a_workbook_lists_its_sheets_and_column_info(tmp_path):
+    from openpyxl import Workbook
+
+    from imputer_app.sheets import ColumnInfo, SourceInfo, list_sheets, read_sheet
+
+    path = tmp_path / "two.xlsx"
+    book = Workbook()
+    book.active.title = "June"
+    book.create_sheet("July").append(["x"])
+    book["June"].append(["pH"])
+    book["June"].append([7.1])
+    book.save(path)
+    assert list_sheets(path) == ["June", "July"]
+    sheet = read_sheet(path)
+    assert isinstance(sheet.source, SourceInfo) and sheet.source.sheet == "June"
+    assert isinstance(sheet.columns[0], ColumnInfo) and sheet.columns[0].kind == "number"
+
+
+def test_recovery_report_draws_and_saves_as_a_chart(tmp_path):
+    import numpy as np
+    import pandas as pd
+
+    from imputer_app.charts import ErrorVsK, plot_error_vs_k, save_figure
+    from imputer_app.plan import FillPlan
+    from imputer_app.sheets import RecoveryEvidence
+    from imputer_app.validation import RecoveryReport, recovery_test
+
+    rng = np.random.default_rng(0)
+    frame = pd.DataFrame(rng.normal(size=(30, 3)), columns=["a", "b", "c"])
+    report = recovery_test(frame, FillPlan(), ks=[1, 2, 3], repeats=2, seed=1)
+    assert isinstance(report, RecoveryReport) and report.ks == (1, 2, 3)
+    evidence: RecoveryEvidence = report  # what the export reads, the report has
+    chart: ErrorVsK = evidence
+    figure = plot_error_vs_k(chart)
+    assert len(figure.axes) == 1 and figure.axes[0].lines
+    saved = save_figure(figure, tmp_path / "k.png")
+    assert saved.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_command_line_names(capsys):
+    from imputer_app.cli import (
+        EXIT_FAULT,
+        EXIT_OK,
+        EXIT_STOPPED,
+        EXIT_USAGE,
+        UsageError,
+        build_parser,
+        main,
+    )
+    from imputer_app.errors import KinfillError
+
+    assert (EXIT_OK, EXIT_FAULT, EXIT_USAGE, EXIT_STOPPED) == (0, 1, 2, 130)
+    assert issubclass(UsageError, KinfillError)
+    args = build_parser().parse_args(["fill", "x.csv", "--k", "3", "--scaling", "robust"])
+    assert (args.command, args.k, args.scaling) == ("fill", 3, "robust")
+    assert main(["fill", "x.csv", "--scaling", "cubic"]) == EXIT_USAGE
+    assert main(["fill", "no-such-file.csv"]) == EXIT_USAGE
+    assert "file not found" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize(
+    "command", [[str(BIN / "kinfill"), "--version"], [sys.executable, "-m", "imputer_app", "--version"]]
+)
 def test_version_is_printed(command):
     if not Path(command[0]).exists():
         pytest.skip("package not installed into this interpreter's environment")
@@ -59,6 +185,11 @@ def test_version_is_printed(command):
 
 def test_cautions_say_filled_values_are_estimates():
     text = imputer_app.CAUTIONS.lower()
-    for phrase in ("estimates", "never report a filled value as a measurement", "diagnosis",
-                   "regulatory compliance", "qa procedures"):
+    for phrase in (
+        "estimates",
+        "never report a filled value as a measurement",
+        "diagnosis",
+        "regulatory compliance",
+        "qa procedures",
+    ):
         assert phrase in text
