@@ -311,7 +311,7 @@ def test_plain_numbers_match_scikit_learn_knnimputer(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
     """With all weights 1, no scaling and numbers only, the fill equals scikit-learn's
-    ``KNNImputer`` (reference implementation; DESIGN.md "Numbers that matter").
+    ``KNNImputer`` (scikit-learn, sklearn.impute.KNNImputer; see README.md).
     Data: the wine data set shipped with scikit-learn (UCI), 10 % of cells hidden."""
     from sklearn.datasets import load_wine
     from sklearn.impute import KNNImputer

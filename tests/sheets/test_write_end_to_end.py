@@ -1,7 +1,7 @@
 """Read, fill, test k and export with the real parts; check the export against references.
 
 References: scikit-learn ``KNNImputer`` (with all weights 1, no scaling and numbers
-only, Kinfill's fill equals it — DESIGN.md); the diabetes data (Efron et al. 2004) and
+only, Kinfill's fill equals it — README.md); the diabetes data (Efron et al. 2004) and
 iris (Fisher 1936), both shipped inside scikit-learn; openpyxl and python-calamine as
 two independent xlsx readers.
 """
