@@ -19,7 +19,7 @@ from imputer_app.sheets._kinds import (
     Built,
     Detected,
     build,
-    detect_kind,
+    kind_of_parsed_column,
     text_date_format,
 )
 from imputer_app.sheets._model import CELL_STATES, COLUMN_KINDS, NOTE_COLUMNS
@@ -80,7 +80,7 @@ def resolve_kinds(columns: list[Column], kinds: Mapping[str, str] | None, where:
 
 def detect(column: Column, forced: str | None) -> Detected:
     """The column's kind: detected, or forced by the caller (with a note)."""
-    found = detect_kind(column.parsed)
+    found = kind_of_parsed_column(column.parsed)
     if forced is None or forced == found.kind:
         return found
     note = f"kind set to {forced} by the user (detected {found.kind})"

@@ -71,8 +71,8 @@ class Built:
     states: np.ndarray
 
 
-def detect_kind(parsed: ParsedColumn) -> Detected:
-    """Detect the kind of one parsed column (rules in the module docstring)."""
+def kind_of_parsed_column(parsed: ParsedColumn) -> Detected:
+    """Detect the kind of one column as the reader parsed it (rules in the module docstring)."""
     present = parsed.cls[(parsed.cls != BLANK) & (parsed.cls != MARKER)]
     total = present.size
     if total == 0:
