@@ -22,12 +22,11 @@ def choice_help(setting: str, default: str) -> str:
 
     Examples
     --------
-    >>> "column_mean: The column's mean is written" in choice_help("no_donor", "leave_empty")
+    >>> "column_mean = The column's mean is written" in choice_help("no_donor", "leave_empty")
     True
     """
-    lines = [f"{SETTING_TIPS[setting]} Default {default}:"]
-    lines += [f"{value}: {CHOICE_WORDS[setting][value].explanation}" for value in CHOICES[setting]]
-    return " ".join(lines)
+    meanings = (f"{value} = {CHOICE_WORDS[setting][value].explanation}" for value in CHOICES[setting])
+    return f"{SETTING_TIPS[setting].rstrip('.')} (default {default}). " + " ".join(meanings)
 
 
 class _Parser(argparse.ArgumentParser):

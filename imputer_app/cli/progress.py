@@ -1,6 +1,6 @@
 """Terminal helpers of the command line: a text progress bar and a Ctrl+C stop flag.
 
-Kept apart from :mod:`imputer_app.cli` so that the parser and the commands stay short.
+Kept apart from :mod:`imputer_app.cli.commands` so that the commands stay short.
 Nothing here imports the engine, the sheets or Qt.
 """
 

@@ -20,7 +20,6 @@ ROOT = Path(__file__).resolve().parents[2]
 DEMO_XLSX = ROOT / "sample_sheets" / "river_survey.xlsx"
 
 
-
 def assert_one_line(err: str) -> None:
     assert err.endswith("\n") and err.count("\n") == 1, err
     assert "Traceback" not in err

@@ -27,7 +27,6 @@ SAMPLES = ROOT / "sample_sheets"
 MEASURES = ["pH", "Conductivity", "Nitrate", "Phosphate", "Dissolved oxygen", "Temperature", "Turbidity"]
 
 
-
 @pytest.fixture(params=["river_survey.xlsx", "river_survey.csv"])
 def demo(request: pytest.FixtureRequest, tmp_path: Path) -> Path:
     """A copy of a demo sheet in a fresh folder (outputs default to beside the input)."""

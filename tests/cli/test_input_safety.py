@@ -19,7 +19,6 @@ from tests.cli.helpers import run
 DEMO_CSV = Path(__file__).resolve().parents[2] / "sample_sheets" / "river_survey.csv"
 
 
-
 @pytest.fixture
 def source(tmp_path: Path) -> Path:
     target = tmp_path / "lab.csv"
@@ -60,7 +59,6 @@ def test_input_named_like_a_side_file_is_never_removed(
     assert code == 2 and "never overwrites its input" in err
     assert source.read_bytes() == before and "removed" not in out
     assert not (tmp_path / "x.csv").exists()
-
 
 
 class _ClosedPipe:
