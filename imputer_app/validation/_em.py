@@ -105,6 +105,7 @@ def em_estimate(
         Stop when the largest change of a mean or covariance entry, in units of the
         column's standard deviation, is below ``tol``.
     max_iter : int, default=EM_MAX_ITERATIONS
+        Largest number of iterations; ``converged`` is False when it is reached.
     progress : callable(done, total) or None
         Called after each iteration with ``(iteration, max_iter)``.
     cancel : Event-like, callable or None
@@ -119,7 +120,7 @@ def em_estimate(
     centre, scale = _centre_scale(x)
     z = (x - centre) / scale  # unit-free, so the tolerance means the same for all columns
     patterns = group_patterns(z)
-    n, p = z.shape
+    n = z.shape[0]
     mean = np.nanmean(z, axis=0)
     cov = np.diag(np.nanvar(z, axis=0) + 1e-12)
     converged, singular, iteration = False, False, 0
@@ -177,8 +178,8 @@ def _expectations(
 def _inverse(matrix: FloatArray) -> tuple[FloatArray, bool]:
     """Inverse of a symmetric matrix; the pseudo-inverse (flagged) when it is singular."""
     if _is_singular(matrix):
-        return np.linalg.pinv(matrix, hermitian=True), True
-    return np.linalg.inv(matrix), False
+        return np.asarray(np.linalg.pinv(matrix, hermitian=True), dtype=np.float64), True
+    return np.asarray(np.linalg.inv(matrix), dtype=np.float64), False
 
 
 def _is_singular(matrix: FloatArray) -> bool:
@@ -204,8 +205,9 @@ def little_statistic(x: FloatArray, mean: FloatArray, cov: FloatArray) -> Little
     x : ndarray of shape (n, p)
         Rows with no value at all must already be left out.
     mean : ndarray of shape (p,)
+        Mean of every column, usually the EM estimate (:func:`em_estimate`).
     cov : ndarray of shape (p, p)
-        Usually the EM estimates (:func:`em_estimate`).
+        Covariance of the columns, usually the EM estimate.
 
     Returns
     -------

@@ -21,9 +21,7 @@ DIFFERENCE_COLUMNS = ("gap_column", "other_column", "kind", "difference", "detai
 NOTABLE_DIFFERENCE = 0.2
 
 
-def gap_differences(
-    frame: pd.DataFrame, gaps: pd.DataFrame, kinds: Mapping[str, str]
-) -> pd.DataFrame:
+def gap_differences(frame: pd.DataFrame, gaps: pd.DataFrame, kinds: Mapping[str, str]) -> pd.DataFrame:
     """How the rows with a gap in one column differ from the rows without it.
 
     Parameters
@@ -61,11 +59,15 @@ def gap_differences(
     table = pd.DataFrame(rows, columns=list(DIFFERENCE_COLUMNS))
     if table.empty:
         return table.astype({"difference": float, "n_gap": int, "n_present": int})
-    order = np.argsort(-np.nan_to_num(np.abs(table["difference"].to_numpy(dtype=float)), nan=-1.0), kind="stable")
+    order = np.argsort(
+        -np.nan_to_num(np.abs(table["difference"].to_numpy(dtype=float)), nan=-1.0), kind="stable"
+    )
     return table.iloc[order].reset_index(drop=True)
 
 
-def _row(gap: str, other: str, kind: str, diff: float, detail: str, n_gap: int, n_present: int) -> dict[str, object]:
+def _row(
+    gap: str, other: str, kind: str, diff: float, detail: str, n_gap: int, n_present: int
+) -> dict[str, object]:
     return {
         "gap_column": gap,
         "other_column": other,
@@ -170,11 +172,10 @@ def headline(differences: pd.DataFrame, similarity: Sequence[str]) -> str:
         what = f"Gaps in {gap} come with {word} {other} ({abs(size):.1f} SD {side})"
     else:
         side = "more" if size > 0 else "fewer"
-        what = f"Gaps in {gap} come with {side} rows of {other} '{top['detail']}' ({abs(size) * 100:.0f} share points)"
+        points = f"{abs(size) * 100:.0f} share points"
+        what = f"Gaps in {gap} come with {side} rows of {other} '{top['detail']}' ({points})"
     if other in similarity:
-        advice = f"kNN can still fill them, since {other} is a similarity column; a column average would be biased."
+        advice = f"kNN can still fill them, since {other} is a similarity column"
     else:
-        advice = (
-            f"kNN can still fill them if {other} is made a similarity column; a column average would be biased."
-        )
-    return f"{what}: {advice}"
+        advice = f"kNN can still fill them if {other} is made a similarity column"
+    return f"{what}: {advice}; a column average would be biased."

@@ -1,4 +1,4 @@
-"""The gap check: are the gaps random, and if not, what do they go with?
+"""The gap check: whether the gaps look random, and if not, what they go with.
 
 kNN filling assumes a gap can be predicted from the columns that hold values. The gap
 check looks before the fill: Little's test of missing completely at random (on EM
@@ -272,7 +272,13 @@ def mcar_meaning(p_value: float, estimate: EMEstimate, singular: bool) -> str:
             "depend on the missing value itself (a saturated instrument, say) can pass unseen."
         )
     if singular:
-        text += " Some columns are constant or duplicates of others; a pseudo-inverse was used, so the p-value is rough."
+        text += (
+            " Some columns are constant or duplicates of others; a pseudo-inverse was used,"
+            " so the p-value is rough."
+        )
     if not estimate.converged:
-        text += f" The EM estimates had not settled after {estimate.iterations} iterations; treat the p-value as rough."
+        text += (
+            f" The EM estimates had not settled after {estimate.iterations} iterations;"
+            " treat the p-value as rough."
+        )
     return text

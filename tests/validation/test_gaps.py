@@ -71,7 +71,11 @@ def test_differences_name_the_column_the_gaps_depend_on() -> None:
 
 def test_headline_asks_for_the_column_when_it_is_not_used_for_similarity() -> None:
     frame = _gaps_where_high(1)
-    plan = FillPlan(similarity_columns=("Nitrate", "pH"), fill_columns=("Nitrate", "pH"), carried_columns=("Conductivity",))
+    plan = FillPlan(
+        similarity_columns=("Nitrate", "pH"),
+        fill_columns=("Nitrate", "pH"),
+        carried_columns=("Conductivity",),
+    )
     check = gap_check(frame, plan)
     assert check.columns == ("Nitrate", "pH")
     assert "Conductivity" not in check.differences["other_column"].tolist()
