@@ -119,14 +119,14 @@ def em_estimate(
     """
     centre, scale = _centre_scale(x)
     z = (x - centre) / scale  # unit-free, so the tolerance means the same for all columns
-    patterns = group_patterns(z)
+    sums = _pattern_sums(z, group_patterns(z))
     n = z.shape[0]
     mean = np.nanmean(z, axis=0)
     cov = np.diag(np.nanvar(z, axis=0) + 1e-12)
     converged, singular, iteration = False, False, 0
     for iteration in range(1, max_iter + 1):
         raise_if_cancelled(cancel)
-        total, cross, singular = _expectations(z, patterns, mean, cov)
+        total, cross, singular = _expectations(sums, mean, cov)
         new_mean = total / n
         new_cov = cross / n - np.outer(new_mean, new_mean)
         new_cov = (new_cov + new_cov.T) / 2
@@ -152,31 +152,84 @@ def _centre_scale(x: FloatArray) -> tuple[FloatArray, FloatArray]:
     return centre, np.where(scale > 0, scale, 1.0)
 
 
+@dataclass(frozen=True)
+class _PatternSums:
+    """One gap pattern's sufficient statistics, computed once before EM starts."""
+
+    n: int
+    o: NDArray[np.intp]  # observed columns
+    m: NDArray[np.intp]  # missing columns
+    s: FloatArray  # sum over the pattern's rows of the observed values
+    ss: FloatArray  # sum of their cross-products, shape (len(o), len(o))
+    oo: tuple[NDArray[np.intp], ...]
+    om: tuple[NDArray[np.intp], ...]
+    mo: tuple[NDArray[np.intp], ...]
+    mm: tuple[NDArray[np.intp], ...]
+
+
+def _pattern_sums(z: FloatArray, patterns: Patterns) -> list[_PatternSums]:
+    out = []
+    for missing, rows in zip(patterns.missing, patterns.rows, strict=True):
+        o, m = np.flatnonzero(~missing), np.flatnonzero(missing)
+        block = z[np.ix_(rows, o)]
+        out.append(
+            _PatternSums(
+                n=int(rows.size),
+                o=o,
+                m=m,
+                s=block.sum(axis=0),
+                ss=block.T @ block,
+                oo=np.ix_(o, o),
+                om=np.ix_(o, m),
+                mo=np.ix_(m, o),
+                mm=np.ix_(m, m),
+            )
+        )
+    return out
+
+
 def _expectations(
-    z: FloatArray, patterns: Patterns, mean: FloatArray, cov: FloatArray
+    sums: list[_PatternSums], mean: FloatArray, cov: FloatArray
 ) -> tuple[FloatArray, FloatArray, bool]:
-    """E-step: sums of the completed rows and of their cross-products, one pattern at a time."""
-    p = z.shape[1]
+    """E-step: expected sums of the completed rows and of their cross-products.
+
+    A missing block is predicted by regression on the observed block,
+    ``x_m = c + B x_o`` with ``B = S_mo S_oo⁻¹`` and ``c = μ_m − B μ_o``, so each
+    pattern needs only its row count, its sums and its cross-products.
+    """
+    p = mean.size
     total = np.zeros(p)
     cross = np.zeros((p, p))
     singular = False
-    for missing, rows in zip(patterns.missing, patterns.rows, strict=True):
-        o, m = np.flatnonzero(~missing), np.flatnonzero(missing)
-        block = z[rows].copy()
-        if m.size:
-            inv_oo, flag = _inverse(cov[np.ix_(o, o)])
-            singular |= flag
-            coef = cov[np.ix_(m, o)] @ inv_oo  # regression of missing on observed columns
-            block[:, m] = mean[m] + (block[:, o] - mean[o]) @ coef.T
-            residual = cov[np.ix_(m, m)] - coef @ cov[np.ix_(o, m)]
-            cross[np.ix_(m, m)] += rows.size * residual
-        total += block.sum(axis=0)
-        cross += block.T @ block
+    for st in sums:
+        total[st.o] += st.s
+        cross[st.oo] += st.ss
+        if not st.m.size:
+            continue
+        inv_oo, flag = _inverse(cov[st.oo])
+        singular |= flag
+        coef = cov[st.mo] @ inv_oo
+        const = mean[st.m] - coef @ mean[st.o]
+        bs = coef @ st.s
+        total[st.m] += st.n * const + bs
+        om = np.outer(st.s, const) + st.ss @ coef.T
+        cross[st.om] += om
+        cross[st.mo] += om.T
+        residual = cov[st.mm] - coef @ cov[st.om]  # conditional covariance of the missing block
+        cross[st.mm] += (
+            st.n * np.outer(const, const)
+            + np.outer(const, bs)
+            + np.outer(bs, const)
+            + coef @ st.ss @ coef.T
+            + st.n * residual
+        )
     return total, cross, singular
 
 
 def _inverse(matrix: FloatArray) -> tuple[FloatArray, bool]:
     """Inverse of a symmetric matrix; the pseudo-inverse (flagged) when it is singular."""
+    if not matrix.size:
+        return matrix, False
     if _is_singular(matrix):
         return np.asarray(np.linalg.pinv(matrix, hermitian=True), dtype=np.float64), True
     return np.asarray(np.linalg.inv(matrix), dtype=np.float64), False

@@ -23,6 +23,7 @@ def _random_gaps(seed: int, n: int = 80, rate: float = 0.1) -> np.ndarray:
     return x
 
 
+@pytest.mark.slow
 def test_p_values_are_uniform_when_gaps_are_completely_at_random() -> None:
     # Under MCAR Little's d² is approximately chi-square (Little 1988), so p-values
     # spread uniformly: about 5 % fall below 0.05.
@@ -149,3 +150,4 @@ def test_a_large_p_value_says_what_it_does_not_prove() -> None:
     assert check.mcar.p_value > 0.05
     assert "does not prove" in check.mcar.meaning and "only compares means" in check.mcar.meaning
     assert check.mcar.n_rows_used == 100 - int(np.all(np.isnan(_random_gaps(5, n=100)), axis=1).sum())
+
