@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from pathlib import Path
 from types import SimpleNamespace
 
 import numpy as np
@@ -10,6 +11,7 @@ import pytest
 from scipy.stats import kstest
 
 from imputer_app.plan import FillPlan
+from imputer_app.sheets import read_sheet
 from imputer_app.validation import GapCheck, gap_check
 from imputer_app.validation._gaps import mcar_test
 
@@ -151,3 +153,13 @@ def test_a_large_p_value_says_what_it_does_not_prove() -> None:
     assert "does not prove" in check.mcar.meaning and "only compares means" in check.mcar.meaning
     assert check.mcar.n_rows_used == 100 - int(np.all(np.isnan(_random_gaps(5, n=100)), axis=1).sum())
 
+
+def test_the_demo_sheet_shows_its_nitrate_pattern(samples_dir: Path) -> None:
+    # sample_sheets/generate.py drops most nitrate results where conductivity is high.
+    sheet = read_sheet(samples_dir / "river_survey.xlsx")
+    check = gap_check(sheet)
+    assert check.mcar.p_value < 0.01
+    top = check.differences.iloc[0]
+    assert (top["gap_column"], top["other_column"]) == ("Nitrate", "Conductivity")
+    assert top["difference"] > 1.0
+    assert check.headline.startswith("Gaps in Nitrate come with high Conductivity")
