@@ -18,7 +18,7 @@ from scipy.stats import chi2
 
 from imputer_app import engine
 from imputer_app.plan import FillPlan
-from imputer_app.validation._em import EMEstimate, em_estimate, little_statistic
+from imputer_app.validation._em import EM_MAX_ITERATIONS, EMEstimate, em_estimate, little_statistic
 from imputer_app.validation._gap_tables import gap_differences, gap_patterns, headline
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
@@ -26,7 +26,7 @@ from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 SMALL_P = 0.05
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class MCARTest:
     """Little's test of missing completely at random (Little 1988).
 
@@ -74,7 +74,7 @@ class MCARTest:
     meaning: str
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class GapCheck:
     """Result of :func:`gap_check`.
 
@@ -124,7 +124,7 @@ def gap_check(
         plan uses (every number and category column that is not an identifier).
         Censored cells the plan substitutes count as values, not gaps.
     progress : callable(done, total) or None
-        Called during the EM iterations.
+        Called after each EM iteration and once at the end with ``done == total``.
     cancel : Event-like, callable or None
         When set, :class:`~imputer_app.errors.Cancelled` is raised promptly.
 
@@ -156,7 +156,7 @@ def gap_check(
     numbers = [c for c in checked if kinds[c] == "number"]
     mcar = mcar_test(values[numbers].to_numpy(dtype=float), tuple(numbers), progress=progress, cancel=cancel)
     differences = gap_differences(values, gaps, kinds)
-    report(progress, 1, 1)
+    report(progress, EM_MAX_ITERATIONS, EM_MAX_ITERATIONS)
     return GapCheck(
         mcar=mcar,
         differences=differences,

@@ -10,6 +10,7 @@ import pandas as pd
 import pytest
 from scipy.stats import kstest
 
+from imputer_app.errors import Cancelled
 from imputer_app.plan import FillPlan
 from imputer_app.sheets import read_sheet
 from imputer_app.validation import GapCheck, gap_check
@@ -163,3 +164,12 @@ def test_the_demo_sheet_shows_its_nitrate_pattern(samples_dir: Path) -> None:
     assert (top["gap_column"], top["other_column"]) == ("Nitrate", "Conductivity")
     assert top["difference"] > 1.0
     assert check.headline.startswith("Gaps in Nitrate come with high Conductivity")
+
+
+def test_gap_check_reports_progress_and_stops_when_cancelled() -> None:
+    seen: list[tuple[int, int]] = []
+    gap_check(_gaps_where_high(0), progress=lambda done, total: seen.append((done, total)))
+    assert len(seen) >= 2 and seen[-1][0] == seen[-1][1]
+    assert [d for d, _t in seen] == sorted(d for d, _t in seen)
+    with pytest.raises(Cancelled):
+        gap_check(_gaps_where_high(0), cancel=lambda: True)
