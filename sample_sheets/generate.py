@@ -12,6 +12,9 @@ Writes into ``DIR`` (default: this folder):
   separator, decimal comma, UTF-8, one header row);
 - ``river_survey_wide.xlsx``: a wide trace-element panel (150 specimens x 60 numbers).
 
+Most gaps are random, but nitrate values go missing more often where conductivity is
+high (:func:`add_pattern_gaps`), so the gap check has a pattern to find.
+
 Everything is invented: the river, the authority, the stations and every number. The
 same seed gives a byte-identical CSV and byte-identical workbooks (fixed document
 dates; xlsxwriter writes fixed ZIP timestamps).
@@ -66,6 +69,9 @@ GAP_RATES = {
     "Temperature": 0.03,
     "Turbidity": 0.09,
 }
+
+#: Chance that a sample in the top quarter of conductivity has no nitrate value.
+PATTERN_GAP_RATE = 0.8
 
 
 @dataclass
@@ -152,12 +158,27 @@ def place_gaps(rng: np.random.Generator, n: int) -> dict[str, np.ndarray]:
     return gaps
 
 
+def add_pattern_gaps(gaps: dict[str, np.ndarray], true: dict[str, np.ndarray], seed: int) -> None:
+    """Add nitrate gaps that come where conductivity is high, so the gap check finds a pattern.
+
+    The story: the saltiest samples were sent away to be diluted and some nitrate
+    results never came back. A quarter of the samples (the highest true conductivity)
+    lose their nitrate value with probability :data:`PATTERN_GAP_RATE`. The draws come
+    from their own generator, so every other cell of the sheet stays as it was.
+    """
+    rng = np.random.default_rng(seed + 2)
+    conductivity = true["Conductivity"]
+    high = conductivity > np.quantile(conductivity, 0.75)
+    gaps["Nitrate"] |= high & (rng.random(conductivity.size) < PATTERN_GAP_RATE)
+
+
 def build_survey(seed: int) -> Survey:
     """Simulate the campaign and write every cell as a lab sheet would show it."""
     rng = np.random.default_rng(seed)
     true = simulate_river(rng)
     n = true["round"].size
     gaps = place_gaps(rng, n)
+    add_pattern_gaps(gaps, true, seed)
     values: dict[str, np.ndarray] = {}
     text: dict[str, list[str]] = {}
     for name, _unit, decimals in MEASURES:

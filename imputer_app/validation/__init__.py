@@ -4,10 +4,14 @@ Users choose k from evidence: :func:`recovery_test` hides a share of the known c
 of each fill column, fills them with the same engine and plan for every k, and
 compares the errors with a plain column-mean fill. :func:`one_se_rule` picks the
 largest k within one standard error of the best (ESL 2nd ed., sec. 7.10).
+
+Gap check: :func:`gap_check` runs Little's test of missing completely at random and
+tabulates how rows with gaps differ from the others and which gap patterns occur.
 """
 
+from imputer_app.validation._gaps import GapCheck, MCARTest, gap_check
 from imputer_app.validation._recovery import recovery_test
 from imputer_app.validation._report import RecoveryReport
 from imputer_app.validation._scoring import one_se_rule
 
-__all__ = ["RecoveryReport", "one_se_rule", "recovery_test"]
+__all__ = ["GapCheck", "MCARTest", "RecoveryReport", "gap_check", "one_se_rule", "recovery_test"]
