@@ -62,7 +62,10 @@ CHECKED = {
         "CELL_STATES", "ColumnInfo", "RecoveryEvidence", "Sheet", "SourceInfo", "export_side_files",
         "list_sheets", "read_export_plan", "read_sheet", "same_file", "write_result",
     },
-    "imputer_app.charts": {"ErrorVsK", "plot_error_vs_k", "save_figure"},
+    "imputer_app.charts": {
+        "ErrorVsK", "ScatterPicture", "fill_distributions", "plot_coverage", "plot_error_vs_k",
+        "plot_fill_distribution", "plot_fill_scatter", "save_figure",
+    },
     "imputer_app.cli": {
         "EXIT_FAULT", "EXIT_OK", "EXIT_STOPPED", "EXIT_USAGE", "UsageError", "build_parser", "main",
     },
@@ -148,6 +151,31 @@ def test_recovery_report_draws_and_saves_as_a_chart(tmp_path):
     assert len(figure.axes) == 1 and figure.axes[0].lines
     saved = save_figure(figure, tmp_path / "k.png")
     assert saved.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_fill_pictures_draw_a_small_fill():
+    import numpy as np
+    import pandas as pd
+
+    from imputer_app.charts import (
+        ScatterPicture,
+        fill_distributions,
+        plot_coverage,
+        plot_fill_distribution,
+        plot_fill_scatter,
+    )
+    from imputer_app.engine import impute
+    from imputer_app.plan import FillPlan
+
+    frame = pd.DataFrame({"a": [1.0, 2.0, 3.0, 4.0, np.nan], "b": [10.0, np.nan, 30.0, 40.0, 50.0]})
+    result = impute(frame, FillPlan(k=2))
+    assert set(fill_distributions(result)) == {"a", "b"}
+    assert plot_fill_distribution(result, "a").axes
+    picture = plot_fill_scatter(result, "a", "b")
+    assert isinstance(picture, ScatterPicture)
+    assert sorted(picture.filled_rows) == [1, 4]  # the two rows with a filled coordinate
+    coverage = plot_coverage(pd.DataFrame({"level": [0.8, 0.9], "observed": [0.79, 0.91]}))
+    assert coverage.axes[0].lines  # at least the diagonal
 
 
 def test_command_line_names(capsys):
