@@ -338,9 +338,9 @@ def test_cancel_is_checked_inside_prepare_and_while_building_the_result(
 
     frame = random_frame(200, 3, 0.1, seed=2)
     steps: list[str] = []
-    search, log_table = engine._adapter.search_cells, Records.log_table
+    search, log_table = engine._impute.search_cells, Records.log_table
     monkeypatch.setattr(
-        engine._adapter, "search_cells", lambda *a, **k: steps.append("search") or search(*a, **k)
+        engine._impute, "search_cells", lambda *a, **k: steps.append("search") or search(*a, **k)
     )
     monkeypatch.setattr(Records, "log_table", lambda *a, **k: steps.append("log") or log_table(*a, **k))
     checks: list[int] = []
