@@ -161,7 +161,7 @@ def _unknown_limit_cells(table: PreparedTable, stack: Stack, n: int) -> NDArray[
     return unknown
 
 
-def _cap_note(limit: float, value: Any, word: str, side: str, unknown: bool) -> str:
+def _cap_note(limit: float, value: object, word: str, side: str, unknown: bool) -> str:
     """Say how a censored cell's kNN value relates to the limit that capped it."""
     if unknown:
         where = f"kept at or {word} the {side} measured value of the column ({limit:g})"

@@ -30,7 +30,7 @@ KNN, KNN_CAPPED, COLUMN_MEAN = 0, 1, 2
 FILLS = np.array([m in ("knn", "knn_capped", "column_mean") for m in METHODS])
 
 
-def objects(values: Any) -> NDArray[np.object_]:
+def objects(values: NDArray[Any] | Sequence[Any]) -> NDArray[np.object_]:
     """A 1-D object array of ``values`` (tuples stay tuples)."""
     if isinstance(values, np.ndarray):
         return values.astype(object)
@@ -88,7 +88,12 @@ class LogPiece:
 
     @classmethod
     def without_donors(
-        cls, pos: IntArray, column: int, value: Any, method: Any, notes: Sequence[str]
+        cls,
+        pos: IntArray,
+        column: int,
+        value: NDArray[Any] | Sequence[Any],
+        method: NDArray[Any],
+        notes: Sequence[str],
     ) -> LogPiece:
         """Values written without donors (column means, censored substitutions)."""
         n = len(pos)
@@ -152,7 +157,12 @@ class Records:
             self.pieces.append(piece)
 
     def add_without_donors(
-        self, rows: IntArray, column: str, value: Any, method: Any, notes: Sequence[str]
+        self,
+        rows: IntArray,
+        column: str,
+        value: NDArray[Any] | Sequence[Any],
+        method: NDArray[Any],
+        notes: Sequence[str],
     ) -> None:
         """Append log rows for values written without donors (column means, censored substitutions)."""
         self.add_log(LogPiece.without_donors(rows, self.position(column), value, method, notes))
