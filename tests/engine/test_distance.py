@@ -10,7 +10,7 @@ import pytest
 from sklearn.metrics.pairwise import nan_euclidean_distances
 
 from imputer_app.engine import nearest_donors, prepare
-from imputer_app.engine._distance import pairwise_distances
+from imputer_app.engine._pairwise import pairwise_distances
 from imputer_app.plan import FillPlan
 from tests.engine.helpers import random_frame
 
