@@ -58,6 +58,7 @@ def default_roles(data: pd.DataFrame | SheetLike) -> dict[str, str]:
 
 
 def _numbers(frame: pd.DataFrame, col: str) -> NDArray[np.float64]:
+    """Column ``col`` as floats; a PlanError when it holds text that is not a number."""
     series = frame[col]
     if pd.api.types.is_bool_dtype(series.dtype):
         return np.asarray(series.astype(float).to_numpy(), dtype=np.float64)
@@ -69,6 +70,7 @@ def _numbers(frame: pd.DataFrame, col: str) -> NDArray[np.float64]:
 
 
 def _codes(series: pd.Series) -> tuple[NDArray[np.intp], NDArray[np.generic]]:
+    """Class codes (-1 for an empty cell) and the class labels, sorted when they can be."""
     values = series.astype(object).where(series.notna(), None)
     try:
         codes, labels = pd.factorize(values, sort=True, use_na_sentinel=True)
@@ -80,6 +82,7 @@ def _codes(series: pd.Series) -> tuple[NDArray[np.intp], NDArray[np.generic]]:
 def _read_columns(
     inp: Input, used: list[str], kinds: Mapping[str, str], censored: str, hide: NDArray[np.bool_] | None
 ) -> Columns:
+    """The ``used`` columns as arrays: censored entries substituted, hidden cells made gaps."""
     out = Columns({}, {}, {}, {})
     position = {name: j for j, name in enumerate(inp.names)}
     used = list(dict.fromkeys(used))
@@ -119,6 +122,7 @@ def _number_block(frame: pd.DataFrame, columns: list[str]) -> NDArray[np.float64
 def _groups(
     inp: Input, plan: FillPlan, hide: NDArray[np.bool_] | None
 ) -> tuple[NDArray[np.intp] | None, NDArray[np.generic]]:
+    """Group codes (-1 where the group is empty or hidden) and labels; None without a group column."""
     if plan.group_column is None:
         return None, np.empty(0, dtype=object)
     codes, labels = _codes(inp.frame[plan.group_column])
@@ -163,6 +167,10 @@ def prepare_input(
     scale: bool = True,
     cancel: CancelFlag | None = None,
 ) -> tuple[PreparedTable, dict[str, Censored]]:
+    """:func:`prepare` on checked input; also returns each number column's censored cells.
+
+    ``scale=False`` skips scaling (roles only); ``cancel`` is checked between the steps.
+    """
     n = len(inp.frame)
     if hide is not None:
         hide = np.asarray(hide, dtype=bool)
