@@ -1,12 +1,16 @@
 """Fill gaps by k-nearest-neighbour imputation.
 
-The numeric core (distances, neighbour search, combining donors) is numpy only;
-:mod:`imputer_app.engine._adapter` is the one module that reads DataFrames and sheets
-and builds the :class:`FillResult`.
+The numeric core (distances, neighbour search, combining donors, fill decisions,
+the fill log) is numpy only; reading a DataFrame or a :class:`SheetLike` sheet
+(``_input``, ``_roles``, ``_prepare``) and building the :class:`FillResult`
+(``_result``) are the engine's only pandas modules.
 """
 
-from imputer_app.engine._adapter import FillResult, default_roles, impute, prepare
 from imputer_app.engine._combine import combine
+from imputer_app.engine._impute import impute
+from imputer_app.engine._input import SheetLike
+from imputer_app.engine._prepare import default_roles, prepare
+from imputer_app.engine._result import FillResult
 from imputer_app.engine._search import ColumnDonors, nearest_donors
 from imputer_app.engine._table import PreparedTable
 
@@ -14,6 +18,7 @@ __all__ = [
     "ColumnDonors",
     "FillResult",
     "PreparedTable",
+    "SheetLike",
     "combine",
     "default_roles",
     "impute",

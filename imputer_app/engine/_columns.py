@@ -8,8 +8,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import NDArray
 
+from imputer_app.engine._censored import Censored
 from imputer_app.engine._distance import Features
-from imputer_app.engine._log import Censored
 from imputer_app.engine._scaling import apply_scale, fit_scale
 from imputer_app.plan import FillPlan
 

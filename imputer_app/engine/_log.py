@@ -3,13 +3,12 @@
 Every value written (kNN fills of all fill columns at once, column means, censored
 substitutions) is kept as a :class:`LogPiece` of arrays. :meth:`Records.log_table`
 sorts all pieces by row and column once and turns the donor arrays into tuples in a
-few passes, so the adapter only wraps finished columns in DataFrames.
+few passes, so that building the result only wraps finished columns in DataFrames.
 """
 
 from __future__ import annotations
 
 import gc
-import math
 from collections.abc import Iterable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass, field
@@ -19,56 +18,10 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from imputer_app.engine._combine import Finish, number_values, spread, stack_values, vote_with_share
-from imputer_app.engine._search import ColumnDonors
-from imputer_app.engine._stack import Stack
-from imputer_app.engine._support import SUPPORT_WORDS, support_levels
-from imputer_app.engine._table import PreparedTable
+from imputer_app.engine._support import SUPPORT_WORDS
 
 IntArray = NDArray[np.intp]
 FloatArray = NDArray[np.float64]
-
-#: Factor applied to a below-limit entry's limit, per censored mode (Hornung & Reed 1990).
-CENSORED_FACTORS = {"limit": 1.0, "half_limit": 0.5, "limit_sqrt2": 1.0 / math.sqrt(2.0)}
-CENSORED_WORDS = {"limit": "the limit", "half_limit": "limit/2", "limit_sqrt2": "limit/sqrt(2)"}
-
-
-@dataclass(frozen=True)
-class Censored:
-    """Censored cells of one column.
-
-    Attributes
-    ----------
-    mask : ndarray of bool, shape (n_rows,)
-    side : ndarray of str, shape (n_rows,)
-        ``"<"`` (below a limit), ``">"`` (above a range) or ``""`` (unknown).
-    limit : ndarray of float, shape (n_rows,)
-        NaN when unknown.
-    text : ndarray of object, shape (n_rows,)
-        The entry as written ("<0.05").
-    """
-
-    mask: NDArray[np.bool_]
-    side: NDArray[np.str_]
-    limit: NDArray[np.float64]
-    text: NDArray[np.object_]
-
-    def substitute(self, mode: str) -> NDArray[np.float64]:
-        """Value each censored cell stands for under ``mode``; NaN where it is filled instead.
-
-        A below-limit entry stands for limit x factor (:data:`CENSORED_FACTORS`), an
-        above-range entry for its limit; with ``fill_capped`` or an unknown limit the
-        cell is filled by kNN.
-        """
-        out = np.full(len(self.mask), np.nan)
-        if mode == "fill_capped":
-            return out
-        known = self.mask & np.isfinite(self.limit)
-        below, above = known & (self.side != ">"), known & (self.side == ">")
-        out[below] = self.limit[below] * CENSORED_FACTORS[mode]
-        out[above] = self.limit[above]
-        return out
-
 
 #: Methods of the fill log (``LogPiece.method`` holds positions in this tuple).
 METHODS = ("knn", "knn_capped", "column_mean", "limit", "half_limit", "limit_sqrt2")
@@ -77,7 +30,7 @@ KNN, KNN_CAPPED, COLUMN_MEAN = 0, 1, 2
 FILLS = np.array([m in ("knn", "knn_capped", "column_mean") for m in METHODS])
 
 
-def objects(values: Any) -> NDArray[np.object_]:
+def objects(values: NDArray[Any] | Sequence[Any]) -> NDArray[np.object_]:
     """A 1-D object array of ``values`` (tuples stay tuples)."""
     if isinstance(values, np.ndarray):
         return values.astype(object)
@@ -135,7 +88,12 @@ class LogPiece:
 
     @classmethod
     def without_donors(
-        cls, pos: IntArray, column: int, value: Any, method: Any, notes: Sequence[str]
+        cls,
+        pos: IntArray,
+        column: int,
+        value: NDArray[Any] | Sequence[Any],
+        method: NDArray[Any],
+        notes: Sequence[str],
     ) -> LogPiece:
         """Values written without donors (column means, censored substitutions)."""
         n = len(pos)
@@ -197,6 +155,17 @@ class Records:
         """Append log rows."""
         if len(piece.pos):
             self.pieces.append(piece)
+
+    def add_without_donors(
+        self,
+        rows: IntArray,
+        column: str,
+        value: NDArray[Any] | Sequence[Any],
+        method: NDArray[Any],
+        notes: Sequence[str],
+    ) -> None:
+        """Append log rows for values written without donors (column means, censored substitutions)."""
+        self.add_log(LogPiece.without_donors(rows, self.position(column), value, method, notes))
 
     def add_empty(self, pos: NDArray[np.intp], column: str, reasons: list[str]) -> None:
         """Append cells left empty with their reasons."""
@@ -326,187 +295,3 @@ def tuples(
     if same is not None and same.any():
         out = out[np.maximum.accumulate(np.where(build, np.arange(m), 0))]
     return out
-
-
-def no_donor_reasons(table: PreparedTable, col: str, rows: NDArray[np.intp]) -> list[str]:
-    """Plain-words reason why each of ``rows`` has no donor in ``col``."""
-    ok = table.observed[col].copy()
-    groups = table.groups
-    if groups is not None:
-        ok &= groups >= 0
-    present = table.features.present()
-    by_group = np.bincount(groups[ok], minlength=len(table.group_labels)) if groups is not None else None
-    out = []
-    for r in rows.tolist():
-        if not ok.any():
-            out.append(f"column {col!r} has no value to copy from")
-        elif table.features.total_weight <= 0:
-            out.append("no similarity column can compare rows (all are constant, empty or weighted 0)")
-        elif groups is not None and groups[r] < 0:
-            out.append(f"group column {table.plan.group_column!r} is empty in this row")
-        elif by_group is not None and groups is not None and by_group[groups[r]] == 0:
-            out.append(f"no row of group {table.group_labels[groups[r]]!r} has a value in {col!r}")
-        elif not present[r]:
-            out.append("every similarity column is empty in this row")
-        else:
-            out.append(f"no row with a value in {col!r} shares a similarity column with this row")
-    return out
-
-
-def fill_records(table: PreparedTable, stack: Stack, threshold: float, out: Records) -> None:
-    """Work out the kNN value of every target cell and add its log row (or empty cell) to ``out``.
-
-    Parameters
-    ----------
-    table : PreparedTable
-        The prepared table the donors were searched in.
-    stack : Stack
-        Every target cell of the fill columns with its donors (kmax = the plan's k).
-    threshold : float
-        Weak-support distance.
-    out : Records
-        Receives the rows: all numeric fill columns as one piece, then each category column.
-    """
-    k = table.plan.k
-    numbers = [c for c in stack.columns if table.kinds[c] == "number"]
-    if numbers:
-        part = stack.select(numbers)
-        shown = stack_values(table, part)
-        written = number_values(table, part, [k], v=shown)[k]
-        _knn_records(table, part, written, shown, spread(shown, part.donors, k), threshold, out)
-    for col in (c for c in stack.columns if table.kinds[c] != "number"):
-        part = stack.select([col])
-        # the extra last entry: code -1 -> None
-        labels = np.empty(len(table.categories[col]) + 1, dtype=object)
-        labels[:-1] = table.categories[col]
-        codes = np.asarray(table.values[col], dtype=np.intp)
-        shown = labels[part.gather([codes], fill=-1).astype(np.intp)]
-        win, share = vote_with_share(codes, part.donors, [k])[k]
-        _knn_records(table, part, labels[win], shown, share, threshold, out)
-
-
-def _knn_records(
-    table: PreparedTable,
-    stack: Stack,
-    written: NDArray[Any],
-    shown: NDArray[Any],
-    spreads: FloatArray,
-    threshold: float,
-    out: Records,
-) -> None:
-    found = stack.donors
-    k = table.plan.k
-    used = np.minimum(k, found.count)
-    has = used > 0
-    capped = Finish.of(table, stack) if table.cap_upper or table.cap_lower else None
-    method = np.full(len(used), KNN, dtype=np.intp)
-    if capped is not None:
-        method[np.isfinite(capped.cap_lower) | np.isfinite(capped.cap_upper)] = KNN_CAPPED
-    columns = np.array([out.position(c) for c in stack.columns], dtype=np.intp)
-    width = min(k, found.index.shape[1])
-    at: slice | IntArray = slice(None) if has.all() else np.flatnonzero(has)  # views when all have donors
-    piece = LogPiece(
-        pos=found.rows[at], column=columns[stack.col[at]], value=written[at], method=method[at],
-        k=used[at], donors=found.index[at, :width], distances=found.distance[at, :width],
-        donor_values=shown[at, :width], spread=spreads[at], support=support_levels(found, threshold)[at],
-        note=_notes(table, stack, used, capped, written)[at],
-    )  # fmt: skip
-    out.add_log(piece)
-    none = np.flatnonzero(~has)
-    for j in np.flatnonzero(np.bincount(stack.col[none])).tolist():
-        _no_donor(table, stack.columns[j], found.rows[none[stack.col[none] == j]], out)
-
-
-def _notes(
-    table: PreparedTable, stack: Stack, used: NDArray[np.intp], capped: Finish | None, written: NDArray[Any]
-) -> NDArray[np.object_]:
-    k = table.plan.k
-    parts: dict[int, list[str]] = {}
-    for i in np.flatnonzero((used < k) & (used > 0)).tolist():
-        parts.setdefault(i, []).append(f"only {used[i]} donor{'s' if used[i] != 1 else ''} (k={k})")
-    unknown = _unknown_limit_cells(table, stack, len(used))
-    noted = np.zeros(len(used), dtype=bool)
-    if capped is not None:
-        sides = ((capped.cap_upper, "below", "lowest"), (capped.cap_lower, "above", "highest"))
-        for limits, word, side in sides:
-            for i in np.flatnonzero(np.isfinite(limits)).tolist():
-                note = _cap_note(float(limits[i]), written[i], word, side, bool(unknown[i]))
-                parts.setdefault(i, []).append(note)
-                noted[i] = True
-    for i in np.flatnonzero(unknown & ~noted).tolist():  # no measured value to cap with
-        parts.setdefault(i, []).append("censored entry with no limit written; filled by kNN")
-    notes = repeated("", len(used))
-    for i, words in parts.items():
-        notes[i] = "; ".join(words)
-    return notes
-
-
-def _unknown_limit_cells(table: PreparedTable, stack: Stack, n: int) -> NDArray[np.bool_]:
-    """True for the stacked cells that are censored entries with no limit written."""
-    unknown = np.zeros(n, dtype=bool)
-    for j, col in enumerate(stack.columns):
-        mask = table.unknown_limit.get(col)
-        if mask is not None and mask.any():
-            start, stop = int(stack.offsets[j]), int(stack.offsets[j + 1])
-            unknown[start:stop] = mask[stack.donors.rows[start:stop]]
-    return unknown
-
-
-def _cap_note(limit: float, value: Any, word: str, side: str, unknown: bool) -> str:
-    """Say how a censored cell's kNN value relates to the limit that capped it."""
-    if unknown:
-        where = f"kept at or {word} the {side} measured value of the column ({limit:g})"
-        return f"censored entry with no limit written; filled by kNN, {where}"
-    if isinstance(value, float) and value == limit:
-        return f"censored entry {word} {limit:g}; the kNN value lay beyond it, so the limit was used"
-    return f"censored entry {word} {limit:g}; kNN value kept on that side of the limit"
-
-
-def _no_donor(table: PreparedTable, col: str, rows: NDArray[np.intp], out: Records) -> None:
-    reasons = no_donor_reasons(table, col, rows)
-    if table.plan.no_donor != "column_mean":
-        out.add_empty(rows, col, reasons)
-        return
-    raw = np.asarray(table.values[col])
-    ok = table.observed[col]
-    if not ok.any():
-        out.add_empty(rows, col, reasons)
-        return
-    if table.kinds[col] == "number":
-        mean = float(np.mean(raw[ok].astype(np.float64)))
-        cells = ColumnDonors(
-            rows, np.full((len(rows), 0), -1), np.full((len(rows), 0), np.inf), np.zeros(len(rows), int)
-        )
-        finish = Finish.of(table, Stack.of({col: cells}, [col]))
-        value: list[Any] = finish.apply(np.full(len(rows), mean)).tolist()
-        how = "filled with the column mean"
-    else:
-        counts = np.bincount(raw[ok].astype(np.intp))
-        value = [table.categories[col][int(np.argmax(counts))]] * len(rows)
-        how = "filled with the most common class"
-    _without_donors(
-        out, rows, col, value, np.full(len(rows), COLUMN_MEAN), [f"no donor: {r}; {how}" for r in reasons]
-    )
-
-
-def _without_donors(
-    out: Records, rows: NDArray[np.intp], col: str, value: Any, method: Any, notes: list[str]
-) -> None:
-    """Log rows for values written without donors (column means, censored substitutions)."""
-    out.add_log(LogPiece.without_donors(rows, out.position(col), value, method, notes))
-
-
-def substitution_records(col: str, cen: Censored, mode: str, out: Records) -> None:
-    """Log every censored cell of ``col`` replaced by a number under ``mode``."""
-    value = cen.substitute(mode)
-    rows = np.flatnonzero(cen.mask & np.isfinite(value))
-    if not len(rows):
-        return
-    above = cen.side[rows] == ">"
-    method = np.where(above, METHODS.index("limit"), METHODS.index(mode))
-    notes = [
-        f"above-range entry {t!r} stands for its limit" if a
-        else f"below-limit entry {t!r} stands for {CENSORED_WORDS[mode]} (Hornung & Reed 1990)"
-        for t, a in zip(cen.text[rows].tolist(), above.tolist(), strict=True)
-    ]  # fmt: skip
-    _without_donors(out, rows, col, value[rows].tolist(), method, notes)

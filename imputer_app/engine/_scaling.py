@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-SCALINGS = ("zscore", "range", "robust", "none")
+from imputer_app.plan import CHOICES
 
 
 @dataclass(frozen=True)
@@ -90,7 +90,7 @@ def fit_scale(x: NDArray[np.float64], method: str) -> Scale:
         if fallback.any():
             spread[fallback] = _nan_stat("nanstd", x[:, fallback])
     else:
-        raise ValueError(f"scaling must be one of {', '.join(SCALINGS)}; got {method!r}")
+        raise ValueError(f"scaling must be one of {', '.join(CHOICES['scaling'])}; got {method!r}")
     center = np.where(constant, 0.0, center)
     spread = np.where(constant, 0.0, spread)
     return Scale(center=center, spread=spread, constant=constant, fallback=fallback)

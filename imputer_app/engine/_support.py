@@ -3,6 +3,7 @@
 The threshold is the 95th percentile of the nearest-donor distances of every target
 cell in the sheet (all fill columns pooled). A cell whose nearest donor is farther
 than that is flagged ``weak``: its value rests on rows that are not much like it.
+The 95th percentile is Kinfill's own convention, no outside source.
 """
 
 from __future__ import annotations

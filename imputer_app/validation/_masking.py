@@ -51,9 +51,7 @@ class CellLayout:
         return int(rows), int(cols)
 
 
-def hide_cells(
-    layout: CellLayout, fraction: float, masking: str, rng: np.random.Generator
-) -> np.ndarray:
+def hide_cells(layout: CellLayout, fraction: float, masking: str, rng: np.random.Generator) -> np.ndarray:
     """Return one repeat's mask of cells to hide.
 
     Parameters

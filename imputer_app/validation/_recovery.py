@@ -11,12 +11,12 @@ from __future__ import annotations
 import numbers
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from imputer_app import engine
+from imputer_app.engine import PreparedTable, SheetLike
 from imputer_app.errors import KinfillError
 from imputer_app.plan import FillPlan
 from imputer_app.validation._masking import MASKINGS, CellLayout, hide_cells
@@ -36,7 +36,7 @@ _SEARCH_STEPS = 90
 
 
 def recovery_test(
-    frame: Any,
+    frame: pd.DataFrame | SheetLike,
     plan: FillPlan,
     ks: Iterable[int] | None = None,
     hide_fraction: float = 0.1,
@@ -50,9 +50,9 @@ def recovery_test(
 
     Parameters
     ----------
-    frame : DataFrame or Sheet-like
-        The sheet (``DataFrame`` of shape (n_rows, n_columns), or an object with
-        ``frame``, ``states`` and ``cell_notes``). Never modified. NaN cells are gaps;
+    frame : DataFrame or SheetLike
+        The sheet (``DataFrame`` of shape (n_rows, n_columns), or a read sheet,
+        :class:`imputer_app.engine.SheetLike`). Never modified. NaN cells are gaps;
         censored cells (from a Sheet's ``states``) are never hidden.
     plan : FillPlan
         The fill plan to test; its ``k`` is ignored. When it names no fill columns and
@@ -182,13 +182,13 @@ class RecoveryBase:
         values, the NRMSE scale (number columns only).
     """
 
-    table: Any
+    table: PreparedTable
     layout: CellLayout
     truth: dict[str, np.ndarray]
     spread: dict[str, float]
 
 
-def prepare_base(data: Any, plan: FillPlan) -> RecoveryBase:
+def prepare_base(data: pd.DataFrame | SheetLike, plan: FillPlan) -> RecoveryBase:
     """Prepare ``data`` once with nothing hidden and collect its known values."""
     table = _base_table(data, plan)
     layout = cell_layout(data, table)
@@ -214,7 +214,7 @@ def draw_masks(
     return [hide_cells(layout, hide_fraction, masking, rng) for _ in range(repeats)]
 
 
-def _base_table(data: Any, plan: FillPlan) -> Any:
+def _base_table(data: pd.DataFrame | SheetLike, plan: FillPlan) -> PreparedTable:
     """Prepare the sheet once without hiding, with the fill columns to test fixed.
 
     With no fill columns named and no gaps in the sheet there is nothing the plan
@@ -228,15 +228,14 @@ def _base_table(data: Any, plan: FillPlan) -> Any:
     return table
 
 
-def cell_layout(data: Any, table: Any) -> CellLayout:
+def cell_layout(data: pd.DataFrame | SheetLike, table: PreparedTable) -> CellLayout:
     """Which cells of ``data`` may be hidden, which are real gaps, and column roles.
 
     A cell may be hidden when it holds a value, its state (for a Sheet) is
     ``observed`` and, in a fill column, the engine would use it as a donor value.
     """
-    frame: pd.DataFrame = getattr(data, "frame", data)
+    frame, states = (data, None) if isinstance(data, pd.DataFrame) else (data.frame, data.states)
     present = frame.notna().to_numpy()
-    states = getattr(data, "states", None)
     if states is None:
         hideable, gaps = present.copy(), ~present
     else:
@@ -251,7 +250,7 @@ def cell_layout(data: Any, table: Any) -> CellLayout:
     return CellLayout(hideable=hideable, gaps=gaps, fill_idx=fill_idx, sim_idx=np.array(sim, dtype=np.intp))
 
 
-def _known_values(table: Any, column: str) -> np.ndarray:
+def _known_values(table: PreparedTable, column: str) -> np.ndarray:
     """A fill column's values before hiding: floats, or class labels (None = gap)."""
     values = np.asarray(table.values[column])
     if table.kinds[column] != "category":
@@ -259,7 +258,7 @@ def _known_values(table: Any, column: str) -> np.ndarray:
     return _labels(table.categories[column], values)
 
 
-def _labels(categories: Any, codes: np.ndarray) -> np.ndarray:
+def _labels(categories: np.ndarray, codes: np.ndarray) -> np.ndarray:
     """Class labels of integer ``codes`` (object array; None where the code is -1)."""
     classes = np.asarray(categories, dtype=object)
     codes = np.asarray(codes, dtype=np.intp)
@@ -302,7 +301,7 @@ def _scaled(progress: Progress | None, start: int, span: int, total: int) -> Pro
 
 # ---------------------------------------------------------------- one repeat
 def fill_hidden(
-    data: Any,
+    data: pd.DataFrame | SheetLike,
     base: RecoveryBase,
     mask: np.ndarray,
     ks: Sequence[int],
@@ -313,7 +312,7 @@ def fill_hidden(
 
     Parameters
     ----------
-    data : DataFrame or Sheet-like
+    data : DataFrame or SheetLike
         The sheet, unchanged.
     base : RecoveryBase
         The sheet prepared without hiding, with its known values.
@@ -344,13 +343,13 @@ def fill_hidden(
 
 
 def _outcome(
-    hidden: Any, base: RecoveryBase, column: str, rows: np.ndarray, per_k: list[np.ndarray]
+    hidden: PreparedTable, base: RecoveryBase, column: str, rows: np.ndarray, per_k: list[np.ndarray]
 ) -> ColumnOutcome:
     """Truth, every k's values and the baseline for one column's hidden cells."""
     rows = np.asarray(rows, dtype=np.intp)
     visible = np.asarray(hidden.observed[column], dtype=bool)
     values = np.asarray(hidden.values[column])
-    fallback: Any
+    fallback: object  # a class label or a float
     if hidden.kinds[column] == "category":
         classes = hidden.categories[column]
         filled = np.stack([_labels(classes, codes) for codes in per_k])

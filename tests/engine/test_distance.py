@@ -10,7 +10,7 @@ import pytest
 from sklearn.metrics.pairwise import nan_euclidean_distances
 
 from imputer_app.engine import nearest_donors, prepare
-from imputer_app.engine._distance import pairwise_distances
+from imputer_app.engine._pairwise import pairwise_distances
 from imputer_app.plan import FillPlan
 from tests.engine.helpers import random_frame
 
@@ -92,7 +92,8 @@ def test_doubling_a_weight_equals_scaling_that_column_by_sqrt2(column: int) -> N
 
 def test_gower_1971_mixed_numbers_and_categories_by_hand() -> None:
     # Gower 1971, Biometrics 27(4):857-871: a number scaled by its range, a category
-    # contributes 0 when equal and 1 when different. Combined by our DESIGN.md formula
+    # contributes 0 when equal and 1 when different. Combined as Dixon 1979 scales a
+    # distance over shared columns (README.md, "How the numbers are made"):
     # d^2 = (W_all / W_shared) * sum w_j delta_j^2.
     frame = pd.DataFrame(
         {"a": [0.0, 10.0, 5.0, np.nan], "c": ["x", "y", "x", "y"], "t": [1.0, np.nan, np.nan, 2.0]}
@@ -114,7 +115,8 @@ def test_gower_1971_mixed_numbers_and_categories_by_hand() -> None:
 
 
 def test_category_weight_counts_in_both_sums() -> None:
-    # DESIGN.md "Numbers that matter": a category contributes w_j x [x_j != y_j] and w_j to the sums.
+    # Kinfill's weighted form of Gower's matching rule (README.md, "How the numbers are made"):
+    # a category contributes w_j x [x_j != y_j] to the distance sum and w_j to the shared weight.
     codes = np.array([[0], [1], [0]])
     numbers = np.array([[0.0], [np.nan], [3.0]])
     d = pairwise_distances(numbers, np.array([1.0]), codes=codes, code_weights=np.array([4.0]))

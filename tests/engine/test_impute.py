@@ -108,6 +108,8 @@ def test_fewer_donors_than_k_are_all_used_and_noted() -> None:
 
 
 def test_weak_support_uses_the_95th_percentile() -> None:
+    # Kinfill's own convention, no outside source: support is weak when the nearest donor
+    # is farther than the 95th percentile of every filled cell's nearest-donor distance.
     frame = random_frame(200, 3, 0.1, seed=5)
     result = impute(frame, FillPlan(k=3))
     nearest = np.array([d[0] for d in result.log["distances"]])
@@ -338,9 +340,9 @@ def test_cancel_is_checked_inside_prepare_and_while_building_the_result(
 
     frame = random_frame(200, 3, 0.1, seed=2)
     steps: list[str] = []
-    search, log_table = engine._adapter.search_cells, Records.log_table
+    search, log_table = engine._impute.search_cells, Records.log_table
     monkeypatch.setattr(
-        engine._adapter, "search_cells", lambda *a, **k: steps.append("search") or search(*a, **k)
+        engine._impute, "search_cells", lambda *a, **k: steps.append("search") or search(*a, **k)
     )
     monkeypatch.setattr(Records, "log_table", lambda *a, **k: steps.append("log") or log_table(*a, **k))
     checks: list[int] = []
@@ -358,7 +360,7 @@ def test_cancel_is_checked_inside_prepare_and_while_building_the_result(
 
 
 def test_same_input_same_result() -> None:
-    # Reproducible fills (DESIGN.md: "redo the same fill next month ... and get the same answer").
+    # Reproducible fills (README.md: "The same fill can be redone ... with the same answer").
     frame = random_frame(150, 5, 0.2, seed=12).round(1)
     first, second = impute(frame, FillPlan(k=4)), impute(frame, FillPlan(k=4))
     pd.testing.assert_frame_equal(first.frame, second.frame)

@@ -8,10 +8,32 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from imputer_app.engine import default_roles, impute, nearest_donors, prepare
+from imputer_app.engine import SheetLike, default_roles, impute, nearest_donors, prepare
 from imputer_app.engine._scaling import apply_scale, fit_scale
+from imputer_app.errors import PlanError
 from imputer_app.plan import FillPlan
 from tests.engine.helpers import fake_sheet, random_frame
+
+
+def test_a_read_sheet_is_sheet_like() -> None:
+    from imputer_app.sheets import read_sheet
+
+    sheet = read_sheet("sample_sheets/river_survey.xlsx")
+    assert isinstance(sheet, SheetLike)
+    assert isinstance(fake_sheet(pd.DataFrame({"a": [1.0, np.nan]}), []), SheetLike)
+
+
+@pytest.mark.parametrize(
+    ("data", "named"),
+    [
+        (SimpleNamespace(frame=pd.DataFrame({"a": [1.0]})), "SimpleNamespace"),  # no states, no notes
+        ([[1.0, 2.0]], "list"),
+        (SimpleNamespace(frame=[[1.0]], states=None, cell_notes=None), "frame is not a table"),
+    ],
+)
+def test_what_is_not_a_table_nor_sheet_like_is_refused(data: object, named: str) -> None:
+    with pytest.raises(PlanError, match=named):
+        prepare(data, FillPlan())  # type: ignore[arg-type]
 
 
 def test_sheet_column_kinds_decide_roles() -> None:

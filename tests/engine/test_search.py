@@ -7,8 +7,9 @@ import pandas as pd
 import pytest
 
 from imputer_app.engine import _nearest, nearest_donors, prepare
-from imputer_app.engine._distance import DistanceModel, Features, pairwise_distances
+from imputer_app.engine._distance import DistanceModel, Features
 from imputer_app.engine._nearest import top_l
+from imputer_app.engine._pairwise import pairwise_distances
 from imputer_app.engine._search import first_donors
 from imputer_app.plan import FillPlan
 from tests.engine.helpers import random_frame

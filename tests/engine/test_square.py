@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import threading
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -167,16 +169,37 @@ def test_square_path_leaves_the_input_frame_unchanged() -> None:
 
 
 def test_progress_counts_every_slab_of_the_square_block(monkeypatch: pytest.MonkeyPatch) -> None:
-    # Progress is reported while the workers sum the slabs (polled here every millisecond),
-    # never goes back, and ends at its total, which counts the 250 slabs.
+    # Each slab the workers sum is reported as it finishes. Counted, not timed: every slab
+    # after the first is held until a report has arrived, so the first report must say
+    # exactly one slab is done while the other 249 are still to be summed. The count
+    # never goes back and ends at its total, which counts the 250 slabs.
     from imputer_app.engine import _nearest
 
     monkeypatch.setattr(_distance, "SLAB", 8)
-    monkeypatch.setattr(_nearest, "PROGRESS_SECONDS", 0.001)
+    monkeypatch.setattr(_nearest, "PROGRESS_SECONDS", 0.001)  # only makes the test quick
     table = prepare(random_frame(60, 2000, 0.05, seed=3), FillPlan())
+    reported = threading.Event()
+    started: list[int] = []
+    released: list[bool] = []
+    gram = DistanceModel.gram
+
+    def held(self: DistanceModel, rows: np.ndarray, cols: np.ndarray, weight: float | None) -> tuple:
+        started.append(1)
+        if len(started) > 1:  # after one wait in vain, the others would be in vain too
+            released.append(reported.wait(timeout=10 if all(released) else 0))
+        return gram(self, rows, cols, weight)
+
     calls: list[tuple[int, int]] = []
-    nearest_donors(table, kmax=3, progress=lambda d, t: calls.append((d, t)))
+
+    def progress(done: int, total: int) -> None:
+        calls.append((done, total))
+        if done:
+            reported.set()
+
+    monkeypatch.setattr(DistanceModel, "gram", held)
+    nearest_donors(table, kmax=3, progress=progress)
     done = [d for d, _ in calls]
+    assert len(started) == 250 and released == [True] * 249
+    assert next(d for d in done if d) == 1
     assert len({t for _, t in calls}) == 1 and calls[0][1] >= 250
     assert done == sorted(done) and done[-1] == calls[0][1]
-    assert len(calls) > 5

@@ -1,7 +1,7 @@
 """Hiding known cells: shares, seeds, censored cells and rows kept usable.
 
-These are properties of the recovery test's own design (issue 4), checked on small
-hand-built layouts; no outside reference applies (common practice, no source).
+These are properties of the recovery test's own design (README.md, "Choose k"), checked
+on small hand-built layouts; no outside reference applies (common practice, no source).
 """
 
 from __future__ import annotations

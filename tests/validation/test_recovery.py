@@ -107,7 +107,7 @@ def test_best_k_beats_column_mean_on_open_data(loader) -> None:
 
 
 def test_k_equal_to_all_donors_gives_the_column_mean_and_majority_class() -> None:
-    # Common practice, no source (DESIGN.md): k equal to the number of donors gives the
+    # Common practice, no source: k equal to the number of donors gives the
     # column mean (numbers) or the majority class (categories), i.e. the baseline.
     iris = load_iris(as_frame=True)
     keep = np.r_[0:50, 50:80, 100:110]  # classes 50/30/10: the majority never ties

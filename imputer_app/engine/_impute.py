@@ -1,0 +1,87 @@
+"""Fill the gaps of a table: prepare, search, decide every value, build the result.
+
+:func:`impute` is the engine's entry point for a whole fill; each of its steps lives
+in its own module (:mod:`~imputer_app.engine._prepare`,
+:mod:`~imputer_app.engine._search`, :mod:`~imputer_app.engine._decide`,
+:mod:`~imputer_app.engine._censored`, :mod:`~imputer_app.engine._result`).
+"""
+
+from __future__ import annotations
+
+import pandas as pd
+
+from imputer_app.engine._censored import censored_records
+from imputer_app.engine._decide import fill_records
+from imputer_app.engine._input import SheetLike, unpack
+from imputer_app.engine._log import Records
+from imputer_app.engine._prepare import prepare_input
+from imputer_app.engine._result import FillResult, build_result
+from imputer_app.engine._search import search_cells
+from imputer_app.engine._stack import Stack
+from imputer_app.engine._support import weak_threshold
+from imputer_app.plan import FillPlan
+from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
+
+
+def impute(
+    data: pd.DataFrame | SheetLike,
+    plan: FillPlan,
+    progress: Progress | None = None,
+    cancel: CancelFlag | None = None,
+) -> FillResult:
+    """Fill the gaps of ``data`` by k-nearest-neighbour imputation.
+
+    Parameters
+    ----------
+    data : DataFrame or SheetLike
+        A DataFrame of shape (n_rows, n_columns) with NaN gaps, or a read sheet
+        (:class:`~imputer_app.engine.SheetLike`), whose censored cells are handled as
+        the plan says. Never modified.
+    plan : FillPlan
+        The settings; the resolved plan is returned in ``FillResult.plan``.
+    progress : callable(done, total), optional
+        Called once per chunk of the neighbour search, and once more (``done ==
+        total``) when the values and the log are ready.
+    cancel : Event-like or callable, optional
+        Checked while preparing, once per chunk of the search and while building the
+        log; raises :class:`~imputer_app.errors.Cancelled` and returns nothing.
+
+    Returns
+    -------
+    FillResult
+
+    Raises
+    ------
+    PlanError
+        The plan does not fit the data (unknown column, text used as numbers, ...).
+
+    Examples
+    --------
+    >>> frame = pd.DataFrame({"a": [1.0, 2.0, 3.0, None], "b": [1.0, 2.0, 3.0, 3.1]})
+    >>> impute(frame, FillPlan(k=1, scaling="none")).frame["a"].tolist()
+    [1.0, 2.0, 3.0, 3.0]
+    """
+    raise_if_cancelled(cancel)
+    inp = unpack(data)
+    table, censored = prepare_input(inp, plan, cancel=cancel)
+    k = table.plan.k
+    # the search's steps, and one more for the values and the log (up to 40 % of the time on a
+    # wide sheet), so that the bar is not full while the log is built
+    steps = 0
+
+    def searching(done: int, total: int) -> None:
+        nonlocal steps
+        steps = total
+        report(progress, done, total + 1)
+
+    # one flat search over every fill column: values and log rows are worked out for all at once
+    found, cell_col = search_cells(table, kmax=k, progress=searching, cancel=cancel)
+    stack = Stack.of_cells(table.fill_columns, found, cell_col)
+    threshold = weak_threshold([stack.donors])
+    records = Records(inp.names)
+    fill_records(table, stack, k, threshold, records)
+    censored_records(censored, table.fill_columns, table.plan.censored, records)
+    raise_if_cancelled(cancel)
+    result = build_result(inp, table, records, threshold, cancel)
+    report(progress, steps + 1, steps + 1)
+    return result
