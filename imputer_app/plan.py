@@ -17,9 +17,13 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import numbers
+import os
 import re
+import stat
 import tomllib
-from collections.abc import Callable, Mapping, Sequence
+from collections import Counter
+from collections.abc import Callable, Collection, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -27,9 +31,16 @@ from typing import Any
 import tomli_w
 
 from imputer_app.errors import PlanError
+from imputer_app.files import write_text_atomic
 
 PLAN_FORMAT = 1
 PLAN_SUFFIX = ".plan.toml"
+
+#: Largest plan file read (bytes); a plan written by Kinfill for 10,000 columns is far smaller.
+MAX_PLAN_BYTES = 1_000_000
+
+#: How many names an error lists before "and N more".
+LISTED_NAMES = 5
 
 #: Allowed values of every choice setting, checked once on construction.
 CHOICES: dict[str, tuple[str, ...]] = {
@@ -113,9 +124,11 @@ class FillPlan:
         for name, allowed in CHOICES.items():
             value = getattr(self, name)
             if value not in allowed:
-                raise PlanError(f"{name} must be one of {', '.join(allowed)}; got {value!r}")
+                raise PlanError(f"{name} must be one of {', '.join(allowed)}; got {shown_value(value)}")
         if self.group_column is not None and not isinstance(self.group_column, str):
-            raise PlanError(f"group_column must be a column name or empty; got {self.group_column!r}")
+            raise PlanError(
+                f"group_column must be a column name or empty; got {shown_value(self.group_column)}"
+            )
         _set(self, "bounds", _check_bounds(self.bounds))
         _set(self, "decimals", _check_decimals(self.decimals))
         _set(self, "kinds", _check_kinds(self.kinds))
@@ -128,8 +141,7 @@ class FillPlan:
 
     def named_columns(self) -> list[str]:
         """Return every column name the plan mentions, in first-mention order."""
-        names: list[str] = []
-        for group in (
+        groups = (
             self.similarity_columns or (),
             self.fill_columns or (),
             self.carried_columns,
@@ -138,9 +150,8 @@ class FillPlan:
             self.bounds,
             self.decimals,
             self.kinds,
-        ):
-            names.extend(n for n in group if n not in names)
-        return names
+        )
+        return list(dict.fromkeys(name for group in groups for name in group))
 
     def check_columns(self, columns: Sequence[str]) -> None:
         """Raise :class:`PlanError` naming every plan column absent from ``columns``.
@@ -153,9 +164,7 @@ class FillPlan:
         present = set(columns)
         missing = [n for n in self.named_columns() if n not in present]
         if missing:
-            raise PlanError(
-                f"the plan names column(s) this sheet does not have: {', '.join(map(repr, missing))}"
-            )
+            raise PlanError(f"the plan names column(s) this sheet does not have: {name_list(missing)}")
 
     def replace(self, **changes: Any) -> FillPlan:
         """Return a copy with ``changes`` applied (validated again)."""
@@ -198,34 +207,40 @@ class FillPlan:
         return _plan_from_dict(data, source=source, text=text)
 
     # --------------------------------------------------------------------- disk
-    def save(self, path: str | Path) -> Path:
-        """Write the plan as TOML and return the path written.
+    def save(self, path: str | Path, *, force: bool = True, source: str | Path | None = None) -> Path:
+        """Write the plan as TOML through the atomic writer and return the path written.
 
-        The file is written next to its final name and renamed into place, so a
-        failure never leaves half a plan behind.
+        Parameters
+        ----------
+        path : str or Path
+            The plan file to write.
+        force : bool, default=True
+            Whether an existing file (or link) of that name may be replaced; callers
+            ask first (``--force``, the app's save dialog). A link is replaced itself,
+            never written through.
+        source : str or Path or None, default=None
+            The sheet the plan is for; a ``path`` naming it is refused.
+
+        Raises
+        ------
+        ExportError
+            When the file cannot be written; the old file is then untouched and no
+            temporary file is left.
         """
-        target = Path(path)
         text = "# Kinfill fill plan. Edit with care; `kinfill fill --plan` reads it.\n"
         text += tomli_w.dumps(self.to_dict())
-        tmp = target.with_name(target.name + ".tmp")
-        try:
-            tmp.write_text(text, encoding="utf-8")
-            tmp.replace(target)
-        except OSError as exc:
-            tmp.unlink(missing_ok=True)
-            raise PlanError(f"cannot write plan {target}: {exc.strerror or exc}") from exc
-        return target
+        write_text_atomic(path, text, source=source, force=force)
+        return Path(path)
 
     @classmethod
     def load(cls, path: str | Path) -> FillPlan:
-        """Read a plan written by :meth:`save` (or by hand)."""
+        """Read a plan written by :meth:`save` (or by hand).
+
+        Refuses, with one line, a file over :data:`MAX_PLAN_BYTES` and anything that is
+        not an ordinary file (a folder, a device such as ``/dev/zero``, a pipe).
+        """
         source = Path(path)
-        try:
-            text = source.read_text(encoding="utf-8")
-        except FileNotFoundError:
-            raise PlanError(f"plan file not found: {source}") from None
-        except (OSError, UnicodeDecodeError) as exc:
-            raise PlanError(f"cannot read plan {source}: {exc}") from exc
+        text = _read_plan_text(source)
         try:
             data = tomllib.loads(text)
         except tomllib.TOMLDecodeError as exc:
@@ -238,29 +253,62 @@ class FillPlan:
         for name in ("similarity_columns", "fill_columns"):
             both = carried.intersection(getattr(self, name) or ())
             if both:
-                raise PlanError(f"column(s) {', '.join(sorted(both))} cannot be both carried and in {name}")
+                raise PlanError(f"column(s) {name_list(sorted(both))} cannot be both carried and in {name}")
         if self.group_column is not None and self.group_column in (self.fill_columns or ()):
-            raise PlanError(f"the group column {self.group_column!r} cannot also be a fill column")
+            raise PlanError(f"the group column {shown_value(self.group_column)} cannot also be a fill column")
+
+
+def name_list(names: Sequence[object], limit: int = LISTED_NAMES) -> str:
+    """Return ``names`` quoted for a one-line message: the first ``limit``, then "and N more".
+
+    Examples
+    --------
+    >>> name_list(["a", "b", "c"], limit=2)
+    "'a', 'b' and 1 more"
+    """
+    shown = ", ".join(shown_value(n) for n in names[:limit])
+    rest = len(names) - limit
+    return f"{shown} and {rest:,} more" if rest > 0 else shown
+
+
+def shown_value(value: object, width: int = 60) -> str:
+    """Return ``repr(value)`` cut to ``width`` characters, so one bad entry keeps a message short."""
+    if isinstance(value, str | bytes):
+        text = repr(value[: width + 1])
+    elif isinstance(value, Collection) and len(value) > width:  # never build a huge repr
+        text = f"a {type(value).__name__} of {len(value):,} entries"
+    else:
+        text = repr(value)
+    return text if len(text) <= width else text[: width - 1] + "\u2026"
 
 
 def _check_k(k: object) -> int:
-    if isinstance(k, bool) or not isinstance(k, int | float) or int(k) != k:
-        raise PlanError(f"k must be a whole number of at least 1; got {k!r}")
-    if k < 1:
-        raise PlanError(f"k must be at least 1; got {int(k)}")
-    return int(k)
+    whole = "k must be a whole number of at least 1"
+    if isinstance(k, bool) or not isinstance(k, numbers.Real):
+        raise PlanError(f"{whole}; got {shown_value(k)}")
+    if isinstance(k, numbers.Integral):
+        number = int(k)
+    else:
+        value = float(k)  # nan and inf have no whole value
+        if not math.isfinite(value) or not value.is_integer():
+            raise PlanError(f"{whole}; got {shown_value(k)}")
+        number = int(value)
+    if number < 1:
+        raise PlanError(f"k must be at least 1; got {number}")
+    return number
 
 
 def _names(setting: str, names: object) -> tuple[str, ...]:
     if isinstance(names, str) or not isinstance(names, Sequence | set | frozenset):
-        raise PlanError(f"{setting} must be a list of column names; got {names!r}")
+        raise PlanError(f"{setting} must be a list of column names; got {shown_value(names)}")
     out = tuple(names)
     bad = [n for n in out if not isinstance(n, str) or not n]
     if bad:
-        raise PlanError(f"{setting} must hold column names (text); got {bad[0]!r}")
+        raise PlanError(f"{setting} must hold column names (text); got {shown_value(bad[0])}")
     if len(set(out)) != len(out):
-        dup = next(n for n in out if out.count(n) > 1)
-        raise PlanError(f"{setting} names column {dup!r} twice")
+        counts = Counter(out)
+        dup = next(n for n in out if counts[n] > 1)
+        raise PlanError(f"{setting} names column {shown_value(dup)} twice")
     return out
 
 
@@ -270,7 +318,9 @@ def _names_or_none(setting: str, names: object) -> tuple[str, ...] | None:
 
 def _number(setting: str, column: str, value: object) -> float:
     if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
-        raise PlanError(f"{setting} for column {column!r} must be a finite number; got {value!r}")
+        raise PlanError(
+            f"{setting} for column {shown_value(column)} must be a finite number; got {shown_value(value)}"
+        )
     return float(value)
 
 
@@ -279,9 +329,11 @@ def _check_weights(weights: Mapping[str, float]) -> dict[str, float]:
     for column, value in dict(weights).items():
         w = _number("weight", column, value)
         if w < 0:
-            raise PlanError(f"weight for column {column!r} must be 0 or more; got {w:g}")
+            raise PlanError(f"weight for column {shown_value(column)} must be 0 or more; got {w:g}")
         if w > MAX_WEIGHT:
-            raise PlanError(f"weight for column {column!r} must be at most {MAX_WEIGHT:g}; got {w:g}")
+            raise PlanError(
+                f"weight for column {shown_value(column)} must be at most {MAX_WEIGHT:g}; got {w:g}"
+            )
         out[str(column)] = w
     return out
 
@@ -290,10 +342,14 @@ def _check_bounds(bounds: Mapping[str, Any]) -> dict[str, Bound]:
     out: dict[str, Bound] = {}
     for column, pair in dict(bounds).items():
         if not isinstance(pair, Sequence) or isinstance(pair, str) or len(pair) != 2:
-            raise PlanError(f"bounds for column {column!r} must be (lower, upper); got {pair!r}")
+            raise PlanError(
+                f"bounds for column {shown_value(column)} must be (lower, upper); got {shown_value(pair)}"
+            )
         lower, upper = (None if v is None else _number("bound", column, v) for v in pair)
         if lower is not None and upper is not None and lower > upper:
-            raise PlanError(f"bounds for column {column!r}: lower {lower:g} is above upper {upper:g}")
+            raise PlanError(
+                f"bounds for column {shown_value(column)}: lower {lower:g} is above upper {upper:g}"
+            )
         out[str(column)] = (lower, upper)
     return out
 
@@ -302,7 +358,10 @@ def _check_decimals(decimals: Mapping[str, int]) -> dict[str, int]:
     out: dict[str, int] = {}
     for column, value in dict(decimals).items():
         if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value <= 15:
-            raise PlanError(f"decimals for column {column!r} must be a whole number 0-15; got {value!r}")
+            raise PlanError(
+                f"decimals for column {shown_value(column)} must be a whole number 0-15; "
+                f"got {shown_value(value)}"
+            )
         out[str(column)] = value
     return out
 
@@ -311,12 +370,47 @@ def _check_kinds(kinds: Mapping[str, str]) -> dict[str, str]:
     out: dict[str, str] = {}
     for column, kind in dict(kinds).items():
         if kind not in KINDS:
-            raise PlanError(f"kind for column {column!r} must be one of {', '.join(KINDS)}; got {kind!r}")
+            raise PlanError(
+                f"kind for column {shown_value(column)} must be one of {', '.join(KINDS)}; "
+                f"got {shown_value(kind)}"
+            )
         out[str(column)] = kind
     return out
 
 
 # ------------------------------------------------------------------ from TOML
+def _read_plan_text(source: Path) -> str:
+    # Non-blocking open and fstat before reading: a pipe never blocks, a device such
+    # as /dev/zero is never read, and a huge file is refused by its size.
+    limit = f"a plan file may be at most {MAX_PLAN_BYTES // 1_000_000} MB"
+    try:
+        fd = os.open(source, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_CLOEXEC", 0))
+    except FileNotFoundError:
+        raise PlanError(f"plan file not found: {source}") from None
+    except OSError as exc:
+        raise PlanError(f"cannot read plan {source}: {exc.strerror or exc}") from None
+    try:
+        info = os.fstat(fd)
+        if stat.S_ISDIR(info.st_mode):
+            raise PlanError(f"cannot read plan {source}: it is a folder, not a plan file")
+        if not stat.S_ISREG(info.st_mode):
+            raise PlanError(f"cannot read plan {source}: it is not an ordinary file (a device or a pipe)")
+        if info.st_size > MAX_PLAN_BYTES:
+            raise PlanError(f"cannot read plan {source}: it is {info.st_size:,} bytes; {limit}")
+        with os.fdopen(os.dup(fd), "rb") as handle:
+            data = handle.read(MAX_PLAN_BYTES + 1)
+    except OSError as exc:
+        raise PlanError(f"cannot read plan {source}: {exc.strerror or exc}") from None
+    finally:
+        os.close(fd)
+    if len(data) > MAX_PLAN_BYTES:  # grew while we looked
+        raise PlanError(f"cannot read plan {source}: it is over {MAX_PLAN_BYTES:,} bytes; {limit}")
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise PlanError(f"cannot read plan {source}: it is not UTF-8 text (byte {exc.start})") from None
+
+
 _SCALAR_KEYS: dict[str, tuple[type, ...]] = {
     "format": (int,),
     "k": (int,),
@@ -392,10 +486,12 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
     known = set(_SCALAR_KEYS) | set(_LIST_KEYS) | set(_TABLE_KEYS)
     for key in data:
         if key not in known:
-            raise PlanError(f"{source}: unknown key {key!r}{_line_of(text, key)}")
+            raise PlanError(f"{source}: unknown key {shown_value(key)}{_line_of(text, key)}")
     fmt = data.get("format", PLAN_FORMAT)
     if fmt != PLAN_FORMAT:
-        raise PlanError(f"{source}: plan format {fmt!r} is not supported (this Kinfill reads {PLAN_FORMAT})")
+        raise PlanError(
+            f"{source}: plan format {shown_value(fmt)} is not supported (this Kinfill reads {PLAN_FORMAT})"
+        )
     kwargs: dict[str, Any] = {}
     for key, types in _SCALAR_KEYS.items():
         if key in data:
@@ -403,7 +499,7 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
             if isinstance(value, bool) or not isinstance(value, types):
                 want = {"str": "text", "int": "a whole number"}[types[0].__name__]
                 where = _line_of(text, key)
-                raise PlanError(f"{source}: {key} must be {want}; got {value!r}{where}")
+                raise PlanError(f"{source}: {key} must be {want}; got {shown_value(value)}{where}")
             if key != "format":
                 kwargs[key] = value
     for key in _LIST_KEYS:
