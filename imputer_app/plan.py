@@ -18,12 +18,9 @@ from __future__ import annotations
 import dataclasses
 import math
 import numbers
-import os
-import re
-import stat
 import tomllib
 from collections import Counter
-from collections.abc import Callable, Collection, Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -32,15 +29,10 @@ import tomli_w
 
 from imputer_app.errors import PlanError
 from imputer_app.files import write_text_atomic
+from imputer_app.plan_text import line_in_table, line_of, name_list, read_plan_text, shown_value
 
 PLAN_FORMAT = 1
 PLAN_SUFFIX = ".plan.toml"
-
-#: Largest plan file read (bytes); a plan written by Kinfill for 10,000 columns is far smaller.
-MAX_PLAN_BYTES = 1_000_000
-
-#: How many names an error lists before "and N more".
-LISTED_NAMES = 5
 
 #: Allowed values of every choice setting, checked once on construction.
 CHOICES: dict[str, tuple[str, ...]] = {
@@ -236,11 +228,12 @@ class FillPlan:
     def load(cls, path: str | Path) -> FillPlan:
         """Read a plan written by :meth:`save` (or by hand).
 
-        Refuses, with one line, a file over :data:`MAX_PLAN_BYTES` and anything that is
+        Refuses, with one line, a file over 1 MB
+        (:data:`~imputer_app.plan_text.MAX_PLAN_BYTES`) and anything that is
         not an ordinary file (a folder, a device such as ``/dev/zero``, a pipe).
         """
         source = Path(path)
-        text = _read_plan_text(source)
+        text = read_plan_text(source)
         try:
             data = tomllib.loads(text)
         except tomllib.TOMLDecodeError as exc:
@@ -256,30 +249,6 @@ class FillPlan:
                 raise PlanError(f"column(s) {name_list(sorted(both))} cannot be both carried and in {name}")
         if self.group_column is not None and self.group_column in (self.fill_columns or ()):
             raise PlanError(f"the group column {shown_value(self.group_column)} cannot also be a fill column")
-
-
-def name_list(names: Sequence[object], limit: int = LISTED_NAMES) -> str:
-    """Return ``names`` quoted for a one-line message: the first ``limit``, then "and N more".
-
-    Examples
-    --------
-    >>> name_list(["a", "b", "c"], limit=2)
-    "'a', 'b' and 1 more"
-    """
-    shown = ", ".join(shown_value(n) for n in names[:limit])
-    rest = len(names) - limit
-    return f"{shown} and {rest:,} more" if rest > 0 else shown
-
-
-def shown_value(value: object, width: int = 60) -> str:
-    """Return ``repr(value)`` cut to ``width`` characters, so one bad entry keeps a message short."""
-    if isinstance(value, str | bytes):
-        text = repr(value[: width + 1])
-    elif isinstance(value, Collection) and len(value) > width:  # never build a huge repr
-        text = f"a {type(value).__name__} of {len(value):,} entries"
-    else:
-        text = repr(value)
-    return text if len(text) <= width else text[: width - 1] + "\u2026"
 
 
 def _check_k(k: object) -> int:
@@ -379,38 +348,6 @@ def _check_kinds(kinds: Mapping[str, str]) -> dict[str, str]:
 
 
 # ------------------------------------------------------------------ from TOML
-def _read_plan_text(source: Path) -> str:
-    # Non-blocking open and fstat before reading: a pipe never blocks, a device such
-    # as /dev/zero is never read, and a huge file is refused by its size.
-    limit = f"a plan file may be at most {MAX_PLAN_BYTES // 1_000_000} MB"
-    try:
-        fd = os.open(source, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_CLOEXEC", 0))
-    except FileNotFoundError:
-        raise PlanError(f"plan file not found: {source}") from None
-    except OSError as exc:
-        raise PlanError(f"cannot read plan {source}: {exc.strerror or exc}") from None
-    try:
-        info = os.fstat(fd)
-        if stat.S_ISDIR(info.st_mode):
-            raise PlanError(f"cannot read plan {source}: it is a folder, not a plan file")
-        if not stat.S_ISREG(info.st_mode):
-            raise PlanError(f"cannot read plan {source}: it is not an ordinary file (a device or a pipe)")
-        if info.st_size > MAX_PLAN_BYTES:
-            raise PlanError(f"cannot read plan {source}: it is {info.st_size:,} bytes; {limit}")
-        with os.fdopen(os.dup(fd), "rb") as handle:
-            data = handle.read(MAX_PLAN_BYTES + 1)
-    except OSError as exc:
-        raise PlanError(f"cannot read plan {source}: {exc.strerror or exc}") from None
-    finally:
-        os.close(fd)
-    if len(data) > MAX_PLAN_BYTES:  # grew while we looked
-        raise PlanError(f"cannot read plan {source}: it is over {MAX_PLAN_BYTES:,} bytes; {limit}")
-    try:
-        return data.decode("utf-8")
-    except UnicodeDecodeError as exc:
-        raise PlanError(f"cannot read plan {source}: it is not UTF-8 text (byte {exc.start})") from None
-
-
 _SCALAR_KEYS: dict[str, tuple[type, ...]] = {
     "format": (int,),
     "k": (int,),
@@ -425,48 +362,6 @@ _LIST_KEYS = ("similarity_columns", "fill_columns", "carried_columns")
 _TABLE_KEYS = ("weights", "bounds", "decimals", "kinds")
 
 
-def _line_of(text: str | None, key: str) -> str:
-    """Return ' (line N)' for the first line that sets ``key``, if the text is known."""
-    if not text:
-        return ""
-    pattern = re.compile(rf"^\s*(\[\s*)?{re.escape(key)}\s*(=|\])")
-    for number, line in enumerate(text.splitlines(), start=1):
-        if pattern.match(line):
-            return f" (line {number})"
-    return ""
-
-
-_HEADER = re.compile(r"^\s*\[\s*([^\[\]]+?)\s*\]\s*(#.*)?$")
-
-
-def _bare(part: str) -> str:
-    return part.strip().strip("\"'")
-
-
-def _line_in_table(text: str | None, table: str, key: str) -> str:
-    """Return ' (line N)' for the line that sets ``key`` of ``table`` (e.g. weights.pH).
-
-    Knows ``[table]`` sections, ``[table.key]`` sub-tables and dotted ``table.key = ...``
-    lines; otherwise falls back to the line of the table itself.
-    """
-    if not text:
-        return ""
-    either = "|".join(map(re.escape, sorted({key, f'"{key}"', f"'{key}'"})))
-    assign = re.compile(rf"^\s*({either})\s*=")
-    dotted = re.compile(rf"^\s*{re.escape(table)}\s*\.\s*({either})\s*=")
-    section: list[str] = []
-    for number, line in enumerate(text.splitlines(), start=1):
-        header = _HEADER.match(line)
-        if header:
-            section = [_bare(p) for p in header.group(1).split(".")]
-            if section == [table, key]:
-                return f" (line {number})"
-            continue
-        if (section == [table] and assign.match(line)) or (not section and dotted.match(line)):
-            return f" (line {number})"
-    return _line_of(text, table)
-
-
 def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | None) -> None:
     """Validate each weights/decimals/kinds/bounds entry alone, to name its line."""
     checks: dict[str, Callable[[dict[str, Any]], object]] = {
@@ -479,14 +374,14 @@ def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | No
             try:
                 check({column: value})
             except PlanError as exc:
-                raise PlanError(f"{source}: {exc}{_line_in_table(text, table, column)}") from None
+                raise PlanError(f"{source}: {exc}{line_in_table(text, table, column)}") from None
 
 
 def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -> FillPlan:
     known = set(_SCALAR_KEYS) | set(_LIST_KEYS) | set(_TABLE_KEYS)
     for key in data:
         if key not in known:
-            raise PlanError(f"{source}: unknown key {shown_value(key)}{_line_of(text, key)}")
+            raise PlanError(f"{source}: unknown key {shown_value(key)}{line_of(text, key)}")
     fmt = data.get("format", PLAN_FORMAT)
     if fmt != PLAN_FORMAT:
         raise PlanError(
@@ -498,7 +393,7 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
             value = data[key]
             if isinstance(value, bool) or not isinstance(value, types):
                 want = {"str": "text", "int": "a whole number"}[types[0].__name__]
-                where = _line_of(text, key)
+                where = line_of(text, key)
                 raise PlanError(f"{source}: {key} must be {want}; got {shown_value(value)}{where}")
             if key != "format":
                 kwargs[key] = value
@@ -506,12 +401,12 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
         if key in data:
             value = data[key]
             if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
-                where = _line_of(text, key)
+                where = line_of(text, key)
                 raise PlanError(f"{source}: {key} must be a list of column names{where}")
             kwargs[key] = tuple(value)
     for key in _TABLE_KEYS:
         if key in data and not isinstance(data[key], Mapping):
-            raise PlanError(f"{source}: {key} must be a table of column = value{_line_of(text, key)}")
+            raise PlanError(f"{source}: {key} must be a table of column = value{line_of(text, key)}")
     _check_table_entries(data, source=source, text=text)
     kwargs["weights"] = dict(data.get("weights", {}))
     kwargs["decimals"] = dict(data.get("decimals", {}))
@@ -519,13 +414,13 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
     bounds: dict[str, Bound] = {}
     for column, sides in dict(data.get("bounds", {})).items():
         if not isinstance(sides, Mapping) or set(sides) - {"lower", "upper"}:
-            where = _line_in_table(text, "bounds", column)
+            where = line_in_table(text, "bounds", column)
             raise PlanError(f"{source}: bounds.{column} must be a table with lower and/or upper{where}")
         bounds[column] = (sides.get("lower"), sides.get("upper"))
         try:
             _check_bounds({column: bounds[column]})
         except PlanError as exc:
-            raise PlanError(f"{source}: {exc}{_line_in_table(text, 'bounds', column)}") from None
+            raise PlanError(f"{source}: {exc}{line_in_table(text, 'bounds', column)}") from None
     kwargs["bounds"] = bounds
     try:
         return FillPlan(**kwargs)

@@ -13,7 +13,8 @@ import numpy as np
 import pytest
 
 from imputer_app.errors import PlanError
-from imputer_app.plan import LISTED_NAMES, MAX_PLAN_BYTES, FillPlan, name_list
+from imputer_app.plan import FillPlan
+from imputer_app.plan_text import LISTED_NAMES, MAX_PLAN_BYTES, name_list
 
 MANY = 20_000
 #: Generous: the work is linear and takes milliseconds; quadratic work took seconds.

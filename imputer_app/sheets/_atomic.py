@@ -12,9 +12,9 @@ from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 from pathlib import Path
 
-from imputer_app.files import TEMP_SUFFIX, atomic_targets, check_targets, explain
+from imputer_app.files import TEMP_SUFFIX, atomic_targets, check_targets, explain, same_file
 
-__all__ = ["TEMP_SUFFIX", "atomic_outputs", "check_targets", "explain"]
+__all__ = ["TEMP_SUFFIX", "atomic_outputs", "check_targets", "explain", "same_file"]
 
 
 @contextmanager
