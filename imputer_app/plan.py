@@ -17,8 +17,9 @@ from __future__ import annotations
 
 import dataclasses
 import math
-import re
+import numbers
 import tomllib
+from collections import Counter
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -27,6 +28,8 @@ from typing import Any
 import tomli_w
 
 from imputer_app.errors import PlanError
+from imputer_app.files import write_text_atomic
+from imputer_app.plan_text import line_in_table, line_of, name_list, read_plan_text, shown_value
 
 PLAN_FORMAT = 1
 PLAN_SUFFIX = ".plan.toml"
@@ -113,9 +116,11 @@ class FillPlan:
         for name, allowed in CHOICES.items():
             value = getattr(self, name)
             if value not in allowed:
-                raise PlanError(f"{name} must be one of {', '.join(allowed)}; got {value!r}")
+                raise PlanError(f"{name} must be one of {', '.join(allowed)}; got {shown_value(value)}")
         if self.group_column is not None and not isinstance(self.group_column, str):
-            raise PlanError(f"group_column must be a column name or empty; got {self.group_column!r}")
+            raise PlanError(
+                f"group_column must be a column name or empty; got {shown_value(self.group_column)}"
+            )
         _set(self, "bounds", _check_bounds(self.bounds))
         _set(self, "decimals", _check_decimals(self.decimals))
         _set(self, "kinds", _check_kinds(self.kinds))
@@ -128,8 +133,7 @@ class FillPlan:
 
     def named_columns(self) -> list[str]:
         """Return every column name the plan mentions, in first-mention order."""
-        names: list[str] = []
-        for group in (
+        groups = (
             self.similarity_columns or (),
             self.fill_columns or (),
             self.carried_columns,
@@ -138,9 +142,8 @@ class FillPlan:
             self.bounds,
             self.decimals,
             self.kinds,
-        ):
-            names.extend(n for n in group if n not in names)
-        return names
+        )
+        return list(dict.fromkeys(name for group in groups for name in group))
 
     def check_columns(self, columns: Sequence[str]) -> None:
         """Raise :class:`PlanError` naming every plan column absent from ``columns``.
@@ -153,9 +156,7 @@ class FillPlan:
         present = set(columns)
         missing = [n for n in self.named_columns() if n not in present]
         if missing:
-            raise PlanError(
-                f"the plan names column(s) this sheet does not have: {', '.join(map(repr, missing))}"
-            )
+            raise PlanError(f"the plan names column(s) this sheet does not have: {name_list(missing)}")
 
     def replace(self, **changes: Any) -> FillPlan:
         """Return a copy with ``changes`` applied (validated again)."""
@@ -198,34 +199,41 @@ class FillPlan:
         return _plan_from_dict(data, source=source, text=text)
 
     # --------------------------------------------------------------------- disk
-    def save(self, path: str | Path) -> Path:
-        """Write the plan as TOML and return the path written.
+    def save(self, path: str | Path, *, force: bool = True, source: str | Path | None = None) -> Path:
+        """Write the plan as TOML through the atomic writer and return the path written.
 
-        The file is written next to its final name and renamed into place, so a
-        failure never leaves half a plan behind.
+        Parameters
+        ----------
+        path : str or Path
+            The plan file to write.
+        force : bool, default=True
+            Whether an existing file (or link) of that name may be replaced; callers
+            ask first (``--force``, the app's save dialog). A link is replaced itself,
+            never written through.
+        source : str or Path or None, default=None
+            The sheet the plan is for; a ``path`` naming it is refused.
+
+        Raises
+        ------
+        ExportError
+            When the file cannot be written; the old file is then untouched and no
+            temporary file is left.
         """
-        target = Path(path)
         text = "# Kinfill fill plan. Edit with care; `kinfill fill --plan` reads it.\n"
         text += tomli_w.dumps(self.to_dict())
-        tmp = target.with_name(target.name + ".tmp")
-        try:
-            tmp.write_text(text, encoding="utf-8")
-            tmp.replace(target)
-        except OSError as exc:
-            tmp.unlink(missing_ok=True)
-            raise PlanError(f"cannot write plan {target}: {exc.strerror or exc}") from exc
-        return target
+        write_text_atomic(path, text, source=source, force=force)
+        return Path(path)
 
     @classmethod
     def load(cls, path: str | Path) -> FillPlan:
-        """Read a plan written by :meth:`save` (or by hand)."""
+        """Read a plan written by :meth:`save` (or by hand).
+
+        Refuses, with one line, a file over 1 MB
+        (:data:`~imputer_app.plan_text.MAX_PLAN_BYTES`) and anything that is
+        not an ordinary file (a folder, a device such as ``/dev/zero``, a pipe).
+        """
         source = Path(path)
-        try:
-            text = source.read_text(encoding="utf-8")
-        except FileNotFoundError:
-            raise PlanError(f"plan file not found: {source}") from None
-        except (OSError, UnicodeDecodeError) as exc:
-            raise PlanError(f"cannot read plan {source}: {exc}") from exc
+        text = read_plan_text(source)
         try:
             data = tomllib.loads(text)
         except tomllib.TOMLDecodeError as exc:
@@ -238,29 +246,38 @@ class FillPlan:
         for name in ("similarity_columns", "fill_columns"):
             both = carried.intersection(getattr(self, name) or ())
             if both:
-                raise PlanError(f"column(s) {', '.join(sorted(both))} cannot be both carried and in {name}")
+                raise PlanError(f"column(s) {name_list(sorted(both))} cannot be both carried and in {name}")
         if self.group_column is not None and self.group_column in (self.fill_columns or ()):
-            raise PlanError(f"the group column {self.group_column!r} cannot also be a fill column")
+            raise PlanError(f"the group column {shown_value(self.group_column)} cannot also be a fill column")
 
 
 def _check_k(k: object) -> int:
-    if isinstance(k, bool) or not isinstance(k, int | float) or int(k) != k:
-        raise PlanError(f"k must be a whole number of at least 1; got {k!r}")
-    if k < 1:
-        raise PlanError(f"k must be at least 1; got {int(k)}")
-    return int(k)
+    whole = "k must be a whole number of at least 1"
+    if isinstance(k, bool) or not isinstance(k, numbers.Real):
+        raise PlanError(f"{whole}; got {shown_value(k)}")
+    if isinstance(k, numbers.Integral):
+        number = int(k)
+    else:
+        value = float(k)  # nan and inf have no whole value
+        if not math.isfinite(value) or not value.is_integer():
+            raise PlanError(f"{whole}; got {shown_value(k)}")
+        number = int(value)
+    if number < 1:
+        raise PlanError(f"k must be at least 1; got {number}")
+    return number
 
 
 def _names(setting: str, names: object) -> tuple[str, ...]:
     if isinstance(names, str) or not isinstance(names, Sequence | set | frozenset):
-        raise PlanError(f"{setting} must be a list of column names; got {names!r}")
+        raise PlanError(f"{setting} must be a list of column names; got {shown_value(names)}")
     out = tuple(names)
     bad = [n for n in out if not isinstance(n, str) or not n]
     if bad:
-        raise PlanError(f"{setting} must hold column names (text); got {bad[0]!r}")
+        raise PlanError(f"{setting} must hold column names (text); got {shown_value(bad[0])}")
     if len(set(out)) != len(out):
-        dup = next(n for n in out if out.count(n) > 1)
-        raise PlanError(f"{setting} names column {dup!r} twice")
+        counts = Counter(out)
+        dup = next(n for n in out if counts[n] > 1)
+        raise PlanError(f"{setting} names column {shown_value(dup)} twice")
     return out
 
 
@@ -270,7 +287,9 @@ def _names_or_none(setting: str, names: object) -> tuple[str, ...] | None:
 
 def _number(setting: str, column: str, value: object) -> float:
     if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
-        raise PlanError(f"{setting} for column {column!r} must be a finite number; got {value!r}")
+        raise PlanError(
+            f"{setting} for column {shown_value(column)} must be a finite number; got {shown_value(value)}"
+        )
     return float(value)
 
 
@@ -279,9 +298,11 @@ def _check_weights(weights: Mapping[str, float]) -> dict[str, float]:
     for column, value in dict(weights).items():
         w = _number("weight", column, value)
         if w < 0:
-            raise PlanError(f"weight for column {column!r} must be 0 or more; got {w:g}")
+            raise PlanError(f"weight for column {shown_value(column)} must be 0 or more; got {w:g}")
         if w > MAX_WEIGHT:
-            raise PlanError(f"weight for column {column!r} must be at most {MAX_WEIGHT:g}; got {w:g}")
+            raise PlanError(
+                f"weight for column {shown_value(column)} must be at most {MAX_WEIGHT:g}; got {w:g}"
+            )
         out[str(column)] = w
     return out
 
@@ -290,10 +311,14 @@ def _check_bounds(bounds: Mapping[str, Any]) -> dict[str, Bound]:
     out: dict[str, Bound] = {}
     for column, pair in dict(bounds).items():
         if not isinstance(pair, Sequence) or isinstance(pair, str) or len(pair) != 2:
-            raise PlanError(f"bounds for column {column!r} must be (lower, upper); got {pair!r}")
+            raise PlanError(
+                f"bounds for column {shown_value(column)} must be (lower, upper); got {shown_value(pair)}"
+            )
         lower, upper = (None if v is None else _number("bound", column, v) for v in pair)
         if lower is not None and upper is not None and lower > upper:
-            raise PlanError(f"bounds for column {column!r}: lower {lower:g} is above upper {upper:g}")
+            raise PlanError(
+                f"bounds for column {shown_value(column)}: lower {lower:g} is above upper {upper:g}"
+            )
         out[str(column)] = (lower, upper)
     return out
 
@@ -302,7 +327,10 @@ def _check_decimals(decimals: Mapping[str, int]) -> dict[str, int]:
     out: dict[str, int] = {}
     for column, value in dict(decimals).items():
         if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value <= 15:
-            raise PlanError(f"decimals for column {column!r} must be a whole number 0-15; got {value!r}")
+            raise PlanError(
+                f"decimals for column {shown_value(column)} must be a whole number 0-15; "
+                f"got {shown_value(value)}"
+            )
         out[str(column)] = value
     return out
 
@@ -311,7 +339,10 @@ def _check_kinds(kinds: Mapping[str, str]) -> dict[str, str]:
     out: dict[str, str] = {}
     for column, kind in dict(kinds).items():
         if kind not in KINDS:
-            raise PlanError(f"kind for column {column!r} must be one of {', '.join(KINDS)}; got {kind!r}")
+            raise PlanError(
+                f"kind for column {shown_value(column)} must be one of {', '.join(KINDS)}; "
+                f"got {shown_value(kind)}"
+            )
         out[str(column)] = kind
     return out
 
@@ -331,48 +362,6 @@ _LIST_KEYS = ("similarity_columns", "fill_columns", "carried_columns")
 _TABLE_KEYS = ("weights", "bounds", "decimals", "kinds")
 
 
-def _line_of(text: str | None, key: str) -> str:
-    """Return ' (line N)' for the first line that sets ``key``, if the text is known."""
-    if not text:
-        return ""
-    pattern = re.compile(rf"^\s*(\[\s*)?{re.escape(key)}\s*(=|\])")
-    for number, line in enumerate(text.splitlines(), start=1):
-        if pattern.match(line):
-            return f" (line {number})"
-    return ""
-
-
-_HEADER = re.compile(r"^\s*\[\s*([^\[\]]+?)\s*\]\s*(#.*)?$")
-
-
-def _bare(part: str) -> str:
-    return part.strip().strip("\"'")
-
-
-def _line_in_table(text: str | None, table: str, key: str) -> str:
-    """Return ' (line N)' for the line that sets ``key`` of ``table`` (e.g. weights.pH).
-
-    Knows ``[table]`` sections, ``[table.key]`` sub-tables and dotted ``table.key = ...``
-    lines; otherwise falls back to the line of the table itself.
-    """
-    if not text:
-        return ""
-    either = "|".join(map(re.escape, sorted({key, f'"{key}"', f"'{key}'"})))
-    assign = re.compile(rf"^\s*({either})\s*=")
-    dotted = re.compile(rf"^\s*{re.escape(table)}\s*\.\s*({either})\s*=")
-    section: list[str] = []
-    for number, line in enumerate(text.splitlines(), start=1):
-        header = _HEADER.match(line)
-        if header:
-            section = [_bare(p) for p in header.group(1).split(".")]
-            if section == [table, key]:
-                return f" (line {number})"
-            continue
-        if (section == [table] and assign.match(line)) or (not section and dotted.match(line)):
-            return f" (line {number})"
-    return _line_of(text, table)
-
-
 def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | None) -> None:
     """Validate each weights/decimals/kinds/bounds entry alone, to name its line."""
     checks: dict[str, Callable[[dict[str, Any]], object]] = {
@@ -385,37 +374,39 @@ def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | No
             try:
                 check({column: value})
             except PlanError as exc:
-                raise PlanError(f"{source}: {exc}{_line_in_table(text, table, column)}") from None
+                raise PlanError(f"{source}: {exc}{line_in_table(text, table, column)}") from None
 
 
 def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -> FillPlan:
     known = set(_SCALAR_KEYS) | set(_LIST_KEYS) | set(_TABLE_KEYS)
     for key in data:
         if key not in known:
-            raise PlanError(f"{source}: unknown key {key!r}{_line_of(text, key)}")
+            raise PlanError(f"{source}: unknown key {shown_value(key)}{line_of(text, key)}")
     fmt = data.get("format", PLAN_FORMAT)
     if fmt != PLAN_FORMAT:
-        raise PlanError(f"{source}: plan format {fmt!r} is not supported (this Kinfill reads {PLAN_FORMAT})")
+        raise PlanError(
+            f"{source}: plan format {shown_value(fmt)} is not supported (this Kinfill reads {PLAN_FORMAT})"
+        )
     kwargs: dict[str, Any] = {}
     for key, types in _SCALAR_KEYS.items():
         if key in data:
             value = data[key]
             if isinstance(value, bool) or not isinstance(value, types):
                 want = {"str": "text", "int": "a whole number"}[types[0].__name__]
-                where = _line_of(text, key)
-                raise PlanError(f"{source}: {key} must be {want}; got {value!r}{where}")
+                where = line_of(text, key)
+                raise PlanError(f"{source}: {key} must be {want}; got {shown_value(value)}{where}")
             if key != "format":
                 kwargs[key] = value
     for key in _LIST_KEYS:
         if key in data:
             value = data[key]
             if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
-                where = _line_of(text, key)
+                where = line_of(text, key)
                 raise PlanError(f"{source}: {key} must be a list of column names{where}")
             kwargs[key] = tuple(value)
     for key in _TABLE_KEYS:
         if key in data and not isinstance(data[key], Mapping):
-            raise PlanError(f"{source}: {key} must be a table of column = value{_line_of(text, key)}")
+            raise PlanError(f"{source}: {key} must be a table of column = value{line_of(text, key)}")
     _check_table_entries(data, source=source, text=text)
     kwargs["weights"] = dict(data.get("weights", {}))
     kwargs["decimals"] = dict(data.get("decimals", {}))
@@ -423,13 +414,13 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
     bounds: dict[str, Bound] = {}
     for column, sides in dict(data.get("bounds", {})).items():
         if not isinstance(sides, Mapping) or set(sides) - {"lower", "upper"}:
-            where = _line_in_table(text, "bounds", column)
+            where = line_in_table(text, "bounds", column)
             raise PlanError(f"{source}: bounds.{column} must be a table with lower and/or upper{where}")
         bounds[column] = (sides.get("lower"), sides.get("upper"))
         try:
             _check_bounds({column: bounds[column]})
         except PlanError as exc:
-            raise PlanError(f"{source}: {exc}{_line_in_table(text, 'bounds', column)}") from None
+            raise PlanError(f"{source}: {exc}{line_in_table(text, 'bounds', column)}") from None
     kwargs["bounds"] = bounds
     try:
         return FillPlan(**kwargs)

@@ -198,3 +198,48 @@ def test_an_export_too_large_for_xlsx_suggests_csv(tmp_path, monkeypatch) -> Non
     with pytest.raises(ExportError, match=r"export as \.csv instead"):
         write_result(tmp_path / "out.xlsx", None, result, result.plan)
     assert files_in(tmp_path) == []
+
+
+@pytest.mark.parametrize("suffix", SUFFIXES)
+@pytest.mark.parametrize("dangling", [False, True])
+def test_a_link_at_the_target_is_replaced_never_written_through(tmp_path, suffix, dangling) -> None:
+    elsewhere = tmp_path / "elsewhere"
+    elsewhere.mkdir()
+    victim = elsewhere / f"victim{suffix}"
+    if not dangling:
+        victim.write_bytes(b"someone else's file")
+    out = tmp_path / "out" / f"out{suffix}"
+    out.parent.mkdir()
+    out.symlink_to(victim)
+    result = small_result()
+    write_result(out, None, result, result.plan)
+    assert not out.is_symlink() and out.stat().st_size > 1000
+    assert files_in(elsewhere) == ([] if dangling else [victim.name])
+    if not dangling:
+        assert victim.read_bytes() == b"someone else's file"
+
+
+@pytest.mark.parametrize("suffix", SUFFIXES)
+def test_a_link_to_the_input_is_refused(tmp_path, suffix) -> None:
+    sheet = lab_sheet(tmp_path)
+    source = tmp_path / f"lab{suffix}"
+    source.write_bytes(b"the user's data")
+    sheet.source = type(sheet.source)(**{**sheet.source.__dict__, "path": source})
+    link = tmp_path / "out" / f"out{suffix}"
+    link.parent.mkdir()
+    link.symlink_to(source)
+    with pytest.raises(ExportError, match="it is the input file"):
+        write_result(link, sheet, fake_result(sheet.frame), LAB_PLAN)
+    assert source.read_bytes() == b"the user's data" and link.is_symlink()
+
+
+@pytest.mark.parametrize("suffix", SUFFIXES)
+def test_an_export_removes_what_a_killed_export_left(tmp_path, suffix) -> None:
+    from imputer_app import files
+
+    left = tmp_path / f".out{suffix}.89abcdef{_atomic.TEMP_SUFFIX}"  # no running process owns it
+    left.write_bytes(b"5 MB of half an export")
+    os.utime(left, (files.STARTED - 60, files.STARTED - 60))
+    result = small_result()
+    written = write_result(tmp_path / f"out{suffix}", None, result, result.plan)
+    assert files_in(tmp_path) == sorted(p.name for p in written)
