@@ -15,16 +15,7 @@ from typing import TYPE_CHECKING, Any
 
 from PySide6.QtCore import QModelIndex, Qt, Signal
 from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent
-from PySide6.QtWidgets import (
-    QLabel,
-    QMainWindow,
-    QMenu,
-    QScrollArea,
-    QSplitter,
-    QTabWidget,
-    QToolBar,
-    QWidget,
-)
+from PySide6.QtWidgets import QLabel, QMainWindow, QMenu, QScrollArea, QSplitter, QToolBar, QWidget
 
 from imputer_app.gui import file_actions as fa
 from imputer_app.gui import window_layout
@@ -34,6 +25,7 @@ from imputer_app.gui.column_setup import ColumnSetup
 from imputer_app.gui.data_view import DataView
 from imputer_app.gui.donor_panel import DonorPanel
 from imputer_app.gui.markers import CENSORED, palette_is_dark
+from imputer_app.gui.panel_tabs import PanelTabs
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
 from imputer_app.gui.state import Session
@@ -47,7 +39,6 @@ if TYPE_CHECKING:
     from imputer_app.sheets import Sheet
 
 log = logging.getLogger(__name__)
-
 
 
 class MainWindow(QMainWindow):
@@ -78,18 +69,19 @@ class MainWindow(QMainWindow):
         self.toolbar: QToolBar | None = None
         self.setAcceptDrops(True)
         self._build()
-        self.actions_ = build_actions(self)
-        build_menus(self, self.actions_)
+        self.actions_ = build_actions(self, self._slots())
+        self.toolbar = build_menus(self, self.actions_, self.recent_menu)
         self.session.subscribe(self._on_session)
-        self._sizes_restored = window_layout.restore_layout(self)
+        self._sizes_restored = window_layout.restore_layout(
+            self, self.settings, self.splitter, self.table_split
+        )
         self.recent_changed(self.settings.recent_files())
         self._update_title()
         self._update_actions()
 
     # ------------------------------------------------------------------ layout
     def _build(self) -> None:
-        self.setup = ColumnSetup(self)
-        self.setup.plan_changed.connect(self._on_plan_changed)
+        self.setup = ColumnSetup(self, session=self.session)
         setup_scroll = QScrollArea(self)
         setup_scroll.setObjectName("setupScroll")
         setup_scroll.setAccessibleName("Column setup area")
@@ -105,37 +97,24 @@ class MainWindow(QMainWindow):
         self.table.selectionModel().currentChanged.connect(self._on_current_cell)
         self.data.cell_not_found.connect(lambda text: self.statusBar().showMessage(text, 5000))
 
-        self.tabs = QTabWidget(self)
-        self.tabs.setObjectName("panelTabs")
-        self.tabs.setAccessibleName("Recovery test, donors and unfilled cells")
-        self.recovery_panel = RecoveryPanel(self.tabs)
+        self.tabs = PanelTabs(self)
+        self.recovery_panel = RecoveryPanel(self.tabs, session=self.session)
         self.donor_panel = DonorPanel(self.tabs)
         self.unfilled_panel = UnfilledPanel(self.tabs)
-        self._pages: dict[QWidget, QWidget] = {}
-        self.tabs.setToolTip("Recovery test, donors of the selected cell, and cells left empty")
-        for panel, title, tip in (
+        self.tabs.add_panels([
             (self.recovery_panel, "&Recovery test", "Choose k: hide known values and score every k"),
             (self.donor_panel, "&Donors", "Where the selected filled value came from"),
             (self.unfilled_panel, "U&nfilled", "Cells the fill could not fill, with the reason"),
-        ):
-            # A scroll area lets the panels column be narrower than a panel on small screens.
-            page = QScrollArea(self.tabs)
-            page.setObjectName(f"{panel.objectName()}Page")
-            page.setAccessibleName(title.replace("&", ""))
-            page.setWidgetResizable(True)
-            page.setFrameShape(QScrollArea.Shape.NoFrame)
-            page.setFocusPolicy(Qt.FocusPolicy.NoFocus)
-            page.setWidget(panel)
-            self._pages[panel] = page
-            self.tabs.addTab(page, title)
-            self.tabs.setTabToolTip(self.tabs.count() - 1, tip)
+        ])
         self.recovery_panel.use_k.connect(self._use_k)
         self.recovery_panel.report_ready.connect(self.session.set_report)
-        self.recovery_panel.report_ready.connect(lambda _r: self._fit_panel(self.recovery_panel))
+        self.recovery_panel.report_ready.connect(
+            lambda _r: self.tabs.fit_panel(self.recovery_panel, self.splitter)
+        )
         self.donor_panel.jump_requested.connect(self.select_cell)
         self.unfilled_panel.jump_requested.connect(self.select_cell)
 
-        self.splitter = QSplitter(Qt.Orientation.Horizontal, self)
+        self.splitter: QSplitter = QSplitter(Qt.Orientation.Horizontal, self)
         self.splitter.setObjectName("mainSplitter")
         self.splitter.setAccessibleName("Setup, data and panels")
         for widget in (setup_scroll, self.data, self.tabs):
@@ -156,6 +135,28 @@ class MainWindow(QMainWindow):
         self.statusBar().addPermanentWidget(self.busy)
         QWidget.setTabOrder(self.setup.focus_chain()[-1], self.table)
         QWidget.setTabOrder(self.gap_map, self.tabs)
+
+    def _slots(self) -> dict[str, Callable[[], object]]:
+        """What each action of the menus and toolbar does (see :func:`window_actions.build_actions`)."""
+        focus = Qt.FocusReason.ShortcutFocusReason
+        return {
+            "open": self.open_dialog,
+            "open_options": lambda: self.open_dialog(with_options=True),
+            "open_plan": self.open_plan,
+            "save_plan": self.save_plan,
+            "export": self.export,
+            "quit": self.close,
+            "undo": self.undo,
+            "redo": self.redo,
+            "recovery": self.run_recovery_test,
+            "preview": self.preview_fill,
+            "apply": self.apply_fill,
+            "next_gap": self.next_gap,
+            "focus_setup": lambda: self.setup.table.setFocus(focus),
+            "focus_table": lambda: self.table.setFocus(focus),
+            "focus_panels": lambda: self.tabs.setFocus(focus),
+            "about": self.show_about,
+        }
 
     # ------------------------------------------------------------- background
     def run_job(self, title: str, job: Callable[[Any, Any], Any], on_done: Callable[[Any], None]) -> bool:
@@ -252,13 +253,7 @@ class MainWindow(QMainWindow):
         self.open_path(path, options, confirmed=True)
 
     def _show_sheet(self, sheet: Sheet) -> None:
-        self.recovery_panel.cancel()  # a test of the previous sheet must not report on this one
-        roles = _default_roles(sheet)
-        self.session.load(sheet)
-        self.setup.set_sheet(sheet, self.session.plan, roles)
-        plan = self.setup.plan()
-        if plan is not None:
-            self.session.set_plan(plan)
+        self.session.load(sheet)  # the panels show it and the setup writes the plan for its columns
         self.recent_changed(self.settings.add_recent(sheet.source.path))
         self.settings.set_last_folder(sheet.source.path)
         problems = "; ".join(sheet.problems[:3])
@@ -288,12 +283,8 @@ class MainWindow(QMainWindow):
         self.recent_changed([])
 
     # ------------------------------------------------------------------- plans
-    def _on_plan_changed(self, plan: FillPlan) -> None:
-        self.session.set_plan(plan)
-        self.settings.save_options(plan)
-
     def _use_k(self, k: int) -> None:
-        self.setup.set_k(k)
+        # The panel has already put k into the session's plan; every view follows from there.
         self.statusBar().showMessage(f"k set to {k}; preview the fill to see its effect.", 6000)
 
     def open_plan(self, path: str | Path | None = None) -> None:
@@ -310,13 +301,13 @@ class MainWindow(QMainWindow):
         except Exception as exc:
             self.show_error(str(exc))
             return
-        self.setup.set_plan(plan)
+        self.session.set_plan(plan)
         self.statusBar().showMessage(f"Plan {path.name} loaded.", 5000)
 
     def save_plan(self, path: str | Path | None = None) -> Path | None:
-        """Save the setup's plan as ``*.plan.toml``."""
-        plan = self.setup.plan() if self.session.sheet is not None else self.session.plan
-        if plan is None:
+        """Save the session's plan as ``*.plan.toml``."""
+        plan = self.session.plan
+        if self.session.plan_problem is not None:
             self.show_error("The settings are not valid yet; see the note under the setup.")
             return None
         target = Path(path) if path is not None else fa.ask_plan_path(self, save=True)
@@ -333,7 +324,7 @@ class MainWindow(QMainWindow):
     # -------------------------------------------------------------------- fill
     def run_recovery_test(self) -> None:
         """Fill > Run recovery test."""
-        self.show_panel(self.recovery_panel)
+        self.tabs.show_panel(self.recovery_panel)
         self.recovery_panel.run()
 
     def preview_fill(self) -> None:
@@ -432,43 +423,31 @@ class MainWindow(QMainWindow):
             notes = sheet.cell_notes if sheet is not None else None
             label = self.table_model.row_label(row)
             self.donor_panel.show_cell(result, label, self.table_model.column_names()[col], notes=notes)
-            if self.table_model.is_filled(row, col) and self.current_panel() is not self.unfilled_panel:
-                self.show_panel(self.donor_panel)
+            if self.table_model.is_filled(row, col) and self.tabs.current_panel() is not self.unfilled_panel:
+                self.tabs.show_panel(self.donor_panel)
         else:
             self.donor_panel.clear()
 
     def show_panel(self, panel: QWidget) -> None:
         """Bring a panel's tab to the front."""
-        self.tabs.setCurrentWidget(self._pages.get(panel, panel))
-
-    def _fit_panel(self, panel: QWidget) -> None:
-        """Widen the panels column (from the table) when a panel has grown beyond it."""
-        page = self._pages.get(panel)
-        if not isinstance(page, QScrollArea):
-            return
-        missing = panel.minimumSizeHint().width() - page.viewport().width()
-        sizes = self.splitter.sizes()
-        if missing > 0 and sizes[1] - missing > 300:
-            self.splitter.setSizes([sizes[0], sizes[1] - missing, sizes[2] + missing])
+        self.tabs.show_panel(panel)
 
     def panels(self) -> list[QWidget]:
         """The panels of the tabs: recovery test, donors, unfilled cells."""
-        return list(self._pages)
+        return self.tabs.panels()
 
     def current_panel(self) -> QWidget | None:
         """The panel whose tab is in front."""
-        page = self.tabs.currentWidget()
-        return next((p for p, w in self._pages.items() if w is page), None)
+        return self.tabs.current_panel()
 
     # ------------------------------------------------------------------ session
     def _on_session(self, event: str) -> None:
         if event == "sheet":
             self.data.set_sheet(self.session.sheet)
-            self.recovery_panel.set_source(self.session.sheet, self.session.plan)
         if event in ("sheet", "preview", "applied"):
             self._refresh_layer()
-        if event == "plan" and self.session.sheet is not None:
-            self.recovery_panel.set_source(self.session.sheet, self.session.plan)
+        if event == "plan" and self.session.plan_problem is None:
+            self.settings.save_options(self.session.plan)
         self._update_title()
         self._update_actions()
 
@@ -507,7 +486,7 @@ class MainWindow(QMainWindow):
             "undo": self.session.can_undo and not busy,
             "redo": self.session.can_redo and not busy,
             "recovery": has,
-            "preview": has and not busy and self.setup.plan() is not None,
+            "preview": has and not busy and self.session.plan_problem is None,
             "apply": self.session.can_apply and not busy,
             "next_gap": has,
         }
@@ -551,11 +530,13 @@ class MainWindow(QMainWindow):
         super().showEvent(event)
         if not self._sizes_restored:
             self._sizes_restored = True
-            window_layout.share_width(self)
+            window_layout.share_width(
+                self.width(), self.splitter, self.table_split, self.setup, self.tabs.panels()
+            )
 
     def save_layout(self) -> None:
         """Remember geometry and splitter positions."""
-        window_layout.save_layout(self)
+        window_layout.save_layout(self, self.settings, self.splitter, self.table_split)
 
     def closeEvent(self, event: QCloseEvent) -> None:
         """Ask before losing an applied fill that was not exported; stop background work."""
@@ -567,8 +548,3 @@ class MainWindow(QMainWindow):
         self.recovery_panel.shutdown()
         event.accept()
 
-
-def _default_roles(sheet: Sheet) -> dict[str, str]:
-    from imputer_app.engine import default_roles
-
-    return default_roles(sheet)

@@ -4,8 +4,9 @@ The user sets the share of known cells to hide, the number of repeats, the k ran
 the hiding style, and runs :func:`imputer_app.validation.recovery_test` in a worker
 thread (:class:`~imputer_app.gui.workers.TaskRunner`). The result is shown three ways:
 a chart of error against k (drawn by :func:`imputer_app.charts.error_vs_k.plot_error_vs_k`),
-the numbers per k in a table, and one summary sentence. Buttons hand the chosen k to
-the main window through :attr:`RecoveryPanel.use_k`.
+the numbers per k in a table, and one summary sentence. Buttons write the chosen k
+into the session's plan (every view redraws from there) and then emit
+:attr:`RecoveryPanel.use_k`.
 
 Words and numbers come from :mod:`imputer_app.gui.recovery_logic` (Qt-free).
 """
@@ -15,7 +16,7 @@ from __future__ import annotations
 import itertools
 import logging
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
 from matplotlib.figure import Figure
@@ -51,6 +52,7 @@ from imputer_app.gui.recovery_logic import (
     report_rows,
     summary_text,
 )
+from imputer_app.gui.state import Session
 from imputer_app.gui.widgets import (
     CompactSplitter,
     RecordTable,
@@ -63,6 +65,12 @@ from imputer_app.gui.widgets import (
 )
 from imputer_app.gui.workers import TaskRunner
 from imputer_app.plan import FillPlan
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+    from imputer_app.sheets import Sheet
+    from imputer_app.validation import RecoveryReport
 
 log = logging.getLogger(__name__)
 
@@ -80,7 +88,8 @@ class RecoveryPanel(QWidget):
     Signals
     -------
     use_k(int)
-        The user chose a k (best, one-SE or a row of the table).
+        The user chose a k (best, one-SE or a row of the table); it is already in the
+        session's plan.
     report_ready(RecoveryReport)
         A test finished; the report is also in :attr:`report`.
     """
@@ -88,15 +97,16 @@ class RecoveryPanel(QWidget):
     use_k = Signal(int)
     report_ready = Signal(object)
 
-    def __init__(self, parent: QWidget | None = None) -> None:
+    def __init__(self, parent: QWidget | None = None, session: Session | None = None) -> None:
         super().__init__(parent)
         self.setObjectName("recoveryPanel")
         self.setAccessibleName("Recovery test")
-        self._data: Any = None
-        self._plan: FillPlan | None = None
-        self._report: Any = None
-        self._report_source: tuple[Any, FillPlan | None] = (None, None)
-        self._run_source: tuple[Any, FillPlan | None] = (None, None)
+        self.session = session if session is not None else Session()
+        self._source: Sheet | pd.DataFrame | None = None
+        self._report: RecoveryReport | None = None
+        # What a report was made from: the data and the plan's settings other than k.
+        self._report_source: tuple[object, dict[str, Any] | None] = (None, None)
+        self._run_source: tuple[object, dict[str, Any] | None] = (None, None)
         self._summary = IDLE_TEXT
         self._busy = False
         self._narrow = False
@@ -108,6 +118,7 @@ class RecoveryPanel(QWidget):
         self._build()
         self._set_running(False)
         self._show_report(None)
+        self.session.subscribe(self._on_session)
 
     # ------------------------------------------------------------------ building
     def _build(self) -> None:
@@ -244,12 +255,12 @@ class RecoveryPanel(QWidget):
         """The "use this k" buttons and the chart's controls; they wrap onto more rows when narrow."""
         self.use_best_button = button(self, "recoveryUseBest", "Use &best k",
                                       "Set k to the value with the lowest error")
-        self.use_best_button.clicked.connect(lambda: self._emit_k(self._report.best_k))
+        self.use_best_button.clicked.connect(lambda: self._use_report_k(one_se=False))
         self.use_one_se_button = button(
             self, "recoveryUseOneSe", "Use &one-SE k",
             "Set k to the largest k whose error is within one standard error of the best "
             "(a smoother fill that does about as well)")
-        self.use_one_se_button.clicked.connect(lambda: self._emit_k(self._report.best_k_1se))
+        self.use_one_se_button.clicked.connect(lambda: self._use_report_k(one_se=True))
         self.use_selected_button = button(self, "recoveryUseSelected", "Use selected k",
                                           "Set k to the k of the selected table row (or press Enter "
                                           "on the row)")
@@ -281,15 +292,31 @@ class RecoveryPanel(QWidget):
             QWidget.setTabOrder(first, second)
 
     # ------------------------------------------------------------------ API
-    def set_source(self, data: Any, plan: FillPlan) -> None:
-        """Set what to test: ``data`` (Sheet or DataFrame) filled by ``plan``.
+    def set_source(self, data: Sheet | pd.DataFrame | None, plan: FillPlan | None = None) -> None:
+        """Test ``data`` (Sheet or DataFrame) instead of the session's sheet; ``plan`` goes to the session.
 
         The last report stays on screen; when it was made for other data or settings
         (other than k), the panel says so. A running test is not interrupted.
         """
-        self._data = data
-        self._plan = plan
-        ceiling = k_ceiling(data, plan) if data is not None else 1
+        self._source = data
+        if plan is not None:
+            self.session.set_plan(plan)
+        self._follow_source()
+
+    @property
+    def _data(self) -> Sheet | pd.DataFrame | None:
+        """What is tested: the data given to :meth:`set_source`, else the session's sheet."""
+        return self._source if self._source is not None else self.session.sheet
+
+    def _on_session(self, event: str) -> None:
+        if event == "sheet":
+            self.cancel()  # a test of the previous sheet must not report on the new one
+        if event in ("sheet", "plan"):
+            self._follow_source()
+
+    def _follow_source(self) -> None:
+        data = self._data
+        ceiling = k_ceiling(data, self.session.plan) if data is not None else 1
         for spin in (self.k_from, self.k_to):
             spin.setMaximum(ceiling)
         if self.k_to.value() <= 1 < ceiling:
@@ -298,7 +325,7 @@ class RecoveryPanel(QWidget):
         self._set_running(self._busy)
 
     @property
-    def report(self) -> Any:
+    def report(self) -> RecoveryReport | None:
         """The latest :class:`~imputer_app.validation.RecoveryReport`, or None."""
         return self._report
 
@@ -312,14 +339,15 @@ class RecoveryPanel(QWidget):
 
     def run(self) -> None:
         """Start the recovery test in a worker thread (does nothing without a source)."""
-        if self._data is None or self._plan is None or self._busy:
+        data, plan = self._data, self.session.plan
+        if data is None or self._busy:
             return
-        self._run_source = (self._data, self._plan)
+        self._run_source = (data, _settings_key(plan))
         self._show_status("", problem=False)
         self._set_running(True)
         self.progress.setRange(0, 0)  # busy until the first progress report
         # A run that just ended may still be winding its thread down; start() handles that.
-        self.runner.start(self.request().job(self._data, self._plan))
+        self.runner.start(self.request().job(data, plan))
 
     def cancel(self) -> None:
         """Stop a running test; the previous report and everything else stay as they were."""
@@ -361,7 +389,7 @@ class RecoveryPanel(QWidget):
         self.progress.setRange(0, max(1, total))
         self.progress.setValue(min(done, max(1, total)))
 
-    def _on_finished(self, report: Any) -> None:
+    def _on_finished(self, report: RecoveryReport) -> None:
         self._report = report
         self._report_source = self._run_source
         try:
@@ -405,7 +433,7 @@ class RecoveryPanel(QWidget):
         self.status.setVisible(bool(text))
         self.status_icon.setVisible(problem and bool(text))
 
-    def _show_report(self, report: Any) -> None:
+    def _show_report(self, report: RecoveryReport | None) -> None:
         if report is None:
             self.model.set_rows([], headers=["k"])
             self._summary = IDLE_TEXT
@@ -428,7 +456,7 @@ class RecoveryPanel(QWidget):
         self._update_stale_note()
         self._update_choice_buttons()
 
-    def _fill_chart_columns(self, report: Any) -> None:
+    def _fill_chart_columns(self, report: RecoveryReport) -> None:
         kind = "number" if report.score_name == "score" else "category"
         columns = [c for c, k in report.kinds.items() if k == kind]
         self.chart_columns.blockSignals(True)
@@ -462,10 +490,9 @@ class RecoveryPanel(QWidget):
         return super().eventFilter(watched, event)
 
     def _update_stale_note(self) -> None:
-        data, plan = self._report_source
+        data, settings = self._report_source
         stale = self._report is not None and (
-            data is not self._data or plan is None or self._plan is None
-            or plan.replace(k=self._plan.k) != self._plan
+            data is not self._data or settings != _settings_key(self.session.plan)
         )
         text = self._summary
         if stale:
@@ -475,10 +502,11 @@ class RecoveryPanel(QWidget):
         self.summary.setVisible(self._report is not None)
 
     def _update_choice_buttons(self) -> None:
-        have = self._report is not None
-        if have:
-            self.use_best_button.setText(f"Use &best k ({self._report.best_k})")
-            self.use_one_se_button.setText(f"Use &one-SE k ({self._report.best_k_1se})")
+        report = self._report
+        have = report is not None
+        if report is not None:
+            self.use_best_button.setText(f"Use &best k ({report.best_k})")
+            self.use_one_se_button.setText(f"Use &one-SE k ({report.best_k_1se})")
         else:
             self.use_best_button.setText("Use &best k")
             self.use_one_se_button.setText("Use &one-SE k")
@@ -500,8 +528,13 @@ class RecoveryPanel(QWidget):
         if k is not None:
             self._emit_k(k)
 
+    def _use_report_k(self, *, one_se: bool) -> None:
+        if self._report is not None:
+            self._emit_k(self._report.best_k_1se if one_se else self._report.best_k)
+
     def _emit_k(self, k: int) -> None:
         self._show_status(f"k set to {format_value(k)}.", problem=False)
+        self.session.set_k(k)
         self.use_k.emit(int(k))
 
     def keyPressEvent(self, event: QKeyEvent) -> None:
@@ -510,3 +543,8 @@ class RecoveryPanel(QWidget):
             self.run()
             return
         super().keyPressEvent(event)
+
+
+def _settings_key(plan: FillPlan) -> dict[str, Any]:
+    """The plan's settings other than k, as plain data (a report stays current when only k changes)."""
+    return plan.replace(k=1).to_dict()
