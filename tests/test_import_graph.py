@@ -20,7 +20,7 @@ def circles(graph: grimp.ImportGraph) -> list[list[str]]:
     found: list[list[str]] = []
 
     def visit(module: str) -> None:
-        # Depth-first search with an explicit stack, so a long chain of imports never hits Python's recursion limit.
+        # Depth-first search with an explicit stack: a long import chain never hits the recursion limit.
         work = [(module, iter(sorted(graph.find_modules_directly_imported_by(module))))]
         index[module] = low[module] = len(index)
         stack.append(module)

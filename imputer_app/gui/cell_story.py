@@ -14,19 +14,10 @@ from typing import Any
 import pandas as pd
 
 from imputer_app.gui.formatting import format_label, format_value
+from imputer_app.words import STATE_WORDS, SUBSTITUTION_PHRASES
 
-#: Which censored handling each substitution method stands for.
-SUBSTITUTIONS = {
-    "limit": "replaced by its limit",
-    "half_limit": "replaced by half its limit",
-    "limit_sqrt2": "replaced by its limit divided by √2 (Hornung & Reed 1990)",
-}
-
-ORIGINAL_STATES = {
-    "missing": "empty in the sheet",
-    "censored": "a below- or above-limit entry",
-    "text_in_number": "text in a number column (unreadable as a number)",
-}
+#: How a substituted cell's method is told: "replaced by " + the shared phrase.
+SUBSTITUTED = {method: f"replaced by {phrase}" for method, phrase in SUBSTITUTION_PHRASES.items()}
 
 
 @dataclass(frozen=True)
@@ -117,8 +108,8 @@ def method_words(method: str, plan: Any, numeric: bool) -> str:
         if numeric:
             return "column average (no donor was available)"
         return "column's most common value (no donor was available)"
-    if method in SUBSTITUTIONS:
-        return SUBSTITUTIONS[method]
+    if method in SUBSTITUTED:
+        return SUBSTITUTED[method]
     return method or "–"
 
 
@@ -197,13 +188,13 @@ def _filled_story(result: Any, entry: pd.Series, where: str, notes: pd.DataFrame
         original = _censored_entry(notes, entry["row"], column) or "a censored entry (text not shown here)"
         facts.append(("Original entry", original))
     else:
-        facts.append(("Before", ORIGINAL_STATES.get(state, state)))
-    if method in SUBSTITUTIONS:
+        facts.append(("Before", STATE_WORDS.get(state, state)))
+    if method in SUBSTITUTED:
         note = str(entry.get("note", "") or "")
         if note:
             facts.append(("Note", note))
         facts.append(("Flag", "stays marked as censored in every view and export"))
-        return CellStory("substituted", f"{where}: {value} ({SUBSTITUTIONS[method]})", facts)
+        return CellStory("substituted", f"{where}: {value} ({SUBSTITUTED[method]})", facts)
     k_used = entry.get("k")
     asked = getattr(getattr(result, "plan", None), "k", None)
     k_text = format_value(k_used)
