@@ -9,12 +9,16 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import pandas as pd
 
 from imputer_app.gui.formatting import format_label, format_value
 from imputer_app.words import STATE_WORDS, SUBSTITUTION_PHRASES
+
+if TYPE_CHECKING:
+    from imputer_app.engine import FillResult
+    from imputer_app.plan import FillPlan
 
 #: How a substituted cell's method is told: "replaced by " + the shared phrase.
 SUBSTITUTED = {method: f"replaced by {phrase}" for method, phrase in SUBSTITUTION_PHRASES.items()}
@@ -75,14 +79,14 @@ def _matches(frame: pd.DataFrame | None, row_label: Any, column: str) -> pd.Data
     return frame[mask.to_numpy(dtype=bool)]
 
 
-def _is_number_column(result: Any, column: str) -> bool:
+def _is_number_column(result: FillResult, column: str) -> bool:
     frame = getattr(result, "frame", None)
     if frame is None or column not in frame.columns:
         return True
     return bool(pd.api.types.is_numeric_dtype(frame[column]))
 
 
-def method_words(method: str, plan: Any, numeric: bool) -> str:
+def method_words(method: str, plan: FillPlan | None, numeric: bool) -> str:
     """Return how a value was made, in plain words.
 
     Parameters
@@ -176,7 +180,7 @@ def _donors(entry: pd.Series) -> tuple[Donor, ...]:
     )
 
 
-def _filled_story(result: Any, entry: pd.Series, where: str, notes: pd.DataFrame | None) -> CellStory:
+def _filled_story(result: FillResult, entry: pd.Series, where: str, notes: pd.DataFrame | None) -> CellStory:
     column = str(entry["column"])
     numeric = _is_number_column(result, column)
     method = str(entry.get("method", ""))
@@ -214,7 +218,9 @@ def _filled_story(result: Any, entry: pd.Series, where: str, notes: pd.DataFrame
     return CellStory("filled", f"{where}: filled with {value}", facts, support, support_text, donors)
 
 
-def describe_cell(result: Any, row_label: Any, column: str, notes: pd.DataFrame | None = None) -> CellStory:
+def describe_cell(
+    result: FillResult, row_label: Any, column: str, notes: pd.DataFrame | None = None
+) -> CellStory:
     """Describe one cell of a fill preview in plain words.
 
     Parameters
@@ -247,6 +253,6 @@ def describe_cell(result: Any, row_label: Any, column: str, notes: pd.DataFrame 
         reason = str(left.iloc[0].get("reason", "") or "no reason recorded")
         return CellStory("unfilled", f"{where}: not filled", [("Reason", reason)])
     frame = result.frame
-    if column in frame.columns and row_label in frame.index and pd.isna(frame.at[row_label, column]):
+    if column in frame.columns and row_label in frame.index and bool(pd.isna(frame.loc[row_label, column])):
         return CellStory("unfilled", f"{where}: not filled", [("Reason", "not a fill column in this plan")])
     return CellStory("measured", f"{where}: a value from the sheet; nothing was filled here.")

@@ -11,10 +11,10 @@ from __future__ import annotations
 import logging
 from collections.abc import Callable
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, TypeVar
 
-from PySide6.QtCore import QModelIndex, Qt, Signal
-from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent
+from PySide6.QtCore import QEvent, QModelIndex, Qt, Signal
+from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent, QShowEvent
 from PySide6.QtWidgets import QLabel, QMainWindow, QMenu, QScrollArea, QSplitter, QToolBar, QWidget
 
 from imputer_app.gui import file_actions as fa
@@ -37,8 +37,11 @@ from imputer_app.plan import FillPlan
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
     from imputer_app.sheets import Sheet
+    from imputer_app.work import CancelFlag, Progress
 
 log = logging.getLogger(__name__)
+
+_T = TypeVar("_T")
 
 
 class MainWindow(QMainWindow):
@@ -159,7 +162,9 @@ class MainWindow(QMainWindow):
         }
 
     # ------------------------------------------------------------- background
-    def run_job(self, title: str, job: Callable[[Any, Any], Any], on_done: Callable[[Any], None]) -> bool:
+    def run_job(
+        self, title: str, job: Callable[[Progress, CancelFlag], _T], on_done: Callable[[_T], None]
+    ) -> bool:
         """Run ``job(progress, cancel)`` off the GUI thread; ``on_done(result)`` on success.
 
         Returns False (and starts nothing) while another job of the window is still at work:
@@ -233,7 +238,7 @@ class MainWindow(QMainWindow):
             self._show_sheet(sheet)
             return
 
-        def job(progress: Any, cancel: Any) -> Sheet:
+        def job(progress: Progress, cancel: CancelFlag) -> Sheet:
             from imputer_app.sheets import read_sheet
 
             return read_sheet(path, progress=progress, cancel=cancel, **options)
@@ -333,7 +338,7 @@ class MainWindow(QMainWindow):
         if sheet is None:
             return
 
-        def job(progress: Any, cancel: Any) -> FillResult:
+        def job(progress: Progress, cancel: CancelFlag) -> FillResult:
             from imputer_app.engine import impute
 
             return impute(sheet, plan, progress=progress, cancel=cancel)
@@ -381,7 +386,7 @@ class MainWindow(QMainWindow):
         if target is None:
             return
 
-        def job(progress: Any, cancel: Any) -> list[Path]:
+        def job(progress: Progress, cancel: CancelFlag) -> list[Path]:
             from imputer_app.sheets import write_result
 
             return write_result(target, sheet, result, result.plan, report, progress=progress, cancel=cancel)
@@ -517,15 +522,13 @@ class MainWindow(QMainWindow):
         else:
             self.open_path(path)
 
-    def changeEvent(self, event: Any) -> None:
+    def changeEvent(self, event: QEvent) -> None:
         """Follow the system palette (light or dark markers)."""
-        from PySide6.QtCore import QEvent
-
         if event.type() in (QEvent.Type.PaletteChange, QEvent.Type.ApplicationPaletteChange):
             self.table_model.set_dark(palette_is_dark(self.palette()))
         super().changeEvent(event)
 
-    def showEvent(self, event: Any) -> None:
+    def showEvent(self, event: QShowEvent) -> None:
         """On the first show without remembered sizes, share the width sensibly."""
         super().showEvent(event)
         if not self._sizes_restored:
