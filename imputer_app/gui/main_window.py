@@ -15,24 +15,23 @@ from typing import TYPE_CHECKING, Any, TypeVar
 
 from PySide6.QtCore import QEvent, QModelIndex, Qt, Signal
 from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent, QShowEvent
-from PySide6.QtWidgets import QLabel, QMainWindow, QMenu, QScrollArea, QSplitter, QToolBar, QWidget
+from PySide6.QtWidgets import QMainWindow, QMenu, QSplitter, QToolBar, QWidget
 
 from imputer_app.gui import file_actions as fa
 from imputer_app.gui import window_layout
 from imputer_app.gui.about import AboutDialog
-from imputer_app.gui.busy import BusyBar
 from imputer_app.gui.column_setup import ColumnSetup
 from imputer_app.gui.data_view import DataView
 from imputer_app.gui.donor_panel import DonorPanel
 from imputer_app.gui.markers import CENSORED, palette_is_dark
 from imputer_app.gui.panel_tabs import PanelTabs
+from imputer_app.gui.plan_files import PlanFiles
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
 from imputer_app.gui.state import Session
 from imputer_app.gui.unfilled_panel import UnfilledPanel
-from imputer_app.gui.window_actions import build_actions, build_menus
-from imputer_app.gui.workers import TaskRunner
-from imputer_app.plan import FillPlan
+from imputer_app.gui.window_actions import build_actions, build_menus, enabled_actions, fill_recent_menu
+from imputer_app.gui.window_jobs import JobDesk
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
@@ -58,14 +57,10 @@ class MainWindow(QMainWindow):
         self.settings = settings or AppSettings()
         self.session = Session()
         self.session.plan = self.settings.last_options()
-        self.runner = TaskRunner(self)
-        self.runner.failed.connect(self._on_failed)
-        self.runner.cancelled.connect(
-            lambda: self.statusBar().showMessage("Stopped; nothing was changed.", 8000)
-        )
-        self.runner.finished.connect(self._on_finished)
+        self.jobs = JobDesk(self, self.statusBar(), self.show_error)
+        self.runner, self.busy = self.jobs.runner, self.jobs.busy
+        self.plan_files = PlanFiles(self, self.session, self.statusBar(), self.show_error)
         self.runner.running_changed.connect(lambda _r: self._update_actions())
-        self._on_done: Callable[[Any], None] | None = None
         #: False in unattended runs (``--screenshot``): problems go to the log, not to a message box.
         self.interactive = True
         self.recent_menu = QMenu("&Recent files", self)
@@ -85,14 +80,6 @@ class MainWindow(QMainWindow):
     # ------------------------------------------------------------------ layout
     def _build(self) -> None:
         self.setup = ColumnSetup(self, session=self.session)
-        setup_scroll = QScrollArea(self)
-        setup_scroll.setObjectName("setupScroll")
-        setup_scroll.setAccessibleName("Column setup area")
-        setup_scroll.setWidgetResizable(True)
-        setup_scroll.setWidget(self.setup)
-        setup_scroll.setMinimumWidth(240)
-        setup_scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
-        setup_scroll.setFocusPolicy(Qt.FocusPolicy.NoFocus)  # Tab goes to its controls, not to it
 
         self.data = DataView(self)
         self.table, self.table_model, self.gap_map = self.data.table, self.data.model, self.data.gap_map
@@ -104,11 +91,13 @@ class MainWindow(QMainWindow):
         self.recovery_panel = RecoveryPanel(self.tabs, session=self.session)
         self.donor_panel = DonorPanel(self.tabs)
         self.unfilled_panel = UnfilledPanel(self.tabs)
-        self.tabs.add_panels([
-            (self.recovery_panel, "&Recovery test", "Choose k: hide known values and score every k"),
-            (self.donor_panel, "&Donors", "Where the selected filled value came from"),
-            (self.unfilled_panel, "U&nfilled", "Cells the fill could not fill, with the reason"),
-        ])
+        self.tabs.add_panels(
+            [
+                (self.recovery_panel, "&Recovery test", "Choose k: hide known values and score every k"),
+                (self.donor_panel, "&Donors", "Where the selected filled value came from"),
+                (self.unfilled_panel, "U&nfilled", "Cells the fill could not fill, with the reason"),
+            ]
+        )
         self.recovery_panel.use_k.connect(self._use_k)
         self.recovery_panel.report_ready.connect(self.session.set_report)
         self.recovery_panel.report_ready.connect(
@@ -117,25 +106,12 @@ class MainWindow(QMainWindow):
         self.donor_panel.jump_requested.connect(self.select_cell)
         self.unfilled_panel.jump_requested.connect(self.select_cell)
 
-        self.splitter: QSplitter = QSplitter(Qt.Orientation.Horizontal, self)
-        self.splitter.setObjectName("mainSplitter")
-        self.splitter.setAccessibleName("Setup, data and panels")
-        for widget in (setup_scroll, self.data, self.tabs):
-            self.splitter.addWidget(widget)
-        self.splitter.setStretchFactor(0, 0)
-        self.splitter.setStretchFactor(1, 1)
-        self.splitter.setStretchFactor(2, 0)
-        self.splitter.setChildrenCollapsible(False)
+        setup_area = window_layout.setup_area(self.setup, self)
+        self.splitter: QSplitter = window_layout.main_splitter(self, setup_area, self.data, self.tabs)
         self.setCentralWidget(self.splitter)
-        self.summary = QLabel(self)
-        self.summary.setObjectName("sheetSummary")
-        self.summary.setAccessibleName("Sheet summary")
-        self.summary.setToolTip("Size of the sheet, its gaps, and what the fill shown over it holds")
-        self.summary.setContentsMargins(16, 0, 4, 0)  # keeps it apart from a long status message
+        self.summary = window_layout.summary_label(self)
         self.statusBar().setObjectName("statusBar")
         self.statusBar().addPermanentWidget(self.summary)
-        self.busy = BusyBar(self.runner, self)
-        self.statusBar().addPermanentWidget(self.busy)
         QWidget.setTabOrder(self.setup.focus_chain()[-1], self.table)
         QWidget.setTabOrder(self.gap_map, self.tabs)
 
@@ -165,42 +141,10 @@ class MainWindow(QMainWindow):
     def run_job(
         self, title: str, job: Callable[[Progress, CancelFlag], _T], on_done: Callable[[_T], None]
     ) -> bool:
-        """Run ``job(progress, cancel)`` off the GUI thread; ``on_done(result)`` on success.
-
-        Returns False (and starts nothing) while another job of the window is still at work:
-        one job at a time, so that, say, a dropped file never cancels an export half-way.
-        """
-        if self._on_done is not None:
-            busy = self.busy.label.text()
-            self.statusBar().showMessage(f"Still busy with: {busy} Wait, or press Cancel.", 6000)
-            return False
-        self._on_done = on_done
-        self.busy.start(title)
-        self.statusBar().showMessage(title)
-        self.runner.start(job)
+        """Run ``job(progress, cancel)`` off the GUI thread (see :meth:`JobDesk.run`)."""
+        started = self.jobs.run(title, job, on_done)
         self._update_actions()
-        return True
-
-    def _on_finished(self, result: Any) -> None:
-        handler, self._on_done = self._on_done, None
-        self.statusBar().clearMessage()
-        if handler is not None:
-            try:
-                handler(result)
-            except Exception as exc:
-                log.exception("could not show a result")
-                self.show_error(f"internal fault: {exc}")
-
-    def _on_cancelled(self) -> None:
-        self._on_done = None
-        self.statusBar().showMessage("Stopped; nothing was changed.", 8000)
-
-    def _on_failed(self, message: str, details: str) -> None:
-        self._on_done = None
-        if details:
-            log.error("background work failed:\n%s", details)
-        self.statusBar().showMessage("Failed; nothing was changed.", 8000)
-        self.show_error(message)
+        return started
 
     def show_error(self, message: str) -> None:
         """Show a one-line problem in a message box."""
@@ -268,20 +212,7 @@ class MainWindow(QMainWindow):
 
     def recent_changed(self, files: list[Path]) -> None:
         """Rebuild File > Recent files."""
-        menu: QMenu = self.recent_menu
-        menu.clear()
-        for number, path in enumerate(files, start=1):
-            action = menu.addAction(f"&{number} {path.name}")
-            action.setObjectName(f"actionRecent{number}")
-            action.setToolTip(str(path))
-            action.setStatusTip(str(path))
-            action.triggered.connect(lambda _c=False, p=path: self.open_path(p))
-        menu.setEnabled(bool(files))
-        if files:
-            menu.addSeparator()
-            clear = menu.addAction("&Clear list")
-            clear.setObjectName("actionClearRecent")
-            clear.triggered.connect(self._clear_recent)
+        fill_recent_menu(self.recent_menu, files, self.open_path, self._clear_recent)
 
     def _clear_recent(self) -> None:
         self.settings.clear_recent()
@@ -293,38 +224,12 @@ class MainWindow(QMainWindow):
         self.statusBar().showMessage(f"k set to {k}; preview the fill to see its effect.", 6000)
 
     def open_plan(self, path: str | Path | None = None) -> None:
-        """Load a ``*.plan.toml`` into the setup (its columns must exist in the sheet)."""
-        if self.session.sheet is None:
-            self.show_error("Open a sheet first; a plan is matched to the sheet's columns.")
-            return
-        path = Path(path) if path is not None else fa.ask_plan_path(self, save=False)
-        if path is None:
-            return
-        try:
-            plan = FillPlan.load(path)
-            plan.check_columns(list(map(str, self.session.sheet.frame.columns)))
-        except Exception as exc:
-            self.show_error(str(exc))
-            return
-        self.session.set_plan(plan)
-        self.statusBar().showMessage(f"Plan {path.name} loaded.", 5000)
+        """Make a ``*.plan.toml`` the session's plan (see :meth:`PlanFiles.open`)."""
+        self.plan_files.open(path)
 
     def save_plan(self, path: str | Path | None = None) -> Path | None:
-        """Save the session's plan as ``*.plan.toml``."""
-        plan = self.session.plan
-        if self.session.plan_problem is not None:
-            self.show_error("The settings are not valid yet; see the note under the setup.")
-            return None
-        target = Path(path) if path is not None else fa.ask_plan_path(self, save=True)
-        if target is None:
-            return None
-        try:
-            written = plan.save(target)
-        except Exception as exc:
-            self.show_error(str(exc))
-            return None
-        self.statusBar().showMessage(f"Plan saved to {written}.", 6000)
-        return written
+        """Save the session's plan as ``*.plan.toml`` (see :meth:`PlanFiles.save`)."""
+        return self.plan_files.save(path)
 
     # -------------------------------------------------------------------- fill
     def run_recovery_test(self) -> None:
@@ -480,22 +385,7 @@ class MainWindow(QMainWindow):
         if not hasattr(self, "actions_"):
             return
         busy = self.runner.is_running()
-        has = self.session.sheet is not None
-        enable = {
-            "open": not busy,
-            "open_options": not busy,
-            "recent": not busy,
-            "open_plan": has and not busy,
-            "save_plan": has,
-            "export": self.session.applied is not None and not busy,
-            "undo": self.session.can_undo and not busy,
-            "redo": self.session.can_redo and not busy,
-            "recovery": has,
-            "preview": has and not busy and self.session.plan_problem is None,
-            "apply": self.session.can_apply and not busy,
-            "next_gap": has,
-        }
-        for key, on in enable.items():
+        for key, on in enabled_actions(self.session, busy).items():
             action = self.actions_.get(key)
             if isinstance(action, QAction):
                 action.setEnabled(on)
@@ -550,4 +440,3 @@ class MainWindow(QMainWindow):
         self.runner.wait()
         self.recovery_panel.shutdown()
         event.accept()
-

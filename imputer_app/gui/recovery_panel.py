@@ -18,40 +18,32 @@ import logging
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
-from matplotlib.figure import Figure
-from PySide6.QtCore import QEvent, QObject, Qt, Signal
+from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QKeyEvent
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QComboBox,
-    QDoubleSpinBox,
     QFileDialog,
-    QGroupBox,
     QHBoxLayout,
     QHeaderView,
     QLabel,
     QProgressBar,
-    QSizePolicy,
-    QSpinBox,
-    QStackedWidget,
     QStyle,
     QVBoxLayout,
     QWidget,
 )
 
-from imputer_app.charts.error_vs_k import save_figure
-from imputer_app.gui.chart_view import draw_chart, fit_for_screen, palette_style
 from imputer_app.gui.formatting import format_value
 from imputer_app.gui.records_model import RAW_ROLE, RecordsModel
+from imputer_app.gui.recovery_chart import IDLE_TEXT, MAX_CHART_COLUMNS, ErrorChart
 from imputer_app.gui.recovery_logic import (
-    MASKINGS,
     RecoveryRequest,
     k_ceiling,
     report_headers,
     report_rows,
     summary_text,
 )
+from imputer_app.gui.recovery_settings import RecoverySettings
 from imputer_app.gui.state import Session
 from imputer_app.gui.widgets import (
     CompactSplitter,
@@ -74,11 +66,6 @@ if TYPE_CHECKING:
 
 log = logging.getLogger(__name__)
 
-SPIN_WIDTH = 90
-CHART_MIN_HEIGHT = 150
-MAX_CHART_COLUMNS = 10  # more fill columns: the chart starts with the overall error only
-NARROW_CHART = 760  # pixels; below this the legend goes under the chart
-IDLE_TEXT = "Run the recovery test to see how well each k recovers known values."
 CHART_FILTERS = "PNG image (*.png);;SVG drawing (*.svg)"
 
 
@@ -109,7 +96,6 @@ class RecoveryPanel(QWidget):
         self._run_source: tuple[object, dict[str, Any] | None] = (None, None)
         self._summary = IDLE_TEXT
         self._busy = False
-        self._narrow = False
         self.runner = TaskRunner(self)
         self.runner.progressed.connect(self._on_progress)
         self.runner.finished.connect(self._on_finished)
@@ -123,7 +109,12 @@ class RecoveryPanel(QWidget):
     # ------------------------------------------------------------------ building
     def _build(self) -> None:
         layout = QVBoxLayout(self)
-        layout.addWidget(self._build_settings())
+        self.settings_box = RecoverySettings(self)
+        self.hide_fraction, self.repeats = self.settings_box.hide_fraction, self.settings_box.repeats
+        self.k_from, self.k_to = self.settings_box.k_from, self.settings_box.k_to
+        self.masking, self.seed = self.settings_box.masking, self.settings_box.seed
+        self.settings_flow = self.settings_box.flow
+        layout.addWidget(self.settings_box)
         layout.addLayout(self._build_run_row())
         self.status = text_label(self, "recoveryStatus", "Recovery test message",
                                  "Messages about the last run (errors, stops, remarks)")
@@ -146,59 +137,6 @@ class RecoveryPanel(QWidget):
         layout.addWidget(self._build_choices())
         self._set_tab_order()
 
-    def _spin(self, box: QWidget, name: str, accessible: str, tip: str, low: int, high: int) -> QSpinBox:
-        spin = named(QSpinBox(box), name, accessible, tip)
-        spin.setRange(low, high)
-        spin.setMaximumWidth(SPIN_WIDTH)
-        return spin
-
-    def _build_settings(self) -> QGroupBox:
-        box = named(QGroupBox("Recovery test settings", self), "recoverySettings", "Recovery test settings",
-                    "Hide known cells, fill them for every k and measure the error")
-        self.hide_fraction = named(
-            QDoubleSpinBox(box), "recoveryHideFraction", "Share of known cells to hide",
-            "Share of each fill column's known cells hidden in each repeat (0.10 hides 10%)")
-        self.hide_fraction.setRange(0.01, 0.5)
-        self.hide_fraction.setSingleStep(0.01)
-        self.hide_fraction.setDecimals(2)
-        self.hide_fraction.setValue(0.1)
-        self.hide_fraction.setMaximumWidth(SPIN_WIDTH)
-        self.repeats = self._spin(box, "recoveryRepeats", "Repeats",
-                                  "How many times to hide a fresh set of cells; more repeats give "
-                                  "steadier errors and smaller standard errors", 1, 50)
-        self.repeats.setValue(5)
-        self.k_from = self._spin(box, "recoveryKFrom", "Smallest k", "Smallest number of donors to try", 1, 1)
-        self.k_to = self._spin(box, "recoveryKTo", "Largest k",
-                               "Largest number of donors to try (at most 100, and no more than "
-                               "the donors available)", 1, 1)
-        self.k_from.valueChanged.connect(lambda v: self.k_to.setValue(max(v, self.k_to.value())))
-        self.k_to.valueChanged.connect(lambda v: self.k_from.setValue(min(v, self.k_from.value())))
-        k_range = QWidget(box)
-        k_row = QHBoxLayout(k_range)
-        k_row.setContentsMargins(0, 0, 0, 0)
-        k_row.addWidget(self.k_from)
-        k_row.addWidget(buddy("to", self.k_to, k_range))
-        k_row.addWidget(self.k_to)
-        k_row.addStretch(1)
-        self.masking = compact(named(QComboBox(box), "recoveryMasking", "Hiding style",
-                                     "How the cells to hide are chosen"), 12)
-        for i, (value, label, tip) in enumerate(MASKINGS):
-            self.masking.addItem(label, value)
-            self.masking.setItemData(i, tip, Qt.ItemDataRole.ToolTipRole)
-        self.seed = self._spin(box, "recoverySeed", "Random seed",
-                               "Seed of the hiding: the same seed and settings give the same result",
-                               0, 2_147_483_647)
-        # Every Alt+letter of the window has one owner (menus, tabs, buttons, the setup's
-        # labels); fields left without one are reached with Tab.
-        pairs = [(buddy("Hide share:", self.hide_fraction, box), self.hide_fraction),
-                 (buddy("Re&peats:", self.repeats, box), self.repeats),
-                 (buddy("k fro&m:", self.k_from, box), k_range),
-                 (buddy("Hiding st&yle:", self.masking, box), self.masking),
-                 (buddy("Seed:", self.seed, box), self.seed)]
-        self.settings_flow = Reflow(pairs, box)
-        QVBoxLayout(box).addWidget(self.settings_flow)
-        return box
-
     def _build_run_row(self) -> QHBoxLayout:
         row = QHBoxLayout()
         self.run_button = button(self, "recoveryRun", "Run recovery &test",
@@ -220,23 +158,9 @@ class RecoveryPanel(QWidget):
     def _build_results(self) -> CompactSplitter:
         splitter = CompactSplitter(Qt.Orientation.Vertical, self)
         splitter.setObjectName("recoverySplitter")
-        self.chart_stack = QStackedWidget(splitter)
-        self.chart_stack.setObjectName("recoveryChartStack")
-        self.placeholder = named(QLabel(IDLE_TEXT, self.chart_stack), "recoveryPlaceholder", "No result yet",
-                                 IDLE_TEXT)
-        self.placeholder.setAlignment(Qt.AlignmentFlag.AlignCenter)
-        self.placeholder.setWordWrap(True)
-        self.figure = Figure(figsize=(5, 3), layout="constrained")
-        self.canvas = named(FigureCanvasQTAgg(self.figure), "recoveryChart", "Chart of error against k",
-                            "Error against k: overall and per column, with standard-error bars; "
-                            "the column average as a line; best k and one-SE k marked. Numbers are "
-                            "scored by NRMSE (RMSE / column SD), categories by the share of wrong classes")
-        self.canvas.setFocusPolicy(Qt.FocusPolicy.NoFocus)
-        self.canvas.installEventFilter(self)
-        self.canvas.setMinimumSize(160, CHART_MIN_HEIGHT)
-        self.canvas.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Expanding)
-        self.chart_stack.addWidget(self.placeholder)
-        self.chart_stack.addWidget(self.canvas)
+        self.chart = self.chart_stack = ErrorChart(splitter)
+        self.placeholder, self.figure = self.chart.placeholder, self.chart.figure
+        self.canvas = self.chart.canvas
         self.model = RecordsModel(parent=self)
         self.table = RecordTable(splitter, self.model, "recoveryTable", "Errors per k",
                                  "Error for every k and the column-average baseline; "
@@ -271,7 +195,8 @@ class RecoveryPanel(QWidget):
         self.chart_columns = compact(named(
             QComboBox(self), "recoveryChartColumns", "Columns drawn in the chart",
             "Draw every fill column's own line, none, or one column beside the overall error"))
-        self.chart_columns.currentIndexChanged.connect(self._redraw)
+        self.chart_columns.currentIndexChanged.connect(
+            lambda _i: self.chart.set_columns(self.chart_columns.currentData()))
         k_buttons = Reflow([(None, b) for b in (self.use_best_button, self.use_one_se_button,
                                                   self.use_selected_button)], self, max_columns=3,
                            stretch=False)
@@ -285,9 +210,9 @@ class RecoveryPanel(QWidget):
         return Reflow([(None, k_buttons), (None, chart)], self)
 
     def _set_tab_order(self) -> None:
-        chain = [self.hide_fraction, self.repeats, self.k_from, self.k_to, self.masking, self.seed,
-                 self.run_button, self.cancel_button, self.table, self.use_best_button,
-                 self.use_one_se_button, self.use_selected_button, self.chart_columns, self.save_button]
+        chain = [*self.settings_box.fields(), self.run_button, self.cancel_button, self.table,
+                 self.use_best_button, self.use_one_se_button, self.use_selected_button,
+                 self.chart_columns, self.save_button]
         for first, second in itertools.pairwise(chain):
             QWidget.setTabOrder(first, second)
 
@@ -316,11 +241,7 @@ class RecoveryPanel(QWidget):
 
     def _follow_source(self) -> None:
         data = self._data
-        ceiling = k_ceiling(data, self.session.plan) if data is not None else 1
-        for spin in (self.k_from, self.k_to):
-            spin.setMaximum(ceiling)
-        if self.k_to.value() <= 1 < ceiling:
-            self.k_to.setValue(min(20, ceiling))
+        self.settings_box.set_ceiling(k_ceiling(data, self.session.plan) if data is not None else 1)
         self._update_stale_note()
         self._set_running(self._busy)
 
@@ -330,12 +251,8 @@ class RecoveryPanel(QWidget):
         return self._report
 
     def request(self) -> RecoveryRequest:
-        """The test the controls describe."""
-        return RecoveryRequest(
-            hide_fraction=round(self.hide_fraction.value(), 4), repeats=self.repeats.value(),
-            k_from=self.k_from.value(), k_to=self.k_to.value(),
-            masking=str(self.masking.currentData()), seed=self.seed.value(),
-        )
+        """The test the settings describe."""
+        return self.settings_box.request()
 
     def run(self) -> None:
         """Start the recovery test in a worker thread (does nothing without a source)."""
@@ -367,9 +284,8 @@ class RecoveryPanel(QWidget):
         path = Path(name)
         if path.suffix.lower() not in (".png", ".svg"):
             path = path.with_suffix(".svg" if "svg" in (chosen or "").lower() else ".png")
-        figure = Figure(figsize=(7, 4.5), layout="constrained")  # light, print-ready colours
         try:
-            save_figure(draw_chart(self._report, figure, self.chart_columns.currentData()), path)
+            self.chart.save(path)
         except (OSError, ValueError) as exc:
             self._show_status(f"Could not save the chart to {path}: {exc}", problem=True)
             return None
@@ -414,7 +330,7 @@ class RecoveryPanel(QWidget):
     def _set_running(self, running: bool, outcome: str = "") -> None:
         """Lock the settings while a test runs; ``outcome`` labels the idle progress bar."""
         self._busy = running
-        for widget in (self.hide_fraction, self.repeats, self.k_from, self.k_to, self.masking, self.seed):
+        for widget in self.settings_box.fields():
             widget.setEnabled(not running)
         self.run_button.setEnabled(not running and self._data is not None)
         self.cancel_button.setEnabled(running)
@@ -437,15 +353,14 @@ class RecoveryPanel(QWidget):
         if report is None:
             self.model.set_rows([], headers=["k"])
             self._summary = IDLE_TEXT
-            self.chart_stack.setCurrentWidget(self.placeholder)
+            self.chart.show_report(None)
             self._show_status("", problem=False)
         else:
             headers, tips = report_headers(report)
             self.model.set_rows(report_rows(report), headers, tips)
             self._summary = summary_text(report)
             self._fill_chart_columns(report)
-            self._redraw()
-            self.chart_stack.setCurrentWidget(self.canvas)
+            self.chart.show_report(report, self.chart_columns.currentData())
             best_row = list(report.overall.index).index(report.best_k)
             self.table.setCurrentIndex(self.model.index(best_row, 0))
             # centred, so the best row stays in sight when the splitter shrinks the table
@@ -468,26 +383,6 @@ class RecoveryPanel(QWidget):
         # Dozens of lines are a tangle on a small chart: start with the overall error then.
         self.chart_columns.setCurrentIndex(1 if len(columns) > MAX_CHART_COLUMNS else 0)
         self.chart_columns.blockSignals(False)
-
-    def _redraw(self) -> None:
-        if self._report is None:
-            return
-        self._narrow = self.canvas.width() < NARROW_CHART
-        chosen = self.chart_columns.currentData()
-        drawn = self._report.kinds if chosen is None else chosen
-        # With many columns the legend names only the overall line, the baseline and the marks.
-        unlisted = tuple(drawn) if len(drawn) > MAX_CHART_COLUMNS else ()
-        with palette_style(self.palette()):
-            figure = draw_chart(self._report, self.figure, chosen)
-            fit_for_screen(figure, narrow=self._narrow, unlisted=unlisted)
-        self.canvas.draw_idle()
-
-    def eventFilter(self, watched: QObject, event: QEvent) -> bool:
-        """Move the chart's legend below or beside the axes when the chart's width crosses a limit."""
-        if (watched is self.canvas and event.type() == QEvent.Type.Resize and self._report is not None
-                and (self.canvas.width() < NARROW_CHART) != self._narrow):
-            self._redraw()
-        return super().eventFilter(watched, event)
 
     def _update_stale_note(self) -> None:
         data, settings = self._report_source

@@ -6,12 +6,16 @@ the window class.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Mapping
-from typing import Any
+from collections.abc import Callable, Mapping, Sequence
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
 
 from PySide6.QtCore import QSize, Qt
 from PySide6.QtGui import QAction, QKeySequence
 from PySide6.QtWidgets import QMainWindow, QMenu, QStyle, QToolBar, QWidget
+
+if TYPE_CHECKING:
+    from imputer_app.gui.state import Session
 
 _SP = QStyle.StandardPixmap
 
@@ -201,3 +205,41 @@ def build_menus(w: QMainWindow, a: Mapping[str, QAction], recent_menu: QMenu) ->
             button.setAccessibleName(a[key].text().replace("&", "").rstrip("…"))
     w.addToolBar(Qt.ToolBarArea.TopToolBarArea, tools)
     return tools
+
+
+def enabled_actions(session: Session, busy: bool) -> dict[str, bool]:
+    """Which actions can be used now, given the session and whether a job is at work."""
+    has = session.sheet is not None
+    return {
+        "open": not busy,
+        "open_options": not busy,
+        "recent": not busy,
+        "open_plan": has and not busy,
+        "save_plan": has,
+        "export": session.applied is not None and not busy,
+        "undo": session.can_undo and not busy,
+        "redo": session.can_redo and not busy,
+        "recovery": has,
+        "preview": has and not busy and session.plan_problem is None,
+        "apply": session.can_apply and not busy,
+        "next_gap": has,
+    }
+
+
+def fill_recent_menu(
+    menu: QMenu, files: Sequence[Path], open_path: Callable[[Path], object], clear: Slot
+) -> None:
+    """Rebuild File > Recent files: one entry per file (``open_path(file)``), then Clear list."""
+    menu.clear()
+    for number, path in enumerate(files, start=1):
+        action = menu.addAction(f"&{number} {path.name}")
+        action.setObjectName(f"actionRecent{number}")
+        action.setToolTip(str(path))
+        action.setStatusTip(str(path))
+        action.triggered.connect(lambda _c=False, p=path: open_path(p))
+    menu.setEnabled(bool(files))
+    if files:
+        menu.addSeparator()
+        action = menu.addAction("&Clear list")
+        action.setObjectName("actionClearRecent")
+        action.triggered.connect(lambda _c=False: clear())

@@ -1,11 +1,12 @@
-"""How the window shares its width, and the layout it remembers between runs (QSettings)."""
+"""The window's frame: its three columns, how they share the width, and the layout it remembers."""
 
 from __future__ import annotations
 
 from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
-from PySide6.QtWidgets import QMainWindow, QSplitter, QStyle, QWidget
+from PySide6.QtCore import Qt
+from PySide6.QtWidgets import QLabel, QMainWindow, QScrollArea, QSplitter, QStyle, QWidget
 
 if TYPE_CHECKING:
     from imputer_app.gui.settings import AppSettings
@@ -28,6 +29,41 @@ def initial_split(width: int, setup_min: int, panels_min: int) -> list[int]:
     setup = max(setup_min, min(300, round(0.2 * width)))
     panels = max(panels_min, round(0.27 * width))
     return [setup, max(300, width - setup - panels), panels]
+
+
+def setup_area(setup: QWidget, parent: QWidget) -> QScrollArea:
+    """The scrolling column that holds the column setup."""
+    area = QScrollArea(parent)
+    area.setObjectName("setupScroll")
+    area.setAccessibleName("Column setup area")
+    area.setWidgetResizable(True)
+    area.setWidget(setup)
+    area.setMinimumWidth(240)
+    area.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+    area.setFocusPolicy(Qt.FocusPolicy.NoFocus)  # Tab goes to its controls, not to it
+    return area
+
+
+def main_splitter(parent: QWidget, setup: QWidget, data: QWidget, panels: QWidget) -> QSplitter:
+    """Setup | data | panels side by side; the data column takes what the window gains."""
+    splitter = QSplitter(Qt.Orientation.Horizontal, parent)
+    splitter.setObjectName("mainSplitter")
+    splitter.setAccessibleName("Setup, data and panels")
+    for index, widget in enumerate((setup, data, panels)):
+        splitter.addWidget(widget)
+        splitter.setStretchFactor(index, 1 if widget is data else 0)
+    splitter.setChildrenCollapsible(False)
+    return splitter
+
+
+def summary_label(parent: QWidget) -> QLabel:
+    """The status bar's summary of the sheet and the fill shown over it."""
+    label = QLabel(parent)
+    label.setObjectName("sheetSummary")
+    label.setAccessibleName("Sheet summary")
+    label.setToolTip("Size of the sheet, its gaps, and what the fill shown over it holds")
+    label.setContentsMargins(16, 0, 4, 0)  # keeps it apart from a long status message
+    return label
 
 
 def restore_layout(window: QMainWindow, settings: AppSettings, main: QSplitter, table: QSplitter) -> bool:

@@ -77,7 +77,7 @@ def test_a_role_edited_in_the_setup_is_the_sessions_plan(window):
     assert setup.plan() is plan
 
 
-def test_a_loaded_plan_redraws_the_setup_and_the_recovery_test_uses_it(window, tmp_path):
+def test_a_loaded_plan_is_the_sessions_plan_and_the_setup_shows_it(window, tmp_path):
     path = window.session.plan.replace(k=2, scaling="robust").save(tmp_path / "robust.plan.toml")
     window.open_plan(path)
     assert window.setup.k_spin.value() == 2
