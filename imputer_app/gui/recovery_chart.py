@@ -38,10 +38,14 @@ class ErrorChart(QStackedWidget):
         self.placeholder.setAlignment(Qt.AlignmentFlag.AlignCenter)
         self.placeholder.setWordWrap(True)
         self.figure = Figure(figsize=(5, 3), layout="constrained")
-        self.canvas = named(FigureCanvasQTAgg(self.figure), "recoveryChart", "Chart of error against k",
-                            "Error against k: overall and per column, with standard-error bars; "
-                            "the column average as a line; best k and one-SE k marked. Numbers are "
-                            "scored by NRMSE (RMSE / column SD), categories by the share of wrong classes")
+        self.canvas = named(
+            FigureCanvasQTAgg(self.figure),
+            "recoveryChart",
+            "Chart of error against k",
+            "Error against k: overall and per column, with standard-error bars; "
+            "the column average as a line; best k and one-SE k marked. Numbers are "
+            "scored by NRMSE (RMSE / column SD), categories by the share of wrong classes",
+        )
         self.canvas.setFocusPolicy(Qt.FocusPolicy.NoFocus)
         self.canvas.installEventFilter(self)
         self.canvas.setMinimumSize(160, CHART_MIN_HEIGHT)
@@ -88,7 +92,11 @@ class ErrorChart(QStackedWidget):
 
     def eventFilter(self, watched: QObject, event: QEvent) -> bool:
         """Move the legend below or beside the axes when the canvas's width crosses the limit."""
-        if (watched is self.canvas and event.type() == QEvent.Type.Resize and self._report is not None
-                and (self.canvas.width() < NARROW_CHART) != self._narrow):
+        if (
+            watched is self.canvas
+            and event.type() == QEvent.Type.Resize
+            and self._report is not None
+            and (self.canvas.width() < NARROW_CHART) != self._narrow
+        ):
             self.redraw()
         return super().eventFilter(watched, event)

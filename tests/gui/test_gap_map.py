@@ -24,8 +24,13 @@ def class_of(code: int, filled: bool, layer_kind: str) -> int:
 @pytest.mark.parametrize("layer_kind", ["preview", "applied"])
 def test_classes_rank_gap_over_text_over_limit_over_fill(layer_kind):
     fill = class_of(MISSING, True, layer_kind)
-    ranks = [class_of(OBSERVED, False, layer_kind), fill, class_of(CENSORED, False, layer_kind),
-             class_of(TEXT, False, layer_kind), class_of(MISSING, False, layer_kind)]
+    ranks = [
+        class_of(OBSERVED, False, layer_kind),
+        fill,
+        class_of(CENSORED, False, layer_kind),
+        class_of(TEXT, False, layer_kind),
+        class_of(MISSING, False, layer_kind),
+    ]
     assert ranks[0] == 0 and ranks == sorted(set(ranks))  # measured, fill, limit, text, gap: rising
     # a filled cell shows as filled whatever it was before
     assert {class_of(code, True, layer_kind) for code in (MISSING, TEXT, CENSORED)} == {fill}
