@@ -52,8 +52,9 @@ _MULTIPLE = "(several)"
 class ColumnSetup(QWidget):
     """Per-column roles and the fill settings of ``session``'s plan.
 
-    Edits go to :meth:`Session.set_plan`; ``plan_changed(FillPlan)`` is emitted after
-    every change of the session's plan (whoever made it). Without a ``session`` the
+    Edits go to :meth:`Session.set_plan`; ``plan_changed(FillPlan)`` passes on each
+    ``"plan"`` event of the session (a new plan, whoever made it, or a change of
+    :attr:`Session.plan_problem`) with the session's plan. Without a ``session`` the
     panel makes its own.
     """
 
