@@ -9,24 +9,19 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import pandas as pd
 
 from imputer_app.gui.formatting import format_label, format_value
+from imputer_app.words import STATE_WORDS, SUBSTITUTION_PHRASES
 
-#: Which censored handling each substitution method stands for.
-SUBSTITUTIONS = {
-    "limit": "replaced by its limit",
-    "half_limit": "replaced by half its limit",
-    "limit_sqrt2": "replaced by its limit divided by √2 (Hornung & Reed 1990)",
-}
+if TYPE_CHECKING:
+    from imputer_app.engine import FillResult
+    from imputer_app.plan import FillPlan
 
-ORIGINAL_STATES = {
-    "missing": "empty in the sheet",
-    "censored": "a below- or above-limit entry",
-    "text_in_number": "text in a number column (unreadable as a number)",
-}
+#: How a substituted cell's method is told: "replaced by " + the shared phrase.
+SUBSTITUTED = {method: f"replaced by {phrase}" for method, phrase in SUBSTITUTION_PHRASES.items()}
 
 
 @dataclass(frozen=True)
@@ -84,14 +79,14 @@ def _matches(frame: pd.DataFrame | None, row_label: Any, column: str) -> pd.Data
     return frame[mask.to_numpy(dtype=bool)]
 
 
-def _is_number_column(result: Any, column: str) -> bool:
+def _is_number_column(result: FillResult, column: str) -> bool:
     frame = getattr(result, "frame", None)
     if frame is None or column not in frame.columns:
         return True
     return bool(pd.api.types.is_numeric_dtype(frame[column]))
 
 
-def method_words(method: str, plan: Any, numeric: bool) -> str:
+def method_words(method: str, plan: FillPlan | None, numeric: bool) -> str:
     """Return how a value was made, in plain words.
 
     Parameters
@@ -117,8 +112,8 @@ def method_words(method: str, plan: Any, numeric: bool) -> str:
         if numeric:
             return "column average (no donor was available)"
         return "column's most common value (no donor was available)"
-    if method in SUBSTITUTIONS:
-        return SUBSTITUTIONS[method]
+    if method in SUBSTITUTED:
+        return SUBSTITUTED[method]
     return method or "–"
 
 
@@ -185,7 +180,7 @@ def _donors(entry: pd.Series) -> tuple[Donor, ...]:
     )
 
 
-def _filled_story(result: Any, entry: pd.Series, where: str, notes: pd.DataFrame | None) -> CellStory:
+def _filled_story(result: FillResult, entry: pd.Series, where: str, notes: pd.DataFrame | None) -> CellStory:
     column = str(entry["column"])
     numeric = _is_number_column(result, column)
     method = str(entry.get("method", ""))
@@ -197,13 +192,13 @@ def _filled_story(result: Any, entry: pd.Series, where: str, notes: pd.DataFrame
         original = _censored_entry(notes, entry["row"], column) or "a censored entry (text not shown here)"
         facts.append(("Original entry", original))
     else:
-        facts.append(("Before", ORIGINAL_STATES.get(state, state)))
-    if method in SUBSTITUTIONS:
+        facts.append(("Before", STATE_WORDS.get(state, state)))
+    if method in SUBSTITUTED:
         note = str(entry.get("note", "") or "")
         if note:
             facts.append(("Note", note))
         facts.append(("Flag", "stays marked as censored in every view and export"))
-        return CellStory("substituted", f"{where}: {value} ({SUBSTITUTIONS[method]})", facts)
+        return CellStory("substituted", f"{where}: {value} ({SUBSTITUTED[method]})", facts)
     k_used = entry.get("k")
     asked = getattr(getattr(result, "plan", None), "k", None)
     k_text = format_value(k_used)
@@ -223,7 +218,9 @@ def _filled_story(result: Any, entry: pd.Series, where: str, notes: pd.DataFrame
     return CellStory("filled", f"{where}: filled with {value}", facts, support, support_text, donors)
 
 
-def describe_cell(result: Any, row_label: Any, column: str, notes: pd.DataFrame | None = None) -> CellStory:
+def describe_cell(
+    result: FillResult, row_label: Any, column: str, notes: pd.DataFrame | None = None
+) -> CellStory:
     """Describe one cell of a fill preview in plain words.
 
     Parameters
@@ -256,6 +253,6 @@ def describe_cell(result: Any, row_label: Any, column: str, notes: pd.DataFrame 
         reason = str(left.iloc[0].get("reason", "") or "no reason recorded")
         return CellStory("unfilled", f"{where}: not filled", [("Reason", reason)])
     frame = result.frame
-    if column in frame.columns and row_label in frame.index and pd.isna(frame.at[row_label, column]):
+    if column in frame.columns and row_label in frame.index and bool(pd.isna(frame.loc[row_label, column])):
         return CellStory("unfilled", f"{where}: not filled", [("Reason", "not a fill column in this plan")])
     return CellStory("measured", f"{where}: a value from the sheet; nothing was filled here.")

@@ -11,7 +11,7 @@ import contextlib
 import re
 import textwrap
 from collections.abc import Collection, Iterator
-from typing import Any
+from typing import TYPE_CHECKING, cast
 
 import matplotlib
 from matplotlib.figure import Figure
@@ -19,10 +19,15 @@ from PySide6.QtGui import QPalette
 
 from imputer_app.charts.error_vs_k import plot_error_vs_k
 
+if TYPE_CHECKING:
+    from imputer_app.charts.error_vs_k import ErrorVsK
+    from imputer_app.validation import RecoveryReport
 
-def draw_chart(report: Any, figure: Figure, columns: tuple[str, ...] | None = None) -> Figure:
+
+def draw_chart(report: RecoveryReport, figure: Figure, columns: tuple[str, ...] | None = None) -> Figure:
     """Draw the error-against-k chart into ``figure`` (cleared first)."""
-    return plot_error_vs_k(report, figure=figure, columns=columns)
+    # The chart's ErrorVsK protocol declares settable members; the frozen report reads the same.
+    return plot_error_vs_k(cast("ErrorVsK", report), figure=figure, columns=columns)
 
 
 def fit_for_screen(figure: Figure, *, narrow: bool, unlisted: Collection[str] = ()) -> None:

@@ -3,7 +3,9 @@
 Top: one row per sheet column (role, kind, weight, unit, % gaps, entries beyond a
 limit). Below it, editors for the selected column(s) — several columns can be set at
 once — and the fill settings (k, scaling, neighbour weighting, numeric rule, group
-column, censored handling, cells without donors). Every change emits the new plan.
+column, censored handling, cells without donors). The plan itself lives in the
+:class:`~imputer_app.gui.state.Session`: every edit is written there, and the panel
+redraws whenever the session's plan changes (whoever changed it).
 """
 
 from __future__ import annotations
@@ -36,66 +38,42 @@ from imputer_app.gui.setup_model import (
     choices_from_plan,
     plan_from_choices,
 )
+from imputer_app.gui.state import Session
 from imputer_app.gui.widgets import buddy, compact, named, row_height, text_label
 from imputer_app.plan import FillPlan
+from imputer_app.words import CHOICE_WORDS, SETTING_TIPS
 
 if TYPE_CHECKING:
     from imputer_app.sheets import Sheet
 
-#: Readable labels of the plan's choice settings (value -> label), in menu order.
-CHOICE_LABELS: dict[str, dict[str, tuple[str, str]]] = {
-    "scaling": {
-        "zscore": ("z-score", "Each number column to mean 0 and standard deviation 1."),
-        "range": ("range 0–1", "Each number column to minimum 0 and maximum 1."),
-        "robust": ("robust", "Each number column centred on its median and divided by its IQR."),
-        "none": ("none", "Raw units: a column with large numbers dominates the distance."),
-    },
-    "neighbour_weighting": {
-        "uniform": ("equal", "All k donors count the same."),
-        "inverse_distance": ("nearer count more", "Donors are weighted by 1 / distance."),
-    },
-    "numeric_rule": {
-        "mean": ("mean", "The mean of the donors' values."),
-        "median": ("median", "The median of the donors' values (less swayed by one odd donor)."),
-    },
-    "censored": {
-        "half_limit": ("limit / 2", "A '<0.02' entry stands for 0.01."),
-        "limit": ("limit", "A '<0.02' entry stands for 0.02."),
-        "limit_sqrt2": ("limit / √2", "A '<0.02' entry stands for 0.0141 (Hornung & Reed 1990)."),
-        "fill_capped": ("kNN, capped", "Filled from donors like a gap, but never above its limit."),
-    },
-    "no_donor": {
-        "leave_empty": ("leave empty", "The cell stays empty and is listed under Unfilled."),
-        "column_mean": ("column mean", "The column's mean is written and flagged in the fill log."),
-    },
-}
-_CHOICE_TIPS = {
-    "scaling": "How number columns are put on one scale before distances are measured.",
-    "neighbour_weighting": "Whether nearer donors count more when their numbers are combined.",
-    "numeric_rule": "How the donors' numbers are combined (used when all donors count equally).",
-    "censored": "What number a below-limit entry such as <0.02 stands for; it stays flagged either way.",
-    "no_donor": "What happens to a cell for which no row can serve as donor.",
-}
 _MULTIPLE = "(several)"
 
 
 class ColumnSetup(QWidget):
-    """Per-column roles and the fill settings; emits ``plan_changed(FillPlan)``."""
+    """Per-column roles and the fill settings of ``session``'s plan.
+
+    Edits go to :meth:`Session.set_plan`; ``plan_changed(FillPlan)`` passes on each
+    ``"plan"`` event of the session (a new plan, whoever made it, or a change of
+    :attr:`Session.plan_problem`) with the session's plan. Without a ``session`` the
+    panel makes its own.
+    """
 
     plan_changed = Signal(object)
 
-    def __init__(self, parent: QWidget | None = None) -> None:
+    def __init__(self, parent: QWidget | None = None, session: Session | None = None) -> None:
         super().__init__(parent)
         self.setObjectName("columnSetup")
         self.setAccessibleName("Column setup")
+        self.session = session if session is not None else Session()
         self._choices: list[ColumnChoice] = []
         self._defaults: dict[str, str] = {}
+        self._roles: dict[str, str] | None = None
         self._group: str | None = None
-        self._base = FillPlan()
-        self._plan: FillPlan | None = None
         self._quiet = False
+        self._writing = False  # True while this panel writes the plan (no redraw of its own edit)
         self._build()
         self._enable_editors()
+        self.session.subscribe(self._on_session)
 
     # ------------------------------------------------------------------ layout
     def _build(self) -> None:
@@ -182,7 +160,7 @@ class ColumnSetup(QWidget):
         self.k_spin = named(QSpinBox(box), "kSpin", "k, donors per cell",
                             "Number of nearest rows (donors) used for every filled cell.")
         self.k_spin.setRange(1, 999)
-        self.k_spin.valueChanged.connect(self._emit)
+        self.k_spin.valueChanged.connect(self._write)
         form.addRow(buddy("&k (donors per cell)", self.k_spin, box), self.k_spin)
         self.group_combo = _combo(box, "groupCombo", "Group column",
                                   "Take donors only from rows of the same group.")
@@ -196,12 +174,12 @@ class ColumnSetup(QWidget):
             "censored": "Below &a limit",
             "no_donor": "No donor found",
         }
-        for setting, labels in CHOICE_LABELS.items():
-            combo = _combo(box, f"{setting}Combo", titles[setting].replace("&", ""), _CHOICE_TIPS[setting])
-            for value, (label, tip) in labels.items():
-                combo.addItem(label, value)
-                combo.setItemData(combo.count() - 1, tip, Qt.ItemDataRole.ToolTipRole)
-            combo.activated.connect(self._emit)
+        for setting, labels in CHOICE_WORDS.items():
+            combo = _combo(box, f"{setting}Combo", titles[setting].replace("&", ""), SETTING_TIPS[setting])
+            for value, words in labels.items():
+                combo.addItem(words.label, value)
+                combo.setItemData(combo.count() - 1, words.explanation, Qt.ItemDataRole.ToolTipRole)
+            combo.activated.connect(self._write)
             self.choice_combos[setting] = combo
             form.addRow(buddy(titles[setting], combo, box), combo)
         return box
@@ -216,55 +194,33 @@ class ColumnSetup(QWidget):
     def set_sheet(
         self, sheet: Sheet, plan: FillPlan | None = None, roles: dict[str, str] | None = None
     ) -> None:
-        """Show ``sheet``'s columns with default roles, then ``plan``'s settings if given.
+        """Load ``sheet`` into the session; the panel then shows its columns.
 
         Parameters
         ----------
         sheet : Sheet
             The sheet as read.
         plan : FillPlan, optional
-            Settings to show (column settings it leaves open keep the defaults).
+            Settings to start with (column settings it leaves open keep the defaults).
         roles : dict, optional
             Default role per column; computed by ``engine.default_roles`` when omitted.
         """
-        if roles is None:
-            from imputer_app.engine import default_roles
-
-            roles = default_roles(sheet)
-        self._defaults = dict(roles)
-        self._choices = choices_for_sheet(sheet, roles)
-        self.k_spin.setMaximum(max(1, len(sheet.frame) - 1))
-        self._plan = None
-        self.set_plan(plan if plan is not None else self._base)
-        if self._choices:
-            first = next((c.name for c in self._choices if c.role in ("both", "fill")), self._choices[0].name)
-            self.select_columns([first])
+        self._roles = roles
+        self.session.load(sheet, plan=plan)
 
     def set_plan(self, plan: FillPlan) -> None:
-        """Show ``plan`` (its column settings are matched by name) and emit it."""
-        self._quiet = True
-        try:
-            self._base = plan
-            names = [c.name for c in self._choices]
-            self._group = plan.group_column if plan.group_column in names else None
-            self._choices = choices_from_plan(self._choices, plan, self._defaults)
-            self.k_spin.setValue(plan.k)
-            for setting, combo in self.choice_combos.items():
-                combo.setCurrentIndex(max(0, combo.findData(getattr(plan, setting))))
-            self._fill_group_combo()
-            self.model.set_choices(self._choices, self._group)
-            self._show_selected()
-        finally:
-            self._quiet = False
-        self._emit()
+        """Make ``plan`` the session's plan (its column settings are matched by name)."""
+        self.session.set_plan(plan)  # the panel redraws and writes back the plan as resolved
 
     def set_k(self, k: int) -> None:
-        """Set k (for "Use this k" of the recovery test)."""
-        self.k_spin.setValue(int(k))
+        """Set k in the session's plan (as "Use this k" of the recovery test does)."""
+        self.session.set_k(k)
 
     def plan(self) -> FillPlan | None:
-        """The plan shown (None while the settings are not valid)."""
-        return self._plan
+        """The session's plan, or None while no sheet is shown or the settings are not valid."""
+        if not self._choices or self.session.plan_problem is not None:
+            return None
+        return self.session.plan
 
     def choices(self) -> list[ColumnChoice]:
         """The column settings shown (for tests)."""
@@ -282,6 +238,50 @@ class ColumnSetup(QWidget):
                     self.model.index(row, 0), QItemSelectionModel.SelectionFlag.NoUpdate
                 )
 
+    # ----------------------------------------------------------------- session
+    def _on_session(self, event: str) -> None:
+        if event == "sheet" and self.session.sheet is not None:
+            self._show_sheet(self.session.sheet)
+        elif event == "plan":
+            if not self._writing:
+                self._show_plan(self.session.plan)
+            self.plan_changed.emit(self.session.plan)
+
+    def _show_sheet(self, sheet: Sheet) -> None:
+        roles, self._roles = self._roles, None
+        if roles is None:
+            from imputer_app.engine import default_roles
+
+            roles = default_roles(sheet)
+        self._defaults = dict(roles)
+        self._choices = choices_for_sheet(sheet, roles)
+        self._quiet = True
+        try:
+            self.k_spin.setMaximum(max(1, len(sheet.frame) - 1))
+        finally:
+            self._quiet = False
+        self._show_plan(self.session.plan)
+        if self._choices:
+            first = next((c.name for c in self._choices if c.role in ("both", "fill")), self._choices[0].name)
+            self.select_columns([first])
+
+    def _show_plan(self, plan: FillPlan) -> None:
+        """Draw ``plan`` (its column settings matched by name), then write back what it resolves to."""
+        self._quiet = True
+        try:
+            names = [c.name for c in self._choices]
+            self._group = plan.group_column if plan.group_column in names else None
+            self._choices = choices_from_plan(self._choices, plan, self._defaults)
+            self.k_spin.setValue(plan.k)
+            for setting, combo in self.choice_combos.items():
+                combo.setCurrentIndex(max(0, combo.findData(getattr(plan, setting))))
+            self._fill_group_combo()
+            self.model.set_choices(self._choices, self._group)
+            self._show_selected()
+        finally:
+            self._quiet = False
+        self._write()
+
     # ----------------------------------------------------------------- editing
     def _selected_rows(self) -> list[int]:
         return sorted({i.row() for i in self.table.selectionModel().selectedRows()})
@@ -295,7 +295,7 @@ class ColumnSetup(QWidget):
         for row in rows:
             self._choices[row] = replace(self._choices[row], **changes)
         self.model.set_choices(self._choices, self._group)
-        self._emit()
+        self._write()
 
     def _edit_bound(self, side: str, edit: QLineEdit) -> None:
         text = edit.text().strip().replace(",", ".")
@@ -312,7 +312,7 @@ class ColumnSetup(QWidget):
         self._group = self.group_combo.currentData()
         self.model.set_choices(self._choices, self._group)
         self._show_selected()
-        self._emit()
+        self._write()
 
     def _fill_group_combo(self) -> None:
         self.group_combo.clear()
@@ -350,22 +350,26 @@ class ColumnSetup(QWidget):
             widget.setEnabled(bool(rows) and not grouped)
         self.decimals_spin.setEnabled(bool(rows) and not grouped)
 
-    def _emit(self, *_args: Any) -> None:
+    def _write(self, *_args: Any) -> None:
+        """Write the plan the controls describe into the session (or the reason there is none)."""
         if self._quiet or not self._choices:
             return
-        base = self._base.replace(
+        base = self.session.plan.replace(
             k=self.k_spin.value(), **{s: c.currentData() for s, c in self.choice_combos.items()}
         )
+        self._writing = True
         try:
-            plan = plan_from_choices(self._choices, base, self._group)
-        except KinfillError as exc:
-            self.message.setText(f"⚠ {exc}")
-            self._plan = None
-            return
-        self.message.setText(_summary(self._choices, self._group))
-        if plan != self._plan:
-            self._plan = plan
-            self.plan_changed.emit(plan)
+            try:
+                plan = plan_from_choices(self._choices, base, self._group)
+            except KinfillError as exc:
+                self.message.setText(f"⚠ {exc}")
+                self.session.set_plan_problem(str(exc))
+                return
+            self.message.setText(_summary(self._choices, self._group))
+            self.session.set_plan(plan)
+            self.session.set_plan_problem(None)
+        finally:
+            self._writing = False
 
 
 # ------------------------------------------------------------------- helpers

@@ -9,7 +9,7 @@ nearest first.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import pandas as pd
 from PySide6.QtCore import QModelIndex, Signal
@@ -19,6 +19,9 @@ from imputer_app.gui.cell_story import CellStory, describe_cell
 from imputer_app.gui.formatting import Cell, common_decimals, fixed_cell, format_label
 from imputer_app.gui.records_model import RAW_ROLE, RecordsModel
 from imputer_app.gui.widgets import RecordTable, named, text_label
+
+if TYPE_CHECKING:
+    from imputer_app.engine import FillResult
 
 EMPTY_TEXT = "Select a cell in the table to see where its value came from."
 
@@ -98,7 +101,7 @@ class DonorPanel(QWidget):
 
     # ------------------------------------------------------------------ API
     def show_cell(
-        self, result: Any, row_label: Any, column: str, *, notes: pd.DataFrame | None = None
+        self, result: FillResult, row_label: Any, column: str, *, notes: pd.DataFrame | None = None
     ) -> None:
         """Show what the fill did to one cell.
 

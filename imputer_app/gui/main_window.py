@@ -11,43 +11,36 @@ from __future__ import annotations
 import logging
 from collections.abc import Callable
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, TypeVar
 
-from PySide6.QtCore import QModelIndex, Qt, Signal
-from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent
-from PySide6.QtWidgets import (
-    QLabel,
-    QMainWindow,
-    QMenu,
-    QScrollArea,
-    QSplitter,
-    QTabWidget,
-    QToolBar,
-    QWidget,
-)
+from PySide6.QtCore import QEvent, QModelIndex, Qt, Signal
+from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent, QShowEvent
+from PySide6.QtWidgets import QMainWindow, QMenu, QSplitter, QToolBar, QWidget
 
 from imputer_app.gui import file_actions as fa
 from imputer_app.gui import window_layout
 from imputer_app.gui.about import AboutDialog
-from imputer_app.gui.busy import BusyBar
 from imputer_app.gui.column_setup import ColumnSetup
 from imputer_app.gui.data_view import DataView
 from imputer_app.gui.donor_panel import DonorPanel
 from imputer_app.gui.markers import CENSORED, palette_is_dark
+from imputer_app.gui.panel_tabs import PanelTabs
+from imputer_app.gui.plan_files import PlanFiles
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
 from imputer_app.gui.state import Session
 from imputer_app.gui.unfilled_panel import UnfilledPanel
-from imputer_app.gui.window_actions import build_actions, build_menus
-from imputer_app.gui.workers import TaskRunner
-from imputer_app.plan import FillPlan
+from imputer_app.gui.window_actions import build_actions, build_menus, enabled_actions, fill_recent_menu
+from imputer_app.gui.window_jobs import JobDesk
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
     from imputer_app.sheets import Sheet
+    from imputer_app.work import CancelFlag, Progress
 
 log = logging.getLogger(__name__)
 
+_T = TypeVar("_T")
 
 
 class MainWindow(QMainWindow):
@@ -64,40 +57,29 @@ class MainWindow(QMainWindow):
         self.settings = settings or AppSettings()
         self.session = Session()
         self.session.plan = self.settings.last_options()
-        self.runner = TaskRunner(self)
-        self.runner.failed.connect(self._on_failed)
-        self.runner.cancelled.connect(
-            lambda: self.statusBar().showMessage("Stopped; nothing was changed.", 8000)
-        )
-        self.runner.finished.connect(self._on_finished)
+        self.jobs = JobDesk(self, self.statusBar(), self.show_error)
+        self.runner, self.busy = self.jobs.runner, self.jobs.busy
+        self.plan_files = PlanFiles(self, self.session, self.statusBar(), self.show_error)
         self.runner.running_changed.connect(lambda _r: self._update_actions())
-        self._on_done: Callable[[Any], None] | None = None
         #: False in unattended runs (``--screenshot``): problems go to the log, not to a message box.
         self.interactive = True
         self.recent_menu = QMenu("&Recent files", self)
         self.toolbar: QToolBar | None = None
         self.setAcceptDrops(True)
         self._build()
-        self.actions_ = build_actions(self)
-        build_menus(self, self.actions_)
+        self.actions_ = build_actions(self, self._slots())
+        self.toolbar = build_menus(self, self.actions_, self.recent_menu)
         self.session.subscribe(self._on_session)
-        self._sizes_restored = window_layout.restore_layout(self)
+        self._sizes_restored = window_layout.restore_layout(
+            self, self.settings, self.splitter, self.table_split
+        )
         self.recent_changed(self.settings.recent_files())
         self._update_title()
         self._update_actions()
 
     # ------------------------------------------------------------------ layout
     def _build(self) -> None:
-        self.setup = ColumnSetup(self)
-        self.setup.plan_changed.connect(self._on_plan_changed)
-        setup_scroll = QScrollArea(self)
-        setup_scroll.setObjectName("setupScroll")
-        setup_scroll.setAccessibleName("Column setup area")
-        setup_scroll.setWidgetResizable(True)
-        setup_scroll.setWidget(self.setup)
-        setup_scroll.setMinimumWidth(240)
-        setup_scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
-        setup_scroll.setFocusPolicy(Qt.FocusPolicy.NoFocus)  # Tab goes to its controls, not to it
+        self.setup = ColumnSetup(self, session=self.session)
 
         self.data = DataView(self)
         self.table, self.table_model, self.gap_map = self.data.table, self.data.model, self.data.gap_map
@@ -105,96 +87,64 @@ class MainWindow(QMainWindow):
         self.table.selectionModel().currentChanged.connect(self._on_current_cell)
         self.data.cell_not_found.connect(lambda text: self.statusBar().showMessage(text, 5000))
 
-        self.tabs = QTabWidget(self)
-        self.tabs.setObjectName("panelTabs")
-        self.tabs.setAccessibleName("Recovery test, donors and unfilled cells")
-        self.recovery_panel = RecoveryPanel(self.tabs)
+        self.tabs = PanelTabs(self)
+        self.recovery_panel = RecoveryPanel(self.tabs, session=self.session)
         self.donor_panel = DonorPanel(self.tabs)
         self.unfilled_panel = UnfilledPanel(self.tabs)
-        self._pages: dict[QWidget, QWidget] = {}
-        self.tabs.setToolTip("Recovery test, donors of the selected cell, and cells left empty")
-        for panel, title, tip in (
-            (self.recovery_panel, "&Recovery test", "Choose k: hide known values and score every k"),
-            (self.donor_panel, "&Donors", "Where the selected filled value came from"),
-            (self.unfilled_panel, "U&nfilled", "Cells the fill could not fill, with the reason"),
-        ):
-            # A scroll area lets the panels column be narrower than a panel on small screens.
-            page = QScrollArea(self.tabs)
-            page.setObjectName(f"{panel.objectName()}Page")
-            page.setAccessibleName(title.replace("&", ""))
-            page.setWidgetResizable(True)
-            page.setFrameShape(QScrollArea.Shape.NoFrame)
-            page.setFocusPolicy(Qt.FocusPolicy.NoFocus)
-            page.setWidget(panel)
-            self._pages[panel] = page
-            self.tabs.addTab(page, title)
-            self.tabs.setTabToolTip(self.tabs.count() - 1, tip)
+        self.tabs.add_panels(
+            [
+                (self.recovery_panel, "&Recovery test", "Choose k: hide known values and score every k"),
+                (self.donor_panel, "&Donors", "Where the selected filled value came from"),
+                (self.unfilled_panel, "U&nfilled", "Cells the fill could not fill, with the reason"),
+            ]
+        )
         self.recovery_panel.use_k.connect(self._use_k)
         self.recovery_panel.report_ready.connect(self.session.set_report)
-        self.recovery_panel.report_ready.connect(lambda _r: self._fit_panel(self.recovery_panel))
+        self.recovery_panel.report_ready.connect(
+            lambda _r: self.tabs.fit_panel(self.recovery_panel, self.splitter)
+        )
         self.donor_panel.jump_requested.connect(self.select_cell)
         self.unfilled_panel.jump_requested.connect(self.select_cell)
 
-        self.splitter = QSplitter(Qt.Orientation.Horizontal, self)
-        self.splitter.setObjectName("mainSplitter")
-        self.splitter.setAccessibleName("Setup, data and panels")
-        for widget in (setup_scroll, self.data, self.tabs):
-            self.splitter.addWidget(widget)
-        self.splitter.setStretchFactor(0, 0)
-        self.splitter.setStretchFactor(1, 1)
-        self.splitter.setStretchFactor(2, 0)
-        self.splitter.setChildrenCollapsible(False)
+        setup_area = window_layout.setup_area(self.setup, self)
+        self.splitter: QSplitter = window_layout.main_splitter(self, setup_area, self.data, self.tabs)
         self.setCentralWidget(self.splitter)
-        self.summary = QLabel(self)
-        self.summary.setObjectName("sheetSummary")
-        self.summary.setAccessibleName("Sheet summary")
-        self.summary.setToolTip("Size of the sheet, its gaps, and what the fill shown over it holds")
-        self.summary.setContentsMargins(16, 0, 4, 0)  # keeps it apart from a long status message
+        self.summary = window_layout.summary_label(self)
         self.statusBar().setObjectName("statusBar")
         self.statusBar().addPermanentWidget(self.summary)
-        self.busy = BusyBar(self.runner, self)
-        self.statusBar().addPermanentWidget(self.busy)
         QWidget.setTabOrder(self.setup.focus_chain()[-1], self.table)
         QWidget.setTabOrder(self.gap_map, self.tabs)
 
+    def _slots(self) -> dict[str, Callable[[], object]]:
+        """What each action of the menus and toolbar does (see :func:`window_actions.build_actions`)."""
+        focus = Qt.FocusReason.ShortcutFocusReason
+        return {
+            "open": self.open_dialog,
+            "open_options": lambda: self.open_dialog(with_options=True),
+            "open_plan": self.open_plan,
+            "save_plan": self.save_plan,
+            "export": self.export,
+            "quit": self.close,
+            "undo": self.undo,
+            "redo": self.redo,
+            "recovery": self.run_recovery_test,
+            "preview": self.preview_fill,
+            "apply": self.apply_fill,
+            "next_gap": self.next_gap,
+            "focus_setup": lambda: self.setup.table.setFocus(focus),
+            "focus_table": lambda: self.table.setFocus(focus),
+            "focus_panels": lambda: self.tabs.setFocus(focus),
+            "about": self.show_about,
+        }
+
     # ------------------------------------------------------------- background
-    def run_job(self, title: str, job: Callable[[Any, Any], Any], on_done: Callable[[Any], None]) -> bool:
-        """Run ``job(progress, cancel)`` off the GUI thread; ``on_done(result)`` on success.
-
-        Returns False (and starts nothing) while another job of the window is still at work:
-        one job at a time, so that, say, a dropped file never cancels an export half-way.
-        """
-        if self._on_done is not None:
-            busy = self.busy.label.text()
-            self.statusBar().showMessage(f"Still busy with: {busy} Wait, or press Cancel.", 6000)
-            return False
-        self._on_done = on_done
-        self.busy.start(title)
-        self.statusBar().showMessage(title)
-        self.runner.start(job)
+    def run_job(
+        self, title: str, job: Callable[[Progress, CancelFlag], _T], on_done: Callable[[_T], None]
+    ) -> bool:
+        """Run ``job(progress, cancel)`` off the GUI thread (see :meth:`JobDesk.run`)."""
+        started = self.jobs.run(title, job, on_done)
         self._update_actions()
-        return True
-
-    def _on_finished(self, result: Any) -> None:
-        handler, self._on_done = self._on_done, None
-        self.statusBar().clearMessage()
-        if handler is not None:
-            try:
-                handler(result)
-            except Exception as exc:
-                log.exception("could not show a result")
-                self.show_error(f"internal fault: {exc}")
-
-    def _on_cancelled(self) -> None:
-        self._on_done = None
-        self.statusBar().showMessage("Stopped; nothing was changed.", 8000)
-
-    def _on_failed(self, message: str, details: str) -> None:
-        self._on_done = None
-        if details:
-            log.error("background work failed:\n%s", details)
-        self.statusBar().showMessage("Failed; nothing was changed.", 8000)
-        self.show_error(message)
+        return started
 
     def show_error(self, message: str) -> None:
         """Show a one-line problem in a message box."""
@@ -232,7 +182,7 @@ class MainWindow(QMainWindow):
             self._show_sheet(sheet)
             return
 
-        def job(progress: Any, cancel: Any) -> Sheet:
+        def job(progress: Progress, cancel: CancelFlag) -> Sheet:
             from imputer_app.sheets import read_sheet
 
             return read_sheet(path, progress=progress, cancel=cancel, **options)
@@ -252,13 +202,7 @@ class MainWindow(QMainWindow):
         self.open_path(path, options, confirmed=True)
 
     def _show_sheet(self, sheet: Sheet) -> None:
-        self.recovery_panel.cancel()  # a test of the previous sheet must not report on this one
-        roles = _default_roles(sheet)
-        self.session.load(sheet)
-        self.setup.set_sheet(sheet, self.session.plan, roles)
-        plan = self.setup.plan()
-        if plan is not None:
-            self.session.set_plan(plan)
+        self.session.load(sheet)  # the panels show it and the setup writes the plan for its columns
         self.recent_changed(self.settings.add_recent(sheet.source.path))
         self.settings.set_last_folder(sheet.source.path)
         problems = "; ".join(sheet.problems[:3])
@@ -268,72 +212,29 @@ class MainWindow(QMainWindow):
 
     def recent_changed(self, files: list[Path]) -> None:
         """Rebuild File > Recent files."""
-        menu: QMenu = self.recent_menu
-        menu.clear()
-        for number, path in enumerate(files, start=1):
-            action = menu.addAction(f"&{number} {path.name}")
-            action.setObjectName(f"actionRecent{number}")
-            action.setToolTip(str(path))
-            action.setStatusTip(str(path))
-            action.triggered.connect(lambda _c=False, p=path: self.open_path(p))
-        menu.setEnabled(bool(files))
-        if files:
-            menu.addSeparator()
-            clear = menu.addAction("&Clear list")
-            clear.setObjectName("actionClearRecent")
-            clear.triggered.connect(self._clear_recent)
+        fill_recent_menu(self.recent_menu, files, self.open_path, self._clear_recent)
 
     def _clear_recent(self) -> None:
         self.settings.clear_recent()
         self.recent_changed([])
 
     # ------------------------------------------------------------------- plans
-    def _on_plan_changed(self, plan: FillPlan) -> None:
-        self.session.set_plan(plan)
-        self.settings.save_options(plan)
-
     def _use_k(self, k: int) -> None:
-        self.setup.set_k(k)
+        # The panel has already put k into the session's plan; every view follows from there.
         self.statusBar().showMessage(f"k set to {k}; preview the fill to see its effect.", 6000)
 
     def open_plan(self, path: str | Path | None = None) -> None:
-        """Load a ``*.plan.toml`` into the setup (its columns must exist in the sheet)."""
-        if self.session.sheet is None:
-            self.show_error("Open a sheet first; a plan is matched to the sheet's columns.")
-            return
-        path = Path(path) if path is not None else fa.ask_plan_path(self, save=False)
-        if path is None:
-            return
-        try:
-            plan = FillPlan.load(path)
-            plan.check_columns(list(map(str, self.session.sheet.frame.columns)))
-        except Exception as exc:
-            self.show_error(str(exc))
-            return
-        self.setup.set_plan(plan)
-        self.statusBar().showMessage(f"Plan {path.name} loaded.", 5000)
+        """Make a ``*.plan.toml`` the session's plan (see :meth:`PlanFiles.open`)."""
+        self.plan_files.open(path)
 
     def save_plan(self, path: str | Path | None = None) -> Path | None:
-        """Save the setup's plan as ``*.plan.toml``."""
-        plan = self.setup.plan() if self.session.sheet is not None else self.session.plan
-        if plan is None:
-            self.show_error("The settings are not valid yet; see the note under the setup.")
-            return None
-        target = Path(path) if path is not None else fa.ask_plan_path(self, save=True)
-        if target is None:
-            return None
-        try:
-            written = plan.save(target)
-        except Exception as exc:
-            self.show_error(str(exc))
-            return None
-        self.statusBar().showMessage(f"Plan saved to {written}.", 6000)
-        return written
+        """Save the session's plan as ``*.plan.toml`` (see :meth:`PlanFiles.save`)."""
+        return self.plan_files.save(path)
 
     # -------------------------------------------------------------------- fill
     def run_recovery_test(self) -> None:
         """Fill > Run recovery test."""
-        self.show_panel(self.recovery_panel)
+        self.tabs.show_panel(self.recovery_panel)
         self.recovery_panel.run()
 
     def preview_fill(self) -> None:
@@ -342,7 +243,7 @@ class MainWindow(QMainWindow):
         if sheet is None:
             return
 
-        def job(progress: Any, cancel: Any) -> FillResult:
+        def job(progress: Progress, cancel: CancelFlag) -> FillResult:
             from imputer_app.engine import impute
 
             return impute(sheet, plan, progress=progress, cancel=cancel)
@@ -390,7 +291,7 @@ class MainWindow(QMainWindow):
         if target is None:
             return
 
-        def job(progress: Any, cancel: Any) -> list[Path]:
+        def job(progress: Progress, cancel: CancelFlag) -> list[Path]:
             from imputer_app.sheets import write_result
 
             return write_result(target, sheet, result, result.plan, report, progress=progress, cancel=cancel)
@@ -432,43 +333,31 @@ class MainWindow(QMainWindow):
             notes = sheet.cell_notes if sheet is not None else None
             label = self.table_model.row_label(row)
             self.donor_panel.show_cell(result, label, self.table_model.column_names()[col], notes=notes)
-            if self.table_model.is_filled(row, col) and self.current_panel() is not self.unfilled_panel:
-                self.show_panel(self.donor_panel)
+            if self.table_model.is_filled(row, col) and self.tabs.current_panel() is not self.unfilled_panel:
+                self.tabs.show_panel(self.donor_panel)
         else:
             self.donor_panel.clear()
 
     def show_panel(self, panel: QWidget) -> None:
         """Bring a panel's tab to the front."""
-        self.tabs.setCurrentWidget(self._pages.get(panel, panel))
-
-    def _fit_panel(self, panel: QWidget) -> None:
-        """Widen the panels column (from the table) when a panel has grown beyond it."""
-        page = self._pages.get(panel)
-        if not isinstance(page, QScrollArea):
-            return
-        missing = panel.minimumSizeHint().width() - page.viewport().width()
-        sizes = self.splitter.sizes()
-        if missing > 0 and sizes[1] - missing > 300:
-            self.splitter.setSizes([sizes[0], sizes[1] - missing, sizes[2] + missing])
+        self.tabs.show_panel(panel)
 
     def panels(self) -> list[QWidget]:
         """The panels of the tabs: recovery test, donors, unfilled cells."""
-        return list(self._pages)
+        return self.tabs.panels()
 
     def current_panel(self) -> QWidget | None:
         """The panel whose tab is in front."""
-        page = self.tabs.currentWidget()
-        return next((p for p, w in self._pages.items() if w is page), None)
+        return self.tabs.current_panel()
 
     # ------------------------------------------------------------------ session
     def _on_session(self, event: str) -> None:
         if event == "sheet":
             self.data.set_sheet(self.session.sheet)
-            self.recovery_panel.set_source(self.session.sheet, self.session.plan)
         if event in ("sheet", "preview", "applied"):
             self._refresh_layer()
-        if event == "plan" and self.session.sheet is not None:
-            self.recovery_panel.set_source(self.session.sheet, self.session.plan)
+        if event == "plan" and self.session.plan_problem is None:
+            self.settings.save_options(self.session.plan)
         self._update_title()
         self._update_actions()
 
@@ -496,22 +385,7 @@ class MainWindow(QMainWindow):
         if not hasattr(self, "actions_"):
             return
         busy = self.runner.is_running()
-        has = self.session.sheet is not None
-        enable = {
-            "open": not busy,
-            "open_options": not busy,
-            "recent": not busy,
-            "open_plan": has and not busy,
-            "save_plan": has,
-            "export": self.session.applied is not None and not busy,
-            "undo": self.session.can_undo and not busy,
-            "redo": self.session.can_redo and not busy,
-            "recovery": has,
-            "preview": has and not busy and self.setup.plan() is not None,
-            "apply": self.session.can_apply and not busy,
-            "next_gap": has,
-        }
-        for key, on in enable.items():
+        for key, on in enabled_actions(self.session, busy).items():
             action = self.actions_.get(key)
             if isinstance(action, QAction):
                 action.setEnabled(on)
@@ -538,24 +412,24 @@ class MainWindow(QMainWindow):
         else:
             self.open_path(path)
 
-    def changeEvent(self, event: Any) -> None:
+    def changeEvent(self, event: QEvent) -> None:
         """Follow the system palette (light or dark markers)."""
-        from PySide6.QtCore import QEvent
-
         if event.type() in (QEvent.Type.PaletteChange, QEvent.Type.ApplicationPaletteChange):
             self.table_model.set_dark(palette_is_dark(self.palette()))
         super().changeEvent(event)
 
-    def showEvent(self, event: Any) -> None:
+    def showEvent(self, event: QShowEvent) -> None:
         """On the first show without remembered sizes, share the width sensibly."""
         super().showEvent(event)
         if not self._sizes_restored:
             self._sizes_restored = True
-            window_layout.share_width(self)
+            window_layout.share_width(
+                self.width(), self.splitter, self.table_split, self.setup, self.tabs.panels()
+            )
 
     def save_layout(self) -> None:
         """Remember geometry and splitter positions."""
-        window_layout.save_layout(self)
+        window_layout.save_layout(self, self.settings, self.splitter, self.table_split)
 
     def closeEvent(self, event: QCloseEvent) -> None:
         """Ask before losing an applied fill that was not exported; stop background work."""
@@ -566,9 +440,3 @@ class MainWindow(QMainWindow):
         self.runner.wait()
         self.recovery_panel.shutdown()
         event.accept()
-
-
-def _default_roles(sheet: Sheet) -> dict[str, str]:
-    from imputer_app.engine import default_roles
-
-    return default_roles(sheet)

@@ -33,6 +33,7 @@ from imputer_app.gui.workers import TaskRunner
 
 if TYPE_CHECKING:
     from imputer_app.sheets import Sheet
+    from imputer_app.work import CancelFlag, Progress
 
 PREVIEW_ROWS = 30
 _DELAY_MS = 250
@@ -170,7 +171,7 @@ class OpenDialog(QDialog):
         options = self.options()
         path = self.path
 
-        def job(progress: Any, cancel: Any) -> tuple[dict[str, Any], Sheet]:
+        def job(progress: Progress, cancel: CancelFlag) -> tuple[dict[str, Any], Sheet]:
             from imputer_app.sheets import read_sheet
 
             return options, read_sheet(path, progress=progress, cancel=cancel, **options)

@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import pandas as pd
 
@@ -20,6 +20,10 @@ from imputer_app.errors import KinfillError
 from imputer_app.gui.formatting import NOT_AVAILABLE, Cell, number_cell
 from imputer_app.plan import FillPlan
 from imputer_app.work import CancelFlag, Progress
+
+if TYPE_CHECKING:
+    from imputer_app.sheets import Sheet
+    from imputer_app.validation import RecoveryReport
 
 #: Largest k the panel offers (larger k is rarely useful and slow to score).
 K_LIMIT = 100
@@ -65,14 +69,16 @@ class RecoveryRequest:
         low, high = sorted((int(self.k_from), int(self.k_to)))
         return list(range(max(1, low), high + 1))
 
-    def job(self, data: Any, plan: FillPlan) -> Callable[[Progress, CancelFlag], Any]:
+    def job(
+        self, data: Sheet | pd.DataFrame, plan: FillPlan
+    ) -> Callable[[Progress, CancelFlag], RecoveryReport]:
         """Return ``job(progress, cancel) -> RecoveryReport`` for a worker thread.
 
         ``data`` (a DataFrame or Sheet) and ``plan`` are only read, never modified.
         """
         ks = self.ks
 
-        def run(progress: Progress, cancel: CancelFlag) -> Any:
+        def run(progress: Progress, cancel: CancelFlag) -> RecoveryReport:
             # Looked up at call time so that tests can stand in a slow or failing test.
             return validation.recovery_test(
                 data, plan, ks=ks, hide_fraction=self.hide_fraction, repeats=self.repeats,
@@ -82,12 +88,12 @@ class RecoveryRequest:
         return run
 
 
-def frame_of(data: Any) -> pd.DataFrame:
+def frame_of(data: Sheet | pd.DataFrame) -> pd.DataFrame:
     """Return the DataFrame of a Sheet-like object, or ``data`` itself."""
-    return data.frame if hasattr(data, "frame") else data
+    return data if isinstance(data, pd.DataFrame) else data.frame
 
 
-def tested_columns(data: Any, plan: FillPlan) -> list[str]:
+def tested_columns(data: Sheet | pd.DataFrame, plan: FillPlan) -> list[str]:
     """Return the columns a recovery test scores: the plan's fill columns.
 
     Unset fill columns resolve as the engine does (similarity columns with gaps); a sheet
@@ -111,7 +117,7 @@ def tested_columns(data: Any, plan: FillPlan) -> list[str]:
     return with_gaps or similar
 
 
-def k_ceiling(data: Any, plan: FillPlan) -> int:
+def k_ceiling(data: Sheet | pd.DataFrame, plan: FillPlan) -> int:
     """Return the largest k worth testing: ``min(100, donors)``.
 
     ``donors`` is the most a hidden cell can have: the known cells of the best-filled
@@ -128,7 +134,7 @@ def _metric(kind: str) -> str:
     return "NRMSE" if kind == "number" else "error rate"
 
 
-def report_headers(report: Any) -> tuple[list[str], list[str]]:
+def report_headers(report: RecoveryReport) -> tuple[list[str], list[str]]:
     """Return the per-k table's column titles and their tooltips."""
     has_numbers = "number" in report.kinds.values()
     has_categories = "category" in report.kinds.values()
@@ -148,12 +154,14 @@ def report_headers(report: Any) -> tuple[list[str], list[str]]:
     return headers, tips
 
 
-def _choice(k: int, report: Any) -> str:
+def _choice(k: int, report: RecoveryReport) -> str:
     names = [name for name, value in (("best", report.best_k), ("one-SE", report.best_k_1se)) if value == k]
     return ", ".join(names)
 
 
-def _row_numbers(report: Any, values: pd.Series, per_column: dict[str, Any], strong: bool) -> list[Cell]:
+def _row_numbers(
+    report: RecoveryReport, values: pd.Series, per_column: dict[str, Any], strong: bool
+) -> list[Cell]:
     """Cells after the first two: overall scores, then per-column scores."""
     cells: list[Cell] = []
     if "number" in report.kinds.values():
@@ -165,7 +173,7 @@ def _row_numbers(report: Any, values: pd.Series, per_column: dict[str, Any], str
     return cells
 
 
-def report_rows(report: Any) -> list[list[Cell]]:
+def report_rows(report: RecoveryReport) -> list[list[Cell]]:
     """Return one row per tested k, then the column-average baseline row.
 
     Raw values (``Cell.value``) are the report's own numbers: ``overall`` for the
@@ -173,8 +181,8 @@ def report_rows(report: Any) -> list[list[Cell]]:
     last row.
     """
     rows: list[list[Cell]] = []
-    for k, values in report.overall.iterrows():
-        k = int(k)
+    for label, values in report.overall.iterrows():
+        k = int(str(label))  # the index holds the tested k values
         chosen = _choice(k, report)
         per_column = {
             column: report.summary[(column, "mean")].get(k, math.nan)
@@ -185,6 +193,7 @@ def report_rows(report: Any) -> list[list[Cell]]:
         rows.append(head + _row_numbers(report, values, per_column, bool(chosen)))
     base = report.baseline
     overall = base.loc["overall"] if "overall" in base.index else pd.Series(dtype=float)
+    assert isinstance(overall, pd.Series)  # one row label: a row, not a frame
     per_column = {c: base.loc[c, "score"] for c in report.kinds if c in base.index}
     head = [Cell("average", "average", "Every hidden cell filled with its column's average "
                  "(most common class for categories): the bar kNN must beat"),
@@ -223,7 +232,7 @@ def verdict(best: float, best_se: float, baseline: float) -> str:
     return "neighbours do not beat the column average; check the similarity columns"
 
 
-def summary_text(report: Any) -> str:
+def summary_text(report: RecoveryReport) -> str:
     """Return the one-line summary of a recovery test.
 
     Example: ``best k = 7 (NRMSE 0.41); one-SE rule suggests k = 12; column average
@@ -255,7 +264,7 @@ def summary_text(report: Any) -> str:
     return text + "."
 
 
-def columns_without_gain(report: Any, k: int) -> list[str]:
+def columns_without_gain(report: RecoveryReport, k: int) -> list[str]:
     """Fill columns whose error at ``k`` is not below their own column-average error.
 
     Such a column is filled no better by neighbours than by its average, a hint that the

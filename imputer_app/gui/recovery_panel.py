@@ -4,8 +4,9 @@ The user sets the share of known cells to hide, the number of repeats, the k ran
 the hiding style, and runs :func:`imputer_app.validation.recovery_test` in a worker
 thread (:class:`~imputer_app.gui.workers.TaskRunner`). The result is shown three ways:
 a chart of error against k (drawn by :func:`imputer_app.charts.error_vs_k.plot_error_vs_k`),
-the numbers per k in a table, and one summary sentence. Buttons hand the chosen k to
-the main window through :attr:`RecoveryPanel.use_k`.
+the numbers per k in a table, and one summary sentence. Buttons write the chosen k
+into the session's plan (every view redraws from there) and then emit
+:attr:`RecoveryPanel.use_k`.
 
 Words and numbers come from :mod:`imputer_app.gui.recovery_logic` (Qt-free).
 """
@@ -15,42 +16,35 @@ from __future__ import annotations
 import itertools
 import logging
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
-from matplotlib.figure import Figure
-from PySide6.QtCore import QEvent, QObject, Qt, Signal
+from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QKeyEvent
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QComboBox,
-    QDoubleSpinBox,
     QFileDialog,
-    QGroupBox,
     QHBoxLayout,
     QHeaderView,
     QLabel,
     QProgressBar,
-    QSizePolicy,
-    QSpinBox,
-    QStackedWidget,
     QStyle,
     QVBoxLayout,
     QWidget,
 )
 
-from imputer_app.charts.error_vs_k import save_figure
-from imputer_app.gui.chart_view import draw_chart, fit_for_screen, palette_style
 from imputer_app.gui.formatting import format_value
 from imputer_app.gui.records_model import RAW_ROLE, RecordsModel
+from imputer_app.gui.recovery_chart import IDLE_TEXT, MAX_CHART_COLUMNS, ErrorChart
 from imputer_app.gui.recovery_logic import (
-    MASKINGS,
     RecoveryRequest,
     k_ceiling,
     report_headers,
     report_rows,
     summary_text,
 )
+from imputer_app.gui.recovery_settings import RecoverySettings
+from imputer_app.gui.state import Session
 from imputer_app.gui.widgets import (
     CompactSplitter,
     RecordTable,
@@ -64,13 +58,14 @@ from imputer_app.gui.widgets import (
 from imputer_app.gui.workers import TaskRunner
 from imputer_app.plan import FillPlan
 
+if TYPE_CHECKING:
+    import pandas as pd
+
+    from imputer_app.sheets import Sheet
+    from imputer_app.validation import RecoveryReport
+
 log = logging.getLogger(__name__)
 
-SPIN_WIDTH = 90
-CHART_MIN_HEIGHT = 150
-MAX_CHART_COLUMNS = 10  # more fill columns: the chart starts with the overall error only
-NARROW_CHART = 760  # pixels; below this the legend goes under the chart
-IDLE_TEXT = "Run the recovery test to see how well each k recovers known values."
 CHART_FILTERS = "PNG image (*.png);;SVG drawing (*.svg)"
 
 
@@ -80,7 +75,8 @@ class RecoveryPanel(QWidget):
     Signals
     -------
     use_k(int)
-        The user chose a k (best, one-SE or a row of the table).
+        The user chose a k (best, one-SE or a row of the table); it is already in the
+        session's plan.
     report_ready(RecoveryReport)
         A test finished; the report is also in :attr:`report`.
     """
@@ -88,18 +84,18 @@ class RecoveryPanel(QWidget):
     use_k = Signal(int)
     report_ready = Signal(object)
 
-    def __init__(self, parent: QWidget | None = None) -> None:
+    def __init__(self, parent: QWidget | None = None, session: Session | None = None) -> None:
         super().__init__(parent)
         self.setObjectName("recoveryPanel")
         self.setAccessibleName("Recovery test")
-        self._data: Any = None
-        self._plan: FillPlan | None = None
-        self._report: Any = None
-        self._report_source: tuple[Any, FillPlan | None] = (None, None)
-        self._run_source: tuple[Any, FillPlan | None] = (None, None)
+        self.session = session if session is not None else Session()
+        self._source: Sheet | pd.DataFrame | None = None
+        self._report: RecoveryReport | None = None
+        # What a report was made from: the data and the plan's settings other than k.
+        self._report_source: tuple[object, dict[str, Any] | None] = (None, None)
+        self._run_source: tuple[object, dict[str, Any] | None] = (None, None)
         self._summary = IDLE_TEXT
         self._busy = False
-        self._narrow = False
         self.runner = TaskRunner(self)
         self.runner.progressed.connect(self._on_progress)
         self.runner.finished.connect(self._on_finished)
@@ -108,11 +104,17 @@ class RecoveryPanel(QWidget):
         self._build()
         self._set_running(False)
         self._show_report(None)
+        self.session.subscribe(self._on_session)
 
     # ------------------------------------------------------------------ building
     def _build(self) -> None:
         layout = QVBoxLayout(self)
-        layout.addWidget(self._build_settings())
+        self.settings_box = RecoverySettings(self)
+        self.hide_fraction, self.repeats = self.settings_box.hide_fraction, self.settings_box.repeats
+        self.k_from, self.k_to = self.settings_box.k_from, self.settings_box.k_to
+        self.masking, self.seed = self.settings_box.masking, self.settings_box.seed
+        self.settings_flow = self.settings_box.flow
+        layout.addWidget(self.settings_box)
         layout.addLayout(self._build_run_row())
         self.status = text_label(self, "recoveryStatus", "Recovery test message",
                                  "Messages about the last run (errors, stops, remarks)")
@@ -135,59 +137,6 @@ class RecoveryPanel(QWidget):
         layout.addWidget(self._build_choices())
         self._set_tab_order()
 
-    def _spin(self, box: QWidget, name: str, accessible: str, tip: str, low: int, high: int) -> QSpinBox:
-        spin = named(QSpinBox(box), name, accessible, tip)
-        spin.setRange(low, high)
-        spin.setMaximumWidth(SPIN_WIDTH)
-        return spin
-
-    def _build_settings(self) -> QGroupBox:
-        box = named(QGroupBox("Recovery test settings", self), "recoverySettings", "Recovery test settings",
-                    "Hide known cells, fill them for every k and measure the error")
-        self.hide_fraction = named(
-            QDoubleSpinBox(box), "recoveryHideFraction", "Share of known cells to hide",
-            "Share of each fill column's known cells hidden in each repeat (0.10 hides 10%)")
-        self.hide_fraction.setRange(0.01, 0.5)
-        self.hide_fraction.setSingleStep(0.01)
-        self.hide_fraction.setDecimals(2)
-        self.hide_fraction.setValue(0.1)
-        self.hide_fraction.setMaximumWidth(SPIN_WIDTH)
-        self.repeats = self._spin(box, "recoveryRepeats", "Repeats",
-                                  "How many times to hide a fresh set of cells; more repeats give "
-                                  "steadier errors and smaller standard errors", 1, 50)
-        self.repeats.setValue(5)
-        self.k_from = self._spin(box, "recoveryKFrom", "Smallest k", "Smallest number of donors to try", 1, 1)
-        self.k_to = self._spin(box, "recoveryKTo", "Largest k",
-                               "Largest number of donors to try (at most 100, and no more than "
-                               "the donors available)", 1, 1)
-        self.k_from.valueChanged.connect(lambda v: self.k_to.setValue(max(v, self.k_to.value())))
-        self.k_to.valueChanged.connect(lambda v: self.k_from.setValue(min(v, self.k_from.value())))
-        k_range = QWidget(box)
-        k_row = QHBoxLayout(k_range)
-        k_row.setContentsMargins(0, 0, 0, 0)
-        k_row.addWidget(self.k_from)
-        k_row.addWidget(buddy("to", self.k_to, k_range))
-        k_row.addWidget(self.k_to)
-        k_row.addStretch(1)
-        self.masking = compact(named(QComboBox(box), "recoveryMasking", "Hiding style",
-                                     "How the cells to hide are chosen"), 12)
-        for i, (value, label, tip) in enumerate(MASKINGS):
-            self.masking.addItem(label, value)
-            self.masking.setItemData(i, tip, Qt.ItemDataRole.ToolTipRole)
-        self.seed = self._spin(box, "recoverySeed", "Random seed",
-                               "Seed of the hiding: the same seed and settings give the same result",
-                               0, 2_147_483_647)
-        # Every Alt+letter of the window has one owner (menus, tabs, buttons, the setup's
-        # labels); fields left without one are reached with Tab.
-        pairs = [(buddy("Hide share:", self.hide_fraction, box), self.hide_fraction),
-                 (buddy("Re&peats:", self.repeats, box), self.repeats),
-                 (buddy("k fro&m:", self.k_from, box), k_range),
-                 (buddy("Hiding st&yle:", self.masking, box), self.masking),
-                 (buddy("Seed:", self.seed, box), self.seed)]
-        self.settings_flow = Reflow(pairs, box)
-        QVBoxLayout(box).addWidget(self.settings_flow)
-        return box
-
     def _build_run_row(self) -> QHBoxLayout:
         row = QHBoxLayout()
         self.run_button = button(self, "recoveryRun", "Run recovery &test",
@@ -209,23 +158,9 @@ class RecoveryPanel(QWidget):
     def _build_results(self) -> CompactSplitter:
         splitter = CompactSplitter(Qt.Orientation.Vertical, self)
         splitter.setObjectName("recoverySplitter")
-        self.chart_stack = QStackedWidget(splitter)
-        self.chart_stack.setObjectName("recoveryChartStack")
-        self.placeholder = named(QLabel(IDLE_TEXT, self.chart_stack), "recoveryPlaceholder", "No result yet",
-                                 IDLE_TEXT)
-        self.placeholder.setAlignment(Qt.AlignmentFlag.AlignCenter)
-        self.placeholder.setWordWrap(True)
-        self.figure = Figure(figsize=(5, 3), layout="constrained")
-        self.canvas = named(FigureCanvasQTAgg(self.figure), "recoveryChart", "Chart of error against k",
-                            "Error against k: overall and per column, with standard-error bars; "
-                            "the column average as a line; best k and one-SE k marked. Numbers are "
-                            "scored by NRMSE (RMSE / column SD), categories by the share of wrong classes")
-        self.canvas.setFocusPolicy(Qt.FocusPolicy.NoFocus)
-        self.canvas.installEventFilter(self)
-        self.canvas.setMinimumSize(160, CHART_MIN_HEIGHT)
-        self.canvas.setSizePolicy(QSizePolicy.Policy.Expanding, QSizePolicy.Policy.Expanding)
-        self.chart_stack.addWidget(self.placeholder)
-        self.chart_stack.addWidget(self.canvas)
+        self.chart = self.chart_stack = ErrorChart(splitter)
+        self.placeholder, self.figure = self.chart.placeholder, self.chart.figure
+        self.canvas = self.chart.canvas
         self.model = RecordsModel(parent=self)
         self.table = RecordTable(splitter, self.model, "recoveryTable", "Errors per k",
                                  "Error for every k and the column-average baseline; "
@@ -244,12 +179,12 @@ class RecoveryPanel(QWidget):
         """The "use this k" buttons and the chart's controls; they wrap onto more rows when narrow."""
         self.use_best_button = button(self, "recoveryUseBest", "Use &best k",
                                       "Set k to the value with the lowest error")
-        self.use_best_button.clicked.connect(lambda: self._emit_k(self._report.best_k))
+        self.use_best_button.clicked.connect(lambda: self._use_report_k(one_se=False))
         self.use_one_se_button = button(
             self, "recoveryUseOneSe", "Use &one-SE k",
             "Set k to the largest k whose error is within one standard error of the best "
             "(a smoother fill that does about as well)")
-        self.use_one_se_button.clicked.connect(lambda: self._emit_k(self._report.best_k_1se))
+        self.use_one_se_button.clicked.connect(lambda: self._use_report_k(one_se=True))
         self.use_selected_button = button(self, "recoveryUseSelected", "Use selected k",
                                           "Set k to the k of the selected table row (or press Enter "
                                           "on the row)")
@@ -260,7 +195,8 @@ class RecoveryPanel(QWidget):
         self.chart_columns = compact(named(
             QComboBox(self), "recoveryChartColumns", "Columns drawn in the chart",
             "Draw every fill column's own line, none, or one column beside the overall error"))
-        self.chart_columns.currentIndexChanged.connect(self._redraw)
+        self.chart_columns.currentIndexChanged.connect(
+            lambda _i: self.chart.set_columns(self.chart_columns.currentData()))
         k_buttons = Reflow([(None, b) for b in (self.use_best_button, self.use_one_se_button,
                                                   self.use_selected_button)], self, max_columns=3,
                            stretch=False)
@@ -274,52 +210,61 @@ class RecoveryPanel(QWidget):
         return Reflow([(None, k_buttons), (None, chart)], self)
 
     def _set_tab_order(self) -> None:
-        chain = [self.hide_fraction, self.repeats, self.k_from, self.k_to, self.masking, self.seed,
-                 self.run_button, self.cancel_button, self.table, self.use_best_button,
-                 self.use_one_se_button, self.use_selected_button, self.chart_columns, self.save_button]
+        chain = [*self.settings_box.fields(), self.run_button, self.cancel_button, self.table,
+                 self.use_best_button, self.use_one_se_button, self.use_selected_button,
+                 self.chart_columns, self.save_button]
         for first, second in itertools.pairwise(chain):
             QWidget.setTabOrder(first, second)
 
     # ------------------------------------------------------------------ API
-    def set_source(self, data: Any, plan: FillPlan) -> None:
-        """Set what to test: ``data`` (Sheet or DataFrame) filled by ``plan``.
+    def set_source(self, data: Sheet | pd.DataFrame | None, plan: FillPlan | None = None) -> None:
+        """Test ``data`` (Sheet or DataFrame) instead of the session's sheet; ``plan`` goes to the session.
 
         The last report stays on screen; when it was made for other data or settings
         (other than k), the panel says so. A running test is not interrupted.
         """
-        self._data = data
-        self._plan = plan
-        ceiling = k_ceiling(data, plan) if data is not None else 1
-        for spin in (self.k_from, self.k_to):
-            spin.setMaximum(ceiling)
-        if self.k_to.value() <= 1 < ceiling:
-            self.k_to.setValue(min(20, ceiling))
+        self._source = data
+        if plan is not None:
+            self.session.set_plan(plan)
+        self._follow_source()
+
+    @property
+    def _data(self) -> Sheet | pd.DataFrame | None:
+        """What is tested: the data given to :meth:`set_source`, else the session's sheet."""
+        return self._source if self._source is not None else self.session.sheet
+
+    def _on_session(self, event: str) -> None:
+        if event == "sheet":
+            self.cancel()  # a test of the previous sheet must not report on the new one
+        if event in ("sheet", "plan"):
+            self._follow_source()
+
+    def _follow_source(self) -> None:
+        data = self._data
+        self.settings_box.set_ceiling(k_ceiling(data, self.session.plan) if data is not None else 1)
         self._update_stale_note()
         self._set_running(self._busy)
 
     @property
-    def report(self) -> Any:
+    def report(self) -> RecoveryReport | None:
         """The latest :class:`~imputer_app.validation.RecoveryReport`, or None."""
         return self._report
 
     def request(self) -> RecoveryRequest:
-        """The test the controls describe."""
-        return RecoveryRequest(
-            hide_fraction=round(self.hide_fraction.value(), 4), repeats=self.repeats.value(),
-            k_from=self.k_from.value(), k_to=self.k_to.value(),
-            masking=str(self.masking.currentData()), seed=self.seed.value(),
-        )
+        """The test the settings describe."""
+        return self.settings_box.request()
 
     def run(self) -> None:
         """Start the recovery test in a worker thread (does nothing without a source)."""
-        if self._data is None or self._plan is None or self._busy:
+        data, plan = self._data, self.session.plan
+        if data is None or self._busy:
             return
-        self._run_source = (self._data, self._plan)
+        self._run_source = (data, _settings_key(plan))
         self._show_status("", problem=False)
         self._set_running(True)
         self.progress.setRange(0, 0)  # busy until the first progress report
         # A run that just ended may still be winding its thread down; start() handles that.
-        self.runner.start(self.request().job(self._data, self._plan))
+        self.runner.start(self.request().job(data, plan))
 
     def cancel(self) -> None:
         """Stop a running test; the previous report and everything else stay as they were."""
@@ -339,9 +284,8 @@ class RecoveryPanel(QWidget):
         path = Path(name)
         if path.suffix.lower() not in (".png", ".svg"):
             path = path.with_suffix(".svg" if "svg" in (chosen or "").lower() else ".png")
-        figure = Figure(figsize=(7, 4.5), layout="constrained")  # light, print-ready colours
         try:
-            save_figure(draw_chart(self._report, figure, self.chart_columns.currentData()), path)
+            self.chart.save(path)
         except (OSError, ValueError) as exc:
             self._show_status(f"Could not save the chart to {path}: {exc}", problem=True)
             return None
@@ -361,7 +305,7 @@ class RecoveryPanel(QWidget):
         self.progress.setRange(0, max(1, total))
         self.progress.setValue(min(done, max(1, total)))
 
-    def _on_finished(self, report: Any) -> None:
+    def _on_finished(self, report: RecoveryReport) -> None:
         self._report = report
         self._report_source = self._run_source
         try:
@@ -386,7 +330,7 @@ class RecoveryPanel(QWidget):
     def _set_running(self, running: bool, outcome: str = "") -> None:
         """Lock the settings while a test runs; ``outcome`` labels the idle progress bar."""
         self._busy = running
-        for widget in (self.hide_fraction, self.repeats, self.k_from, self.k_to, self.masking, self.seed):
+        for widget in self.settings_box.fields():
             widget.setEnabled(not running)
         self.run_button.setEnabled(not running and self._data is not None)
         self.cancel_button.setEnabled(running)
@@ -405,19 +349,18 @@ class RecoveryPanel(QWidget):
         self.status.setVisible(bool(text))
         self.status_icon.setVisible(problem and bool(text))
 
-    def _show_report(self, report: Any) -> None:
+    def _show_report(self, report: RecoveryReport | None) -> None:
         if report is None:
             self.model.set_rows([], headers=["k"])
             self._summary = IDLE_TEXT
-            self.chart_stack.setCurrentWidget(self.placeholder)
+            self.chart.show_report(None)
             self._show_status("", problem=False)
         else:
             headers, tips = report_headers(report)
             self.model.set_rows(report_rows(report), headers, tips)
             self._summary = summary_text(report)
             self._fill_chart_columns(report)
-            self._redraw()
-            self.chart_stack.setCurrentWidget(self.canvas)
+            self.chart.show_report(report, self.chart_columns.currentData())
             best_row = list(report.overall.index).index(report.best_k)
             self.table.setCurrentIndex(self.model.index(best_row, 0))
             # centred, so the best row stays in sight when the splitter shrinks the table
@@ -428,7 +371,7 @@ class RecoveryPanel(QWidget):
         self._update_stale_note()
         self._update_choice_buttons()
 
-    def _fill_chart_columns(self, report: Any) -> None:
+    def _fill_chart_columns(self, report: RecoveryReport) -> None:
         kind = "number" if report.score_name == "score" else "category"
         columns = [c for c, k in report.kinds.items() if k == kind]
         self.chart_columns.blockSignals(True)
@@ -441,31 +384,10 @@ class RecoveryPanel(QWidget):
         self.chart_columns.setCurrentIndex(1 if len(columns) > MAX_CHART_COLUMNS else 0)
         self.chart_columns.blockSignals(False)
 
-    def _redraw(self) -> None:
-        if self._report is None:
-            return
-        self._narrow = self.canvas.width() < NARROW_CHART
-        chosen = self.chart_columns.currentData()
-        drawn = self._report.kinds if chosen is None else chosen
-        # With many columns the legend names only the overall line, the baseline and the marks.
-        unlisted = tuple(drawn) if len(drawn) > MAX_CHART_COLUMNS else ()
-        with palette_style(self.palette()):
-            figure = draw_chart(self._report, self.figure, chosen)
-            fit_for_screen(figure, narrow=self._narrow, unlisted=unlisted)
-        self.canvas.draw_idle()
-
-    def eventFilter(self, watched: QObject, event: QEvent) -> bool:
-        """Move the chart's legend below or beside the axes when the chart's width crosses a limit."""
-        if (watched is self.canvas and event.type() == QEvent.Type.Resize and self._report is not None
-                and (self.canvas.width() < NARROW_CHART) != self._narrow):
-            self._redraw()
-        return super().eventFilter(watched, event)
-
     def _update_stale_note(self) -> None:
-        data, plan = self._report_source
+        data, settings = self._report_source
         stale = self._report is not None and (
-            data is not self._data or plan is None or self._plan is None
-            or plan.replace(k=self._plan.k) != self._plan
+            data is not self._data or settings != _settings_key(self.session.plan)
         )
         text = self._summary
         if stale:
@@ -475,10 +397,11 @@ class RecoveryPanel(QWidget):
         self.summary.setVisible(self._report is not None)
 
     def _update_choice_buttons(self) -> None:
-        have = self._report is not None
-        if have:
-            self.use_best_button.setText(f"Use &best k ({self._report.best_k})")
-            self.use_one_se_button.setText(f"Use &one-SE k ({self._report.best_k_1se})")
+        report = self._report
+        have = report is not None
+        if report is not None:
+            self.use_best_button.setText(f"Use &best k ({report.best_k})")
+            self.use_one_se_button.setText(f"Use &one-SE k ({report.best_k_1se})")
         else:
             self.use_best_button.setText("Use &best k")
             self.use_one_se_button.setText("Use &one-SE k")
@@ -500,8 +423,13 @@ class RecoveryPanel(QWidget):
         if k is not None:
             self._emit_k(k)
 
+    def _use_report_k(self, *, one_se: bool) -> None:
+        if self._report is not None:
+            self._emit_k(self._report.best_k_1se if one_se else self._report.best_k)
+
     def _emit_k(self, k: int) -> None:
         self._show_status(f"k set to {format_value(k)}.", problem=False)
+        self.session.set_k(k)
         self.use_k.emit(int(k))
 
     def keyPressEvent(self, event: QKeyEvent) -> None:
@@ -510,3 +438,8 @@ class RecoveryPanel(QWidget):
             self.run()
             return
         super().keyPressEvent(event)
+
+
+def _settings_key(plan: FillPlan) -> dict[str, Any]:
+    """The plan's settings other than k, as plain data (a report stays current when only k changes)."""
+    return plan.replace(k=1).to_dict()

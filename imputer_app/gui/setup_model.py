@@ -11,7 +11,7 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, Any
 
-from PySide6.QtCore import Qt
+from PySide6.QtCore import QObject, Qt
 
 from imputer_app.gui.flat_model import FlatTableModel, Index
 from imputer_app.plan import FillPlan
@@ -160,7 +160,7 @@ def choices_from_plan(
 class ColumnListModel(FlatTableModel):
     """One row per sheet column: name, role, kind, weight, unit, % gaps, censored count."""
 
-    def __init__(self, parent: Any = None) -> None:
+    def __init__(self, parent: QObject | None = None) -> None:
         super().__init__(parent)
         self._choices: list[ColumnChoice] = []
         self._group: str | None = None

@@ -10,14 +10,17 @@ earlier one back). The working table is therefore the sheet as read with the cur
 applied fill's values written in.
 
 Widgets observe the session through :meth:`Session.subscribe`; they change it only
-through its methods, and redraw from it when told.
+through its methods, and redraw from it when told. The session is the only holder of
+the plan: a panel that changes a setting calls :meth:`Session.set_plan` (or
+:meth:`Session.set_k`), and every view, the panel included, redraws on the ``"plan"``
+event.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 from imputer_app.plan import FillPlan
 
@@ -26,6 +29,7 @@ if TYPE_CHECKING:
 
     from imputer_app.engine import FillResult
     from imputer_app.sheets import Sheet
+    from imputer_app.validation import RecoveryReport
 
 #: Names of the changes a listener is told about.
 EVENTS = ("sheet", "plan", "report", "preview", "applied", "saved")
@@ -51,7 +55,9 @@ class Session:
         self.sheet: Sheet | None = None
         self.path: Path | None = None
         self.plan: FillPlan = FillPlan()
-        self.report: Any = None
+        #: Why the settings being edited do not make a plan yet (None: ``plan`` is what they say).
+        self.plan_problem: str | None = None
+        self.report: RecoveryReport | None = None
         self.preview: FillResult | None = None
         # history[:position] are the applied fills; history[position:] can be redone.
         self._history: list[FillResult] = []
@@ -124,6 +130,7 @@ class Session:
         self.sheet = sheet
         self.path = Path(path) if path is not None else Path(sheet.source.path)
         self.plan = plan if plan is not None else column_free(self.plan)
+        self.plan_problem = None
         self.report = None
         self.preview = None
         self._history.clear()
@@ -141,7 +148,18 @@ class Session:
             self._emit("preview")
         self._emit("plan")
 
-    def set_report(self, report: Any) -> None:
+    def set_k(self, k: int) -> None:
+        """Use the current plan with ``k`` donors per cell (e.g. the recovery test's best k)."""
+        self.set_plan(self.plan.replace(k=int(k)))
+
+    def set_plan_problem(self, problem: str | None) -> None:
+        """Say why the settings being edited make no plan (None: they do); the plan is kept."""
+        if problem == self.plan_problem:
+            return
+        self.plan_problem = problem
+        self._emit("plan")
+
+    def set_report(self, report: RecoveryReport | None) -> None:
         """Keep the latest recovery report (passed to the export)."""
         self.report = report
         self._emit("report")

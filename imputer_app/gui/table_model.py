@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
-from PySide6.QtCore import Qt
+from PySide6.QtCore import QObject, Qt
 from PySide6.QtGui import QFont
 
 from imputer_app.gui.flat_model import FlatTableModel, Index
@@ -51,7 +51,7 @@ class SheetTableModel(FlatTableModel):
     ``"preview"`` (proposed, not applied) or as ``"applied"`` (the working table).
     """
 
-    def __init__(self, parent: Any = None) -> None:
+    def __init__(self, parent: QObject | None = None) -> None:
         super().__init__(parent)
         self._dark = palette_is_dark()
         self._clear()

@@ -8,7 +8,7 @@ entry, emits :attr:`UnfilledPanel.jump_requested` so the main window can show th
 from __future__ import annotations
 
 from collections import Counter
-from typing import Any
+from typing import TYPE_CHECKING
 
 import pandas as pd
 from PySide6.QtCore import QModelIndex, QRegularExpression, QSortFilterProxyModel, Qt, Signal
@@ -17,6 +17,9 @@ from PySide6.QtWidgets import QComboBox, QHBoxLayout, QHeaderView, QVBoxLayout, 
 from imputer_app.gui.formatting import Cell, format_label
 from imputer_app.gui.records_model import RAW_ROLE, RecordsModel
 from imputer_app.gui.widgets import RecordTable, buddy, named, text_label
+
+if TYPE_CHECKING:
+    from imputer_app.engine import FillResult
 
 HEADERS = ("Row", "Column", "Reason")
 HEADER_TIPS = ("Row label in the sheet", "Column of the empty cell", "Why the cell could not be filled")
@@ -65,7 +68,7 @@ class UnfilledPanel(QWidget):
         super().__init__(parent)
         self.setObjectName("unfilledPanel")
         self.setAccessibleName("Cells left empty")
-        self._result: Any = None
+        self._result: FillResult | None = None
         self._build()
         self.set_result(None)
 
@@ -104,7 +107,7 @@ class UnfilledPanel(QWidget):
         QWidget.setTabOrder(self.reason_filter, self.table)
 
     # ------------------------------------------------------------------ API
-    def set_result(self, result: Any) -> None:
+    def set_result(self, result: FillResult | None) -> None:
         """Show the cells ``result`` (a FillResult, or None) left empty."""
         self._result = result
         unfilled = getattr(result, "unfilled", None) if result is not None else None

@@ -1,25 +1,34 @@
-"""Menus, shortcuts and the toolbar of the main window."""
+"""Menus, shortcuts and the toolbar of the main window.
+
+The window hands over a table of slots (action key -> callable); nothing here knows
+the window class.
+"""
 
 from __future__ import annotations
 
+from collections.abc import Callable, Mapping, Sequence
+from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from PySide6.QtCore import QSize, Qt
 from PySide6.QtGui import QAction, QKeySequence
-from PySide6.QtWidgets import QStyle, QToolBar
+from PySide6.QtWidgets import QMainWindow, QMenu, QStyle, QToolBar, QWidget
 
 if TYPE_CHECKING:
-    from imputer_app.gui.main_window import MainWindow
+    from imputer_app.gui.state import Session
 
 _SP = QStyle.StandardPixmap
 
+#: A slot of an action: called without arguments when the action is triggered.
+Slot = Callable[[], object]
+
 
 def _action(
-    window: MainWindow,
+    window: QWidget,
     key: str,
     text: str,
     tip: str,
-    slot: object,
+    slot: Slot,
     shortcut: QKeySequence | QKeySequence.StandardKey | str | None = None,
     icon: QStyle.StandardPixmap | None = None,
 ) -> QAction:
@@ -32,19 +41,28 @@ def _action(
         action.setToolTip(f"{tip} ({action.shortcut().toString(QKeySequence.SequenceFormat.NativeText)})")
     if icon is not None:
         action.setIcon(window.style().standardIcon(icon))
-    action.triggered.connect(lambda _checked=False: slot())  # type: ignore[operator]
+    action.triggered.connect(lambda _checked=False: slot())
     return action
 
 
-def build_actions(w: MainWindow) -> dict[str, QAction]:
-    """Create every action of the window (keyed by a short name)."""
+def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
+    """Create every action of the window, keyed by a short name.
+
+    Parameters
+    ----------
+    w : QWidget
+        Parent of the actions (and source of the standard icons).
+    slots : mapping of str to callable
+        What each action does, by key: ``open``, ``open_options``, ``open_plan``,
+        ``save_plan``, ``export``, ``quit``, ``undo``, ``redo``, ``recovery``, ``preview``,
+        ``apply``, ``next_gap``, ``focus_setup``, ``focus_table``, ``focus_panels``, ``about``.
+    """
     std = QKeySequence.StandardKey
-    specs: list[tuple[str, str, str, Any, Any, Any]] = [
+    specs: list[tuple[str, str, str, Any, Any]] = [
         (
             "open",
             "&Open sheet…",
             "Open a sheet (xlsx, xls, ods, csv)",
-            w.open_dialog,
             std.Open,
             _SP.SP_DialogOpenButton,
         ),
@@ -52,16 +70,14 @@ def build_actions(w: MainWindow) -> dict[str, QAction]:
             "open_options",
             "Open &with options…",
             "Open a sheet choosing worksheet, header row and markers",
-            lambda: w.open_dialog(with_options=True),
             "Ctrl+Shift+O",
             None,
         ),
-        ("open_plan", "Open &plan…", "Load saved fill settings (*.plan.toml)", w.open_plan, "Ctrl+L", None),
+        ("open_plan", "Open &plan…", "Load saved fill settings (*.plan.toml)", "Ctrl+L", None),
         (
             "save_plan",
             "&Save plan…",
             "Save the fill settings as a *.plan.toml to reuse later",
-            w.save_plan,
             std.Save,
             _SP.SP_DialogSaveButton,
         ),
@@ -69,17 +85,15 @@ def build_actions(w: MainWindow) -> dict[str, QAction]:
             "export",
             "&Export filled sheet…",
             "Write the filled sheet and its fill log (never over the source)",
-            w.export,
             "Ctrl+E",
             _SP.SP_DriveFDIcon,
         ),
-        ("quit", "&Quit", "Close Kinfill", w.close, std.Quit, None),
-        ("undo", "&Undo apply", "Take back the last applied fill", w.undo, "Ctrl+Z", _SP.SP_ArrowBack),
+        ("quit", "&Quit", "Close Kinfill", std.Quit, None),
+        ("undo", "&Undo apply", "Take back the last applied fill", "Ctrl+Z", _SP.SP_ArrowBack),
         (
             "redo",
             "&Redo apply",
             "Apply again the fill taken back",
-            w.redo,
             "Ctrl+Shift+Z",
             _SP.SP_ArrowForward,
         ),
@@ -87,7 +101,6 @@ def build_actions(w: MainWindow) -> dict[str, QAction]:
             "recovery",
             "Run &recovery test",
             "Hide known values, fill them for every k and compare errors",
-            w.run_recovery_test,
             "Ctrl+T",
             _SP.SP_MediaPlay,
         ),
@@ -95,7 +108,6 @@ def build_actions(w: MainWindow) -> dict[str, QAction]:
             "preview",
             "&Preview fill",
             "Compute the fill and show it over the data; nothing changes yet",
-            w.preview_fill,
             "F5",
             _SP.SP_BrowserReload,
         ),
@@ -103,16 +115,14 @@ def build_actions(w: MainWindow) -> dict[str, QAction]:
             "apply",
             "&Apply preview",
             "Write the previewed values into the working table",
-            w.apply_fill,
             "Ctrl+Return",
             _SP.SP_DialogApplyButton,
         ),
-        ("next_gap", "&Next gap", "Go to the next gap or marked cell in the table", w.next_gap, "F3", None),
+        ("next_gap", "&Next gap", "Go to the next gap or marked cell in the table", "F3", None),
         (
             "focus_setup",
             "Go to &setup",
             "Move the keyboard focus to the column setup",
-            lambda: w.setup.table.setFocus(Qt.FocusReason.ShortcutFocusReason),
             "Alt+1",
             None,
         ),
@@ -120,7 +130,6 @@ def build_actions(w: MainWindow) -> dict[str, QAction]:
             "focus_table",
             "Go to &table",
             "Move the keyboard focus to the data table",
-            lambda: w.table.setFocus(Qt.FocusReason.ShortcutFocusReason),
             "Alt+2",
             None,
         ),
@@ -128,25 +137,23 @@ def build_actions(w: MainWindow) -> dict[str, QAction]:
             "focus_panels",
             "Go to &panels",
             "Move the keyboard focus to the panels on the right",
-            lambda: w.tabs.setFocus(Qt.FocusReason.ShortcutFocusReason),
             "Alt+3",
             None,
         ),
-        ("about", "&About Kinfill", "Version, cautions and references", w.show_about, None, None),
+        ("about", "&About Kinfill", "Version, cautions and references", None, None),
     ]
-    actions = {key: _action(w, key, text, tip, slot, sc, icon) for key, text, tip, slot, sc, icon in specs}
-    return actions
+    return {key: _action(w, key, text, tip, slots[key], sc, icon) for key, text, tip, sc, icon in specs}
 
 
-def build_menus(w: MainWindow, a: dict[str, QAction]) -> None:
-    """Fill the menu bar and the toolbar; sets ``w.recent_menu``."""
+def build_menus(w: QMainWindow, a: Mapping[str, QAction], recent_menu: QMenu) -> QToolBar:
+    """Fill the menu bar of ``w`` (with ``recent_menu`` under File) and add the toolbar it returns."""
     bar = w.menuBar()
     bar.setObjectName("menuBar")
     file_menu = bar.addMenu("&File")
     file_menu.setObjectName("menuFile")
     file_menu.addActions([a["open"], a["open_options"]])
-    file_menu.addMenu(w.recent_menu)
-    w.recent_menu.setObjectName("menuRecent")
+    file_menu.addMenu(recent_menu)
+    recent_menu.setObjectName("menuRecent")
     file_menu.addSeparator()
     file_menu.addActions([a["open_plan"], a["save_plan"]])
     file_menu.addSeparator()
@@ -197,4 +204,42 @@ def build_menus(w: MainWindow, a: dict[str, QAction]) -> None:
             button.setObjectName(f"toolButton{text.replace(' ', '')}")
             button.setAccessibleName(a[key].text().replace("&", "").rstrip("…"))
     w.addToolBar(Qt.ToolBarArea.TopToolBarArea, tools)
-    w.toolbar = tools
+    return tools
+
+
+def enabled_actions(session: Session, busy: bool) -> dict[str, bool]:
+    """Which actions can be used now, given the session and whether a job is at work."""
+    has = session.sheet is not None
+    return {
+        "open": not busy,
+        "open_options": not busy,
+        "recent": not busy,
+        "open_plan": has and not busy,
+        "save_plan": has,
+        "export": session.applied is not None and not busy,
+        "undo": session.can_undo and not busy,
+        "redo": session.can_redo and not busy,
+        "recovery": has,
+        "preview": has and not busy and session.plan_problem is None,
+        "apply": session.can_apply and not busy,
+        "next_gap": has,
+    }
+
+
+def fill_recent_menu(
+    menu: QMenu, files: Sequence[Path], open_path: Callable[[Path], object], clear: Slot
+) -> None:
+    """Rebuild File > Recent files: one entry per file (``open_path(file)``), then Clear list."""
+    menu.clear()
+    for number, path in enumerate(files, start=1):
+        action = menu.addAction(f"&{number} {path.name}")
+        action.setObjectName(f"actionRecent{number}")
+        action.setToolTip(str(path))
+        action.setStatusTip(str(path))
+        action.triggered.connect(lambda _c=False, p=path: open_path(p))
+    menu.setEnabled(bool(files))
+    if files:
+        menu.addSeparator()
+        action = menu.addAction("&Clear list")
+        action.setObjectName("actionClearRecent")
+        action.triggered.connect(lambda _c=False: clear())

@@ -126,6 +126,10 @@ class TaskRunner(QObject):
         """True while any worker thread of this runner is alive."""
         return any(thread.isRunning() for thread, _ in self._threads.values())
 
+    def released(self) -> bool:
+        """True once every worker thread has ended and been let go (nothing more will be signalled)."""
+        return not self._threads
+
     def wait(self, msecs: int = 10_000) -> bool:
         """Cancel and wait for every worker thread to end (used on close)."""
         self.cancel()

@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import pytest
+from PySide6.QtCore import Qt
 
 from imputer_app.engine import default_roles, impute
 from imputer_app.gui.column_setup import ColumnSetup
 from imputer_app.plan import FillPlan
 from imputer_app.sheets import read_sheet
+from imputer_app.words import CHOICE_WORDS, SETTING_TIPS
 from tests.conftest import SAMPLES
 
 
@@ -123,3 +125,14 @@ def test_a_plan_shows_and_comes_back_unchanged(setup):
     }
     roles = {c.name: c.role for c in setup.choices()}
     assert (roles["pH"], roles["Nitrate"], roles["Phosphate"]) == ("similarity", "both", "fill")
+
+
+@pytest.mark.parametrize("setting", sorted(CHOICE_WORDS))
+def test_choice_lists_use_the_shared_words(setup, setting):
+    combo = setup.choice_combos[setting]
+    shown = [
+        (combo.itemData(i), combo.itemText(i), combo.itemData(i, Qt.ItemDataRole.ToolTipRole))
+        for i in range(combo.count())
+    ]
+    assert shown == [(value, w.label, w.explanation) for value, w in CHOICE_WORDS[setting].items()]
+    assert combo.toolTip() == SETTING_TIPS[setting]

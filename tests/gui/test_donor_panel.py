@@ -169,7 +169,7 @@ def test_censored_cell_shows_its_original_text(panel):
     told = facts(panel)
     assert panel.story.status == "substituted"
     assert told["Original entry"] == "<0.05 (limit 0.05)"
-    assert told["Method"] == "replaced by half its limit"
+    assert told["Method"] == "replaced by half the limit"
     assert "censored" in told["Flag"]
     assert not panel.table.isVisibleTo(panel)
 
@@ -195,7 +195,7 @@ def test_enter_on_a_donor_asks_to_show_its_row(qtbot, panel, filled):
          "majority vote of the nearest donors (a tie goes to the nearest donor's class)"),
         ("knn_capped", True, FillPlan(), "mean of the nearest donors' values, capped at the entry's limit"),
         ("column_mean", True, FillPlan(), "column average (no donor was available)"),
-        ("limit_sqrt2", True, FillPlan(), "replaced by its limit divided by √2 (Hornung & Reed 1990)"),
+        ("limit_sqrt2", True, FillPlan(), "replaced by the limit divided by sqrt(2) (Hornung & Reed 1990)"),
     ],
 )
 def test_method_words(method, numeric, plan, words):
