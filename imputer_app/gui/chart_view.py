@@ -11,23 +11,21 @@ import contextlib
 import re
 import textwrap
 from collections.abc import Collection, Iterator
-from typing import TYPE_CHECKING, cast
+from typing import TYPE_CHECKING
 
 import matplotlib
 from matplotlib.figure import Figure
 from PySide6.QtGui import QPalette
 
-from imputer_app.charts.error_vs_k import plot_error_vs_k
+from imputer_app.charts import plot_error_vs_k
 
 if TYPE_CHECKING:
-    from imputer_app.charts.error_vs_k import ErrorVsK
     from imputer_app.validation import RecoveryReport
 
 
 def draw_chart(report: RecoveryReport, figure: Figure, columns: tuple[str, ...] | None = None) -> Figure:
     """Draw the error-against-k chart into ``figure`` (cleared first)."""
-    # The chart's ErrorVsK protocol declares settable members; the frozen report reads the same.
-    return plot_error_vs_k(cast("ErrorVsK", report), figure=figure, columns=columns)
+    return plot_error_vs_k(report, figure=figure, columns=columns)
 
 
 def fit_for_screen(figure: Figure, *, narrow: bool, unlisted: Collection[str] = ()) -> None:

@@ -6,14 +6,16 @@ small dialog class, so tests can replace them and never block on a modal window.
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from PySide6.QtCore import QMimeData
 from PySide6.QtWidgets import QDialog, QFileDialog, QMessageBox, QWidget
 
+from imputer_app.files import same_file
 from imputer_app.gui.open_dialog import OpenDialog
-from imputer_app.gui.state import default_export_path, same_file
+from imputer_app.gui.state import default_export_path
 from imputer_app.plan import PLAN_SUFFIX
 
 if TYPE_CHECKING:
@@ -145,7 +147,7 @@ def ask_export_path(parent: QWidget, source: Path, path: str | Path | None = Non
         warn(parent, f"Kinfill never writes over the sheet it read ({source.name}); choose another name.")
         return None
     replace = f"{target.name} already exists in {target.parent}. Replace it?"
-    if target.exists() and not agree(parent, replace, QMessageBox.StandardButton.Yes,
+    if os.path.lexists(target) and not agree(parent, replace, QMessageBox.StandardButton.Yes,
                                      QMessageBox.StandardButton.No):
         return None
     _remember(parent, target)

@@ -232,14 +232,3 @@ def default_export_path(source: str | Path) -> Path:
     """
     source = Path(source)
     return source.with_name(f"{source.stem}.filled.xlsx")
-
-
-def same_file(a: str | Path, b: str | Path) -> bool:
-    """True when ``a`` and ``b`` name the same file (after resolving links)."""
-    pa, pb = Path(a), Path(b)
-    try:
-        if pa.exists() and pb.exists():
-            return pa.samefile(pb)
-    except OSError:
-        pass
-    return pa.resolve() == pb.resolve()

@@ -13,7 +13,8 @@ from types import SimpleNamespace
 import pandas as pd
 import pytest
 
-from imputer_app.gui.state import Session, SessionError, column_free, default_export_path, same_file
+from imputer_app.files import same_file
+from imputer_app.gui.state import Session, SessionError, column_free, default_export_path
 from imputer_app.plan import FillPlan
 
 
