@@ -117,8 +117,8 @@ def gap_check(
     Parameters
     ----------
     data : DataFrame or sheet-like
-        The sheet (a ``DataFrame``, or an object with ``frame`` and optionally
-        ``states``): numbers as floats, categories as text, gaps as NaN. Never modified.
+        The sheet (a ``DataFrame``, or a read sheet: :class:`imputer_app.engine.SheetLike`):
+        numbers as floats, categories as text, gaps as NaN. Never modified.
     plan : FillPlan or None, default=None
         Its similarity and fill columns are checked; ``None`` checks what the default
         plan uses (every number and category column that is not an identifier).

@@ -133,9 +133,12 @@ def test_gap_check_never_changes_its_input() -> None:
     frame = _gaps_where_high(2)
     frame["Station"] = np.where(np.arange(len(frame)) % 2 == 0, "S1", "S2")
     before = frame.copy()
-    sheet = SimpleNamespace(frame=frame, states=None)
+    states = pd.DataFrame(np.where(frame.isna(), "missing", "observed"), index=frame.index, columns=frame.columns)
+    sheet = SimpleNamespace(frame=frame, states=states, cell_notes=pd.DataFrame())
+    states_before = states.copy()
     gap_check(sheet)
     gap_check(frame, FillPlan(k=3))
+    pd.testing.assert_frame_equal(states, states_before)
     pd.testing.assert_frame_equal(frame, before)
 
 
