@@ -176,7 +176,7 @@ def add_app_titles(app: str, names: list[str]) -> str:
         return app
     before = 0
     for heading in re.finditer(r"<vt:lpstr>([^<]*)</vt:lpstr></vt:variant><vt:variant><vt:i4>(\d+)", app):
-        if heading.start() >= pair.start():
+        if heading.group(1) == "Worksheets":
             break
         before += int(heading.group(2))
     entries = re.findall(r"<vt:lpstr>.*?</vt:lpstr>|<vt:lpstr/>", titles.group(4), re.S)

@@ -179,6 +179,11 @@ def _patch(
     """Return the changed parts (None: removed): data sheet, styles, formulas, notes."""
     changed: dict[str, bytes | None] = {}
     xml = parts[plan.data_part].decode("utf-8")
+    if "<worksheet" not in xml or "<sheetData" not in xml:  # prefixed SpreadsheetML: not edited as text
+        raise ExportError(
+            f"sheet '{sheet.source.sheet}' of {sheet.source.path.name} is written in a form Kinfill cannot "
+            "edit in place; export with the table layout"
+        )
     rows = content.layout.data_rows
     written = np.asarray(result.filled, dtype=bool)
     where_i, where_j = np.nonzero(written)

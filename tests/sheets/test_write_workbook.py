@@ -121,6 +121,12 @@ def test_workbook_items_survive(tmp_path: Path) -> None:
     assert after["Methods"]["A2"].value == "=SUM(Harvest!C6:C8)"
     assert after["Fill log"]["A1"].value == "row" and after["Fill log"].max_row == 6
     assert after.active.title == "Harvest"
+    with zipfile.ZipFile(out) as package:
+        app = package.read("docProps/app.xml").decode()
+    titles = "".join(
+        f"<vt:lpstr>{n}</vt:lpstr>" for n in ("Harvest", "Methods", "Fill log", "About this fill")
+    )
+    assert titles + "<vt:lpstr>PhValues</vt:lpstr>" in app and "<vt:i4>4</vt:i4>" in app
 
 
 def test_unchanged_parts_are_byte_identical(tmp_path: Path) -> None:
