@@ -11,16 +11,20 @@ from __future__ import annotations
 
 import re
 from collections import Counter
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 
 _ROW = re.compile(r"<row\b[^>]*?/>|<row\b[^>]*>.*?</row>", re.S)
+# A row whose start tag carries its number: the number comes with the match, no second search.
+_NUMBERED_ROW = re.compile(r'<row\b[^>]*?\sr="(\d+)"[^>]*?(?:/>|(?<!/)>.*?</row>)', re.S)
+_VALUE_LETTERS = re.compile(r'<c r="([A-Z]+)\d+"[^>]*><(?:v|is)>')
+_FORMULA_VALUE = re.compile(r"(<f\b(?:[^>]*?/>|[^>]*>[^<]*</f>))(?:<v>[^<]*</v>|<v/>)")
+_FORMULA_TYPE = re.compile(r'<c\b([^>]*?)\st="(?:str|b|e|n)"([^>]*>)(?=<f\b)')
 _CELL = re.compile(r"<c\b[^>]*?/>|<c\b[^>]*>.*?</c>", re.S)
 _ROW_NUMBER = re.compile(r'\sr="(\d+)"')
 _CELL_REF = re.compile(r'\sr="([A-Z]+)(\d+)"')
 _STYLE = re.compile(r'\ss="(\d+)"')
+_KIND = re.compile(r'\st="(\w+)"')
 _SPANS = re.compile(r'\sspans="[^"]*"')
-_VALUE = re.compile(r"<v>.*?</v>|<v/>", re.S)
-_TYPE = re.compile(r'\st="[^"]*"')
 
 
 def letters_index(letters: str) -> int:
@@ -49,6 +53,58 @@ def _row_number(element: str, previous: int) -> int:
     return int(found.group(1)) if found else previous + 1
 
 
+def locate_rows(xml: str, start: int, end: int) -> tuple[list[int], list[int], list[int]]:
+    """Return number, start and end offset of every ``<row>`` between ``start`` and ``end``."""
+    numbers, starts, ends = [], [], []
+    total = xml.count("<row", start, end)
+    for match in _NUMBERED_ROW.finditer(xml, start, end):
+        numbers.append(int(match.group(1)))
+        starts.append(match.start())
+        ends.append(match.end())
+    if len(numbers) == total:
+        return numbers, starts, ends
+    numbers, starts, ends = [], [], []  # some rows lack their number: count them in order
+    number = 0
+    for match in _ROW.finditer(xml, start, end):
+        number = _row_number(match.group(), number)
+        numbers.append(number)
+        starts.append(match.start())
+        ends.append(match.end())
+    return numbers, starts, ends
+
+
+def _find_rows(xml: str, start: int, end: int, rows: Iterable[int]) -> dict[int, tuple[int, int]] | None:
+    """Find rows by plain text search when every row starts ``<row r="N"`` (Excel, xlsxwriter).
+
+    Returns None when that does not hold or a wanted row is absent (then rows are located
+    by :func:`locate_rows`).
+    """
+    if xml.count('<row r="', start, end) != xml.count("<row", start, end):
+        return None
+    found: dict[int, tuple[int, int]] = {}
+    cursor = start
+    for number in sorted(rows):
+        at = xml.find(f'<row r="{number}"', cursor, end)
+        if at < 0:
+            return None
+        close = xml.index(">", at)
+        stop = close + 1 if xml[close - 1] == "/" else xml.index("</row>", close) + len("</row>")
+        found[number] = (at, stop)
+        cursor = stop
+    return found
+
+
+def _touched(xml: str, rows: Iterable[int]) -> dict[int, tuple[int, int]]:
+    """Return row number -> (start, end) of the ``<row>`` elements among ``rows`` that exist."""
+    start, end = sheet_data_span(xml)
+    wanted = set(rows)
+    quick = _find_rows(xml, start, end, wanted)
+    if quick is not None:
+        return quick
+    numbers, starts, ends = locate_rows(xml, start, end)
+    return {n: (a, b) for n, a, b in zip(numbers, starts, ends, strict=True) if n in wanted}
+
+
 def set_cells(xml: str, cells: Mapping[int, Mapping[int, str]]) -> str:
     """Return the worksheet ``xml`` with some cells replaced or added.
 
@@ -75,23 +131,38 @@ def set_cells(xml: str, cells: Mapping[int, Mapping[int, str]]) -> str:
 
 
 def _merge_rows(body: str, cells: Mapping[int, Mapping[int, str]]) -> str:
-    pending = sorted(cells)
+    quick = _find_rows(body, 0, len(body), cells)
+    if quick is not None:  # every row exists: patch them in place
+        return _patch_found(body, quick, cells)
+    numbers, starts, ends = locate_rows(body, 0, len(body))
+    where = {n: k for k, n in enumerate(numbers)}
     pieces: list[str] = []
-    position, number, k = 0, 0, 0
-    for match in _ROW.finditer(body):
-        number = _row_number(match.group(), number)
-        while k < len(pending) and pending[k] < number:
-            pieces.append(body[position : match.start()] + _new_row(pending[k], cells[pending[k]]))
-            position = match.start()
+    position, k = 0, 0
+    for number in sorted(cells):
+        if number in where:
+            at = where[number]
+            pieces.append(
+                body[position : starts[at]] + _patched_row(body[starts[at] : ends[at]], cells[number])
+            )
+            position = ends[at]
+            continue
+        while k < len(numbers) and numbers[k] < number:  # a new row goes before the next higher one
             k += 1
-        if k < len(pending) and pending[k] == number:
-            pieces.append(body[position : match.start()] + _patched_row(match.group(), cells[number]))
-            position = match.end()
-            k += 1
-        if k == len(pending):
-            break
+        at_offset = max(starts[k] if k < len(numbers) else len(body), position)
+        pieces.append(body[position:at_offset] + _new_row(number, cells[number]))
+        position = at_offset
     pieces.append(body[position:])
-    pieces.extend(_new_row(row, cells[row]) for row in pending[k:])
+    return "".join(pieces)
+
+
+def _patch_found(body: str, found: dict[int, tuple[int, int]], cells: Mapping[int, Mapping[int, str]]) -> str:
+    pieces: list[str] = []
+    position = 0
+    for number in sorted(found):
+        a, b = found[number]
+        pieces.append(body[position:a] + _patched_row(body[a:b], cells[number]))
+        position = b
+    pieces.append(body[position:])
     return "".join(pieces)
 
 
@@ -123,27 +194,28 @@ def _patched_row(row: str, new: Mapping[int, str]) -> str:
     return head + "".join(pieces) + "</row>"
 
 
-def cell_styles(xml: str, cells: Mapping[int, Mapping[int, str]] | None = None) -> dict[tuple[int, int], int]:
-    """Return the style index (``s``) of every cell with one, keyed by (row, column index).
+def cell_styles(xml: str, rows: Iterable[int]) -> tuple[dict[tuple[int, int], int], set[tuple[int, int]]]:
+    """Look at the cells of ``rows``: their style index (``s``) and which hold a number or formula.
 
-    When ``cells`` is given, only rows among its keys are looked at.
+    Returns (row, column index) -> style of every styled cell, and the set of cells
+    holding a number, boolean, date or formula (a gap never does; text may be a marker).
     """
-    start, end = sheet_data_span(xml)
     styles: dict[tuple[int, int], int] = {}
-    number = 0
-    for match in _ROW.finditer(xml, start, end):
-        number = _row_number(match.group(), number)
-        if cells is not None and number not in cells:
-            continue
+    occupied: set[tuple[int, int]] = set()
+    for number, (a, b) in _touched(xml, rows).items():
         column = -1
-        for cell in _CELL.finditer(match.group()):
-            head = _start_tag(cell.group())
+        for cell in _CELL.finditer(xml, a, b):
+            element = cell.group()
+            head = _start_tag(element)
             found = _CELL_REF.search(head)
             column = letters_index(found.group(1)) if found else column + 1
             style = _STYLE.search(head)
             if style:
                 styles[(number, column)] = int(style.group(1))
-    return styles
+            kind = _KIND.search(head)
+            if "<f" in element or ("<v>" in element and (kind is None or kind.group(1) in "nbd")):
+                occupied.add((number, column))
+    return styles, occupied
 
 
 def column_styles(xml: str, rows: set[int], columns: list[int], sample: int = 2000) -> dict[int, int]:
@@ -175,16 +247,6 @@ def column_styles(xml: str, rows: set[int], columns: list[int], sample: int = 20
     return {c: n.most_common(1)[0][0] for c, n in counts.items() if n}
 
 
-def _drop_value(match: re.Match[str]) -> str:
-    element = match.group()
-    if "<f" not in element:
-        return element
-    head = _start_tag(element)
-    if head.endswith("/>"):
-        return element
-    return _TYPE.sub("", head) + _VALUE.sub("", element[len(head) :])
-
-
 def drop_formula_results(xml: str) -> str:
     """Remove the stored result (``<v>`` and the result type) of every formula cell.
 
@@ -194,4 +256,20 @@ def drop_formula_results(xml: str) -> str:
     if "<f" not in xml:
         return xml
     start, end = sheet_data_span(xml)
-    return xml[:start] + _CELL.sub(_drop_value, xml[start:end]) + xml[end:]
+    body = _FORMULA_TYPE.sub(r"<c\1\2", _FORMULA_VALUE.sub(r"\1", xml[start:end]))
+    return xml[:start] + body + xml[end:]
+
+
+def value_columns(xml: str, first_row: int) -> list[int]:
+    """Return the 0-based columns holding a value (number, text) in any row from ``first_row`` on."""
+    start, end = sheet_data_span(xml)
+    numbers, starts, _ = locate_rows(xml, start, end) if '<row r="' not in xml else ([], [], [])
+    if numbers:  # rows without numbers: start at the first row from first_row on
+        start = next((a for n, a in zip(numbers, starts, strict=True) if n >= first_row), end)
+    else:
+        for number in range(first_row, first_row + 1000):  # the first numbered row from first_row on
+            at = xml.find(f'<row r="{number}"', start, end)
+            if at >= 0:
+                start = at
+                break
+    return sorted(letters_index(letters) for letters in set(_VALUE_LETTERS.findall(xml, start, end)))

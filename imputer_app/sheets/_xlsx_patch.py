@@ -85,12 +85,19 @@ def plan_export(sheet: Sheet, target: Path, content: ExportContent, with_report:
     return Plan(parts[str(source.sheet)], names, drop, target.suffix.lower() == ".xlsm")
 
 
-def file_columns(sheet: Sheet, data: bytes) -> list[int]:
+def file_columns(sheet: Sheet, data: bytes, xml: str) -> list[int]:
     """Return the 0-based file column of each column of ``sheet.frame``.
 
-    The reader keeps a column when it has a header text or a value in a data row;
-    the same rule applied to the file's grid gives the positions.
+    The reader keeps a column when it has a header text or a value in a data row.
+    The columns holding any value from the header row down (read from the sheet's
+    XML) are those or more; when there are more (a note beside the table), the
+    reader's rule is applied to the file's grid.
     """
+    n_columns = sheet.frame.shape[1]
+    first = sheet.source.header_row or int(sheet.frame.index[0])
+    quick = cells.value_columns(xml, first)
+    if len(quick) == n_columns:
+        return quick
     grid = read_workbook(data, sheet.source.path, sheet.source.file_format, sheet.source.sheet).cells
     rows = sheet.frame.index.to_numpy(dtype=np.int64) - 1
     header = sheet.source.header_row - 1
@@ -100,10 +107,10 @@ def file_columns(sheet: Sheet, data: bytes) -> list[int]:
         texts += list(grid[rows[rows < grid.shape[0]], col])
         if any(str(v).strip() for v in texts if v is not None):
             kept.append(col)
-    if len(kept) != sheet.frame.shape[1]:
+    if len(kept) != n_columns:
         raise ExportError(
             f"the columns of {sheet.source.path.name} cannot be matched to the fill "
-            f"({len(kept)} in the file, {sheet.frame.shape[1]} read); export with the table layout"
+            f"({len(kept)} in the file, {n_columns} read); export with the table layout"
         )
     return kept
 
@@ -129,12 +136,11 @@ def write_workbook(
         raise ExportError(
             f"{sheet.source.path.name} changed since it was read; read it again before exporting"
         )
-    columns = file_columns(sheet, data)
     ticker.step()
-    out = zipfile.ZipFile(target, "w", zipfile.ZIP_DEFLATED)
+    out = zipfile.ZipFile(target, "w", zipfile.ZIP_DEFLATED, compresslevel=SHEET_COMPRESSLEVEL)
     with out, zipfile.ZipFile(io.BytesIO(data)) as package:
         parts = {name: package.read(name) for name in package.namelist()}
-        changed, counts = _patch(parts, sheet, result, content, plan, columns, with_notes)
+        changed, counts = _patch(parts, sheet, result, content, plan, data, with_notes)
         ticker.step()
         donor = build_donor(content, record, report, chart, plan.names)
         style_xml = (changed["xl/styles.xml"] or b"").decode("utf-8")
@@ -157,7 +163,6 @@ def write_workbook(
             if body is None:
                 out.writestr(name, value)
             else:
-                out.compresslevel = SHEET_COMPRESSLEVEL
                 _write_spliced(out, name, value.decode("utf-8"), body, 48 * content.log_table.size)
     return counts
 
@@ -173,7 +178,7 @@ def _patch(
     result: Any,
     content: ExportContent,
     plan: Plan,
-    columns: list[int],
+    data: bytes,
     with_notes: bool,
 ) -> tuple[dict[str, bytes | None], dict[str, int]]:
     """Return the changed parts (None: removed): data sheet, styles, formulas, notes."""
@@ -184,6 +189,7 @@ def _patch(
             f"sheet '{sheet.source.sheet}' of {sheet.source.path.name} is written in a form Kinfill cannot "
             "edit in place; export with the table layout"
         )
+    columns = file_columns(sheet, data, xml)
     rows = content.layout.data_rows
     written = np.asarray(result.filled, dtype=bool)
     where_i, where_j = np.nonzero(written)
@@ -192,7 +198,14 @@ def _patch(
     for row, col in at:
         by_row.setdefault(row, {})[col] = ""
     column_style = cells.column_styles(xml, set(rows.tolist()), [columns[j] for j in set(where_j.tolist())])
-    own = cells.cell_styles(xml, by_row)
+    own, occupied = cells.cell_styles(xml, by_row)
+    clash = sorted(set(at) & occupied)
+    if clash:  # the rows or columns do not line up with the file: never overwrite a value
+        row, col = clash[0]
+        raise ExportError(
+            f"cell {column_letter(col)}{row} of sheet '{sheet.source.sheet}' holds a value, but the fill "
+            "would write there; read the file again, or export with the table layout"
+        )
     bases = {key: column_style.get(key[1], own.get(key, 0)) for key in at}
     style_xml, marked = styles.add_marked(
         parts["xl/styles.xml"].decode("utf-8"), sorted(set(bases.values())), FILLED_COLOUR

@@ -19,6 +19,7 @@ import pytest
 from python_calamine import CalamineWorkbook
 
 from imputer_app.engine import impute
+from imputer_app.errors import ExportError
 from imputer_app.plan import FillPlan
 from imputer_app.sheets import read_sheet, write_result
 from tests.sheets import workbook_fixture as lab
@@ -279,3 +280,14 @@ def test_libreoffice_recomputes_the_formula_column(tmp_path: Path) -> None:
         ca, mg, k = (float(result.frame[name].iloc[i]) for name in ("Ca", "Mg", "K"))
         assert float(cells[5]) == pytest.approx(ca + mg + k, abs=1e-9), row
     assert lines[7].split(",")[5] != "5.991"  # the stale sum of row 8 (Mg was a gap) is gone
+
+
+def test_a_workbook_changed_since_reading_is_refused(tmp_path: Path) -> None:
+    source = lab.build(tmp_path / "lab.xlsx")
+    sheet = read_sheet(source)
+    result = impute(sheet, PLAN)
+    lab.build(source, extra_sheets=("Later",))
+    out = tmp_path / "out.xlsx"
+    with pytest.raises(ExportError, match="changed since it was read"):
+        write_result(out, sheet, result, PLAN)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["lab.xlsx"]
