@@ -12,14 +12,19 @@ from __future__ import annotations
 import re
 from collections import Counter
 from collections.abc import Iterable, Mapping
+from functools import lru_cache
 
 _ROW = re.compile(r"<row\b[^>]*?/>|<row\b[^>]*>.*?</row>", re.S)
 # A row whose start tag carries its number: the number comes with the match, no second search.
 _NUMBERED_ROW = re.compile(r'<row\b[^>]*?\sr="(\d+)"[^>]*?(?:/>|(?<!/)>.*?</row>)', re.S)
 _VALUE_LETTERS = re.compile(r'<c r="([A-Z]+)\d+"[^>]*><(?:v|is)>')
-_FORMULA_VALUE = re.compile(r"(<f\b(?:[^>]*?/>|[^>]*>[^<]*</f>))(?:<v>[^<]*</v>|<v/>)")
+# A stored result right after a formula (a <v> follows </f> or a shared formula's <f .../>);
+# each pattern starts with literal text, which the regex engine finds quickly.
+_AFTER_FORMULA = re.compile(r"</f>(?:<v>[^<]*</v>|<v/>)")
+_AFTER_SHARED = re.compile(r"/>(?:<v>[^<]*</v>|<v/>)")
 _FORMULA_TYPE = re.compile(r'<c\b([^>]*?)\st="(?:str|b|e|n)"([^>]*>)(?=<f\b)')
 _CELL = re.compile(r"<c\b[^>]*?/>|<c\b[^>]*>.*?</c>", re.S)
+_LETTERED_CELL = re.compile(r'<c r="([A-Z]+)\d+"[^>]*?(?:/>|(?<!/)>.*?</c>)', re.S)
 _ROW_NUMBER = re.compile(r'\sr="(\d+)"')
 _CELL_REF = re.compile(r'\sr="([A-Z]+)(\d+)"')
 _STYLE = re.compile(r'\ss="(\d+)"')
@@ -27,6 +32,7 @@ _KIND = re.compile(r'\st="(\w+)"')
 _SPANS = re.compile(r'\sspans="[^"]*"')
 
 
+@lru_cache(maxsize=4096)
 def letters_index(letters: str) -> int:
     """Return the 0-based column index of spreadsheet letters (A -> 0, AA -> 26)."""
     index = 0
@@ -170,6 +176,21 @@ def _new_row(number: int, cells: Mapping[int, str]) -> str:
     return f'<row r="{number}">' + "".join(cells[c] for c in sorted(cells)) + "</row>"
 
 
+def _row_cells(row: str, start: int, end: int) -> list[tuple[int, int, int]]:
+    """Return (column index, start, end) of every ``<c>`` between ``start`` and ``end``."""
+    found = []
+    if row.count('<c r="', start, end) == row.count("<c", start, end):  # every cell names its place
+        for match in _LETTERED_CELL.finditer(row, start, end):
+            found.append((letters_index(match.group(1)), match.start(), match.end()))
+        return found
+    column = -1
+    for match in _CELL.finditer(row, start, end):
+        ref = _CELL_REF.search(_start_tag(match.group()))
+        column = letters_index(ref.group(1)) if ref else column + 1
+        found.append((column, match.start(), match.end()))
+    return found
+
+
 def _patched_row(row: str, new: Mapping[int, str]) -> str:
     head = _SPANS.sub("", _start_tag(row))
     if row.endswith("/>"):
@@ -177,38 +198,41 @@ def _patched_row(row: str, new: Mapping[int, str]) -> str:
     inner = row[len(_start_tag(row)) : -len("</row>")]
     pieces: list[str] = []
     pending = sorted(new)
-    position, column, k = 0, -1, 0
-    for match in _CELL.finditer(inner):
-        found = _CELL_REF.search(_start_tag(match.group()))
-        column = letters_index(found.group(1)) if found else column + 1
+    position, k = 0, 0
+    for column, a, b in _row_cells(inner, 0, len(inner)):
         while k < len(pending) and pending[k] < column:
-            pieces.append(inner[position : match.start()] + new[pending[k]])
-            position = match.start()
+            pieces.append(inner[position:a] + new[pending[k]])
+            position = a
             k += 1
         if k < len(pending) and pending[k] == column:
-            pieces.append(inner[position : match.start()] + new[column])
-            position = match.end()
+            pieces.append(inner[position:a] + new[column])
+            position = b
             k += 1
+        if k == len(pending):
+            break
     pieces.append(inner[position:])
     pieces.extend(new[c] for c in pending[k:])
     return head + "".join(pieces) + "</row>"
 
 
-def cell_styles(xml: str, rows: Iterable[int]) -> tuple[dict[tuple[int, int], int], set[tuple[int, int]]]:
-    """Look at the cells of ``rows``: their style index (``s``) and which hold a number or formula.
+def cell_styles(
+    xml: str, cells: Mapping[int, Iterable[int]]
+) -> tuple[dict[tuple[int, int], int], set[tuple[int, int]]]:
+    """Look at some cells: their style index (``s``) and which hold a number or formula.
 
-    Returns (row, column index) -> style of every styled cell, and the set of cells
-    holding a number, boolean, date or formula (a gap never does; text may be a marker).
+    ``cells`` maps row number -> column indices. Returns (row, column index) -> style
+    of each styled one, and the set of those holding a number, boolean, date or
+    formula (a gap never does; text may be a marker such as "n.d.").
     """
     styles: dict[tuple[int, int], int] = {}
     occupied: set[tuple[int, int]] = set()
-    for number, (a, b) in _touched(xml, rows).items():
-        column = -1
-        for cell in _CELL.finditer(xml, a, b):
-            element = cell.group()
+    for number, (a, b) in _touched(xml, cells).items():
+        wanted = set(cells[number])
+        for column, start, end in _row_cells(xml, a, b):
+            if column not in wanted:
+                continue
+            element = xml[start:end]
             head = _start_tag(element)
-            found = _CELL_REF.search(head)
-            column = letters_index(found.group(1)) if found else column + 1
             style = _STYLE.search(head)
             if style:
                 styles[(number, column)] = int(style.group(1))
@@ -256,7 +280,9 @@ def drop_formula_results(xml: str) -> str:
     if "<f" not in xml:
         return xml
     start, end = sheet_data_span(xml)
-    body = _FORMULA_TYPE.sub(r"<c\1\2", _FORMULA_VALUE.sub(r"\1", xml[start:end]))
+    body = _AFTER_SHARED.sub("/>", _AFTER_FORMULA.sub("</f>", xml[start:end]))
+    if ' t="' in body:
+        body = _FORMULA_TYPE.sub(r"<c\1\2", body)
     return xml[:start] + body + xml[end:]
 
 

@@ -152,7 +152,7 @@ def write_workbook(
             name = info.filename
             if name in changed and changed[name] is None:
                 continue
-            out.writestr(info, changed.get(name, parts[name]) or b"")
+            out.writestr(info, changed.get(name, parts[name]) or b"", compresslevel=SHEET_COMPRESSLEVEL)
         for name, value in changed.items():
             if value is not None and name not in parts:
                 out.writestr(name, value)

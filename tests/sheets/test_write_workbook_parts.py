@@ -97,7 +97,7 @@ def test_column_styles_take_the_most_common_style_of_value_cells() -> None:
         '<row r="4"><c r="B4" s="6"><v>3</v></c></row>'
     )
     assert cells.column_styles(xml, {2, 3, 4}, [1, 2]) == {1: 5}
-    assert cells.cell_styles(xml, {3: {}, 2: {}}) == (
+    assert cells.cell_styles(xml, {3: [1, 2], 2: [1, 2]}) == (
         {(2, 1): 5, (2, 2): 7, (3, 1): 5, (3, 2): 8},
         {(2, 1), (2, 2), (3, 1)},
     )
