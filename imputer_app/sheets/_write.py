@@ -169,16 +169,38 @@ def _export_workbook(
     ticker: Ticker,
 ) -> list[Path]:
     _write_xlsx.check_fits(content)
-    where = _xlsx_patch.plan_export(sheet, target, content, report is not None)
+    with atomic_outputs([target], source=sheet.source.path) as temps:  # refuses the input file first
+        where = _xlsx_patch.plan_export(sheet, target, content, report is not None)
+        chart, chart_note = _write_xlsx.chart_png(report) if report is not None else (None, "")
+        record = _workbook_record(target, sheet, result, plan, report, content, where, chart_note)
+        with_comments = content.n_marked <= _write_xlsx.MAX_COMMENTS
+        _xlsx_patch.write_workbook(
+            temps[0], sheet, result, content, record, where, (report, chart, with_comments), ticker
+        )
+    return [target]
+
+
+def _workbook_record(
+    target: Path,
+    sheet: Sheet,
+    result: Any,
+    plan: FillPlan,
+    report: Any,
+    content: ExportContent,
+    where: _xlsx_patch.Plan,
+    chart_note: str,
+) -> dict[str, Any]:
     with_comments = content.n_marked <= _write_xlsx.MAX_COMMENTS
-    chart, chart_note = _write_xlsx.chart_png(report) if report is not None else (None, "")
     output: dict[str, Any] = {
         "file": target.name,
         "format": target.suffix.lower().lstrip("."),
         "layout": f"the input workbook with the filled cells written into sheet {sheet.source.sheet}",
         "row_numbers": "every row and column keeps its place in the input workbook; " + _label_note(True),
         "filled_cells": f"fill colour {_write_xlsx.FILLED_COLOUR} on the column's number format and font",
-        "censored_cells": "left as they were in the input workbook unless the plan wrote a value",
+        "censored_cells": (
+            f"fill colour {_write_xlsx.CENSORED_COLOUR} where the plan wrote a value; "
+            "otherwise left as they were"
+        ),
         "formulas": "kept as formulas; stored results removed, recalculated when the file is opened",
         "added_sheets": list(where.names.values()),
         "cell_comments": _comments_note(content.n_marked, with_comments),
@@ -187,12 +209,7 @@ def _export_workbook(
         output["macros"] = "left out: an .xlsx file cannot hold macros; export to .xlsm to keep them"
     if report is not None:
         output["chart"] = chart_note
-    record = build_record(sheet, result, plan, report, content, output)
-    with atomic_outputs([target], source=sheet.source.path) as temps:
-        _xlsx_patch.write_workbook(
-            temps[0], sheet, result, content, record, where, (report, chart, with_comments), ticker
-        )
-    return [target]
+    return build_record(sheet, result, plan, report, content, output)
 
 
 def _export_csv(

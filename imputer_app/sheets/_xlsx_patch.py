@@ -24,6 +24,7 @@ import zipfile
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
+from xml.etree import ElementTree
 
 import numpy as np
 
@@ -32,12 +33,12 @@ from imputer_app.sheets import _patch_cells as cells
 from imputer_app.sheets import _patch_notes as notes
 from imputer_app.sheets import _patch_parts as pkg
 from imputer_app.sheets import _patch_styles as styles
-from imputer_app.sheets._content import ExportContent, cell_comments
+from imputer_app.sheets._content import CENSORED, FILLED, ExportContent, cell_comments
 from imputer_app.sheets._patch_sheets import build_donor, row_bodies, sheet_order, transplant
 from imputer_app.sheets._sheetxml import column_letter, value_cell
 from imputer_app.sheets._ticker import Ticker
 from imputer_app.sheets._workbook import read_workbook
-from imputer_app.sheets._write_xlsx import FILLED_COLOUR
+from imputer_app.sheets._write_xlsx import CENSORED_COLOUR, FILLED_COLOUR
 from imputer_app.sheets._xlsx_package import SHEET_COMPRESSLEVEL, _write_spliced, sheet_parts
 
 if TYPE_CHECKING:
@@ -64,10 +65,16 @@ class Plan:
 def plan_export(sheet: Sheet, target: Path, content: ExportContent, with_report: bool) -> Plan:
     """Check that ``sheet``'s workbook can take the fill and choose our sheets' names."""
     source = sheet.source
-    with zipfile.ZipFile(source.path) as package:
-        parts = sheet_parts(package)
-        workbook = package.read("xl/workbook.xml").decode("utf-8")
-        has_macros = any(n.lower().endswith("vbaproject.bin") for n in package.namelist())
+    try:
+        with zipfile.ZipFile(source.path) as package:
+            parts = sheet_parts(package)
+            workbook = package.read("xl/workbook.xml").decode("utf-8")
+            has_macros = any(n.lower().endswith("vbaproject.bin") for n in package.namelist())
+    except (OSError, KeyError, zipfile.BadZipFile, ElementTree.ParseError) as error:
+        raise ExportError(
+            f"{source.path.name} cannot be opened as a workbook any more ({error}); read it again, "
+            "or export with the table layout"
+        ) from None
     if source.sheet not in parts:
         raise ExportError(f"sheet '{source.sheet}' is no longer in {source.path.name}; read the file again")
     if not content.layout.aligned:
@@ -191,7 +198,8 @@ def _patch(
         )
     columns = file_columns(sheet, data, xml)
     rows = content.layout.data_rows
-    written = np.asarray(result.filled, dtype=bool)
+    # Filled cells, and censored entries the plan replaced by a value (half the limit...).
+    written = (content.marks != 0) & content.frame.notna().to_numpy()
     where_i, where_j = np.nonzero(written)
     at = {(int(rows[i]), columns[j]): (int(i), int(j)) for i, j in zip(where_i, where_j, strict=True)}
     by_row: dict[int, dict[int, str]] = {}
@@ -207,16 +215,19 @@ def _patch(
             "would write there; read the file again, or export with the table layout"
         )
     bases = {key: column_style.get(key[1], own.get(key, 0)) for key in at}
-    style_xml, marked = styles.add_marked(
-        parts["xl/styles.xml"].decode("utf-8"), sorted(set(bases.values())), FILLED_COLOUR
-    )
+    style_xml = parts["xl/styles.xml"].decode("utf-8")
+    marked: dict[int, dict[int, int]] = {}
+    for mark, colour in ((FILLED, FILLED_COLOUR), (CENSORED, CENSORED_COLOUR)):
+        used = sorted({bases[key] for key, (i, j) in at.items() if content.marks[i, j] == mark})
+        style_xml, marked[mark] = styles.add_marked(style_xml, used, colour)
     changed["xl/styles.xml"] = style_xml.encode("utf-8")
     frame = content.frame
     for (row, col), (i, j) in at.items():
         value = frame.iat[i, j]
         value = value.item() if isinstance(value, np.generic) else value
         ref = f"{column_letter(col)}{row}"
-        by_row[row][col] = value_cell(ref, value, f' s="{marked[bases[(row, col)]]}"') or f'<c r="{ref}"/>'
+        style = marked[int(content.marks[i, j])][bases[(row, col)]]
+        by_row[row][col] = value_cell(ref, value, f' s="{style}"') or f'<c r="{ref}"/>'
     xml = cells.set_cells(xml, by_row)
     counts = {"cells": len(at), "notes": 0}
     if with_notes:

@@ -291,3 +291,16 @@ def test_a_workbook_changed_since_reading_is_refused(tmp_path: Path) -> None:
     with pytest.raises(ExportError, match="changed since it was read"):
         write_result(out, sheet, result, PLAN)
     assert sorted(p.name for p in tmp_path.iterdir()) == ["lab.xlsx"]
+
+
+def test_a_censored_entry_replaced_by_the_plan_gets_the_censored_mark(tmp_path: Path) -> None:
+    source = lab.build(tmp_path / "lab.xlsx", censored=True)
+    sheet = read_sheet(source)
+    plan = FillPlan(k=3, carried_columns=("Sample", "Base sum", "Notes"), censored="half_limit")
+    result = impute(sheet, plan)
+    out = tmp_path / "out.xlsx"
+    write_result(out, sheet, result, plan)
+    cell = openpyxl.load_workbook(out)["Harvest"]["E16"]
+    assert cell.value == pytest.approx(0.125)  # half of the limit 0.250
+    assert cell.fill.fgColor.rgb == "FFF4E3C9" and cell.number_format == "0.000"
+    assert '"<0.250"' in cell.comment.text

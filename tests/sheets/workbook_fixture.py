@@ -63,8 +63,13 @@ def tiny_png() -> bytes:
     )
 
 
-def build(path: Path, *, macros: bool = False, extra_sheets: tuple[str, ...] = ()) -> Path:
-    """Write the lab workbook to ``path`` (.xlsx, or .xlsm with a stand-in vbaProject part)."""
+def build(
+    path: Path, *, macros: bool = False, extra_sheets: tuple[str, ...] = (), censored: bool = False
+) -> Path:
+    """Write the lab workbook to ``path`` (.xlsx, or .xlsm with a stand-in vbaProject part).
+
+    ``censored`` writes K of the last row (E16) as the text "<0.250" (below a limit).
+    """
     book = xlsxwriter.Workbook(str(path))
     title = book.add_format({"bold": True, "font_size": 14, "align": "center"})
     head = book.add_format({"bold": True, "bottom": 1, "font_name": "Arial"})
@@ -91,6 +96,8 @@ def build(path: Path, *, macros: bool = False, extra_sheets: tuple[str, ...] = (
         sheet.write_formula(r, 5, f"=C{row}+D{row}+E{row}", three, stored)
         if note:
             sheet.write_string(r, 6, note, text)
+        if censored and number == len(ROWS):
+            sheet.write_string(r, 4, "<0.250", three)
     last = file_rows()[-1]
     sheet.set_column(0, 0, 11)
     sheet.set_column(1, 5, 9.5)
