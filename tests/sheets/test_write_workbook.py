@@ -304,3 +304,21 @@ def test_a_censored_entry_replaced_by_the_plan_gets_the_censored_mark(tmp_path: 
     assert cell.value == pytest.approx(0.125)  # half of the limit 0.250
     assert cell.fill.fgColor.rgb == "FFF4E3C9" and cell.number_format == "0.000"
     assert '"<0.250"' in cell.comment.text
+
+
+def test_notes_on_a_sheet_without_notes_or_relationships(tmp_path: Path) -> None:
+    source, out, sheet, result = export(tmp_path, bare=True)
+    with zipfile.ZipFile(source) as package:
+        assert "xl/worksheets/_rels/sheet1.xml.rels" not in package.namelist()
+    with zipfile.ZipFile(out) as package:
+        names = package.namelist()
+        rels = package.read("xl/worksheets/_rels/sheet1.xml.rels").decode()
+        types = package.read("[Content_Types].xml").decode()
+        xml = package.read("xl/worksheets/sheet1.xml").decode()
+    assert "xl/comments1.xml" in names and "xl/drawings/vmlDrawing1.vml" in names
+    assert 'Target="../comments1.xml"' in rels and 'Target="../drawings/vmlDrawing1.vml"' in rels
+    assert 'PartName="/xl/comments1.xml"' in types and 'Extension="vml"' in types
+    assert re.search(r'<legacyDrawing r:id="rId\d"/></worksheet>$', xml)
+    harvest = openpyxl.load_workbook(out)["Harvest"]
+    noted = {f"{c.column_letter}{c.row}" for row in harvest.iter_rows() for c in row if c.comment}
+    assert noted == set(filled_cells(sheet, result))

@@ -9,6 +9,7 @@ a comment, a defined name, a chart and an image. Sheet "Methods" holds text.
 
 from __future__ import annotations
 
+import io
 import struct
 import zlib
 from pathlib import Path
@@ -64,11 +65,18 @@ def tiny_png() -> bytes:
 
 
 def build(
-    path: Path, *, macros: bool = False, extra_sheets: tuple[str, ...] = (), censored: bool = False
+    path: Path,
+    *,
+    macros: bool = False,
+    extra_sheets: tuple[str, ...] = (),
+    censored: bool = False,
+    bare: bool = False,
 ) -> Path:
     """Write the lab workbook to ``path`` (.xlsx, or .xlsm with a stand-in vbaProject part).
 
-    ``censored`` writes K of the last row (E16) as the text "<0.250" (below a limit).
+    ``censored`` writes K of the last row (E16) as the text "<0.250" (below a limit);
+    ``bare`` leaves out the comment, chart and image (the data sheet then has no
+    relationships part).
     """
     book = xlsxwriter.Workbook(str(path))
     title = book.add_format({"bold": True, "font_size": 14, "align": "center"})
@@ -107,12 +115,13 @@ def build(
     sheet.data_validation(
         f"B6:B{last}", {"validate": "decimal", "criteria": "between", "minimum": 0, "maximum": 14}
     )
-    sheet.write_comment("A6", "First sample of the season")
     book.define_name("PhValues", f"=Harvest!$B$6:$B${last}")
-    chart = book.add_chart({"type": "line"})
-    chart.add_series({"name": "Ca", "values": f"=Harvest!$C$6:$C${last}"})
-    sheet.insert_chart("I3", chart)
-    sheet.insert_image("I20", "logo.png", {"image_data": __import__("io").BytesIO(tiny_png())})
+    if not bare:
+        sheet.write_comment("A6", "First sample of the season")
+        chart = book.add_chart({"type": "line"})
+        chart.add_series({"name": "Ca", "values": f"=Harvest!$C$6:$C${last}"})
+        sheet.insert_chart("I3", chart)
+        sheet.insert_image("I20", "logo.png", {"image_data": io.BytesIO(tiny_png())})
     methods = book.add_worksheet("Methods")
     methods.write_string(0, 0, "Cations by ICP-OES; pH by glass electrode (invented).")
     methods.write_formula(1, 0, "=SUM(Harvest!C6:C8)", None, 1.0)
