@@ -75,8 +75,9 @@ def add_relationship(rels: str | None, kind: str, target: str) -> tuple[str, str
 
 
 def drop_relationship(rels: str, kind: str) -> str:
-    """Remove every relationship of type ``kind`` (last path word)."""
-    return _RELATIONSHIP.sub(lambda m: "" if f'Type="{REL_TYPE}{kind}"' in m.group() else m.group(), rels)
+    """Remove every relationship of type ``kind`` (last path word, or a whole type URI)."""
+    uri = kind if "://" in kind else REL_TYPE + kind
+    return _RELATIONSHIP.sub(lambda m: "" if f'Type="{uri}"' in m.group() else m.group(), rels)
 
 
 def add_overrides(types: str, parts: Iterable[tuple[str, str]]) -> str:

@@ -148,7 +148,7 @@ def write_workbook(
     with out, zipfile.ZipFile(io.BytesIO(data)) as package:
         parts = {name: package.read(name) for name in package.namelist()}
         changed, counts = _patch(parts, sheet, result, content, plan, data, with_notes)
-        ticker.step()
+        ticker.step(len(content.frame))  # the data sheet's rows are done
         donor = build_donor(content, record, report, chart, plan.names)
         style_xml = (changed["xl/styles.xml"] or b"").decode("utf-8")
         style_xml, xf_map = styles.merge(style_xml, _donor_styles(donor.package))
@@ -171,6 +171,7 @@ def write_workbook(
                 out.writestr(name, value)
             else:
                 _write_spliced(out, name, value.decode("utf-8"), body, 48 * content.log_table.size)
+        ticker.step()  # a cancel asked for while the last rows were written still counts
     return counts
 
 
@@ -335,10 +336,10 @@ def _register_sheets(
     workbook = pkg.add_sheets(_text(parts, changed, "xl/workbook.xml"), entries)
     types = pkg.add_overrides(_text(parts, changed, "[Content_Types].xml"), kinds)
     if plan.drop_macros:
-        rels = pkg._RELATIONSHIP.sub(lambda m: "" if _VBA_REL in m.group() else m.group(), rels)
+        rels = pkg.drop_relationship(rels, _VBA_REL)
         types = types.replace(_MACRO_MAIN, _PLAIN_MAIN)
-        for name in parts:
-            if name.lower().endswith("vbaproject.bin"):
+        for name in parts:  # the macro project, its signatures and their relationships
+            if "vbaproject" in name.lower():
                 changed[name] = None
                 types = pkg.drop_override(types, name)
     elif plan.to_xlsm:  # a .xlsm file must say it may hold macros, or programs refuse it

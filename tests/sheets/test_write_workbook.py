@@ -10,6 +10,7 @@ from __future__ import annotations
 import re
 import shutil
 import subprocess
+import threading
 import zipfile
 from pathlib import Path
 
@@ -19,7 +20,7 @@ import pytest
 from python_calamine import CalamineWorkbook
 
 from imputer_app.engine import impute
-from imputer_app.errors import ExportError
+from imputer_app.errors import Cancelled, ExportError
 from imputer_app.plan import FillPlan
 from imputer_app.sheets import read_sheet, write_result
 from tests.sheets import workbook_fixture as lab
@@ -322,3 +323,24 @@ def test_notes_on_a_sheet_without_notes_or_relationships(tmp_path: Path) -> None
     harvest = openpyxl.load_workbook(out)["Harvest"]
     noted = {f"{c.column_letter}{c.row}" for row in harvest.iter_rows() for c in row if c.comment}
     assert noted == set(filled_cells(sheet, result))
+
+
+@pytest.mark.parametrize("stop_at", [1, 2, 3])
+def test_cancel_leaves_nothing_behind_and_progress_only_grows(tmp_path: Path, stop_at: int) -> None:
+    source = lab.build(tmp_path / "lab.xlsx")
+    sheet = read_sheet(source)
+    result = impute(sheet, PLAN)
+    full: list[tuple[int, int]] = []
+    write_result(tmp_path / "full.xlsx", sheet, result, PLAN, progress=lambda d, t: full.append((d, t)))
+    assert [d for d, _ in full] == sorted(d for d, _ in full) and full[-1][0] == full[-1][1]
+    stop = threading.Event()
+    calls: list[int] = []
+
+    def progress(done: int, total: int) -> None:
+        calls.append(done)
+        if len(calls) == stop_at:
+            stop.set()
+
+    with pytest.raises(Cancelled):
+        write_result(tmp_path / "out.xlsx", sheet, result, PLAN, progress=progress, cancel=stop)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["full.xlsx", "lab.xlsx"]
