@@ -344,3 +344,28 @@ def test_cancel_leaves_nothing_behind_and_progress_only_grows(tmp_path: Path, st
     with pytest.raises(Cancelled):
         write_result(tmp_path / "out.xlsx", sheet, result, PLAN, progress=progress, cancel=stop)
     assert sorted(p.name for p in tmp_path.iterdir()) == ["full.xlsx", "lab.xlsx"]
+
+
+def test_a_workbook_written_by_openpyxl_with_marker_text_in_gaps(tmp_path: Path) -> None:
+    # openpyxl writes numbers as t="n", text as shared strings and no stored formula results.
+    book = openpyxl.Workbook()
+    sheet_ = book.active
+    sheet_.title = "Data"
+    sheet_.append(["x", "y", "total"])
+    values = [(1.0, 2.0), (2.0, "NA"), (3.0, 6.0), (4.0, 8.0), ("NA", 10.0), (6.0, 12.0)]
+    for row, (x, y) in enumerate(values, start=2):
+        sheet_.append([x, y, f"=A{row}+B{row}"])
+        sheet_.cell(row, 2).number_format = "0.0"
+    source = tmp_path / "plain.xlsx"
+    book.save(source)
+    sheet = read_sheet(source)
+    plan = FillPlan(k=2, carried_columns=("total",))
+    result = impute(sheet, plan)
+    out = tmp_path / "out.xlsx"
+    write_result(out, sheet, result, plan)
+    data = openpyxl.load_workbook(out)["Data"]
+    assert data["B3"].value == pytest.approx(float(result.frame.loc[3, "y"]))
+    assert data["A6"].value == pytest.approx(float(result.frame.loc[6, "x"]))
+    assert data["B3"].number_format == "0.0" and data["C3"].value == "=A3+B3"
+    before, after = cells_by_ref(sheet_xml(source)), cells_by_ref(sheet_xml(out))
+    assert {ref for ref in before if before[ref] != after[ref]} == {"B3", "A6"}
