@@ -147,7 +147,9 @@ def test_text_in_number_column_is_reported(tmp_path: Path, cell: str) -> None:
     assert math.isnan(value) and state == "text_in_number"
     assert notes[["state", "text"]].values.tolist() == [["text_in_number", cell]]
     problems = read_sheet(tmp_path / "cell.csv").problems
-    assert problems == [f"'x' row 6: '{cell}' is not a number; it is read as a gap and marked text_in_number"]
+    assert problems == [
+        f"'x' row 6: '{cell}' is not a number; it is read as a gap and marked text_in_number"
+    ]
 
 
 def test_many_text_cells_are_summarised(tmp_path: Path) -> None:
