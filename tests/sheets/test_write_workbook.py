@@ -92,8 +92,8 @@ def test_filled_values_land_in_their_cells_with_the_column_format(tmp_path: Path
 def test_only_gap_cells_change_in_the_sheet_xml(tmp_path: Path) -> None:
     source, out, sheet, result = export(tmp_path)
     before, after = cells_by_ref(sheet_xml(source)), cells_by_ref(sheet_xml(out))
-    assert set(after) == set(before)
-    changed = {ref for ref in before if before[ref] != after[ref]}
+    assert set(after) - set(before) == {"D8", "D14"}  # the Mg gaps had no cell element
+    changed = {ref for ref in before if before[ref] != after[ref]} | (set(after) - set(before))
     formulas = {ref for ref, c in before.items() if "<f>" in c}
     assert changed == set(filled_cells(sheet, result)) | formulas
     for ref in formulas:  # a formula cell loses only its stored result

@@ -96,8 +96,10 @@ def build(
         sheet.write_string(r, 0, f"H-{number:03d}")
         ph, ca, mg, k, note = values
         for j, (value, fmt) in enumerate(((ph, two), (ca, two), (mg, three), (k, three)), start=1):
-            if value is None:
+            if value is None and j != 3:  # Mg gaps stay absent cells: no style of their own
                 sheet.write_blank(r, j, None, fmt)
+            elif value is None:
+                continue
             else:
                 sheet.write_number(r, j, value, fmt)
         stored = sum(v for v in (ca, mg, k) if v is not None)
