@@ -7,7 +7,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from imputer_app.errors import ExportError
-from imputer_app.sheets import _write_xlsx
+from imputer_app.sheets import _write_xlsx, _xlsx_patch
 from imputer_app.sheets._atomic import atomic_outputs
 from imputer_app.sheets._content import ExportContent, Layout, build_content
 from imputer_app.sheets._run_record import RecoveryEvidence, build_record
@@ -21,7 +21,10 @@ if TYPE_CHECKING:
     from imputer_app.sheets._model import Sheet
 
 #: File endings write_result understands, and the export each gives.
-FORMATS = {".xlsx": "xlsx", ".csv": "csv", ".tsv": "csv"}
+FORMATS = {".xlsx": "xlsx", ".xlsm": "xlsx", ".csv": "csv", ".tsv": "csv"}
+
+#: Export layouts: the input workbook with the fill written in, or the flat table.
+LAYOUTS = ("workbook", "table")
 
 
 def write_result(
@@ -33,8 +36,18 @@ def write_result(
     *,
     progress: Progress | None = None,
     cancel: CancelFlag | None = None,
+    layout: str = "workbook",
 ) -> list[Path]:
     """Write a fill's export and return the files written.
+
+    With ``layout="workbook"`` (the default), a sheet read from an ``.xlsx``/``.xlsm``
+    workbook exported to ``.xlsx``/``.xlsm`` gives that workbook back whole: every
+    sheet, format, formula, chart and image as it was, only the filled cells written
+    in (each in its column's number format with a pale blue fill and a note), formula
+    results left for the spreadsheet program to recompute on opening, and the sheets
+    "Fill log", "Not filled", "Recovery test" and "About this fill" added (renamed
+    " (2)" when the name is taken). Macros stay only in an ``.xlsm`` export. Any other
+    input, or ``layout="table"``, gives the flat export below.
 
     ``.xlsx`` gives one workbook: sheet "Filled" (the table in its original row and
     column order, header and units rows, filled cells in a pale blue fill with
@@ -68,6 +81,8 @@ def write_result(
         Called as ``progress(done, total)`` while writing.
     cancel : Event-like, callable or None, default=None
         Checked between chunks of rows; when set, raises ``Cancelled`` and writes nothing.
+    layout : {"workbook", "table"}, default="workbook"
+        Keep the input workbook (xlsx/xlsm input and output only) or write the flat table.
 
     Returns
     -------
@@ -95,11 +110,16 @@ def write_result(
             f"cannot export to {target.name}: unknown file ending {target.suffix or '(none)'}; "
             f"use one of {', '.join(FORMATS)}"
         )
+    if layout not in LAYOUTS:
+        raise ExportError(f"unknown export layout {layout!r}; use one of {', '.join(LAYOUTS)}")
     content = build_content(sheet, result)
     source = sheet.source.path if sheet is not None else None
     work = len(content.frame) + len(content.log_table) + len(content.unfilled) + content.n_marked // 1000 + 2
     ticker = Ticker(progress, cancel, work)
-    if kind == "xlsx":
+    if kind == "xlsx" and layout == "workbook" and _keeps_workbook(sheet):
+        assert sheet is not None
+        files = _export_workbook(target, sheet, result, plan, report, content, ticker)
+    elif kind == "xlsx":
         files = _export_xlsx(target, source, sheet, result, plan, report, content, ticker)
     else:
         files = _export_csv(target, source, sheet, result, plan, report, content, ticker)
@@ -151,6 +171,63 @@ def _export_xlsx(
     with atomic_outputs([target], source=source) as temps:
         _write_xlsx.write_xlsx(temps[0], content, record, report, chart, with_comments, ticker)
     return [target]
+
+
+def _keeps_workbook(sheet: Sheet | None) -> bool:
+    return sheet is not None and sheet.source.file_format in _xlsx_patch.PACKAGE_FORMATS
+
+
+def _export_workbook(
+    target: Path,
+    sheet: Sheet,
+    result: Any,
+    plan: FillPlan,
+    report: Any,
+    content: ExportContent,
+    ticker: Ticker,
+) -> list[Path]:
+    _write_xlsx.check_fits(content)
+    with atomic_outputs([target], source=sheet.source.path) as temps:  # refuses the input file first
+        where = _xlsx_patch.plan_export(sheet, target, content, report is not None)
+        chart, chart_note = _write_xlsx.chart_png(report) if report is not None else (None, "")
+        record = _workbook_record(target, sheet, result, plan, report, content, where, chart_note)
+        with_comments = content.n_marked <= _write_xlsx.MAX_COMMENTS
+        _xlsx_patch.write_workbook(
+            temps[0], sheet, result, content, record, where, (report, chart, with_comments), ticker
+        )
+    return [target]
+
+
+def _workbook_record(
+    target: Path,
+    sheet: Sheet,
+    result: Any,
+    plan: FillPlan,
+    report: Any,
+    content: ExportContent,
+    where: _xlsx_patch.Plan,
+    chart_note: str,
+) -> dict[str, Any]:
+    with_comments = content.n_marked <= _write_xlsx.MAX_COMMENTS
+    output: dict[str, Any] = {
+        "file": target.name,
+        "format": target.suffix.lower().lstrip("."),
+        "layout": f"the input workbook with the filled cells written into sheet {sheet.source.sheet}",
+        "row_numbers": "every row and column keeps its place in the input workbook; " + _label_note(True),
+        "filled_cells": f"fill colour {_write_xlsx.FILLED_COLOUR} on the column's number format and font",
+        "censored_cells": (
+            f"fill colour {_write_xlsx.CENSORED_COLOUR} where the plan wrote a value; "
+            "otherwise left as they were"
+        ),
+        "formulas": "kept as formulas; stored results removed, recalculated when the file is opened",
+        "added_sheets": list(where.names.values()),
+        "cell_comments": _comments_note(content.n_marked, with_comments),
+    }
+    if where.drop_macros:
+        output["macros"] = "left out: an .xlsx file cannot hold macros; export to .xlsm to keep them"
+    if report is not None:
+        output["chart"] = chart_note
+    return build_record(sheet, result, plan, report, content, output)
 
 
 def _export_csv(

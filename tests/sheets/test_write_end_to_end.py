@@ -99,7 +99,7 @@ def test_read_fill_export_read_again(tmp_path) -> None:
     plan = FillPlan(k=3, carried_columns=("sample",))
     result = impute(sheet, plan)
     out = tmp_path / "survey.filled.xlsx"
-    write_result(out, sheet, result, plan)
+    write_result(out, sheet, result, plan, layout="table")
     again = read_sheet(out, sheet="Filled")
     assert again.source.header_row == sheet.source.header_row and again.units == sheet.units
     pd.testing.assert_index_equal(again.frame.index, result.frame.index)  # same row numbers

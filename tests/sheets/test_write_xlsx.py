@@ -46,7 +46,7 @@ def lab(tmp_path: Path):
     sheet = lab_sheet(tmp_path)
     result = impute(sheet, LAB_PLAN)
     out = tmp_path / "lab.filled.xlsx"
-    assert write_result(out, sheet, result, LAB_PLAN) == [out]
+    assert write_result(out, sheet, result, LAB_PLAN, layout="table") == [out]
     return SimpleNamespace(sheet=sheet, result=result, path=out)
 
 
@@ -173,7 +173,7 @@ def test_comments_only_up_to_the_limit(tmp_path, monkeypatch, limit, comments_wr
     sheet = lab_sheet(tmp_path)
     result = impute(sheet, LAB_PLAN)
     out = tmp_path / "out.xlsx"
-    write_result(out, sheet, result, LAB_PLAN)
+    write_result(out, sheet, result, LAB_PLAN, layout="table")
     assert bool(raw_comments(out, "Filled")) is comments_written
     assert about(out)["This export"]["cell comments"].startswith("left out") is not comments_written
     assert raw_fills(out, "Filled")  # marks stay either way
@@ -282,7 +282,7 @@ def test_units_row_is_added_when_the_input_had_no_room(tmp_path) -> None:
     sheet.source = type(sheet.source)(**{**sheet.source.__dict__, "header_row": 1, "units_row": None})
     result = impute(sheet, LAB_PLAN)
     out = tmp_path / "out.xlsx"
-    write_result(out, sheet, result, LAB_PLAN)
+    write_result(out, sheet, result, LAB_PLAN, layout="table")
     cells = calamine_cells(out, "Filled")
     assert cells[(1, 3)] == "nitrate" and cells[(2, 3)] == "mg/L" and cells[(3, 1)] == "S1"
     assert "data rows start at row 3" in about(out)["This export"]["row numbers"]
