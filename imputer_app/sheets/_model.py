@@ -13,7 +13,9 @@ from pathlib import Path
 import pandas as pd
 
 #: Every state a cell can be in, as used in ``Sheet.states``.
-CELL_STATES = ("observed", "missing", "censored", "text_in_number")
+#: ``formula_error`` is a cell whose formula's cached result is an error (``#DIV/0!``):
+#: NaN in the frame like a gap, but not a gap to fill unless the user says so.
+CELL_STATES = ("observed", "missing", "censored", "text_in_number", "formula_error")
 
 #: Column kinds detected on reading (a plan may force ``number`` or ``category``).
 COLUMN_KINDS = ("number", "category", "date", "identifier", "empty")
@@ -92,6 +94,7 @@ class Sheet:
         file, so a log's row label points at the row a user sees in their program.
     states : DataFrame
         Same shape as ``frame``; each cell one of :data:`CELL_STATES` (a categorical).
+        A ``formula_error`` cell is NaN in ``frame`` but is not a gap.
     columns : list of ColumnInfo
         One per column of ``frame``, same order.
     source : SourceInfo
