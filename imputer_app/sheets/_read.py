@@ -224,7 +224,7 @@ def _load_grid(
         return _Grid(book.cells, book.merges, book.sheet)
     if sheet not in (None, 0, path.stem):
         raise SheetError(f"'{path.name}' is a text file with one table; there is no sheet {sheet!r}")
-    utf16 = _text.is_utf16(data) or (encoding or "").lower().replace("_", "-").startswith("utf-16")
+    utf16 = _text.is_utf16(data) or _text.is_wide_codec(encoding)
     _guards.check_text_bytes(data, path, utf16)
     text, used = _text.decode(data, path, encoding)
     if not text.strip():
