@@ -10,6 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 
 #: Every state a cell can be in, as used in ``Sheet.states``.
@@ -69,6 +70,8 @@ class SourceInfo:
         Detected (or given) text-file settings; None for workbooks.
     units_row : int or None
         1-based row number of a units row, if one was found.
+    line_end : str or None
+        The line ending of a delimited file (LF, CR LF or CR).
     """
 
     path: Path
@@ -80,6 +83,7 @@ class SourceInfo:
     decimal: str | None = None
     encoding: str | None = None
     units_row: int | None = None
+    line_end: str | None = None
 
 
 @dataclass
@@ -106,6 +110,10 @@ class Sheet:
         cells (else ""), ``limit`` the limit as float (NaN when unknown).
     problems : list of str
         Plain-words remarks for the user (renamed headers, text in number columns...).
+    raw_text : ndarray of object of shape (n_rows, n_columns), or None
+        For a delimited file, every cell's text exactly as in the file (spaces kept), so
+        an export can write carried and observed cells back unchanged. The same string
+        objects the parser made, so it costs one pointer a cell. None for workbooks.
     """
 
     frame: pd.DataFrame
@@ -114,6 +122,7 @@ class Sheet:
     source: SourceInfo
     cell_notes: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=list(NOTE_COLUMNS)))
     problems: list[str] = field(default_factory=list)
+    raw_text: np.ndarray | None = field(default=None, repr=False, compare=False)
 
     def column(self, name: str) -> ColumnInfo:
         """Return the :class:`ColumnInfo` called ``name``."""

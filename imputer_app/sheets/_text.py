@@ -116,6 +116,14 @@ def _decode_as(data: bytes, path: Path, encoding: str) -> str:
         ) from None
 
 
+def line_end(text: str) -> str:
+    """The line ending the text uses: CR LF, LF or CR (judged on its start)."""
+    sample = text[:_SAMPLE_CHARS]
+    if "\r\n" in sample:
+        return "\r\n"
+    return "\r" if "\r" in sample and "\n" not in sample else "\n"
+
+
 def normalise_delimiter(delimiter: str, path: Path) -> str:
     r"""Turn a user's separator ("tab", "\\t", ";" ...) into one character."""
     value = DELIMITER_NAMES.get(delimiter.lower(), delimiter)
