@@ -25,6 +25,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from xml.etree import ElementTree
 
+import numpy as np
+
 from imputer_app.errors import SheetError
 from imputer_app.sheets._grid import column_letter
 from imputer_app.sheets._xlsx_package import sheet_parts
@@ -35,7 +37,12 @@ MAX_CELLS = 50_000_000
 MAX_ROWS, MAX_COLUMNS = 1_048_576, 16_384
 
 _CHUNK = 1 << 22
-_REF = re.compile(rb'<c\b[^>]*?\sr="([A-Z]{1,4})(\d{1,10})"')
+# Spreadsheet programs write r first (<c r="B7" ...); other attribute orders take the slow form.
+_REF_FIRST = re.compile(rb'<c r="([A-Z]{1,4}\d{1,10})"')
+_REF = re.compile(rb'<c\s[^>]*?\br="([A-Z]{1,4}\d{1,10})"')
+_REF_WIDTH = 14
+_ROW_TAG = re.compile(rb'<row r="(\d{1,10})"')
+_LETTERS = {n: re.compile(rb'<c r="[A-Z]{%d}\d' % n) for n in (2, 3, 4)}
 _ERROR = re.compile(rb'<c\b[^>]*?\sr="([A-Z]{1,4})(\d{1,10})"[^>]*?\st="e"[^>]*>(.*?)</c>', re.S)
 _ERROR_VALUE = re.compile(rb"<v>([^<]*)</v>")
 _NO_VALUE = re.compile(
@@ -51,7 +58,8 @@ class Extent:
     Attributes
     ----------
     rows, columns : int
-        1-based last used row and column (0 for an empty sheet).
+        1-based last used row and column (0 for an empty sheet); for an ``.xlsx`` sheet
+        found within the limits by cheap bounds, an upper bound of them.
     far_row, far_column : str
         A cell in the last row and one in the last column ("A1" style).
     errors : dict of (int, int) to str
@@ -117,13 +125,20 @@ def check_extent(data: bytes | Path, path: Path, fmt: str, sheet: str | None) ->
             if fmt == "ods":
                 _scan_ods(package, sheet, path)
             elif sheet is not None and (part := sheet_parts(package).get(sheet)) in package.namelist():
-                _scan_xlsx(package, str(part), extent)
+                exact = _scan_xlsx(package, str(part), extent)
+                if not exact and _too_large(extent):  # the bounds were not enough: measure each cell
+                    extent = Extent()
+                    _scan_xlsx(package, str(part), extent, exact=True)
     except SheetError:
         raise
     except (zipfile.BadZipFile, KeyError, ElementTree.ParseError, EOFError, OSError, ValueError):
         return extent  # the parser gives its own message for a damaged part
     refuse_if_too_large(extent, path, sheet or "")
     return extent
+
+
+def _too_large(extent: Extent) -> bool:
+    return extent.rows > MAX_ROWS or extent.columns > MAX_COLUMNS or extent.rows * extent.columns > MAX_CELLS
 
 
 def refuse_if_too_large(extent: Extent, path: Path, sheet: str) -> None:
@@ -164,18 +179,20 @@ def _chunks(package: zipfile.ZipFile, part: str) -> Iterator[bytes]:
         yield tail
 
 
-def _scan_xlsx(package: zipfile.ZipFile, part: str, extent: Extent) -> None:
+def _scan_xlsx(package: zipfile.ZipFile, part: str, extent: Extent, exact: bool = False) -> bool:
+    """Measure the part; return False when some chunk gave only upper bounds (see :func:`_bounds`)."""
+    all_exact = True
     for chunk in _chunks(package, part):
-        refs = _REF.findall(chunk)
-        if refs:
-            row = max(int(r) for _, r in refs)
-            letters = max((c for c, _ in refs), key=lambda c: (len(c), c))
-            if row > extent.rows:
-                extent.rows = row
-                extent.far_row = next(f"{c.decode()}{r.decode()}" for c, r in refs if int(r) == row)
-            if column_number(letters) > extent.columns:
-                extent.columns = column_number(letters)
-                extent.far_column = next(f"{c.decode()}{r.decode()}" for c, r in refs if c == letters)
+        bounds = None if exact else _bounds(chunk)
+        if bounds is not None:
+            all_exact = False
+            extent.rows, extent.columns = max(extent.rows, bounds[0]), max(extent.columns, bounds[1])
+        else:
+            refs = _REF_FIRST.findall(chunk)
+            if len(refs) != chunk.count(b"<c "):
+                refs = _REF.findall(chunk)
+            if refs:
+                _see_refs(extent, refs)
         for letters, row_text, body in _ERROR.findall(chunk) if b't="e"' in chunk else ():
             value = _ERROR_VALUE.search(body)
             text = value.group(1).decode("utf-8", "replace") if value else "#ERROR"
@@ -183,6 +200,47 @@ def _scan_xlsx(package: zipfile.ZipFile, part: str, extent: Extent) -> None:
         if b"<f" in chunk:
             for letters, row_text in _NO_VALUE.findall(chunk):
                 extent.no_value.add((int(row_text) - 1, column_number(letters) - 1))
+    return all_exact
+
+
+def _bounds(chunk: bytes) -> tuple[int, int] | None:
+    """Upper bounds of the rows and columns a chunk's cells reach, without listing its cells.
+
+    Every cell must start ``<c r="``. The rows are below the next power of ten above the
+    longest ``<row r>`` number (no cell reference may have more digits); the columns are
+    bounded by the number of letters of the longest reference (26, 702, 18,278, ...).
+    None when the chunk does not allow this cheap answer.
+    """
+    cells = chunk.count(b"<c ")
+    if cells != chunk.count(b'<c r="'):
+        return None
+    tags = _ROW_TAG.findall(chunk)
+    if not tags:
+        return None if cells else (0, 0)
+    digits = max(map(len, tags))
+    if re.search(rb'<c r="[A-Z]{1,4}\d{%d}' % (digits + 1), chunk):
+        return None
+    letters = 1
+    if _LETTERS[2].search(chunk):  # rare: test longer references only then
+        letters = next(n for n in (4, 3, 2) if n == 2 or _LETTERS[n].search(chunk))
+    return 10**digits - 1, sum(26**k for k in range(1, letters + 1))
+
+
+def _see_refs(extent: Extent, refs: list[bytes]) -> None:
+    """Take note of the farthest row and column among ``refs`` ("AB12"), vectorised."""
+    codes = np.array(refs, dtype=f"S{_REF_WIDTH}").view(np.uint8).reshape(-1, _REF_WIDTH).astype(np.int64)
+    rows = np.zeros(len(refs), dtype=np.int64)
+    columns = np.zeros(len(refs), dtype=np.int64)
+    for k in range(_REF_WIDTH):  # letters then digits, left-aligned, padded with NUL
+        code = codes[:, k]
+        letter, digit = code >= 65, (code >= 48) & (code <= 57)
+        columns = np.where(letter, columns * 26 + code - 64, columns)
+        rows = np.where(digit, rows * 10 + code - 48, rows)
+    far_row, far_column = int(rows.argmax()), int(columns.argmax())
+    if rows[far_row] > extent.rows:
+        extent.rows, extent.far_row = int(rows[far_row]), refs[far_row].decode()
+    if columns[far_column] > extent.columns:
+        extent.columns, extent.far_column = int(columns[far_column]), refs[far_column].decode()
 
 
 def _repeat(element: ElementTree.Element, name: str) -> int:

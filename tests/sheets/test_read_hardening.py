@@ -109,3 +109,30 @@ def test_numbers_only_first_row_is_still_no_header(tmp_path: Path) -> None:
     path.write_text("1,2,3\n4,5,6\n7,8,9\n", encoding="utf-8")
     sheet = read_sheet(path)
     assert sheet.source.header_row == 0 and sheet.frame.shape == (3, 3)
+
+
+@pytest.mark.parametrize(
+    ("far_cell", "far"),
+    [
+        ('<row r="4"><c r="XFD1048576"><v>1</v></c></row>', "XFD1048576"),  # a cell beyond its row
+        ('<row r="4"><c s="0" r="XFD99999"><v>1</v></c></row>', "XFD99999"),  # r not the first attribute
+        ('<row r="4"><c t="n" r="ZZZ99999"><v>1</v></c></row>', "ZZZ99999"),
+    ],
+)
+def test_far_cell_found_whatever_the_row_tags_say(tmp_path: Path, far_cell: str, far: str) -> None:
+    path = xlsx(tmp_path / "odd.xlsx", _HEAD + _BODY + far_cell)
+    with pytest.raises(SheetError, match=far):
+        read_sheet(path)
+
+
+def test_wide_sheet_within_limits_is_read(tmp_path: Path) -> None:
+    # two-letter columns and five-digit rows: the cheap bound (99,999 x 702) is over the
+    # limit, so every cell reference is measured, and the sheet (A1:AB3) is read
+    head = '<row r="1">' + "".join(text_cell(f"{c}1", f"n{c}") for c in ("A", "B", "AB")) + "</row>"
+    body = "".join(
+        f'<row r="{r}">' + "".join(number_cell(f"{c}{r}", r) for c in ("A", "B", "AB")) + "</row>"
+        for r in (2, 3, 20_000)
+    )
+    sheet = read_sheet(xlsx(tmp_path / "wide.xlsx", head + body))
+    assert list(sheet.frame.columns) == ["nA", "nB", "nAB"]
+    assert sheet.frame.index.tolist() == [2, 3, 20_000]
