@@ -31,6 +31,11 @@ from imputer_app.sheets._grid import FormulaError
 #: Cell classes found on reading (internal codes). FORMULA_ERROR is a cached formula
 #: error (``#DIV/0!``), NO_VALUE a formula cell saved without its result.
 BLANK, MARKER, NUMBER, CENSORED, TEXT, DATE, BOOL, FORMULA_ERROR, NO_VALUE = range(9)
+#: Formula error values as spreadsheet programs show them (common practice, no source).
+#: "#N/A" is also a missing marker, and a marker wins.
+ERROR_TEXTS = frozenset(
+    {"#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#NULL!", "#SPILL!", "#CALC!", "#FIELD!", "#N/A"}
+)
 #: Classes that hold no value for kind detection.
 NOT_VALUES = (BLANK, MARKER, FORMULA_ERROR, NO_VALUE)
 
@@ -257,6 +262,8 @@ def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[st
     marker |= number & np.isin(numbers, markers.number_array)
     number &= ~marker
     cls = np.where(blank, BLANK, np.where(marker, MARKER, np.where(number, NUMBER, TEXT))).astype(np.int8)
+    # a formula error saved as text (a csv written by a spreadsheet program)
+    cls[(cls == TEXT) & texts.str.upper().isin(ERROR_TEXTS).to_numpy()] = FORMULA_ERROR
     found = {
         "cls": cls,
         "number": np.where(number, numbers, np.nan),

@@ -136,3 +136,19 @@ def test_wide_sheet_within_limits_is_read(tmp_path: Path) -> None:
     sheet = read_sheet(xlsx(tmp_path / "wide.xlsx", head + body))
     assert list(sheet.frame.columns) == ["nA", "nB", "nAB"]
     assert sheet.frame.index.tolist() == [2, 3, 20_000]
+
+
+def test_formula_errors_saved_as_text_in_a_csv(tmp_path: Path) -> None:
+    path = tmp_path / "errors.csv"
+    path.write_text("a,b\n1,2\n2,#DIV/0!\n3,#N/A\n4,#value!\n5,6\n", encoding="utf-8")
+    sheet = read_sheet(path)
+    assert sheet.states["b"].astype(str).tolist() == [
+        "observed",
+        "formula_error",
+        "missing",  # "#N/A" is a missing marker
+        "formula_error",
+        "observed",
+    ]
+    assert sheet.column("b").kind == "number"
+    assert sheet.frame["b"].isna().tolist() == [False, True, True, True, False]
+    assert not any("is not a number" in p for p in sheet.problems)
