@@ -10,11 +10,12 @@ import numpy as np
 import pandas as pd
 
 from imputer_app.errors import SheetError
-from imputer_app.sheets._cells import CENSORED, MARKER, ParsedColumn
+from imputer_app.sheets._cells import CENSORED, MARKER, NO_VALUE, ParsedColumn
 from imputer_app.sheets._grid import cell_text, column_letter
 from imputer_app.sheets._header import unit_from_name
 from imputer_app.sheets._kinds import (
     CENSORED_STATE,
+    FORMULA_ERROR_STATE,
     TEXT_IN_NUMBER,
     Built,
     Detected,
@@ -31,6 +32,8 @@ STATES_DTYPE = pd.CategoricalDtype(list(CELL_STATES))
 OVERRIDE_KINDS = tuple(kind for kind in COLUMN_KINDS if kind != "empty")
 #: Text-in-number cells listed one by one in ``problems`` per column (all are in cell_notes).
 MAX_LISTED = 10
+#: The text of a cell note for a formula saved without its result.
+NO_VALUE_TEXT = "formula with no stored value"
 #: Name patterns of a limit column for column ``base`` and limit family ``word``.
 #: Names are compared by :func:`_limit_key`, so "x_LOD", "x (LOD)" and "X lod" all match.
 LIMIT_COLUMN_FORMS = ("{base} {word}", "{word} {base}")
@@ -120,9 +123,7 @@ def assemble(
         if not frame.empty:
             note_frames.append(frame)
         if found.kind == "empty":
-            problems.append(
-                f"column '{column.name}' holds no value (every cell is blank or a missing marker)"
-            )
+            problems.append(_empty_problem(column))
         problems += _cell_problems(column, found.kind, frame, workbook)
     cell_notes = (
         pd.concat(note_frames, ignore_index=True) if note_frames else pd.DataFrame(columns=list(NOTE_COLUMNS))
@@ -180,7 +181,8 @@ def _fill_limits(column: Column, numbers: Mapping[str, Column]) -> str | None:
 def _cell_notes(column: Column, built: Built, rows: np.ndarray) -> pd.DataFrame:
     parsed = column.parsed
     noted = np.flatnonzero(
-        (parsed.cls == MARKER) | (built.states == CENSORED_STATE) | (built.states == TEXT_IN_NUMBER)
+        np.isin(parsed.cls, (MARKER, NO_VALUE))
+        | np.isin(built.states, (CENSORED_STATE, TEXT_IN_NUMBER, FORMULA_ERROR_STATE))
     )
     if not noted.size:
         return pd.DataFrame(columns=list(NOTE_COLUMNS))
@@ -188,6 +190,7 @@ def _cell_notes(column: Column, built: Built, rows: np.ndarray) -> pd.DataFrame:
     raw_text = np.flatnonzero(text == "")
     if raw_text.size:
         text[raw_text] = [cell_text(value) for value in parsed.raw[noted[raw_text]]]
+    text[parsed.cls[noted] == NO_VALUE] = NO_VALUE_TEXT
     censored = built.states[noted] == CENSORED_STATE
     return pd.DataFrame(
         {
@@ -219,11 +222,43 @@ def _cell_problems(column: Column, kind: str, notes: pd.DataFrame, workbook: boo
             f"'{column.name}': {len(bad) - MAX_LISTED} more cells hold text that is not {what} "
             "(all are listed in the cell notes)"
         )
+    problems += _formula_problems(column, notes, workbook)
     censored = notes[notes["state"] == CELL_STATES[CENSORED_STATE]]
     unknown = censored[censored["limit"].isna()]
     if len(unknown):
         problems.append(
             f"'{column.name}': {len(unknown)} censored cell(s) such as '{unknown['text'].iloc[0]}' give no "
             f"number and no limit column such as '{column.name} LOD' was found; their limit is unknown"
+        )
+    return problems
+
+
+def _empty_problem(column: Column) -> str:
+    if (column.parsed.cls == NO_VALUE).any():
+        return (
+            f"column '{column.name}' holds no value (its cells are blank, missing markers, formula errors "
+            "or formulas with no stored value)"
+        )
+    return f"column '{column.name}' holds no value (every cell is blank or a missing marker)"
+
+
+def _formula_problems(column: Column, notes: pd.DataFrame, workbook: bool) -> list[str]:
+    """One line each for cached formula errors and for formulas with no stored value."""
+    problems: list[str] = []
+    letter = column_letter(column.position)
+    errors = notes[notes["state"] == CELL_STATES[FORMULA_ERROR_STATE]]
+    if len(errors):
+        row, text = errors["row"].iloc[0], errors["text"].iloc[0]
+        cell = f"cell {letter}{row}" if workbook else f"row {row}"
+        problems.append(
+            f"'{column.name}': {len(errors)} cell(s) hold a formula error such as '{text}' ({cell}); "
+            "they are marked formula_error and are not gaps to fill"
+        )
+    empty = notes[notes["text"] == NO_VALUE_TEXT]
+    if len(empty):
+        row = empty["row"].iloc[0]
+        problems.append(
+            f"'{column.name}': {len(empty)} formula cell(s) such as cell {letter}{row} have no stored value "
+            "(the file was saved without calculating); they are read as gaps"
         )
     return problems

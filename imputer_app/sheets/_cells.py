@@ -25,8 +25,19 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-#: Cell classes found on reading (internal codes).
-BLANK, MARKER, NUMBER, CENSORED, TEXT, DATE, BOOL = range(7)
+from imputer_app.sheets._grid import NO_VALUE as NO_VALUE_CELL
+from imputer_app.sheets._grid import FormulaError
+
+#: Cell classes found on reading (internal codes). FORMULA_ERROR is a cached formula
+#: error (``#DIV/0!``), NO_VALUE a formula cell saved without its result.
+BLANK, MARKER, NUMBER, CENSORED, TEXT, DATE, BOOL, FORMULA_ERROR, NO_VALUE = range(9)
+#: Formula error values as spreadsheet programs show them (common practice, no source).
+#: "#N/A" is also a missing marker, and a marker wins.
+ERROR_TEXTS = frozenset(
+    {"#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#NULL!", "#SPILL!", "#CALC!", "#FIELD!", "#N/A"}
+)
+#: Classes that hold no value for kind detection.
+NOT_VALUES = (BLANK, MARKER, FORMULA_ERROR, NO_VALUE)
 
 #: Missing-value markers that always apply (trimmed, case-insensitive).
 DEFAULT_MARKERS: tuple[str, ...] = ("NA", "N/A", "n.d.", "nd", "-", "--", "?", "missing", "#N/A", "NaN")
@@ -251,6 +262,8 @@ def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[st
     marker |= number & np.isin(numbers, markers.number_array)
     number &= ~marker
     cls = np.where(blank, BLANK, np.where(marker, MARKER, np.where(number, NUMBER, TEXT))).astype(np.int8)
+    # a formula error saved as text (a csv written by a spreadsheet program)
+    cls[(cls == TEXT) & texts.str.upper().isin(ERROR_TEXTS).to_numpy()] = FORMULA_ERROR
     found = {
         "cls": cls,
         "number": np.where(number, numbers, np.nan),
@@ -289,9 +302,21 @@ def _censored(texts: pd.Series, decimal: str) -> pd.DataFrame:
 
 
 def _take_others(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray) -> None:
-    # only cells that are neither str nor number get here (bools, dates, times): few
-    kinds = [
-        BOOL if isinstance(v, bool) else DATE if isinstance(v, _DATE_TYPES) else BLANK if v is None else TEXT
-        for v in values
-    ]
-    parsed.cls[where] = np.array(kinds, dtype=np.int8)
+    # only cells that are neither str nor number get here (bools, dates, times, formula
+    # errors, formulas without a value): few
+    kinds = np.array([_other_class(v) for v in values], dtype=np.int8)
+    parsed.cls[where] = kinds
+    errors = np.flatnonzero(kinds == FORMULA_ERROR)
+    parsed.text[where[errors]] = [str(values[i]) for i in errors]
+
+
+def _other_class(value: object) -> int:
+    if isinstance(value, bool):
+        return BOOL
+    if isinstance(value, _DATE_TYPES):
+        return DATE
+    if isinstance(value, FormulaError):
+        return FORMULA_ERROR
+    if value is None:
+        return BLANK
+    return NO_VALUE if value is NO_VALUE_CELL else TEXT

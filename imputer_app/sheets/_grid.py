@@ -8,6 +8,46 @@ from collections.abc import Sequence
 
 import numpy as np
 
+
+class FormulaError:
+    """A cell whose cached value is a formula error such as ``#DIV/0!`` or ``#N/A``.
+
+    Not a ``str``, so that no text rule (a ``#N/A`` missing marker) can take it.
+    """
+
+    __slots__ = ("text",)
+
+    def __init__(self, text: str) -> None:
+        self.text = text
+
+    def __repr__(self) -> str:
+        return f"FormulaError({self.text!r})"
+
+    def __str__(self) -> str:
+        return self.text
+
+    def __eq__(self, other: object) -> bool:
+        return isinstance(other, FormulaError) and other.text == self.text
+
+    def __hash__(self) -> int:
+        return hash(("FormulaError", self.text))
+
+
+class _NoValue:
+    """A formula cell saved without its result (the file was never recalculated)."""
+
+    __slots__ = ()
+
+    def __repr__(self) -> str:
+        return "NO_VALUE"
+
+    def __str__(self) -> str:
+        return ""
+
+
+#: The one :class:`_NoValue` cell.
+NO_VALUE = _NoValue()
+
 #: A merged range as ((first_row, first_col), (last_row, last_col)), 0-based, inclusive.
 Merge = tuple[tuple[int, int], tuple[int, int]]
 

@@ -7,7 +7,9 @@ the columns they cover. The rules:
 - the header is the first row (within the first :data:`ZONE_ROWS`) that has at least
   two filled cells (one in a one-column sheet), covers at least :data:`COVERAGE` of the
   columns used by the ten rows below it, and holds some text; a first such row without
-  any text means the sheet has no header (columns are then named "column 1", ...);
+  any text means the sheet has no header (columns are then named "column 1", ...),
+  unless the row right above it holds at least two texts and no number: that row is
+  a header with some blank names (each blank one is named after its position);
 - the row right under the header is a units row when it holds no numbers and at least
   half of its filled cells look like units;
 - a header cell covered by a merged range takes the range's text; a merged range in the
@@ -133,9 +135,19 @@ def _find_header(classes: np.ndarray) -> tuple[int | None, int]:
         below = filled[row + 1 : row + 1 + LOOK_BELOW].any(axis=0)
         coverage = (filled[row] & below).sum() / below.sum() if below.any() else 1.0
         if coverage >= COVERAGE:
-            return _header_or_data(classes, row)
+            return _partial_header(classes, row) or _header_or_data(classes, row)
     rows = np.flatnonzero(filled.any(axis=1)).tolist()
     return _header_or_data(classes, rows[0]) if rows else (None, classes.shape[0])
+
+
+def _partial_header(classes: np.ndarray, row: int) -> tuple[int, int] | None:
+    """The row above a first row of numbers, when it holds names with some left blank."""
+    if row == 0 or (classes[row] == _TEXT).any():
+        return None
+    above = classes[row - 1]
+    if (above == _TEXT).sum() >= 2 and not np.isin(above, (_NUMBER, _OTHER)).any():
+        return row - 1, row
+    return None
 
 
 def _header_or_data(classes: np.ndarray, row: int) -> tuple[int | None, int]:

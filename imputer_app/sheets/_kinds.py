@@ -21,11 +21,23 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from imputer_app.sheets._cells import BLANK, BOOL, CENSORED, DATE, MARKER, NUMBER, TEXT, ParsedColumn
+from imputer_app.sheets._cells import (
+    BLANK,
+    BOOL,
+    CENSORED,
+    DATE,
+    FORMULA_ERROR,
+    MARKER,
+    NO_VALUE,
+    NOT_VALUES,
+    NUMBER,
+    TEXT,
+    ParsedColumn,
+)
 from imputer_app.sheets._grid import cell_text
 
 #: State codes, positions in :data:`imputer_app.sheets._model.CELL_STATES`.
-OBSERVED, MISSING, CENSORED_STATE, TEXT_IN_NUMBER = range(4)
+OBSERVED, MISSING, CENSORED_STATE, TEXT_IN_NUMBER, FORMULA_ERROR_STATE = range(5)
 
 DATE_SHARE = 0.8
 NUMBER_SHARE = 0.5
@@ -73,7 +85,7 @@ class Built:
 
 def kind_of_parsed_column(parsed: ParsedColumn) -> Detected:
     """Detect the kind of one column as the reader parsed it (rules in the module docstring)."""
-    present = parsed.cls[(parsed.cls != BLANK) & (parsed.cls != MARKER)]
+    present = parsed.cls[~np.isin(parsed.cls, NOT_VALUES)]
     total = present.size
     if total == 0:
         return Detected("empty")
@@ -154,7 +166,7 @@ def _parse_dates(texts: np.ndarray, fmt: str) -> pd.Series:
 def category_text(parsed: ParsedColumn) -> np.ndarray:
     """Object array: the text of every present cell as a user sees it; NaN for gaps."""
     out = np.full(parsed.cls.shape[0], np.nan, dtype=object)
-    present = (parsed.cls != BLANK) & (parsed.cls != MARKER)
+    present = ~np.isin(parsed.cls, NOT_VALUES)
     from_text = present & (parsed.text != "")
     out[from_text] = parsed.text[from_text]
     others = np.flatnonzero(present & ~from_text)
@@ -168,24 +180,29 @@ def build(parsed: ParsedColumn, detected: Detected) -> Built:
 
     NaN policy: blanks and markers are NaN/NaT with state missing; censored cells of a
     number column are NaN with state censored; cells that cannot be read as the kind
-    are NaN with state text_in_number.
+    are NaN with state text_in_number; cached formula errors are NaN with state
+    formula_error in every kind (not gaps: they are filled only when the user says so);
+    a formula saved without its result is a gap (state missing).
     """
     cls = parsed.cls
-    gaps = (cls == BLANK) | (cls == MARKER)
+    gaps = np.isin(cls, (BLANK, MARKER, NO_VALUE))
     states = np.full(cls.shape[0], OBSERVED, dtype=np.int8)
     states[gaps] = MISSING
     kind = detected.kind
+    values: pd.Series | np.ndarray
     if kind == "number":
         states[cls == CENSORED] = CENSORED_STATE
         states[np.isin(cls, (TEXT, DATE, BOOL))] = TEXT_IN_NUMBER
-        return Built(parsed.number.copy(), states)
-    if kind == "date":
+        values = parsed.number.copy()
+    elif kind == "date":
         values, readable = _date_values(parsed, detected.date_format)
         states[~gaps & ~readable] = TEXT_IN_NUMBER
-        return Built(values, states)
-    if kind == "empty":
-        return Built(np.full(cls.shape[0], np.nan), states)
-    return Built(category_text(parsed), states)
+    elif kind == "empty":
+        values = np.full(cls.shape[0], np.nan)
+    else:
+        values = category_text(parsed)
+    states[cls == FORMULA_ERROR] = FORMULA_ERROR_STATE
+    return Built(values, states)
 
 
 def _date_values(parsed: ParsedColumn, fmt: str | None) -> tuple[pd.Series | np.ndarray, np.ndarray]:

@@ -10,10 +10,13 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 
 #: Every state a cell can be in, as used in ``Sheet.states``.
-CELL_STATES = ("observed", "missing", "censored", "text_in_number")
+#: ``formula_error`` is a cell whose formula's cached result is an error (``#DIV/0!``):
+#: NaN in the frame like a gap, but not a gap to fill unless the user says so.
+CELL_STATES = ("observed", "missing", "censored", "text_in_number", "formula_error")
 
 #: Column kinds detected on reading (a plan may force ``number`` or ``category``).
 COLUMN_KINDS = ("number", "category", "date", "identifier", "empty")
@@ -67,6 +70,8 @@ class SourceInfo:
         Detected (or given) text-file settings; None for workbooks.
     units_row : int or None
         1-based row number of a units row, if one was found.
+    line_end : str or None
+        The line ending of a delimited file (LF, CR LF or CR).
     """
 
     path: Path
@@ -78,6 +83,7 @@ class SourceInfo:
     decimal: str | None = None
     encoding: str | None = None
     units_row: int | None = None
+    line_end: str | None = None
 
 
 @dataclass
@@ -92,6 +98,7 @@ class Sheet:
         file, so a log's row label points at the row a user sees in their program.
     states : DataFrame
         Same shape as ``frame``; each cell one of :data:`CELL_STATES` (a categorical).
+        A ``formula_error`` cell is NaN in ``frame`` but is not a gap.
     columns : list of ColumnInfo
         One per column of ``frame``, same order.
     source : SourceInfo
@@ -103,6 +110,10 @@ class Sheet:
         cells (else ""), ``limit`` the limit as float (NaN when unknown).
     problems : list of str
         Plain-words remarks for the user (renamed headers, text in number columns...).
+    raw_text : ndarray of object of shape (n_rows, n_columns), or None
+        For a delimited file, every cell's text exactly as in the file (spaces kept), so
+        an export can write carried and observed cells back unchanged. The same string
+        objects the parser made, so it costs one pointer a cell. None for workbooks.
     """
 
     frame: pd.DataFrame
@@ -111,6 +122,7 @@ class Sheet:
     source: SourceInfo
     cell_notes: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=list(NOTE_COLUMNS)))
     problems: list[str] = field(default_factory=list)
+    raw_text: np.ndarray | None = field(default=None, repr=False, compare=False)
 
     def column(self, name: str) -> ColumnInfo:
         """Return the :class:`ColumnInfo` called ``name``."""

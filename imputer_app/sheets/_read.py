@@ -51,6 +51,7 @@ class _Grid:
     sheet: str | None
     delimiter: str | None = None
     encoding: str | None = None
+    line_end: str | None = None
 
 
 def list_sheets(path: str | PathLike[str]) -> list[str]:
@@ -190,7 +191,9 @@ def read_sheet(
         decimal=decimal if fmt in _guards.TEXT_FORMATS else None,
         encoding=grid.encoding,
         units_row=layout.units + 1 if layout.units is not None else None,
+        line_end=grid.line_end,
     )
+    raw = np.stack([c.parsed.raw for c in columns], axis=1) if grid.sheet is None else None
     report(progress, PROGRESS_TOTAL, PROGRESS_TOTAL)
     return Sheet(
         frame=built.frame,
@@ -199,6 +202,7 @@ def read_sheet(
         source=info,
         cell_notes=built.cell_notes,
         problems=problems + row_problems + built.problems,
+        raw_text=raw,
     )
 
 
@@ -224,7 +228,7 @@ def _load_grid(
         return _Grid(book.cells, book.merges, book.sheet)
     if sheet not in (None, 0, path.stem):
         raise SheetError(f"'{path.name}' is a text file with one table; there is no sheet {sheet!r}")
-    utf16 = _text.is_utf16(data) or (encoding or "").lower().replace("_", "-").startswith("utf-16")
+    utf16 = _text.is_utf16(data) or _text.is_wide_codec(encoding)
     _guards.check_text_bytes(data, path, utf16)
     text, used = _text.decode(data, path, encoding)
     if not text.strip():
@@ -232,7 +236,7 @@ def _load_grid(
     separator = _text.normalise_delimiter(delimiter, path) if delimiter else _text.detect_delimiter(text, fmt)
     raise_if_cancelled(cancel)
     cells = _text.parse_grid(text, separator, path, cancel)
-    return _Grid(cells, (), None, separator, used)
+    return _Grid(cells, (), None, separator, used, _text.line_end(text))
 
 
 def _spread_data_merges(grid: _Grid, data_start: int) -> list[str]:

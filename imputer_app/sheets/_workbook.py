@@ -1,7 +1,11 @@
 """Workbooks (xlsx, xlsm, xls, ods) through python-calamine: sheet names and a cell grid.
 
 calamine returns cached formula values (never recomputes), numbers as float, dates as
-``datetime``/``date``/``time`` objects and empty or error cells as ``""``.
+``datetime``/``date``/``time`` objects and empty or error cells as ``""``. Before calamine
+builds its grid, :func:`~imputer_app.sheets._extent.check_extent` measures the sheet (and
+refuses one too large to hold); the cells it finds holding a formula error or a formula
+without a stored value are put back into the grid as :class:`FormulaError` and
+:data:`NO_VALUE`, so that they are not taken for blank cells.
 """
 
 from __future__ import annotations
@@ -14,10 +18,8 @@ import numpy as np
 import python_calamine as calamine
 
 from imputer_app.errors import SheetError
-from imputer_app.sheets._grid import Merge, rows_to_grid
-
-#: Refuse sheets whose used range holds more cells than this (memory guard).
-MAX_CELLS = 60_000_000
+from imputer_app.sheets._extent import MAX_CELLS, Extent, check_extent
+from imputer_app.sheets._grid import NO_VALUE, FormulaError, Merge, rows_to_grid
 
 
 @dataclass(frozen=True)
@@ -62,6 +64,8 @@ def worksheet_names(workbook: calamine.CalamineWorkbook) -> list[str]:
 
 def list_workbook_sheets(path: Path, fmt: str) -> list[str]:
     """Worksheet names of the workbook at ``path`` without loading any sheet."""
+    if fmt == "ods":
+        check_extent(path, path, fmt, None)  # the parser loads every table of an .ods on opening
     workbook = _open(path, path, fmt)
     try:
         return worksheet_names(workbook)
@@ -104,9 +108,12 @@ def choose_sheet(workbook: calamine.CalamineWorkbook, sheet: str | int | None, p
 
 def read_workbook(data: bytes, path: Path, fmt: str, sheet: str | int | None) -> WorkbookGrid:
     """Return the chosen worksheet's cells as a 2-D object array starting at cell A1."""
+    if fmt == "ods":
+        check_extent(data, path, fmt, None)  # the parser loads every table of an .ods on opening
     workbook = _open(data, path, fmt)
     try:
         name = choose_sheet(workbook, sheet, path)
+        extent = check_extent(data, path, fmt, name) if fmt != "ods" else Extent()
         try:
             worksheet = workbook.get_sheet_by_name(name)
             if worksheet.height * worksheet.width > MAX_CELLS:
@@ -122,4 +129,17 @@ def read_workbook(data: bytes, path: Path, fmt: str, sheet: str | int | None) ->
             raise _calamine_error(error, path, fmt) from None
     finally:
         workbook.close()
-    return WorkbookGrid(cells=rows_to_grid(rows), sheet=name, merges=merges)
+    cells = rows_to_grid(rows)
+    _mark_formula_cells(cells, extent)
+    return WorkbookGrid(cells=cells, sheet=name, merges=merges)
+
+
+def _mark_formula_cells(cells: np.ndarray, extent: Extent) -> None:
+    """Put formula errors and formulas without a stored value into the cells calamine left empty."""
+    height, width = cells.shape
+    for (row, column), text in extent.errors.items():
+        if row < height and column < width and cells[row, column] == "":
+            cells[row, column] = FormulaError(text)
+    for row, column in extent.no_value:
+        if row < height and column < width and cells[row, column] == "":
+            cells[row, column] = NO_VALUE

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from os import PathLike
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from imputer_app.errors import ExportError
 from imputer_app.sheets import _write_xlsx, _xlsx_patch
@@ -180,9 +180,9 @@ def _keeps_workbook(sheet: Sheet | None) -> bool:
 def _export_workbook(
     target: Path,
     sheet: Sheet,
-    result: Any,
+    result: FillResult,
     plan: FillPlan,
-    report: Any,
+    report: RecoveryEvidence | None,
     content: ExportContent,
     ticker: Ticker,
 ) -> list[Path]:
@@ -201,9 +201,9 @@ def _export_workbook(
 def _workbook_record(
     target: Path,
     sheet: Sheet,
-    result: Any,
+    result: FillResult,
     plan: FillPlan,
-    report: Any,
+    report: RecoveryEvidence | None,
     content: ExportContent,
     where: _xlsx_patch.Plan,
     chart_note: str,

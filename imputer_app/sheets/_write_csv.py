@@ -2,27 +2,35 @@
 
 A delimited file cannot colour a cell, so the fill log is the record of which
 cells were filled; units and everything else of "About this fill" go to the run
-record (JSON). Files follow RFC 4180 (CRLF line ends, quotes where needed), in the
-input's delimiter and decimal mark when the input was a delimited file.
+record (JSON). Files follow RFC 4180 (quotes where needed), in the input's delimiter,
+decimal mark and line ends when the input was a delimited file (else CRLF).
+
+Cells leave as they came: every cell of a delimited input that was not filled (carried,
+observed, a marker left empty) is written as its original text from the file, spaces
+and digits unchanged (``'  lead'``, ``0,020``, ``157``). Filled cells are written in the
+input's decimal mark with 15 significant digits, which drops binary noise such as
+``6.732000000000001``.
 
 Formula injection: a text cell that begins with ``=``, ``+``, ``-``, ``@``, tab or
 carriage return is written with a leading single quote, as the OWASP "CSV Injection"
 guidance recommends, so that a spreadsheet program shows it as text instead of
-running it. Numbers are written as numbers (a negative number keeps its minus sign).
+running it; an original text is guarded the same way unless it was read as a number.
+Numbers are written as numbers (a negative number keeps its minus sign).
 """
 
 from __future__ import annotations
 
 import csv
 import math
-from dataclasses import dataclass
+import re
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
 
-from imputer_app.sheets._content import ExportContent
+from imputer_app.sheets._content import PLAIN, ExportContent
 from imputer_app.sheets._run_record import record_json
 from imputer_app.sheets._ticker import Ticker
 
@@ -31,6 +39,9 @@ if TYPE_CHECKING:
 
 #: First characters that make a spreadsheet program read text as a formula (OWASP).
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+#: Text a spreadsheet program reads as a number or as plain signs, never as a formula.
+_NUMBER_TEXT = re.compile(r"\s*[-+]*\s*(?:\d[\d.,\s]*(?:[eE][-+]?\d+)?)?\s*")
 
 #: Rows written per chunk (progress and cancel are checked between chunks).
 CHUNK_ROWS = 5_000
@@ -43,6 +54,15 @@ class Dialect:
     delimiter: str = ","
     decimal: str = "."
     encoding: str = "utf-8-sig"
+    line_end: str = "\r\n"
+    #: The input's text of every cell (``Sheet.raw_text``), written back for cells not filled.
+    originals: np.ndarray | None = field(default=None, repr=False, compare=False)
+
+
+class _Verbatim(str):
+    """A cell's original text, already guarded: written exactly as it is."""
+
+    __slots__ = ()
 
 
 def dialect_for(target: Path, sheet: Sheet | None) -> Dialect:
@@ -60,7 +80,9 @@ def dialect_for(target: Path, sheet: Sheet | None) -> Dialect:
     if delimiter == decimal:
         delimiter = ";"
     plain = source is not None and (source.encoding or "").lower().replace("_", "-") in ("utf-8", "utf8")
-    return Dialect(delimiter, decimal, "utf-8" if plain else "utf-8-sig")
+    line_end = source.line_end if source is not None and source.line_end else "\r\n"
+    originals = getattr(sheet, "raw_text", None)
+    return Dialect(delimiter, decimal, "utf-8" if plain else "utf-8-sig", line_end, originals)
 
 
 def side_files(target: Path, with_unfilled: bool) -> dict[str, Path]:
@@ -106,7 +128,7 @@ def write_csv(
     ticker : Ticker
         Progress and cancel.
     """
-    _write_table(temps["table"], _filled_table(content), dialect, ticker)
+    _write_table(temps["table"], _with_originals(_filled_table(content), content, dialect), dialect, ticker)
     _write_table(temps["log"], content.log_table, dialect, ticker)
     if "unfilled" in temps:
         _write_table(temps["unfilled"], content.unfilled, dialect, ticker)
@@ -132,10 +154,35 @@ def _filled_table(content: ExportContent) -> pd.DataFrame:
     return table
 
 
+def _with_originals(table: pd.DataFrame, content: ExportContent, dialect: Dialect) -> pd.DataFrame:
+    """Put each plain (not filled, not censored) cell's original text back into ``table``."""
+    originals = dialect.originals
+    if originals is None or originals.shape != table.shape:
+        return table
+    out: dict[int, Any] = {}
+    for j in range(table.shape[1]):
+        values = table.iloc[:, j].to_numpy(dtype=object, copy=True)
+        keep = np.flatnonzero(content.marks[:, j] == PLAIN)
+        values[keep] = [
+            _original(text, value) for text, value in zip(originals[keep, j], values[keep], strict=True)
+        ]
+        out[j] = values
+    kept = pd.DataFrame(out, index=table.index)
+    kept.columns = table.columns
+    return kept
+
+
+def _original(text: object, value: object) -> object:
+    """The cell's file text, guarded unless it reads as a number or signs only ("-5", "-")."""
+    if not isinstance(text, str):
+        return value
+    return _Verbatim(text if _NUMBER_TEXT.fullmatch(text) else guard(text))
+
+
 def _number_text(value: Any, decimal: str) -> Any:
-    """Write a float the way pandas would (shortest repr) with the given decimal mark."""
+    """Write a float with 15 significant digits (no binary noise) and the given decimal mark."""
     if isinstance(value, float | np.floating):
-        return "" if math.isnan(value) else repr(float(value)).replace(".", decimal)
+        return "" if math.isnan(value) else f"{float(value):.15g}".replace(".", decimal)
     return value
 
 
@@ -149,7 +196,7 @@ def _csv_ready(table: pd.DataFrame, decimal: str) -> pd.DataFrame:
         else:
             values = series.to_numpy(dtype=object)
             # Guard text first: a number turned into text here is not a formula.
-            out[j] = [_number_text(guard(v), decimal) for v in values.tolist()]
+            out[j] = [v if type(v) is _Verbatim else _number_text(guard(v), decimal) for v in values.tolist()]
     ready = pd.DataFrame(out, index=table.index)
     ready.columns = pd.Index([guard(str(c)) for c in table.columns], dtype=object)
     return ready
@@ -165,7 +212,7 @@ def _write_table(path: Path, table: pd.DataFrame, dialect: Dialect, ticker: Tick
                 decimal=dialect.decimal,
                 index=False,
                 header=start == 0,
-                lineterminator="\r\n",
+                lineterminator=dialect.line_end,
                 quoting=csv.QUOTE_MINIMAL,
                 na_rep="",
             )

@@ -133,7 +133,9 @@ def test_gap_check_never_changes_its_input() -> None:
     frame = _gaps_where_high(2)
     frame["Station"] = np.where(np.arange(len(frame)) % 2 == 0, "S1", "S2")
     before = frame.copy()
-    states = pd.DataFrame(np.where(frame.isna(), "missing", "observed"), index=frame.index, columns=frame.columns)
+    states = pd.DataFrame(
+        np.where(frame.isna(), "missing", "observed"), index=frame.index, columns=frame.columns
+    )
     sheet = SimpleNamespace(frame=frame, states=states, cell_notes=pd.DataFrame())
     states_before = states.copy()
     gap_check(sheet)
