@@ -1,6 +1,6 @@
 """The fill engine against scikit-learn's KNNImputer, timed side by side in one run.
 
-Goals (issue 3): 20,000 x 20 with 10% gaps, k=5, scaling none: at least 10x faster than
+Goals (README "Benchmarks"): 20,000 x 20 with 10% gaps, k=5, scaling none: at least 10x faster than
 KNNImputer with values equal within 1e-9; 300 x 5,000 with 5% gaps: at least 5x faster;
 200,000 x 30 with 5% gaps: finishes with peak memory under 2 GB.
 

@@ -1,6 +1,6 @@
 """Reading speed: ``read_sheet`` against ``pandas.read_excel(engine="openpyxl")``.
 
-Goal (issue 5): a 100,000 x 20 xlsx is read at least 4x faster than pandas with
+Goal (README "Benchmarks"): a 100,000 x 20 xlsx is read at least 4x faster than pandas with
 openpyxl. The workbook (a sample ID column, a category column and 18 measurement
 columns with 5 % blank cells and a few markers and censored entries) is written once
 with xlsxwriter into the temp folder and reused by later runs.

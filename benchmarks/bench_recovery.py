@@ -7,7 +7,7 @@ gaps, 3 repeats):
 * the same test with ks = [5] alone,
 * one ``impute`` of the sheet,
 
-and prints the ratios against the goals of issue 4: all ks <= 1.5 x one k (one
+and prints the ratios against the goals in the README: all ks <= 1.5 x one k (one
 neighbour search per repeat serves every k) and <= 4 x one fill. It also times the
 neighbour search alone (``nearest_donors`` for the hidden cells of one repeat, best of
 a few runs) with kmax = 30 against kmax = 5: the search takes most of a repeat, and its

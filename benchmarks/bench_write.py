@@ -1,4 +1,4 @@
-"""Export speed: ``write_result`` to xlsx against ``DataFrame.to_excel`` (issue 5, goal <= 0.6x).
+"""Export speed: ``write_result`` to xlsx against ``DataFrame.to_excel`` (README "Benchmarks": goal <= 0.6x).
 
 A 100,000 x 20 table (18 number columns, 2 category columns) with 5 % of its cells
 filled, each with a fill-log row of 5 donors, is exported with its log; the

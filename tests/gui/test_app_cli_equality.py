@@ -1,7 +1,7 @@
 """A plan saved from the app and run with ``kinfill fill --plan`` gives the app's data sheet.
 
-Issue 7 asks for byte-identical data: labs redo the same fill each month headless, so
-the app and the command line must be one code path (DESIGN.md "Layers").
+Labs redo the same fill each month headless and need byte-identical data, so the app
+and the command line must be one code path (DEVELOPERS.md "Layers").
 """
 
 from __future__ import annotations

@@ -5,7 +5,7 @@ set up and run the recovery test (Alt+P, Alt+M, Ctrl+T), use its best k (Alt+B),
 preview (F5), walk the table to a filled cell (Alt+2, Ctrl+Home, arrows) and read its
 donors, follow a donor (Alt+D, Tab, Enter), apply (Ctrl+Return), undo (Ctrl+Z), redo
 (Ctrl+Shift+Z) and export (Ctrl+E). The export read back equals ``impute`` on the same
-plan (one code path fills cells, DESIGN.md).
+plan (one code path fills cells, DEVELOPERS.md "Layers").
 
 Mnemonics avoid the menu bar's letters (F, E, I, V, H) so Alt+F still opens File
 (common practice, no source).

@@ -2,7 +2,7 @@
 
 Open, set roles and weights, run the recovery test, use its best k, preview, inspect a
 filled cell's donors, apply, undo, redo, export; the exported sheet read back equals
-``impute`` on the same plan (one code path fills cells, as DESIGN.md asks).
+``impute`` on the same plan (one code path fills cells, as DEVELOPERS.md "Layers" says).
 """
 
 from __future__ import annotations
