@@ -106,7 +106,7 @@ class GapCheck:
 
 
 def gap_check(
-    data: Any,
+    data: pd.DataFrame | engine.SheetLike,
     plan: FillPlan | None = None,
     *,
     progress: Progress | None = None,
@@ -167,13 +167,15 @@ def gap_check(
     )
 
 
-def _checked_values(data: Any, table: Any, checked: tuple[str, ...]) -> tuple[pd.DataFrame, pd.DataFrame]:
+def _checked_values(
+    data: pd.DataFrame | engine.SheetLike, table: engine.PreparedTable, checked: tuple[str, ...]
+) -> tuple[pd.DataFrame, pd.DataFrame]:
     """The checked columns as the fill sees them, and where their gaps are.
 
     Number fill columns come from the engine (censored entries substituted as the plan
     says); other number columns are read as floats; categories keep their labels.
     """
-    frame: pd.DataFrame = getattr(data, "frame", data)
+    frame = data if isinstance(data, pd.DataFrame) else data.frame
     out: dict[str, Any] = {}
     for column in checked:
         if table.kinds[column] == "number":
