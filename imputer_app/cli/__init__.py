@@ -7,7 +7,8 @@ saved from the app and run here gives the same export. Exit codes
 - 0: done;
 - 1: an internal fault (a bug): one line, or the traceback with ``--debug``;
 - 2: bad input or usage (missing file, unknown column, bad setting): one line;
-- 130: stopped with Ctrl+C; nothing was written (128 + SIGINT, the shell convention).
+- 130: stopped with Ctrl+C; nothing was written (128 + SIGINT, the shell convention);
+  SIGTERM and SIGHUP stop the same way with 143 and 129 (128 + the signal's number).
 
 Modules: :mod:`~imputer_app.cli.entry` (``main``, errors to exit codes),
 :mod:`~imputer_app.cli.parser` (arguments), :mod:`~imputer_app.cli.commands` (one

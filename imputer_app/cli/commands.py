@@ -25,9 +25,13 @@ from imputer_app.cli.outputs import (
 )
 from imputer_app.cli.plan_options import build_plan, check_plan_columns, spell_out_roles
 from imputer_app.cli.progress import StopFlag, TextProgress, stop_on_ctrl_c
-from imputer_app.cli.text import fill_summary, recovery_table
+from imputer_app.cli.text import fill_summary, recovery_table, terminal_safe
 from imputer_app.plan import PLAN_SUFFIX, FillPlan
 from imputer_app.work import Progress
+
+#: Size of an xlsx worksheet (ECMA-376; Microsoft's "Excel specifications and limits"),
+#: the limits the xlsx writer checks again when it writes.
+XLSX_MAX_ROWS, XLSX_MAX_COLUMNS = 1_048_576, 16_384
 
 if TYPE_CHECKING:
     from imputer_app.sheets import Sheet
@@ -46,17 +50,19 @@ def run_fill(args: argparse.Namespace) -> int:
     sidecars = export_side_files(out)
     refuse_input(sidecars, source)
     refuse_overwrite(sidecars, args.force)
-    old_sidecars = [p for p in sidecars if p.exists()]
+    old_sidecars = [p for p in sidecars if os.path.lexists(p)]
     bar = TextProgress(sys.stderr)
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            check_fits_xlsx(out, sheet)
+            plan = capped_k(plan, len(sheet.frame))
             result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop)
             written = write_result(out, sheet, result, plan, progress=bar.stage("writing"), cancel=stop)
     finally:
         bar.done()
     print_notes(sheet.problems, result.warnings)
-    print(fill_summary(source, result, written, sheet))
+    show(fill_summary(source, result, written, sheet))
     remove_stale(old_sidecars, written, source)
     return EXIT_OK
 
@@ -76,10 +82,11 @@ def run_score_k(args: argparse.Namespace) -> int:
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            plan = capped_k(plan, len(sheet.frame), quiet=True)
             report = recovery_test(
                 sheet,
                 plan,
-                ks=args.k_range,
+                ks=capped_range(args.k_range, len(sheet.frame)),
                 hide_fraction=args.hide,
                 repeats=args.repeats,
                 seed=args.seed,
@@ -90,15 +97,16 @@ def run_score_k(args: argparse.Namespace) -> int:
     finally:
         bar.done()
     print_notes(sheet.problems, report.warnings)
-    print(recovery_table(report))
+    show(recovery_table(report))
     if args.json is not None:
-        write_text(args.json, json.dumps(score_record(report, sheet), indent=2, ensure_ascii=False) + "\n")
-        print(f"wrote {args.json}")
+        text = json.dumps(score_record(report, sheet), indent=2, ensure_ascii=False) + "\n"
+        write_text(args.json, text, source=source, force=args.force)
+        show(f"wrote {args.json}")
     if args.plot is not None:
         from imputer_app.charts import plot_error_vs_k, save_figure
 
-        save_figure(plot_error_vs_k(report), args.plot)
-        print(f"wrote {args.plot}")
+        save_figure(plot_error_vs_k(report), args.plot, force=args.force, source=source)
+        show(f"wrote {args.plot}")
     return EXIT_OK
 
 
@@ -117,10 +125,11 @@ def run_plan(args: argparse.Namespace) -> int:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
     finally:
         bar.done()
+    plan = capped_k(plan, len(sheet.frame))
     resolved = spell_out_roles(prepare(sheet, plan).plan, [str(c) for c in sheet.frame.columns])
-    resolved.save(out)
+    resolved.save(out, force=args.force, source=source)
     print_notes(sheet.problems, ())
-    print(f"wrote {out}")
+    show(f"wrote {out}")
     return EXIT_OK
 
 
@@ -203,7 +212,49 @@ def score_record(report: RecoveryReport, sheet: Sheet) -> dict[str, Any]:
     return {"input": given, **report.to_dict(), "cautions": CAUTIONS}
 
 
+def capped_k(plan: FillPlan, n_rows: int, *, quiet: bool = False) -> FillPlan:
+    """Return ``plan`` with k at most the number of possible donors (``n_rows - 1``), said in a note.
+
+    A row is never its own donor, so a larger k uses every donor anyway; capping it
+    keeps the neighbour search from sizing its work by the k asked for.
+    """
+    donors = max(n_rows - 1, 1)
+    if plan.k <= donors:
+        return plan
+    if not quiet:
+        print_notes((f"k = {plan.k} is more than the {donors} possible donors; every donor is used",), ())
+    return plan.replace(k=donors)
+
+
+def capped_range(ks: Sequence[int], n_rows: int) -> tuple[int, ...]:
+    """Return the k values to test, those above the possible donors (``n_rows - 1``) made that number."""
+    donors = max(n_rows - 1, 1)
+    kept = tuple(sorted({min(k, donors) for k in ks}))
+    if max(ks) > donors:
+        print_notes(
+            (f"k values above the {donors} possible donors are tested as k = {donors} (every donor)",), ()
+        )
+    return kept
+
+
+def check_fits_xlsx(out: Path, sheet: Sheet) -> None:
+    """Refuse, before the fill, a sheet wider or longer than an xlsx sheet holds (ECMA-376 limits)."""
+    if out.suffix.lower() != ".xlsx":
+        return
+    n_rows, n_columns = sheet.frame.shape
+    if n_columns > XLSX_MAX_COLUMNS or n_rows + 2 > XLSX_MAX_ROWS:
+        raise UsageError(
+            f"{sheet.source.path.name} has {n_rows:,} rows and {n_columns:,} columns, more than an xlsx "
+            f"sheet holds ({XLSX_MAX_ROWS:,} x {XLSX_MAX_COLUMNS:,}); use --out with a .csv name"
+        )
+
+
+def show(text: str) -> None:
+    """Print a summary on standard output, control characters escaped (text comes from the sheet)."""
+    print(terminal_safe(text))
+
+
 def print_notes(problems: Sequence[str], warnings: Sequence[str]) -> None:
     """Print the reader's problems and the fill's warnings as ``note:`` lines on stderr."""
     for line in (*problems, *warnings):
-        print(f"note: {line}", file=sys.stderr)
+        print(terminal_safe(f"note: {line}"), file=sys.stderr)

@@ -1,17 +1,19 @@
 """Checks on the files a command reads and writes: the input exists, outputs never replace it.
 
 ``--force`` replaces earlier outputs, never the input sheet; the "is this the input
-file" test is the export's own (:func:`imputer_app.sheets.same_file`).
+file" test and every write are the one atomic writer's (:mod:`imputer_app.files`). A link
+at an output counts as an existing output, dangling or not.
 """
 
 from __future__ import annotations
 
+import os
 from collections.abc import Sequence
 from pathlib import Path
 
 from imputer_app.cli.exit_codes import UsageError
-from imputer_app.errors import ExportError
-from imputer_app.sheets import same_file
+from imputer_app.cli.text import terminal_safe
+from imputer_app.files import same_file, write_text_atomic
 
 #: Output formats ``kinfill fill`` can write, by extension.
 OUTPUT_SUFFIXES = (".xlsx", ".csv", ".tsv")
@@ -41,9 +43,9 @@ def fill_output(source: Path, out: Path | None) -> Path:
 def remove_stale(old_sidecars: Sequence[Path], written: Sequence[Path], source: Path) -> None:
     """Remove side files of an earlier export (replaced with --force) that this one lacks."""
     for path in old_sidecars:
-        if path not in written and path.exists() and not same_file(path, source):
+        if path not in written and os.path.lexists(path) and not same_file(path, source):
             path.unlink()
-            print(f"removed {path} (left over from an earlier export)")
+            print(terminal_safe(f"removed {path} (left over from an earlier export)"))
 
 
 def refuse_input(paths: Sequence[Path], source: Path) -> None:
@@ -57,16 +59,13 @@ def refuse_input(paths: Sequence[Path], source: Path) -> None:
 
 
 def refuse_overwrite(paths: Sequence[Path], force: bool) -> None:
-    """Refuse outputs that exist already unless ``--force`` was given."""
-    existing = [p for p in paths if p.exists()]
+    """Refuse outputs that exist already (a link too, dangling or not) unless ``--force`` was given."""
+    existing = [p for p in paths if os.path.lexists(p)]
     if existing and not force:
         names = ", ".join(str(p) for p in existing)
         raise UsageError(f"{names} already exist{'s' if len(existing) == 1 else ''}; add --force to replace")
 
 
-def write_text(path: Path, text: str) -> None:
-    """Write a small UTF-8 text output (the ``--json`` report); a failure is one line."""
-    try:
-        path.write_text(text, encoding="utf-8")
-    except OSError as exc:
-        raise ExportError(f"cannot write {path}: {exc.strerror or exc}") from exc
+def write_text(path: Path, text: str, *, source: Path, force: bool) -> None:
+    """Write a small UTF-8 text output (the ``--json`` report) atomically; a failure is one line."""
+    write_text_atomic(path, text, source=source, force=force)
