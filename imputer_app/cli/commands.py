@@ -16,10 +16,13 @@ from typing import TYPE_CHECKING, Any
 
 from imputer_app.cli.exit_codes import EXIT_OK, UsageError
 from imputer_app.cli.outputs import (
+    XLSX_MAX_COLUMNS,
+    XLSX_MAX_ROWS,
     existing_input,
     fill_output,
     refuse_input,
     refuse_overwrite,
+    refuse_too_wide_for_xlsx,
     remove_stale,
     write_text,
 )
@@ -28,10 +31,6 @@ from imputer_app.cli.progress import StopFlag, TextProgress, stop_on_ctrl_c
 from imputer_app.cli.text import fill_summary, recovery_table, terminal_safe
 from imputer_app.plan import PLAN_SUFFIX, FillPlan
 from imputer_app.work import Progress
-
-#: Size of an xlsx worksheet (ECMA-376; Microsoft's "Excel specifications and limits"),
-#: the limits the xlsx writer checks again when it writes.
-XLSX_MAX_ROWS, XLSX_MAX_COLUMNS = 1_048_576, 16_384
 
 if TYPE_CHECKING:
     from imputer_app.sheets import Sheet
@@ -43,6 +42,7 @@ def run_fill(args: argparse.Namespace) -> int:
     source = existing_input(args.input)
     out = fill_output(source, args.out)
     refuse_overwrite([out], args.force)
+    refuse_too_wide_for_xlsx(source, out)
     plan = plan_for(args)
     from imputer_app.engine import impute
     from imputer_app.sheets import export_side_files, write_result
@@ -125,7 +125,6 @@ def run_plan(args: argparse.Namespace) -> int:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
     finally:
         bar.done()
-    plan = capped_k(plan, len(sheet.frame))
     resolved = spell_out_roles(prepare(sheet, plan).plan, [str(c) for c in sheet.frame.columns])
     resolved.save(out, force=args.force, source=source)
     print_notes(sheet.problems, ())
@@ -238,7 +237,10 @@ def capped_range(ks: Sequence[int], n_rows: int) -> tuple[int, ...]:
 
 
 def check_fits_xlsx(out: Path, sheet: Sheet) -> None:
-    """Refuse, before the fill, a sheet wider or longer than an xlsx sheet holds (ECMA-376 limits)."""
+    """Refuse, before the fill, a sheet wider or longer than an xlsx sheet holds (ECMA-376 limits).
+
+    A wide text sheet is refused before reading already (:func:`refuse_too_wide_for_xlsx`).
+    """
     if out.suffix.lower() != ".xlsx":
         return
     n_rows, n_columns = sheet.frame.shape

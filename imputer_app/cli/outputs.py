@@ -7,6 +7,8 @@ at an output counts as an existing output, dangling or not.
 
 from __future__ import annotations
 
+import codecs
+import csv
 import os
 from collections.abc import Sequence
 from pathlib import Path
@@ -69,3 +71,45 @@ def refuse_overwrite(paths: Sequence[Path], force: bool) -> None:
 def write_text(path: Path, text: str, *, source: Path, force: bool) -> None:
     """Write a small UTF-8 text output (the ``--json`` report) atomically; a failure is one line."""
     write_text_atomic(path, text, source=source, force=force)
+
+
+#: Size of an xlsx worksheet (ECMA-376; Microsoft's "Excel specifications and limits"),
+#: the limits the xlsx writer checks again when it writes.
+XLSX_MAX_ROWS, XLSX_MAX_COLUMNS = 1_048_576, 16_384
+#: How much of a text sheet is looked at for its header's width.
+_HEAD_BYTES = 4 * 1024**2
+_SEPARATORS = (",", ";", "\t", "|")
+
+
+def refuse_too_wide_for_xlsx(source: Path, out: Path) -> None:
+    """Refuse, before reading, a text sheet whose header has more columns than an xlsx sheet holds.
+
+    Workbooks cannot be wider than the xlsx limit (their own formats stop there); a
+    csv can, and reading 16,000 columns costs minutes that would be lost. The header is
+    split on its most frequent separator, so this errs towards letting the reader judge.
+    """
+    if out.suffix.lower() != ".xlsx" or source.suffix.lower() not in (".csv", ".tsv", ".txt"):
+        return
+    width = header_width(source)
+    if width > XLSX_MAX_COLUMNS:
+        raise UsageError(
+            f"{source.name} has {width:,} columns, more than an xlsx sheet holds ({XLSX_MAX_COLUMNS:,}); "
+            "use --out with a .csv name"
+        )
+
+
+def header_width(path: Path) -> int:
+    """Return the number of fields in the first non-empty line of a text sheet (0 if unreadable)."""
+    try:
+        with path.open("rb") as handle:
+            head = handle.read(_HEAD_BYTES)
+    except OSError:
+        return 0  # the reader says what is wrong, in its own words
+    boms = {codecs.BOM_UTF16_LE: "utf-16", codecs.BOM_UTF16_BE: "utf-16"}
+    encoding = next((name for bom, name in boms.items() if head.startswith(bom)), "utf-8")
+    text = head.decode(encoding, errors="replace").lstrip("\ufeff")
+    first = next((line for line in text.splitlines() if line.strip()), "")
+    if not first:
+        return 0
+    separator = "\t" if path.suffix.lower() == ".tsv" else max(_SEPARATORS, key=first.count)
+    return len(next(csv.reader([first], delimiter=separator)))
