@@ -27,7 +27,7 @@ from imputer_app.cli.outputs import (
     write_text,
 )
 from imputer_app.cli.plan_options import build_plan, check_plan_columns, spell_out_roles
-from imputer_app.cli.progress import StopFlag, TextProgress, stop_on_ctrl_c
+from imputer_app.cli.progress import StopFlag, TextProgress, default_signals, stop_on_ctrl_c
 from imputer_app.cli.text import fill_summary, recovery_table, terminal_safe
 from imputer_app.plan import PLAN_SUFFIX, FillPlan
 from imputer_app.work import Progress
@@ -63,7 +63,8 @@ def run_fill(args: argparse.Namespace) -> int:
         bar.done()
     print_notes(sheet.problems, result.warnings)
     show(fill_summary(source, result, written, sheet))
-    remove_stale(old_sidecars, written, source)
+    for path in remove_stale(old_sidecars, written, source):
+        show(f"removed {path} (left over from an earlier export)")
     return EXIT_OK
 
 
@@ -145,7 +146,8 @@ def run_gui(args: argparse.Namespace) -> int:
         raise UsageError("no display found (DISPLAY and WAYLAND_DISPLAY are empty); use kinfill fill instead")
     from imputer_app.gui import launch
 
-    code = launch.main([] if args.input is None else [str(args.input)])
+    with default_signals():
+        code = launch.main([] if args.input is None else [str(args.input)])
     return int(code or 0)
 
 

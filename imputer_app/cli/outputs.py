@@ -14,7 +14,6 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from imputer_app.cli.exit_codes import UsageError
-from imputer_app.cli.text import terminal_safe
 from imputer_app.files import same_file, write_text_atomic
 
 #: Output formats ``kinfill fill`` can write, by extension.
@@ -42,12 +41,14 @@ def fill_output(source: Path, out: Path | None) -> Path:
     return target
 
 
-def remove_stale(old_sidecars: Sequence[Path], written: Sequence[Path], source: Path) -> None:
-    """Remove side files of an earlier export (replaced with --force) that this one lacks."""
+def remove_stale(old_sidecars: Sequence[Path], written: Sequence[Path], source: Path) -> list[Path]:
+    """Remove side files of an earlier export (replaced with --force) that this one lacks; return them."""
+    removed = []
     for path in old_sidecars:
         if path not in written and os.path.lexists(path) and not same_file(path, source):
             path.unlink()
-            print(terminal_safe(f"removed {path} (left over from an earlier export)"))
+            removed.append(path)
+    return removed
 
 
 def refuse_input(paths: Sequence[Path], source: Path) -> None:

@@ -14,7 +14,7 @@ from __future__ import annotations
 import signal
 import threading
 import time
-from collections.abc import Callable, Iterator
+from collections.abc import Iterator, Mapping
 from contextlib import contextmanager, suppress
 from types import FrameType
 from typing import Any, NoReturn, TextIO
@@ -135,16 +135,30 @@ def stop_signals_handled() -> Iterator[None]:
     early Ctrl+C ends with one line instead of a traceback. The previous handlers come
     back afterwards (``main`` may run inside another program, e.g. a test).
     """
-    with _handlers(stop_at_once):
+    with _handlers(dict.fromkeys(STOP_SIGNALS, stop_at_once)):
         yield
 
 
 @contextmanager
-def _handlers(handler: Callable[[int, FrameType | None], Any]) -> Iterator[None]:
+def default_signals() -> Iterator[None]:
+    """Give the stop signals back their usual meaning for the block (``kinfill gui``).
+
+    Python runs signal handlers only between its own steps; inside Qt's event loop a
+    handler would wait, so the window keeps the operating system's behaviour instead.
+    """
+    usual: dict[signal.Signals, Any] = {sig: signal.SIG_DFL for sig in STOP_SIGNALS}
+    usual[signal.SIGINT] = signal.default_int_handler
+    with _handlers(usual):
+        yield
+
+
+@contextmanager
+def _handlers(handlers: Mapping[signal.Signals, Any]) -> Iterator[None]:
+    # Python installs signal handlers in the main thread only; elsewhere nothing changes.
     if threading.current_thread() is not threading.main_thread():
         yield
         return
-    previous = {sig: signal.signal(sig, handler) for sig in STOP_SIGNALS}
+    previous = {sig: signal.signal(sig, handler) for sig, handler in handlers.items()}
     try:
         yield
     finally:
@@ -197,5 +211,5 @@ def stop_on_ctrl_c(stream: TextIO | None = None) -> Iterator[StopFlag]:
     still returned but only ``KeyboardInterrupt`` stops the work.
     """
     flag = StopFlag(stream)
-    with _handlers(flag.on_sigint):
+    with _handlers(dict.fromkeys(STOP_SIGNALS, flag.on_sigint)):
         yield flag

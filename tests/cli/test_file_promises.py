@@ -69,7 +69,7 @@ def test_a_dangling_link_at_the_output_needs_force(
     elsewhere.mkdir()
     out = source.parent / name
     out.symlink_to(elsewhere / name)
-    code, stdout, err = run(argv(source, out), capsys)
+    code, _, err = run(argv(source, out), capsys)
     assert code == 2 and "already exists; add --force" in one_line(err)
     assert out.is_symlink() and not (elsewhere / name).exists()
     assert temps(source.parent, elsewhere) == []
