@@ -135,6 +135,7 @@ def stop_signals_handled() -> Iterator[None]:
     early Ctrl+C ends with one line instead of a traceback. The previous handlers come
     back afterwards (``main`` may run inside another program, e.g. a test).
     """
+    _received.clear()  # a signal of an earlier run in this process says nothing about this one
     with _handlers(dict.fromkeys(STOP_SIGNALS, stop_at_once)):
         yield
 
@@ -195,7 +196,7 @@ class StopFlag:
             again = (
                 "press Ctrl+C again to stop at once"
                 if signum == signal.SIGINT
-                else signal.Signals(signum).name
+                else f"{signal.Signals(signum).name} received"
             )
             # A closed terminal (SIGHUP) cannot be written to; stopping matters more.
             with suppress(OSError, ValueError):

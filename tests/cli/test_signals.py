@@ -94,3 +94,30 @@ def test_a_stop_signal_leaves_nothing_written(
     assert stdout == ""
     assert list(out_dir.iterdir()) == []
     assert [p for p in large.parent.iterdir() if p.name.endswith(TEMP_SUFFIX)] == []
+
+
+@pytest.mark.parametrize("signum", [signal.SIGTERM, signal.SIGHUP])
+def test_sigterm_and_sighup_stop_the_fill_like_ctrl_c(
+    signum: signal.Signals,
+    tmp_path: Path,
+    monkeypatch: pytest.MonkeyPatch,
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    # In-process: the first signal sets the stop flag; the engine notices and stops.
+    import imputer_app.engine
+    from tests.cli.helpers import run
+
+    real = imputer_app.engine.impute
+
+    def signalled(*args: object, **kwargs: object) -> object:
+        os.kill(os.getpid(), signum)
+        return real(*args, **kwargs)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(imputer_app.engine, "impute", signalled)
+    handler_before = signal.getsignal(signum)
+    sheet = ROOT / "sample_sheets" / "river_survey.csv"
+    code, stdout, err = run(["fill", sheet, "--out", tmp_path / "o.csv"], capsys)
+    assert code == 128 + signum, err
+    assert f"stopping ({signum.name} received)" in err and err.strip().endswith("stopped; nothing written")
+    assert stdout == "" and list(tmp_path.iterdir()) == []
+    assert signal.getsignal(signum) == handler_before  # the handlers of this process are back
