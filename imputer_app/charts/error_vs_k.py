@@ -20,6 +20,7 @@ from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
 from imputer_app.errors import ExportError
+from imputer_app.files import atomic_target
 
 #: Kinfill's own plain colours.
 INK = "#22313f"  # overall score
@@ -180,9 +181,19 @@ def _ticks(ks: Sequence[int]) -> list[int]:
 
 
 def save_figure(
-    fig: Figure, path: str | Path, *, dpi: int = 150, metadata: Mapping[str, str] | None = None
+    fig: Figure,
+    path: str | Path,
+    *,
+    dpi: int = 150,
+    metadata: Mapping[str, str] | None = None,
+    force: bool = True,
+    source: str | Path | None = None,
 ) -> Path:
     """Write ``fig`` as PNG or SVG (chosen by the file extension) and return the path.
+
+    The picture goes through the one atomic writer (:func:`imputer_app.files.atomic_target`):
+    a fresh temporary file in the target folder, renamed into place when complete, so a
+    full disk or a stop leaves the old file as it was and no link is written through.
 
     Parameters
     ----------
@@ -194,6 +205,11 @@ def save_figure(
         Resolution of a PNG.
     metadata : mapping or None
         Extra file metadata (e.g. ``{"Title": ...}``).
+    force : bool, default=True
+        Whether an existing file (or link) of that name may be replaced; callers ask
+        first (``--force``, the app's save dialog). A link is replaced itself.
+    source : str or Path or None, default=None
+        The sheet the chart is about; a ``path`` naming it is refused.
 
     Raises
     ------
@@ -204,8 +220,7 @@ def save_figure(
     fmt = target.suffix.lower().lstrip(".")
     if fmt not in SAVE_FORMATS:
         raise ExportError(f"cannot save a chart as {target.name}: use a .png or .svg file name")
-    try:
-        fig.savefig(target, format=fmt, dpi=dpi, metadata=dict(metadata or {}))
-    except OSError as exc:
-        raise ExportError(f"cannot write chart {target}: {exc.strerror or exc}") from exc
+    # The format is given explicitly: the temporary file's name ends in ".kinfill.tmp".
+    with atomic_target(target, source=source, force=force) as temp:
+        fig.savefig(temp, format=fmt, dpi=dpi, metadata=dict(metadata or {}))
     return target

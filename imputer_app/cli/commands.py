@@ -16,16 +16,19 @@ from typing import TYPE_CHECKING, Any
 
 from imputer_app.cli.exit_codes import EXIT_OK, UsageError
 from imputer_app.cli.outputs import (
+    XLSX_MAX_COLUMNS,
+    XLSX_MAX_ROWS,
     existing_input,
     fill_output,
     refuse_input,
     refuse_overwrite,
+    refuse_too_wide_for_xlsx,
     remove_stale,
     write_text,
 )
 from imputer_app.cli.plan_options import build_plan, check_plan_columns, spell_out_roles
-from imputer_app.cli.progress import StopFlag, TextProgress, stop_on_ctrl_c
-from imputer_app.cli.text import fill_summary, recovery_table
+from imputer_app.cli.progress import StopFlag, TextProgress, default_signals, stop_on_ctrl_c
+from imputer_app.cli.text import fill_summary, recovery_table, terminal_safe
 from imputer_app.plan import PLAN_SUFFIX, FillPlan
 from imputer_app.work import Progress
 
@@ -39,6 +42,7 @@ def run_fill(args: argparse.Namespace) -> int:
     source = existing_input(args.input)
     out = fill_output(source, args.out)
     refuse_overwrite([out], args.force)
+    refuse_too_wide_for_xlsx(source, out)
     plan = plan_for(args)
     from imputer_app.engine import impute
     from imputer_app.sheets import export_side_files, write_result
@@ -46,18 +50,21 @@ def run_fill(args: argparse.Namespace) -> int:
     sidecars = export_side_files(out)
     refuse_input(sidecars, source)
     refuse_overwrite(sidecars, args.force)
-    old_sidecars = [p for p in sidecars if p.exists()]
+    old_sidecars = [p for p in sidecars if os.path.lexists(p)]
     bar = TextProgress(sys.stderr)
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            check_fits_xlsx(out, sheet)
+            plan = capped_k(plan, len(sheet.frame))
             result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop)
             written = write_result(out, sheet, result, plan, progress=bar.stage("writing"), cancel=stop)
     finally:
         bar.done()
     print_notes(sheet.problems, result.warnings)
-    print(fill_summary(source, result, written, sheet))
-    remove_stale(old_sidecars, written, source)
+    show(fill_summary(source, result, written, sheet))
+    for path in remove_stale(old_sidecars, written, source):
+        show(f"removed {path} (left over from an earlier export)")
     return EXIT_OK
 
 
@@ -76,10 +83,11 @@ def run_score_k(args: argparse.Namespace) -> int:
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            plan = capped_k(plan, len(sheet.frame), quiet=True)
             report = recovery_test(
                 sheet,
                 plan,
-                ks=args.k_range,
+                ks=capped_range(args.k_range, len(sheet.frame)),
                 hide_fraction=args.hide,
                 repeats=args.repeats,
                 seed=args.seed,
@@ -90,15 +98,16 @@ def run_score_k(args: argparse.Namespace) -> int:
     finally:
         bar.done()
     print_notes(sheet.problems, report.warnings)
-    print(recovery_table(report))
+    show(recovery_table(report))
     if args.json is not None:
-        write_text(args.json, json.dumps(score_record(report, sheet), indent=2, ensure_ascii=False) + "\n")
-        print(f"wrote {args.json}")
+        text = json.dumps(score_record(report, sheet), indent=2, ensure_ascii=False) + "\n"
+        write_text(args.json, text, source=source, force=args.force)
+        show(f"wrote {args.json}")
     if args.plot is not None:
         from imputer_app.charts import plot_error_vs_k, save_figure
 
-        save_figure(plot_error_vs_k(report), args.plot)
-        print(f"wrote {args.plot}")
+        save_figure(plot_error_vs_k(report), args.plot, force=args.force, source=source)
+        show(f"wrote {args.plot}")
     return EXIT_OK
 
 
@@ -118,9 +127,9 @@ def run_plan(args: argparse.Namespace) -> int:
     finally:
         bar.done()
     resolved = spell_out_roles(prepare(sheet, plan).plan, [str(c) for c in sheet.frame.columns])
-    resolved.save(out)
+    resolved.save(out, force=args.force, source=source)
     print_notes(sheet.problems, ())
-    print(f"wrote {out}")
+    show(f"wrote {out}")
     return EXIT_OK
 
 
@@ -137,7 +146,8 @@ def run_gui(args: argparse.Namespace) -> int:
         raise UsageError("no display found (DISPLAY and WAYLAND_DISPLAY are empty); use kinfill fill instead")
     from imputer_app.gui import launch
 
-    code = launch.main([] if args.input is None else [str(args.input)])
+    with default_signals():
+        code = launch.main([] if args.input is None else [str(args.input)])
     return int(code or 0)
 
 
@@ -203,7 +213,52 @@ def score_record(report: RecoveryReport, sheet: Sheet) -> dict[str, Any]:
     return {"input": given, **report.to_dict(), "cautions": CAUTIONS}
 
 
+def capped_k(plan: FillPlan, n_rows: int, *, quiet: bool = False) -> FillPlan:
+    """Return ``plan`` with k at most the number of possible donors (``n_rows - 1``), said in a note.
+
+    A row is never its own donor, so a larger k uses every donor anyway; capping it
+    keeps the neighbour search from sizing its work by the k asked for.
+    """
+    donors = max(n_rows - 1, 1)
+    if plan.k <= donors:
+        return plan
+    if not quiet:
+        print_notes((f"k = {plan.k} is more than the {donors} possible donors; every donor is used",), ())
+    return plan.replace(k=donors)
+
+
+def capped_range(ks: Sequence[int], n_rows: int) -> tuple[int, ...]:
+    """Return the k values to test, those above the possible donors (``n_rows - 1``) made that number."""
+    donors = max(n_rows - 1, 1)
+    kept = tuple(sorted({min(k, donors) for k in ks}))
+    if max(ks) > donors:
+        print_notes(
+            (f"k values above the {donors} possible donors are tested as k = {donors} (every donor)",), ()
+        )
+    return kept
+
+
+def check_fits_xlsx(out: Path, sheet: Sheet) -> None:
+    """Refuse, before the fill, a sheet wider or longer than an xlsx sheet holds (ECMA-376 limits).
+
+    A wide text sheet is refused before reading already (:func:`refuse_too_wide_for_xlsx`).
+    """
+    if out.suffix.lower() != ".xlsx":
+        return
+    n_rows, n_columns = sheet.frame.shape
+    if n_columns > XLSX_MAX_COLUMNS or n_rows + 2 > XLSX_MAX_ROWS:
+        raise UsageError(
+            f"{sheet.source.path.name} has {n_rows:,} rows and {n_columns:,} columns, more than an xlsx "
+            f"sheet holds ({XLSX_MAX_ROWS:,} x {XLSX_MAX_COLUMNS:,}); use --out with a .csv name"
+        )
+
+
+def show(text: str) -> None:
+    """Print a summary on standard output, control characters escaped (text comes from the sheet)."""
+    print(terminal_safe(text))
+
+
 def print_notes(problems: Sequence[str], warnings: Sequence[str]) -> None:
     """Print the reader's problems and the fill's warnings as ``note:`` lines on stderr."""
     for line in (*problems, *warnings):
-        print(f"note: {line}", file=sys.stderr)
+        print(terminal_safe(f"note: {line}"), file=sys.stderr)

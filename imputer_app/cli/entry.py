@@ -1,7 +1,9 @@
 """``kinfill``'s entry point: parse the arguments, run the command, turn errors into exit codes.
 
 Every failure ends as one line on standard error and an exit code
-(:mod:`imputer_app.cli.exit_codes`); a traceback only with ``--debug``.
+(:mod:`imputer_app.cli.exit_codes`); a traceback only with ``--debug``. Every message
+printed passes :func:`~imputer_app.cli.text.terminal_safe`, so text from a sheet (a
+column name, a cell) cannot steer the terminal.
 """
 
 from __future__ import annotations
@@ -13,8 +15,8 @@ import sys
 import traceback
 from collections.abc import Callable, Sequence
 
-from imputer_app.cli.exit_codes import EXIT_FAULT, EXIT_OK, EXIT_STOPPED, EXIT_USAGE
-from imputer_app.cli.parser import build_parser
+from imputer_app.cli.exit_codes import EXIT_FAULT, EXIT_OK, EXIT_USAGE
+from imputer_app.cli.progress import Stopped, stop_signal, stop_signals_handled
 from imputer_app.errors import Cancelled, KinfillError
 
 
@@ -29,16 +31,29 @@ def main(argv: Sequence[str] | None = None) -> int:
     Returns
     -------
     int
-        0 done, 1 internal fault, 2 bad input or usage, 130 stopped by Ctrl+C.
+        0 done, 1 internal fault, 2 bad input or usage, 128 + the signal's number when
+        stopped (130 Ctrl+C, 143 SIGTERM, 129 SIGHUP).
     """
-    parser = build_parser()
+    # Stop signals first: an early Ctrl+C (while the parser loads) is one line, too.
     try:
-        args = parser.parse_args(argv)
+        with stop_signals_handled():
+            return _main(argv)
+    except KeyboardInterrupt as exc:  # a signal that came while a handler was swapped
+        return _stopped("kinfill", exc)
+
+
+def _main(argv: Sequence[str] | None) -> int:
+    try:
+        from imputer_app.cli.parser import build_parser
+
+        args = build_parser().parse_args(argv)
     except SystemExit as exc:  # --help, --version and usage errors
         return exc.code if isinstance(exc.code, int) else EXIT_USAGE
+    except KeyboardInterrupt as exc:
+        return _stopped("kinfill", exc)
     debug = bool(getattr(args, "debug", False))
     if args.command is None:
-        print("kinfill: choose a command: fill, score-k, plan or gui (see kinfill --help)", file=sys.stderr)
+        say("kinfill: choose a command: fill, score-k, plan or gui (see kinfill --help)")
         return EXIT_USAGE
     prog = f"kinfill {args.command}"
     run: Callable[[argparse.Namespace], int] = args.run
@@ -47,11 +62,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KinfillError as exc:
         if debug:
             traceback.print_exc()
-        print(f"{prog}: {one_line(str(exc))}", file=sys.stderr)
+        say(f"{prog}: {one_line(str(exc))}")
         return EXIT_USAGE
-    except (Cancelled, KeyboardInterrupt):
-        print(f"{prog}: stopped; nothing written", file=sys.stderr)
-        return EXIT_STOPPED
+    except (Cancelled, KeyboardInterrupt) as exc:
+        return _stopped(prog, exc)
     except BrokenPipeError:
         # The reader of our output (e.g. `| head`) went away; the work itself is done.
         # Point stdout at nothing so the interpreter's final flush cannot fail again.
@@ -64,8 +78,26 @@ def main(argv: Sequence[str] | None = None) -> int:
             hint = ""
         else:
             hint = " (run again with --debug to see where)"
-        print(f"{prog}: internal error: {type(exc).__name__}: {one_line(str(exc))}{hint}", file=sys.stderr)
+        say(f"{prog}: internal error: {type(exc).__name__}: {one_line(str(exc))}{hint}")
         return EXIT_FAULT
+
+
+def _stopped(prog: str, exc: BaseException) -> int:
+    """One line for a stop by Ctrl+C, SIGTERM or SIGHUP; exit 128 + the signal's number."""
+    signum = exc.signum if isinstance(exc, Stopped) else stop_signal()
+    say(f"{prog}: stopped; nothing written")
+    return 128 + signum
+
+
+def say(message: str) -> None:
+    """Print one message line on standard error, control characters escaped.
+
+    A closed terminal (after SIGHUP) cannot be written to; the exit code still tells.
+    """
+    from imputer_app.cli.text import terminal_safe
+
+    with contextlib.suppress(OSError, ValueError):
+        print(terminal_safe(message), file=sys.stderr)
 
 
 def one_line(text: str) -> str:

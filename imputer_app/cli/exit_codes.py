@@ -11,6 +11,7 @@ EXIT_FAULT = 1
 #: Bad input or usage (missing file, unknown column, bad setting): one line.
 EXIT_USAGE = 2
 #: Stopped with Ctrl+C; nothing was written (128 + SIGINT, the shell convention).
+#: SIGTERM and SIGHUP stop the same way with 128 + their number (143, 129).
 EXIT_STOPPED = 130
 
 

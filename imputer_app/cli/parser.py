@@ -164,7 +164,12 @@ def _add_plan_options(parser: argparse.ArgumentParser, *, with_k: bool) -> None:
         "--plan-from", metavar="EXPORT", type=Path, help="start from the plan recorded in an earlier export"
     )
     if with_k:
-        parser.add_argument("--k", metavar="N", type=int, help="donors per filled cell (default 5)")
+        parser.add_argument(
+            "--k",
+            metavar="N",
+            type=positive_int,
+            help="donors per filled cell (default 5; at most every donor)",
+        )
     cols = parser.add_argument_group("columns (override the plan)")
     cols.add_argument(
         "--similarity", metavar="COLS", type=column_list, help="similarity columns, comma-separated"

@@ -12,6 +12,7 @@ from typing import Any
 
 from imputer_app.errors import PlanError
 from imputer_app.plan import FillPlan
+from imputer_app.plan_text import LISTED_NAMES, shown_value
 
 
 def build_plan(
@@ -87,13 +88,21 @@ def check_plan_columns(plan: FillPlan, sheet_name: str, columns: Sequence[str]) 
     imputer_app.errors.PlanError: a.csv has no column 'nitrat' (did you mean 'Nitrate'?); ...
     """
     present = list(columns)
-    missing = [n for n in plan.named_columns() if n not in present]
+    known = set(present)
+    missing = [n for n in dict.fromkeys(plan.named_columns()) if n not in known]
     if not missing:
         return
     lowered = {c.lower(): c for c in present}
     parts = []
-    for name in missing:
+    # Close matches for the names shown only: difflib is slow over thousands of names.
+    for name in missing[:LISTED_NAMES]:
         guess = difflib.get_close_matches(name.lower(), list(lowered), n=1, cutoff=0.6)
-        parts.append(f"{name!r} (did you mean {lowered[guess[0]]!r}?)" if guess else repr(name))
-    shown = ", ".join(present[:30]) + (", ..." if len(present) > 30 else "")
-    raise PlanError(f"{sheet_name} has no column {', '.join(parts)}; its columns are {shown}")
+        parts.append(
+            f"{shown_value(name)} (did you mean {shown_value(lowered[guess[0]])}?)"
+            if guess
+            else shown_value(name)
+        )
+    rest = len(missing) - len(parts)
+    listed = ", ".join(parts) + (f" and {rest:,} more" if rest > 0 else "")
+    shown = ", ".join(present[:30]) + (f" and {len(present) - 30:,} more" if len(present) > 30 else "")
+    raise PlanError(f"{sheet_name} has no column {listed}; its columns are {shown}")

@@ -1,4 +1,9 @@
-"""Terminal helpers of the command line: a text progress bar and a Ctrl+C stop flag.
+"""Terminal helpers of the command line: a text progress bar and the stop signals.
+
+Ctrl+C (SIGINT), SIGTERM and SIGHUP all stop a command the same way: during long work
+the first one sets a :class:`StopFlag` (the work stops at its next check and nothing is
+written), a second one, or one outside long work, raises :class:`Stopped`. The exit
+code is 128 + the signal's number (130 for Ctrl+C, 143 for SIGTERM, 129 for SIGHUP).
 
 Kept apart from :mod:`imputer_app.cli.commands` so that the commands stay short.
 Nothing here imports the engine, the sheets or Qt.
@@ -9,10 +14,10 @@ from __future__ import annotations
 import signal
 import threading
 import time
-from collections.abc import Iterator
-from contextlib import contextmanager
+from collections.abc import Iterator, Mapping
+from contextlib import contextmanager, suppress
 from types import FrameType
-from typing import TextIO
+from typing import Any, NoReturn, TextIO
 
 from imputer_app.work import Progress
 
@@ -94,8 +99,76 @@ def render_bar(label: str, done: int, total: int, width: int = BAR_WIDTH) -> str
     return f"{label:<12} [{'#' * filled}{'.' * (width - filled)}] {share:4.0%}"
 
 
+#: Signals that stop a command like Ctrl+C (SIGHUP: the terminal was closed; not on Windows).
+STOP_SIGNALS: tuple[signal.Signals, ...] = tuple(
+    getattr(signal, name) for name in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, name)
+)
+
+# The last stop signal received, for the exit code (128 + its number).
+_received: list[int] = []
+
+
+class Stopped(KeyboardInterrupt):
+    """A stop signal arrived outside long work (or a second time); carries its number."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+
+
+def stop_signal() -> int:
+    """Return the number of the last stop signal received (SIGINT when none was)."""
+    return _received[-1] if _received else int(signal.SIGINT)
+
+
+def stop_at_once(signum: int, frame: FrameType | None) -> NoReturn:
+    """Signal handler outside long work: stop where we are (cleanups still run)."""
+    _received.append(signum)
+    raise Stopped(signum)
+
+
+@contextmanager
+def stop_signals_handled() -> Iterator[None]:
+    """Make SIGINT, SIGTERM and SIGHUP raise :class:`Stopped` for the block's duration.
+
+    Installed first thing in ``main``, before the heavy imports, so that even a very
+    early Ctrl+C ends with one line instead of a traceback. The previous handlers come
+    back afterwards (``main`` may run inside another program, e.g. a test).
+    """
+    _received.clear()  # a signal of an earlier run in this process says nothing about this one
+    with _handlers(dict.fromkeys(STOP_SIGNALS, stop_at_once)):
+        yield
+
+
+@contextmanager
+def default_signals() -> Iterator[None]:
+    """Give the stop signals back their usual meaning for the block (``kinfill gui``).
+
+    Python runs signal handlers only between its own steps; inside Qt's event loop a
+    handler would wait, so the window keeps the operating system's behaviour instead.
+    """
+    usual: dict[signal.Signals, Any] = {sig: signal.SIG_DFL for sig in STOP_SIGNALS}
+    usual[signal.SIGINT] = signal.default_int_handler
+    with _handlers(usual):
+        yield
+
+
+@contextmanager
+def _handlers(handlers: Mapping[signal.Signals, Any]) -> Iterator[None]:
+    # Python installs signal handlers in the main thread only; elsewhere nothing changes.
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    previous = {sig: signal.signal(sig, handler) for sig, handler in handlers.items()}
+    try:
+        yield
+    finally:
+        for sig, old in previous.items():
+            signal.signal(sig, old)
+
+
 class StopFlag:
-    """A cancel flag set by the first Ctrl+C; a second Ctrl+C interrupts at once.
+    """A cancel flag set by the first stop signal (Ctrl+C, SIGTERM, SIGHUP); a second one interrupts.
 
     Long work checks the flag about once a second and raises
     :class:`~imputer_app.errors.Cancelled`; the command then writes nothing.
@@ -114,28 +187,30 @@ class StopFlag:
         self._event.set()
 
     def on_sigint(self, signum: int, frame: FrameType | None) -> None:
-        """Signal handler: the first press asks politely, the second interrupts."""
+        """Signal handler: the first signal asks politely, the second interrupts."""
+        _received.append(signum)
         if self._event.is_set():
-            raise KeyboardInterrupt
+            raise Stopped(signum)
         self._event.set()
         if self._stream is not None:
-            self._stream.write("\nstopping (press Ctrl+C again to stop at once)...\n")
-            self._stream.flush()
+            again = (
+                "press Ctrl+C again to stop at once"
+                if signum == signal.SIGINT
+                else f"{signal.Signals(signum).name} received"
+            )
+            # A closed terminal (SIGHUP) cannot be written to; stopping matters more.
+            with suppress(OSError, ValueError):
+                self._stream.write(f"\nstopping ({again})...\n")
+                self._stream.flush()
 
 
 @contextmanager
 def stop_on_ctrl_c(stream: TextIO | None = None) -> Iterator[StopFlag]:
-    """Install a Ctrl+C handler that sets a :class:`StopFlag` for the block's duration.
+    """Make the stop signals set a :class:`StopFlag` for the block's duration.
 
     Outside the main thread (where Python cannot install signal handlers) the flag is
     still returned but only ``KeyboardInterrupt`` stops the work.
     """
     flag = StopFlag(stream)
-    if threading.current_thread() is not threading.main_thread():
+    with _handlers(dict.fromkeys(STOP_SIGNALS, flag.on_sigint)):
         yield flag
-        return
-    previous = signal.signal(signal.SIGINT, flag.on_sigint)
-    try:
-        yield flag
-    finally:
-        signal.signal(signal.SIGINT, previous)

@@ -1,20 +1,43 @@
-"""Plain-text summaries printed by the command line (no colours, pipe-friendly)."""
+"""Plain-text summaries printed by the command line (no colours, pipe-friendly).
+
+pandas is imported inside the functions that need it, so that ``kinfill --help`` and
+the stop-signal handling start at once.
+"""
 
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-import pandas as pd
-
 from imputer_app.words import SUBSTITUTION_PHRASES
 
 if TYPE_CHECKING:
+    import pandas as pd
+
     from imputer_app.engine import FillResult
     from imputer_app.sheets import Sheet
     from imputer_app.validation import RecoveryReport
+
+
+# C0 controls but tab and newline, DEL and the C1 controls: what a terminal obeys.
+_CONTROL = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f]")
+
+
+def terminal_safe(text: str) -> str:
+    r"""Return ``text`` with control characters shown as escapes, e.g. ESC as ``\x1b``.
+
+    Column names and cells come from the user's sheet; printed raw, an ``ESC [31m`` in
+    a cell would recolour the terminal (or worse). Tab and newline are kept.
+
+    Examples
+    --------
+    >>> print(terminal_safe("pH\x1b[31m\tred\x9b"))  # doctest: +NORMALIZE_WHITESPACE
+    pH\x1b[31m	red\x9b
+    """
+    return _CONTROL.sub(lambda m: f"\\x{ord(m.group()):02x}", text)
 
 
 def fill_summary(
@@ -77,6 +100,8 @@ def _censored_fill_lines(log: pd.DataFrame, no_limit: set[tuple[Any, str]]) -> l
     """
     if "original_state" not in log.columns:
         return []
+    import pandas as pd
+
     knn = (log["original_state"] == "censored") & log["method"].isin(["knn", "knn_capped"])
     cells = pd.Series(list(zip(log["row"], log["column"], strict=True)), index=log.index)
     unknown = knn & cells.isin(no_limit)
@@ -198,6 +223,8 @@ def _no_k_beats_average(overall: pd.DataFrame, baseline: pd.DataFrame) -> bool:
 
 def _overall_row(baseline: pd.DataFrame) -> pd.Series | None:
     """The baseline's ``overall`` row (all fill columns together), if it has one."""
+    import pandas as pd
+
     row = baseline.loc["overall"] if "overall" in baseline.index else None
     return row if isinstance(row, pd.Series) else None
 

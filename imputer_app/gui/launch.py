@@ -111,6 +111,30 @@ def drive_to(window: object, state: str, done: Callable[[], None]) -> None:
     window.run_recovery_test()
 
 
+def save_picture(picture: object, target: Path) -> bool:
+    """Save a ``QPixmap`` through the one atomic writer; a failure is one line on stderr.
+
+    The format comes from ``target``'s ending and is passed explicitly, since the
+    temporary file's name ends in ``.kinfill.tmp``. An existing picture is replaced
+    (``--screenshot`` is asked for by name); a link there is replaced, not written through.
+    """
+    from PySide6.QtGui import QPixmap
+
+    from imputer_app.errors import ExportError
+    from imputer_app.files import atomic_target
+
+    assert isinstance(picture, QPixmap)
+    fmt = target.suffix.lstrip(".").upper() or "PNG"
+    try:
+        with atomic_target(target, force=True) as temp:
+            if not picture.save(str(temp), fmt):
+                raise ExportError(f"cannot write {target.name}: Qt could not save a {fmt} picture there")
+    except ExportError as exc:
+        print(f"kinfill-gui: {exc}", file=sys.stderr)
+        return False
+    return True
+
+
 def _arrange_screenshot(window: object, app: object, target: Path, state: str = "sheet") -> None:
     """Save ``window``'s picture once it shows ``state``, then quit with the right code."""
     from PySide6.QtCore import QTimer
@@ -120,7 +144,7 @@ def _arrange_screenshot(window: object, app: object, target: Path, state: str = 
 
     def shoot() -> None:
         target.parent.mkdir(parents=True, exist_ok=True)
-        saved = window.grab().save(str(target))
+        saved = save_picture(window.grab(), target)
         window.close()
         app.exit(0 if saved else EXIT_NOT_SAVED)
 

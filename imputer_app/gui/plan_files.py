@@ -59,7 +59,13 @@ class PlanFiles:
         self._status.showMessage(f"Plan {path.name} loaded.", 5000)
 
     def save(self, path: str | Path | None = None) -> Path | None:
-        """Save the session's plan as ``*.plan.toml``; return the file written (None: not saved)."""
+        """Save the session's plan as ``*.plan.toml``; return the file written (None: not saved).
+
+        The file dialog asks before replacing a file, so an existing file (or a link,
+        replaced itself, never written through) is replaced; the open sheet never is.
+        A failure (folder not writable, disk full) is one message, with the old file
+        untouched and no temporary file left (:mod:`imputer_app.files`).
+        """
         if self._session.plan_problem is not None:
             self._show_error("The settings are not valid yet; see the note under the setup.")
             return None
@@ -67,7 +73,7 @@ class PlanFiles:
         if target is None:
             return None
         try:
-            written = self._session.plan.save(target)
+            written = self._session.plan.save(target, force=True, source=self._session.path)
         except Exception as exc:
             self._show_error(str(exc))
             return None

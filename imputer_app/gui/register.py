@@ -18,6 +18,7 @@ from pathlib import Path
 
 import imputer_app
 from imputer_app.errors import KinfillError
+from imputer_app.files import write_bytes_atomic, write_text_atomic
 
 TOOLS = ("xdg-mime", "xdg-icon-resource", "xdg-desktop-menu")
 DESKTOP_NAME = "kinfill.desktop"
@@ -109,12 +110,12 @@ def register(run: Runner = _run, resources: Path | None = None) -> list[str]:
     if svg.is_file():
         target = Path.home() / ".local/share/icons/hicolor/scalable/apps" / f"{ICON_NAME}.svg"
         target.parent.mkdir(parents=True, exist_ok=True)
-        shutil.copyfile(svg, target)
+        write_bytes_atomic(target, svg.read_bytes(), force=True)
         done.append(f"copied the scalable icon to {target}")
     with tempfile.TemporaryDirectory() as tmp:
         desktop = Path(tmp) / DESKTOP_NAME
         command = launch_command()
-        desktop.write_text(desktop_text(needed[DESKTOP_NAME].read_text(encoding="utf-8"), command), "utf-8")
+        write_text_atomic(desktop, desktop_text(needed[DESKTOP_NAME].read_text(encoding="utf-8"), command))
         run(["xdg-desktop-menu", "install", "--mode", "user", "--novendor", str(desktop)])
     done.append(f"installed the launcher {DESKTOP_NAME} (runs {command})")
     apps = Path.home() / ".local/share/applications"

@@ -4,6 +4,10 @@ The csv export's ``<name>.run.json`` holds the plan exactly; the xlsx export's
 "About this fill" sheet holds it as a ``plan (JSON)`` row when present, else as the
 readable key/value rows of its "Plan (as given)" section, which are parsed back. The
 labels read here are the ones :mod:`imputer_app.sheets._run_record` writes.
+
+An export is checked like any workbook the reader opens (type, zip directory,
+decompression-bomb limits, :mod:`imputer_app.sheets._guards`) before a parser sees it,
+and a run record is read only up to the plan-file size limit.
 """
 
 from __future__ import annotations
@@ -16,6 +20,8 @@ from typing import Any
 
 from imputer_app.errors import PlanError
 from imputer_app.plan import FillPlan
+from imputer_app.plan_text import MAX_PLAN_BYTES
+from imputer_app.sheets._guards import check_workbook_file
 from imputer_app.sheets._run_record import ABOUT_SHEET, SECTIONS
 from imputer_app.sheets._write_csv import side_files
 
@@ -43,6 +49,9 @@ def read_export_plan(path: str | PathLike[str]) -> FillPlan:
     ------
     PlanError
         The file holds no Kinfill run record, or its plan is invalid.
+    SheetError
+        The workbook is damaged, disguised or a possible decompression bomb (refused
+        from its zip directory, before anything is decompressed).
 
     Examples
     --------
@@ -70,10 +79,23 @@ def _record_beside(path: Path) -> Path:
     return record
 
 
+#: Largest run record read: its plan plus the run's notes (the plan alone is at most
+#: :data:`~imputer_app.plan_text.MAX_PLAN_BYTES`).
+MAX_RECORD_BYTES = 16 * MAX_PLAN_BYTES
+
+
 def _plan_in_json(path: Path) -> Mapping[str, Any]:
     try:
-        record = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+        if not path.is_file():
+            raise PlanError(f"{path.name} is not an ordinary file; give a Kinfill run record (.run.json)")
+        with path.open("rb") as handle:
+            data = handle.read(MAX_RECORD_BYTES + 1)
+        if len(data) > MAX_RECORD_BYTES:
+            raise PlanError(
+                f"{path.name} is larger than {MAX_RECORD_BYTES // 1_000_000} MB; not a Kinfill run record"
+            )
+        record = json.loads(data.decode("utf-8"))
+    except (OSError, UnicodeDecodeError, json.JSONDecodeError, RecursionError) as exc:
         raise PlanError(f"cannot read the run record {path.name}: {exc}") from None
     plan = record.get("plan") if isinstance(record, dict) else None
     if not isinstance(plan, dict):
@@ -84,6 +106,7 @@ def _plan_in_json(path: Path) -> Mapping[str, Any]:
 def _plan_in_workbook(path: Path) -> Mapping[str, Any]:
     from openpyxl import load_workbook
 
+    check_workbook_file(path, path.suffix.lower().lstrip("."))
     try:
         book = load_workbook(path, read_only=True, data_only=True)
     except Exception as exc:  # openpyxl raises many kinds for a damaged file

@@ -64,7 +64,7 @@ def test_top_help_lists_commands(capsys: pytest.CaptureFixture[str]) -> None:
         (["frobnicate"], "invalid choice"),
         (["fill"], "required: INPUT"),
         (["fill", "x.xlsx", "--bogus"], "unrecognized arguments: --bogus"),
-        (["fill", "x.xlsx", "--k", "five"], "invalid int value: 'five'"),
+        (["fill", "x.xlsx", "--k", "five"], "expected a whole number of at least 1; got 'five'"),
         (["fill", "x.xlsx", "--weight", "pH"], "expected COLUMN=WEIGHT"),
         (["fill", "x.xlsx", "--weight", "pH=heavy"], "weight for column 'pH' must be a number"),
         (["fill", "x.xlsx", "--similarity", " , "], "expected comma-separated column names"),
@@ -98,8 +98,8 @@ def test_missing_file_exit_2(command: str, tmp_path: Path, capsys: pytest.Captur
 @pytest.mark.parametrize(
     ("options", "words"),
     [
-        (["--k", "0"], "k must be at least 1; got 0"),
-        (["--k", "-3"], "k must be at least 1; got -3"),
+        (["--k", "0"], "--k: expected a whole number of at least 1; got 0"),
+        (["--k", "-3"], "--k: expected a whole number of at least 1; got -3"),
         (["--weight", "Nitrate=-1"], "weight for column 'Nitrate' must be 0 or more; got -1"),
         (["--weight", "Nitrate=5000"], "at most 1000"),
         (["--weight", "Nitrate=nan"], "must be a finite number"),
