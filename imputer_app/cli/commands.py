@@ -192,6 +192,7 @@ def read_input(
         sheet=args.sheet,
         header_row=args.header_row,
         kinds=dict(plan.kinds) or None,
+        encoding=args.encoding,
         progress=progress,
         cancel=stop,
     )

@@ -155,6 +155,11 @@ def _add_read_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--header-row", metavar="N", type=positive_int, help="1-based header row (default: detected)"
     )
+    parser.add_argument(
+        "--encoding",
+        metavar="NAME",
+        help="text encoding of a csv/tsv file, e.g. utf-8, cp1252, utf-16 (default: detected)",
+    )
 
 
 def _add_plan_options(parser: argparse.ArgumentParser, *, with_k: bool) -> None:
