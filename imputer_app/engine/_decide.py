@@ -172,27 +172,42 @@ def _cap_note(limit: float, value: object, word: str, side: str, unknown: bool) 
 
 
 def _no_donor(table: PreparedTable, col: str, rows: NDArray[np.intp], out: Records) -> None:
-    """Apply the plan's no-donor rule to ``rows`` of ``col``: leave them empty or write the column mean."""
+    """Apply the plan's no-donor rule to ``rows`` of ``col``: leave them empty or write the column mean.
+
+    With a group column the mean (or most common class) is that of the row's own group;
+    a row whose group cell is empty, or whose group has no value in ``col``, stays empty.
+    """
     reasons = no_donor_reasons(table, col, rows)
     if table.plan.no_donor != "column_mean":
         out.add_empty(rows, col, reasons)
         return
     raw = np.asarray(table.values[col])
-    ok = table.observed[col]
-    if not ok.any():
-        out.add_empty(rows, col, reasons)
+    key = np.zeros(table.n_rows, dtype=np.intp) if table.groups is None else table.groups
+    ok = table.observed[col] & (key >= 0)
+    n_keys = max(len(table.group_labels), 1)
+    number = table.kinds[col] == "number"
+    if number:
+        per_key: NDArray[Any] = np.bincount(key[ok], raw[ok].astype(np.float64), minlength=n_keys)
+        per_key = per_key / np.maximum(np.bincount(key[ok], minlength=n_keys), 1)
+    else:
+        classes = len(table.categories[col])
+        votes = np.bincount(key[ok] * classes + raw[ok].astype(np.intp), minlength=n_keys * classes)
+        per_key = np.asarray(table.categories[col], dtype=object)[votes.reshape(n_keys, classes).argmax(axis=1)]
+    has = np.bincount(key[ok], minlength=n_keys) > 0
+    mine = key[rows]
+    usable = (mine >= 0) & has[np.maximum(mine, 0)]
+    kept = [r for r, u in zip(reasons, usable.tolist(), strict=True) if u]
+    out.add_empty(rows[~usable], col, [r for r, u in zip(reasons, usable.tolist(), strict=True) if not u])
+    rows, mine = rows[usable], mine[usable]
+    if not len(rows):
         return
-    if table.kinds[col] == "number":
-        mean = float(np.mean(raw[ok].astype(np.float64)))
+    value: list[Any] = per_key[mine].tolist()
+    if number:
         cells = ColumnDonors(
             rows, np.full((len(rows), 0), -1), np.full((len(rows), 0), np.inf), np.zeros(len(rows), int)
         )
-        finish = Finish.of(table, Stack.of({col: cells}, [col]))
-        value: list[Any] = finish.apply(np.full(len(rows), mean)).tolist()
-        how = "filled with the column mean"
-    else:
-        counts = np.bincount(raw[ok].astype(np.intp))
-        value = [table.categories[col][int(np.argmax(counts))]] * len(rows)
-        how = "filled with the most common class"
-    notes = [f"no donor: {r}; {how}" for r in reasons]
+        value = Finish.of(table, Stack.of({col: cells}, [col])).apply(np.asarray(value, dtype=float)).tolist()
+    what = "column mean" if number else "most common class"
+    where = [f" of group {table.group_labels[g]!r}" if table.groups is not None else "" for g in mine.tolist()]
+    notes = [f"no donor: {r}; filled with the {what}{w}" for r, w in zip(kept, where, strict=True)]
     out.add_without_donors(rows, col, value, np.full(len(rows), COLUMN_MEAN), notes)
