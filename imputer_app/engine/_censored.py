@@ -116,7 +116,9 @@ def with_ros(cen: Censored, measured: NDArray[np.float64], order: NDArray[np.flo
     values = np.where(cen.mask, np.nan, measured)
     if not ros_usable(values, below):
         n = int(np.unique(values[np.isfinite(values) & (values > 0)]).size)
-        note = f"ROS needs at least {ROS_MIN_MEASURED} different measured values above zero; the column has {n}"
+        note = (
+            f"ROS needs at least {ROS_MIN_MEASURED} different measured values above zero; the column has {n}"
+        )
         return replace(cen, ros_note=note)
     fit = ros_estimates(values, below, np.where(below, cen.limit, np.nan), order=order)
     return replace(cen, ros=fit.estimates, ros_note=f"fitted to {fit.n_measured} measured values")

@@ -192,12 +192,19 @@ def _no_donor(table: PreparedTable, col: str, rows: NDArray[np.intp], out: Recor
     else:
         classes = len(table.categories[col])
         votes = np.bincount(key[ok] * classes + raw[ok].astype(np.intp), minlength=n_keys * classes)
-        per_key = np.asarray(table.categories[col], dtype=object)[votes.reshape(n_keys, classes).argmax(axis=1)]
+        per_key = np.asarray(table.categories[col], dtype=object)[
+            votes.reshape(n_keys, classes).argmax(axis=1)
+        ]
     has = np.bincount(key[ok], minlength=n_keys) > 0
     mine = key[rows]
     usable = (mine >= 0) & has[np.maximum(mine, 0)]
     kept = [r for r, u in zip(reasons, usable.tolist(), strict=True) if u]
-    out.add_empty(rows[~usable], col, [r for r, u in zip(reasons, usable.tolist(), strict=True) if not u])
+    lacking = [
+        _no_group_mean(table, col, g, r)
+        for r, g, u in zip(reasons, mine.tolist(), usable.tolist(), strict=True)
+        if not u
+    ]
+    out.add_empty(rows[~usable], col, lacking)
     rows, mine = rows[usable], mine[usable]
     if not len(rows):
         return
@@ -208,6 +215,17 @@ def _no_donor(table: PreparedTable, col: str, rows: NDArray[np.intp], out: Recor
         )
         value = Finish.of(table, Stack.of({col: cells}, [col])).apply(np.asarray(value, dtype=float)).tolist()
     what = "column mean" if number else "most common class"
-    where = [f" of group {table.group_labels[g]!r}" if table.groups is not None else "" for g in mine.tolist()]
+    where = [
+        f" of group {table.group_labels[g]!r}" if table.groups is not None else "" for g in mine.tolist()
+    ]
     notes = [f"no donor: {r}; filled with the {what}{w}" for r, w in zip(kept, where, strict=True)]
     out.add_without_donors(rows, col, value, np.full(len(rows), COLUMN_MEAN), notes)
+
+
+def _no_group_mean(table: PreparedTable, col: str, group: int, reason: str) -> str:
+    """Why a row without donor gets no group mean either, added to its no-donor reason."""
+    if group < 0:
+        own = f"group column {table.plan.group_column!r} is empty in this row"
+    else:
+        own = f"no row of group {table.group_labels[group]!r} has a value in {col!r}"
+    return reason if own in reason else f"{reason}; no group mean either: {own}"

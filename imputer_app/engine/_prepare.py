@@ -89,11 +89,13 @@ def _read_columns(
     numbers = [c for c in used if kinds[c] == "number"]
     block = _number_block(inp.frame, numbers)  # a new array: written in place below
     marked = state_masks(inp, numbers, ("censored",))["censored"]
+    rank = _label_rank(inp.frame.index) if censored == "ros" and marked.any() else None
     for j in np.flatnonzero(marked.any(axis=0)).tolist():
         cen = censored_cells(inp, numbers[j], marked[:, j])
-        if censored == "ros":  # fitted to the values left visible, so a hidden cell cannot help
-            seen = block[:, j] if hide is None else np.where(hide[:, position[numbers[j]]], np.nan, block[:, j])
-            cen = with_ros(cen, seen, _label_rank(inp.frame.index))
+        if rank is not None:  # fitted to the values left visible, so a hidden cell cannot help
+            hidden = hide is not None and hide[:, position[numbers[j]]]
+            seen = np.where(hidden, np.nan, block[:, j])
+            cen = with_ros(cen, seen, rank)
         out.censored[numbers[j]] = cen
         block[:, j] = np.where(cen.mask, cen.substitute(censored), block[:, j])
     if hide is not None and numbers:

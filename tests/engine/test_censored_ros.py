@@ -65,7 +65,8 @@ def test_ros_values_follow_the_fit_and_the_row_labels_not_the_row_order() -> Non
     # every entry's value, whatever the row order (labels kept)
     order = np.random.default_rng(9).permutation(len(sheet.frame))
     shuffled = fake_sheet(
-        sheet.frame.iloc[order], [tuple(r) for r in sheet.cell_notes[["row", "column", "text", "side", "limit"]].to_numpy()]
+        sheet.frame.iloc[order],
+        [tuple(r) for r in sheet.cell_notes[["row", "column", "text", "side", "limit"]].to_numpy()],
     )
     again = impute(shuffled, FillPlan(k=3)).frame["conc"]
     np.testing.assert_allclose(again.loc[first.index].to_numpy(), first.to_numpy(), rtol=0, atol=1e-12)
@@ -81,7 +82,7 @@ def _few_measured_sheet():  # type: ignore[no-untyped-def]
 
 def test_too_few_measured_values_fall_back_to_half_the_limit_and_say_why() -> None:
     sheet = _few_measured_sheet()
-    assert 4 < ROS_MIN_MEASURED
+    assert ROS_MIN_MEASURED > 4
     result = impute(sheet, FillPlan(k=2, fill_columns=("conc",)))
     log = result.log.set_index(["row", "column"])
     assert result.frame.loc[14, "conc"] == pytest.approx(0.25)
@@ -94,7 +95,7 @@ def test_too_few_measured_values_fall_back_to_half_the_limit_and_say_why() -> No
 
 @pytest.mark.parametrize("mode", ["limit", "half_limit", "limit_sqrt2"])
 def test_an_explicit_substitution_is_kept_and_named(mode: str) -> None:
-    sheet, _, limits, below = _lognormal_sheet(0, n=60)
+    sheet, _, _, below = _lognormal_sheet(0, n=60)
     result = impute(sheet, FillPlan(k=3, censored=mode))
     methods = result.log.set_index(["row", "column"]).loc[[(int(i), "conc") for i in np.flatnonzero(below)]]
     assert set(methods["method"]) == {mode}
