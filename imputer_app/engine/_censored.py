@@ -168,18 +168,24 @@ def substitution_records(col: str, cen: Censored, mode: str, out: Records) -> No
         return
     method = cen.methods(mode)[rows]
     notes = [
-        _substitution_note(t, side == ">", METHODS[m], mode, cen.ros_note)
+        _substitution_note(t, side == ">", METHODS[m], mode, cen)
         for t, side, m in zip(cen.text[rows].tolist(), cen.side[rows].tolist(), method.tolist(), strict=True)
     ]
+    # a ROS value cut back to its limit: the fit placed the entry above its own limit
+    for i in np.flatnonzero((method == METHODS.index("ros")) & (value[rows] >= cen.limit[rows])).tolist():
+        notes[i] += "; the fitted value lay above the limit, so the limit was used"
     out.add_without_donors(rows, col, value[rows].tolist(), method, notes)
 
 
-def _substitution_note(text: str, above: bool, method: str, mode: str, ros_note: str) -> str:
+def _substitution_note(text: str, above: bool, method: str, mode: str, cen: Censored) -> str:
     """The fill log's note on one substituted censored entry."""
     if above:
         return f"above-range entry {text!r} stands for its limit"
     note = f"below-limit entry {text!r} stands for {SUBSTITUTION_PHRASES[method]}"
-    if mode == "ros":
-        why = ros_note if method == "ros" or ros_note else "its limit is not above zero"
-        note += f" ({why})" if method == "ros" else f" instead of a ROS estimate: {why}"
-    return note
+    if mode != "ros":
+        return note
+    if method == "ros":
+        return f"{note} ({cen.ros_note})"
+    # ROS was asked for: either the column could not be fitted, or this limit has no log
+    why = "its limit is not above zero" if cen.ros is not None else cen.ros_note
+    return f"{note} instead of a ROS estimate: {why}"

@@ -107,3 +107,15 @@ def test_every_censored_choice_has_words() -> None:
     assert CHOICES["censored"][0] == "ros"
     assert "regression on order statistics" in CHOICE_WORDS["censored"]["ros"].explanation
     assert "(ROS)" in SUBSTITUTION_PHRASES["ros"]
+
+
+def test_an_entry_the_fit_places_above_its_limit_keeps_the_limit_and_says_so() -> None:
+    # Measured 1..6 all lie above "<0.5": the fitted line puts the entry above 0.5, so it
+    # is cut back to its limit; "<0" has no place on a log scale and takes half the limit.
+    frame = pd.DataFrame({"x": np.arange(8.0), "c": [1, 2, 3, 4, 5, 6, np.nan, np.nan]})
+    sheet = fake_sheet(frame, [(6, "c", "<0", "<", 0.0), (7, "c", "<0.5", "<", 0.5)])
+    log = impute(sheet, FillPlan(k=2)).log.set_index(["row", "column"])
+    assert log.loc[(7, "c"), "method"] == "ros" and log.loc[(7, "c"), "value"] == 0.5
+    assert "so the limit was used" in log.loc[(7, "c"), "note"]
+    assert log.loc[(6, "c"), "method"] == "half_limit" and log.loc[(6, "c"), "value"] == 0.0
+    assert "its limit is not above zero" in log.loc[(6, "c"), "note"]
