@@ -15,6 +15,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from imputer_app.engine._combine import Finish, number_values, spread, stack_values, vote_with_share
+from imputer_app.engine._group_fill import group_fill
 from imputer_app.engine._log import (
     COLUMN_MEAN,
     KNN,
@@ -181,49 +182,33 @@ def _no_donor(table: PreparedTable, col: str, rows: NDArray[np.intp], out: Recor
     if table.plan.no_donor != "column_mean":
         out.add_empty(rows, col, reasons)
         return
-    raw = np.asarray(table.values[col])
-    key = np.zeros(table.n_rows, dtype=np.intp) if table.groups is None else table.groups
-    ok = table.observed[col] & (key >= 0)
-    n_keys = max(len(table.group_labels), 1)
-    number = table.kinds[col] == "number"
-    if number:
-        per_key: NDArray[Any] = np.bincount(key[ok], raw[ok].astype(np.float64), minlength=n_keys)
-        per_key = per_key / np.maximum(np.bincount(key[ok], minlength=n_keys), 1)
-    else:
-        classes = len(table.categories[col])
-        votes = np.bincount(key[ok] * classes + raw[ok].astype(np.intp), minlength=n_keys * classes)
-        per_key = np.asarray(table.categories[col], dtype=object)[
-            votes.reshape(n_keys, classes).argmax(axis=1)
-        ]
-    has = np.bincount(key[ok], minlength=n_keys) > 0
-    mine = key[rows]
-    usable = (mine >= 0) & has[np.maximum(mine, 0)]
+    found, usable = group_fill(table, col, rows)
+    mine = table.groups[rows] if table.groups is not None else np.zeros(len(rows), dtype=np.intp)
+    lacking = [_no_group_mean(table, col, g, r) for r, g in zip(reasons, mine.tolist(), strict=True)]
+    out.add_empty(rows[~usable], col, [why for why, u in zip(lacking, usable.tolist(), strict=True) if not u])
     kept = [r for r, u in zip(reasons, usable.tolist(), strict=True) if u]
-    lacking = [
-        _no_group_mean(table, col, g, r)
-        for r, g, u in zip(reasons, mine.tolist(), usable.tolist(), strict=True)
-        if not u
-    ]
-    out.add_empty(rows[~usable], col, lacking)
-    rows, mine = rows[usable], mine[usable]
+    rows, mine, value = rows[usable], mine[usable], found[usable]
     if not len(rows):
         return
-    value: list[Any] = per_key[mine].tolist()
+    number = table.kinds[col] == "number"
     if number:
         cells = ColumnDonors(
             rows, np.full((len(rows), 0), -1), np.full((len(rows), 0), np.inf), np.zeros(len(rows), int)
         )
-        value = Finish.of(table, Stack.of({col: cells}, [col])).apply(np.asarray(value, dtype=float)).tolist()
+        value = Finish.of(table, Stack.of({col: cells}, [col])).apply(value.astype(float))
     what = "column mean" if number else "most common class"
-    where = [
-        f" of group {table.group_labels[g]!r}" if table.groups is not None else "" for g in mine.tolist()
+    group = table.group_labels if table.groups is not None else None
+    notes = [
+        f"no donor: {r}; filled with the {what}" + (f" of group {group[g]!r}" if group is not None else "")
+        for r, g in zip(kept, mine.tolist(), strict=True)
     ]
-    notes = [f"no donor: {r}; filled with the {what}{w}" for r, w in zip(kept, where, strict=True)]
-    out.add_without_donors(rows, col, value, np.full(len(rows), COLUMN_MEAN), notes)
+    out.add_without_donors(rows, col, value.tolist(), np.full(len(rows), COLUMN_MEAN), notes)
 
 
 def _no_group_mean(table: PreparedTable, col: str, group: int, reason: str) -> str:
     """Why a row without donor gets no group mean either, added to its no-donor reason."""
+    if table.groups is None:
+        return reason
     if group < 0:
         own = f"group column {table.plan.group_column!r} is empty in this row"
     else:
