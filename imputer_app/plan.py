@@ -39,9 +39,10 @@ CHOICES: dict[str, tuple[str, ...]] = {
     "scaling": ("zscore", "range", "robust", "none"),
     "neighbour_weighting": ("uniform", "inverse_distance"),
     "numeric_rule": ("mean", "median"),
-    # What number a below-limit entry ("<0.05") stands for, or fill it by kNN capped
-    # at its limit. limit_sqrt2 follows Hornung & Reed 1990.
-    "censored": ("limit", "half_limit", "limit_sqrt2", "fill_capped"),
+    # What number a below-limit entry ("<0.05") stands for: estimated by robust
+    # regression on order statistics (Helsel & Cohn 1988), a share of its limit
+    # (limit_sqrt2 follows Hornung & Reed 1990), or filled by kNN capped at its limit.
+    "censored": ("ros", "limit", "half_limit", "limit_sqrt2", "fill_capped"),
     "no_donor": ("leave_empty", "column_mean"),
 }
 
@@ -83,8 +84,11 @@ class FillPlan:
         Limits applied to filled numbers, either side may be None.
     decimals : mapping of str to int, default={}
         Rounding of filled numbers per column; ``0`` keeps integers integers.
-    censored : {"limit", "half_limit", "limit_sqrt2", "fill_capped"}, default="half_limit"
-        What a below-limit entry stands for, or fill it by kNN capped at its limit.
+    censored : {"ros", "limit", "half_limit", "limit_sqrt2", "fill_capped"}, default="ros"
+        What a below-limit entry stands for: a value below its limit estimated from the
+        column's measured values by robust regression on order statistics (``ros``; a
+        column with too few measured values uses half the limit), a share of its limit,
+        or a kNN fill capped at its limit.
     no_donor : {"leave_empty", "column_mean"}, default="leave_empty"
         What to do with a cell that has no donor; always reported.
     kinds : mapping of str to {"number", "category"}, default={}
@@ -102,7 +106,7 @@ class FillPlan:
     group_column: str | None = None
     bounds: Mapping[str, Bound] = field(default_factory=dict)
     decimals: Mapping[str, int] = field(default_factory=dict)
-    censored: str = "half_limit"
+    censored: str = "ros"
     no_donor: str = "leave_empty"
     kinds: Mapping[str, str] = field(default_factory=dict)
 

@@ -38,6 +38,7 @@ SUBSTITUTION_PHRASES = {
     "limit": "the limit",
     "half_limit": "half the limit",
     "limit_sqrt2": "the limit divided by sqrt(2) (Hornung & Reed 1990)",
+    "ros": "a value below its limit estimated by robust regression on order statistics (ROS)",
 }
 
 #: The cell states a sheet can give a cell, in plain words.
@@ -83,6 +84,12 @@ CHOICE_WORDS: dict[str, dict[str, ChoiceWords]] = {
         "median": ChoiceWords("median", "The median of the donors' values (less swayed by one odd donor)."),
     },
     "censored": {
+        "ros": ChoiceWords(
+            "estimated (ROS)",
+            "Each '<0.02' entry gets a value below its limit, estimated from the column's measured "
+            "values by robust regression on order statistics (Helsel & Cohn 1988); a column with "
+            "too few measured values uses limit / 2.",
+        ),
         "half_limit": ChoiceWords("limit / 2", "A '<0.02' entry stands for 0.01."),
         "limit": ChoiceWords("limit", "A '<0.02' entry stands for 0.02."),
         "limit_sqrt2": ChoiceWords("limit / √2", "A '<0.02' entry stands for 0.0141 (Hornung & Reed 1990)."),

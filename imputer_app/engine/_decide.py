@@ -15,6 +15,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from imputer_app.engine._combine import Finish, number_values, spread, stack_values, vote_with_share
+from imputer_app.engine._group_fill import group_fill
 from imputer_app.engine._log import (
     COLUMN_MEAN,
     KNN,
@@ -172,27 +173,44 @@ def _cap_note(limit: float, value: object, word: str, side: str, unknown: bool) 
 
 
 def _no_donor(table: PreparedTable, col: str, rows: NDArray[np.intp], out: Records) -> None:
-    """Apply the plan's no-donor rule to ``rows`` of ``col``: leave them empty or write the column mean."""
+    """Apply the plan's no-donor rule to ``rows`` of ``col``: leave them empty or write the column mean.
+
+    With a group column the mean (or most common class) is that of the row's own group;
+    a row whose group cell is empty, or whose group has no value in ``col``, stays empty.
+    """
     reasons = no_donor_reasons(table, col, rows)
     if table.plan.no_donor != "column_mean":
         out.add_empty(rows, col, reasons)
         return
-    raw = np.asarray(table.values[col])
-    ok = table.observed[col]
-    if not ok.any():
-        out.add_empty(rows, col, reasons)
+    found, usable = group_fill(table, col, rows)
+    mine = table.groups[rows] if table.groups is not None else np.zeros(len(rows), dtype=np.intp)
+    lacking = [_no_group_mean(table, col, g, r) for r, g in zip(reasons, mine.tolist(), strict=True)]
+    out.add_empty(rows[~usable], col, [why for why, u in zip(lacking, usable.tolist(), strict=True) if not u])
+    kept = [r for r, u in zip(reasons, usable.tolist(), strict=True) if u]
+    rows, mine, value = rows[usable], mine[usable], found[usable]
+    if not len(rows):
         return
-    if table.kinds[col] == "number":
-        mean = float(np.mean(raw[ok].astype(np.float64)))
+    number = table.kinds[col] == "number"
+    if number:
         cells = ColumnDonors(
             rows, np.full((len(rows), 0), -1), np.full((len(rows), 0), np.inf), np.zeros(len(rows), int)
         )
-        finish = Finish.of(table, Stack.of({col: cells}, [col]))
-        value: list[Any] = finish.apply(np.full(len(rows), mean)).tolist()
-        how = "filled with the column mean"
+        value = Finish.of(table, Stack.of({col: cells}, [col])).apply(value.astype(float))
+    what = "column mean" if number else "most common class"
+    group = table.group_labels if table.groups is not None else None
+    notes = [
+        f"no donor: {r}; filled with the {what}" + (f" of group {group[g]!r}" if group is not None else "")
+        for r, g in zip(kept, mine.tolist(), strict=True)
+    ]
+    out.add_without_donors(rows, col, value.tolist(), np.full(len(rows), COLUMN_MEAN), notes)
+
+
+def _no_group_mean(table: PreparedTable, col: str, group: int, reason: str) -> str:
+    """Why a row without donor gets no group mean either, added to its no-donor reason."""
+    if table.groups is None:
+        return reason
+    if group < 0:
+        own = f"group column {table.plan.group_column!r} is empty in this row"
     else:
-        counts = np.bincount(raw[ok].astype(np.intp))
-        value = [table.categories[col][int(np.argmax(counts))]] * len(rows)
-        how = "filled with the most common class"
-    notes = [f"no donor: {r}; {how}" for r in reasons]
-    out.add_without_donors(rows, col, value, np.full(len(rows), COLUMN_MEAN), notes)
+        own = f"no row of group {table.group_labels[group]!r} has a value in {col!r}"
+    return reason if own in reason else f"{reason}; no group mean either: {own}"

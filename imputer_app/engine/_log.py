@@ -24,7 +24,7 @@ IntArray = NDArray[np.intp]
 FloatArray = NDArray[np.float64]
 
 #: Methods of the fill log (``LogPiece.method`` holds positions in this tuple).
-METHODS = ("knn", "knn_capped", "column_mean", "limit", "half_limit", "limit_sqrt2")
+METHODS = ("knn", "knn_capped", "column_mean", "limit", "half_limit", "limit_sqrt2", "ros")
 KNN, KNN_CAPPED, COLUMN_MEAN = 0, 1, 2
 #: Per method: does it fill a cell (the others substitute a censored entry's limit)?
 FILLS = np.array([m in ("knn", "knn_capped", "column_mean") for m in METHODS])

@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 from numpy.typing import NDArray
 
-from imputer_app.engine._censored import Censored, censored_caps
+from imputer_app.engine._censored import Censored, censored_caps, with_ros
 from imputer_app.engine._columns import Columns, scaled_features
 from imputer_app.engine._input import Input, SheetLike, censored_cells, state_masks, unpack
 from imputer_app.engine._roles import (
@@ -89,8 +89,14 @@ def _read_columns(
     numbers = [c for c in used if kinds[c] == "number"]
     block = _number_block(inp.frame, numbers)  # a new array: written in place below
     marked = state_masks(inp, numbers, ("censored",))["censored"]
+    rank = _label_rank(inp.frame.index) if censored == "ros" and marked.any() else None
     for j in np.flatnonzero(marked.any(axis=0)).tolist():
-        cen = out.censored[numbers[j]] = censored_cells(inp, numbers[j], marked[:, j])
+        cen = censored_cells(inp, numbers[j], marked[:, j])
+        if rank is not None:  # fitted to the values left visible, so a hidden cell cannot help
+            hidden = hide is not None and hide[:, position[numbers[j]]]
+            seen = np.where(hidden, np.nan, block[:, j])
+            cen = with_ros(cen, seen, rank)
+        out.censored[numbers[j]] = cen
         block[:, j] = np.where(cen.mask, cen.substitute(censored), block[:, j])
     if hide is not None and numbers:
         block[hide[:, [position[c] for c in numbers]]] = np.nan
@@ -103,6 +109,18 @@ def _read_columns(
                 codes = np.where(hide[:, position[col]], -1, codes)
             out.codes[col], out.labels[col] = codes, labels
     return out
+
+
+def _label_rank(index: pd.Index) -> NDArray[np.float64]:
+    """Rank of each row label (position on a tie), so that an order by it ignores the row order."""
+    labels = np.asarray(index, dtype=object)
+    try:
+        order = np.argsort(labels, kind="stable")
+    except TypeError:  # labels of mixed types: compare them as text
+        order = np.argsort(labels.astype(str), kind="stable")
+    rank = np.empty(len(labels))
+    rank[order] = np.arange(len(labels))
+    return rank
 
 
 def _number_block(frame: pd.DataFrame, columns: list[str]) -> NDArray[np.float64]:

@@ -1,14 +1,25 @@
-"""Choose which known cells a recovery test hides.
+"""Choose which known cells a recovery test hides, fold by fold.
 
-Two ways to hide cells, both seeded through a :class:`numpy.random.Generator`:
+Each repeat splits the cells it may hide into folds, and each fold is filled once
+(k-fold cross-validation over cells; Hastie, Tibshirani & Friedman, *The Elements of
+Statistical Learning*, 2nd ed., sec. 7.10). A known cell is hidden at most once per
+repeat, and the spread of the folds' scores gives the standard error behind the
+one-standard-error rule. Two ways to fold, both seeded through a
+:class:`numpy.random.Generator`:
 
-* ``random`` hides a fixed share of the observed cells of every fill column (MCAR).
-* ``pattern`` copies the gap patterns of the sheet's own incomplete rows onto its
-  complete rows, so the test resembles the sheet's real missingness.
+* ``random`` splits each fill column's hideable cells at random into
+  ``round(1 / hide_fraction)`` folds of about ``hide_fraction`` of the column each (MCAR).
+* ``pattern`` splits the complete rows into as many folds and gives every complete row
+  the gap pattern of a randomly drawn incomplete row of the sheet, so the hidden cells
+  come in the blocks the sheet's real gaps come in.
+
+``auto`` (the recovery test's default) uses ``pattern`` when the sheet has at least
+:data:`AUTO_MIN_PATTERNS` incomplete rows to copy from and :data:`AUTO_MIN_COMPLETE`
+complete rows to copy onto, else ``random``.
 
 Either way a censored cell is never hidden (it is not a known value), a column keeps
-at least one visible cell to act as a donor, and a row never loses its last
-similarity value (a row without one has no neighbours at all).
+visible cells to act as donors (the other folds), and a row never loses its last
+similarity value in a fold (a row without one has no neighbours at all).
 """
 
 from __future__ import annotations
@@ -20,7 +31,14 @@ import numpy as np
 from imputer_app.errors import KinfillError
 
 #: Allowed values of ``masking``.
-MASKINGS = ("random", "pattern")
+MASKINGS = ("auto", "random", "pattern")
+
+#: ``auto`` copies patterns when the sheet has at least this many incomplete rows with a
+#: gap in a fill column (enough different patterns to draw from; Kinfill's own choice) ...
+AUTO_MIN_PATTERNS = 10
+#: ... and at least this many complete rows to receive them (two per fold at the default
+#: hide_fraction of 0.1; Kinfill's own choice).
+AUTO_MIN_COMPLETE = 20
 
 
 @dataclass(frozen=True)
@@ -51,82 +69,115 @@ class CellLayout:
         return int(rows), int(cols)
 
 
-def hide_cells(layout: CellLayout, fraction: float, masking: str, rng: np.random.Generator) -> np.ndarray:
-    """Return one repeat's mask of cells to hide.
+def fold_count(fraction: float) -> int:
+    """Folds per repeat: ``round(1 / fraction)``, at least 2 (each fold hides about ``fraction``)."""
+    return max(2, int(np.floor(1.0 / fraction + 0.5)))
+
+
+def resolve_masking(layout: CellLayout, masking: str) -> str:
+    """The hiding ``masking`` stands for: ``auto`` becomes ``pattern`` or ``random``.
+
+    Raises
+    ------
+    KinfillError
+        For a value not in :data:`MASKINGS`.
+    """
+    if masking not in MASKINGS:
+        raise KinfillError(f"masking must be one of {', '.join(MASKINGS)}; got {masking!r}")
+    if masking != "auto":
+        return masking
+    used = np.union1d(layout.fill_idx, layout.sim_idx)
+    n_patterns = _gap_patterns(layout, used).shape[0]
+    n_complete = int(layout.hideable[:, used].all(axis=1).sum())
+    enough = n_patterns >= AUTO_MIN_PATTERNS and n_complete >= AUTO_MIN_COMPLETE
+    return "pattern" if enough else "random"
+
+
+def hide_folds(
+    layout: CellLayout, fraction: float, masking: str, rng: np.random.Generator
+) -> list[np.ndarray]:
+    """Return one repeat's folds: masks of cells to hide, no cell in two folds.
 
     Parameters
     ----------
     layout : CellLayout
         Hideable cells, real gaps and column roles.
     fraction : float
-        Share of each fill column's observed cells to hide (``random``), or the share
-        of all observed fill cells that the copied patterns should cover (``pattern``).
+        Share of each fill column's hideable cells per fold; ``round(1 / fraction)`` folds.
     masking : {"random", "pattern"}
-        How to choose the cells.
+        How to choose the cells (``auto`` is resolved first, see :func:`resolve_masking`).
     rng : numpy.random.Generator
-        Source of randomness; the same state gives the same cells.
+        Source of randomness; the same state gives the same folds.
 
     Returns
     -------
-    bool ndarray of shape (n_rows, n_columns)
-        True where a known cell is hidden. Never True on a cell that is not hideable.
+    list of bool ndarray of shape (n_rows, n_columns)
+        One mask per fold, True where a known cell is hidden; never True on a cell that
+        is not hideable, and no cell True in two folds.
     """
+    folds = fold_ids(layout, fraction, resolve_masking(layout, masking), rng)
+    n_folds = int(folds.max()) + 1 if (folds >= 0).any() else 0
+    return [folds == f for f in range(n_folds)]
+
+
+def fold_ids(layout: CellLayout, fraction: float, masking: str, rng: np.random.Generator) -> np.ndarray:
+    """Fold of every hidden cell (-1 where never hidden), int array of shape (n_rows, n_columns)."""
     if masking == "random":
-        return random_mask(layout, fraction, rng)
+        return random_folds(layout, fold_count(fraction), rng)
     if masking == "pattern":
-        return pattern_mask(layout, fraction, rng)
+        return pattern_folds(layout, fold_count(fraction), rng)
     raise KinfillError(f"masking must be one of {', '.join(MASKINGS)}; got {masking!r}")
 
 
-def _hide_count(n_observed: int, fraction: float) -> int:
-    """Cells to hide in a column: the rounded share, at least 1, leaving 1 donor."""
-    if n_observed < 2:
-        return 0
-    return int(min(max(1, np.floor(fraction * n_observed + 0.5)), n_observed - 1))
+def random_folds(layout: CellLayout, n_folds: int, rng: np.random.Generator) -> np.ndarray:
+    """Split each fill column's hideable cells at random into ``n_folds`` folds.
 
-
-def random_mask(layout: CellLayout, fraction: float, rng: np.random.Generator) -> np.ndarray:
-    """Hide ``fraction`` of each fill column's observed cells, chosen at random.
-
-    Columns are visited in a random order; within a column the choice is one
-    vectorised draw without replacement among the rows that may lose the cell.
-    A cell is skipped when hiding it would leave its row without any visible
-    similarity value; the count is rounded and is at least one cell (when the column
-    has two or more observed cells) and leaves at least one cell visible.
+    Columns are visited in a random order; within a column the cells are shuffled
+    and dealt to the folds in turn (from a random first fold), so the folds differ in
+    size by at most one cell. A similarity cell that would leave its row without a
+    visible similarity value in its fold moves to the row's fold with the most left;
+    a cell that fits no fold (its row's only similarity value) is never hidden. A
+    column with fewer than two hideable cells is not hidden.
 
     Returns
     -------
-    bool ndarray of shape (n_rows, n_columns)
+    int ndarray of shape (n_rows, n_columns)
+        Fold of each hidden cell, -1 elsewhere.
     """
-    mask = np.zeros(layout.shape, dtype=bool)
+    folds = np.full(layout.shape, -1, dtype=np.intp)
     is_sim = np.zeros(layout.shape[1], dtype=bool)
     is_sim[layout.sim_idx] = True
-    sim_left = layout.hideable[:, layout.sim_idx].sum(axis=1)
+    has_sim = layout.hideable[:, layout.sim_idx].sum(axis=1)
+    sim_left = np.repeat(has_sim[:, np.newaxis], n_folds, axis=1)  # per row and fold
     for j in rng.permutation(layout.fill_idx):
-        observed = layout.hideable[:, j]
-        # Hiding a similarity value costs the row one of its similarity values.
-        candidates = np.flatnonzero(observed & (sim_left >= (2 if is_sim[j] else 1)))
-        n_hide = min(_hide_count(int(observed.sum()), fraction), candidates.size)
-        rows = rng.choice(candidates, size=n_hide, replace=False)
-        mask[rows, j] = True
+        rows = np.flatnonzero(layout.hideable[:, j])
+        if rows.size < 2:
+            continue
+        rows = rng.permutation(rows)
+        fold = (np.arange(rows.size) + rng.integers(n_folds)) % n_folds
         if is_sim[j]:
-            sim_left[rows] -= 1
-    return mask
+            tight = sim_left[rows, fold] < 2
+            fold[tight] = np.argmax(sim_left[rows[tight]], axis=1)
+            fits = sim_left[rows, fold] >= 2
+            rows, fold = rows[fits], fold[fits]
+            sim_left[rows, fold] -= 1
+        folds[rows, j] = fold
+    return folds
 
 
-def pattern_mask(layout: CellLayout, fraction: float, rng: np.random.Generator) -> np.ndarray:
-    """Copy gap patterns of real incomplete rows onto randomly chosen complete rows.
+def pattern_folds(layout: CellLayout, n_folds: int, rng: np.random.Generator) -> np.ndarray:
+    """Give every complete row the gap pattern of a random incomplete row, in ``n_folds`` folds.
 
     A pattern is a row's gaps over the fill and similarity columns; rows with a gap
     in at least one fill column and at least one similarity value left give patterns.
-    Complete rows (every fill and similarity cell observed) receive a pattern drawn at
-    random (with replacement). The number of receiving rows is chosen so that about
-    ``fraction`` of all observed fill cells are hidden, and at least one complete row
-    stays untouched.
+    Complete rows (every fill and similarity cell observed) are shuffled and dealt to
+    the folds (fewer folds when there are fewer complete rows); each receives a
+    pattern drawn at random (with replacement).
 
     Returns
     -------
-    bool ndarray of shape (n_rows, n_columns)
+    int ndarray of shape (n_rows, n_columns)
+        Fold of each hidden cell, -1 elsewhere.
 
     Raises
     ------
@@ -141,16 +192,13 @@ def pattern_mask(layout: CellLayout, fraction: float, rng: np.random.Generator) 
             "masking='pattern' needs at least one incomplete row and two complete rows "
             f"(found {patterns.shape[0]} and {complete.size}); use masking='random'"
         )
-    fill_pos = np.searchsorted(used, layout.fill_idx)
-    per_pattern = patterns[:, fill_pos].sum(axis=1).mean()
-    observed_cells = layout.hideable[:, layout.fill_idx].sum()
-    wanted = int(np.floor(fraction * observed_cells / per_pattern + 0.5))
-    n_rows = int(np.clip(wanted, 1, complete.size - 1))
-    targets = rng.choice(complete, size=n_rows, replace=False)
-    sources = rng.integers(0, patterns.shape[0], size=n_rows)
-    mask = np.zeros(layout.shape, dtype=bool)
-    mask[np.ix_(targets, used)] = patterns[sources]
-    return mask
+    targets = rng.permutation(complete)
+    fold = np.arange(targets.size) % min(n_folds, targets.size)
+    sources = rng.integers(0, patterns.shape[0], size=targets.size)
+    folds = np.full(layout.shape, -1, dtype=np.intp)
+    block = np.where(patterns[sources], fold[:, np.newaxis], -1)
+    folds[np.ix_(targets, used)] = block
+    return folds
 
 
 def _gap_patterns(layout: CellLayout, used: np.ndarray) -> np.ndarray:

@@ -1,6 +1,11 @@
 """The recovery test: hide known cells, fill them for every k, score the fills.
 
-One neighbour search per repeat serves every k: the engine sorts each hidden cell's
+Each repeat splits the hideable cells into folds (:mod:`~imputer_app.validation._masking`)
+and fills each fold once; means are over all folds, standard errors across the folds
+of a repeat, averaged over repeats (ESL 2nd ed., sec. 7.10), so more repeats sharpen
+the mean without shrinking the standard error.
+
+One neighbour search per fold serves every k: the engine sorts each hidden cell's
 donors once up to ``max(ks)`` (:func:`imputer_app.engine.nearest_donors`) and
 :func:`imputer_app.engine.combine` turns them into a value for every k from prefix
 sums, so testing thirty values of k costs about as much as testing one.
@@ -19,7 +24,8 @@ from imputer_app import engine
 from imputer_app.engine import PreparedTable, SheetLike
 from imputer_app.errors import KinfillError
 from imputer_app.plan import FillPlan
-from imputer_app.validation._masking import MASKINGS, CellLayout, hide_cells
+from imputer_app.validation._baseline import baseline_values
+from imputer_app.validation._masking import MASKINGS, CellLayout, fold_count, hide_folds, resolve_masking
 from imputer_app.validation._report import RecoveryReport, build_report
 from imputer_app.validation._scoring import ColumnOutcome, score_repeat
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
@@ -42,7 +48,7 @@ def recovery_test(
     hide_fraction: float = 0.1,
     repeats: int = 5,
     seed: int | None = 0,
-    masking: str = "random",
+    masking: str = "auto",
     progress: Progress | None = None,
     cancel: CancelFlag | None = None,
 ) -> RecoveryReport:
@@ -61,17 +67,23 @@ def recovery_test(
         k values to test; ``None`` means 1..30. Values above the number of donors are
         dropped (listed in ``warnings``).
     hide_fraction : float, default=0.1
-        Share of each fill column's observed cells hidden per repeat (0 < f <= 0.5).
+        Share of each fill column's observed cells hidden per fold (0 < f <= 0.5):
+        each repeat fills ``round(1 / hide_fraction)`` folds, hiding every hideable
+        cell once.
     repeats : int, default=5
-        Number of independent hidings; means and standard errors are over repeats.
+        Number of independent fold splits; means are over every fold of every repeat,
+        standard errors across the folds of a repeat, averaged over repeats.
     seed : int or None, default=0
         Seed of the hiding; the same seed gives the same cells and the same report.
         ``None`` draws a fresh seed, recorded in ``settings``.
-    masking : {"random", "pattern"}, default="random"
+    masking : {"auto", "random", "pattern"}, default="auto"
         ``random`` hides cells completely at random; ``pattern`` copies the gap
-        patterns of the sheet's incomplete rows onto complete rows.
+        patterns of the sheet's incomplete rows onto complete rows; ``auto`` uses
+        ``pattern`` when the sheet has enough incomplete and complete rows (see
+        :func:`~imputer_app.validation._masking.resolve_masking`), else ``random``.
+        The hiding used is ``RecoveryReport.masking``.
     progress : callable(done, total) or None
-        Called per repeat and during each neighbour search.
+        Called per fold and during each neighbour search.
     cancel : Event-like, callable or None
         When set, :class:`~imputer_app.errors.Cancelled` is raised promptly.
 
@@ -97,26 +109,33 @@ def recovery_test(
     """
     _check_settings(hide_fraction, repeats, seed, masking)
     seed = _fresh_seed() if seed is None else int(seed)
-    total = repeats * _STEPS
-    report(progress, 0, total)
+    report(progress, 0, repeats * fold_count(hide_fraction) * _STEPS)
     raise_if_cancelled(cancel)
     base = prepare_base(frame, plan)
-    masks = draw_masks(base.layout, hide_fraction, masking, seed, repeats)
-    tested, notes = _resolve_ks(ks, base, masks)
+    used = resolve_masking(base.layout, masking)
+    masks = draw_masks(base.layout, hide_fraction, used, seed, repeats)
+    tested, notes = _resolve_ks(ks, base, [m for folds in masks for m in folds])
     score_parts, baseline_parts = [], []
-    for repeat, mask in enumerate(masks):
-        raise_if_cancelled(cancel)
-        search_progress = _scaled(progress, repeat * _STEPS, _SEARCH_STEPS, total)
-        outcomes = fill_hidden(frame, base, mask, tested, search_progress, cancel)
-        knn_scores, baseline_scores = score_repeat(outcomes, tested, repeat)
-        score_parts.append(knn_scores)
-        baseline_parts.append(baseline_scores)
-        report(progress, (repeat + 1) * _STEPS, total)
+    steps = sum(len(folds) for folds in masks)
+    total = steps * _STEPS
+    step = 0
+    for repeat, folds in enumerate(masks):
+        for fold, mask in enumerate(folds):
+            raise_if_cancelled(cancel)
+            search_progress = _scaled(progress, step * _STEPS, _SEARCH_STEPS, total)
+            outcomes = fill_hidden(frame, base, mask, tested, search_progress, cancel)
+            knn_scores, baseline_scores = score_repeat(outcomes, tested, repeat, fold)
+            score_parts.append(knn_scores)
+            baseline_parts.append(baseline_scores)
+            step += 1
+            report(progress, step * _STEPS, total)
     settings = {
         "hide_fraction": float(hide_fraction),
         "repeats": int(repeats),
+        "folds": fold_count(hide_fraction),
         "seed": seed,
-        "masking": masking,
+        "masking": used,
+        "masking_asked": masking,
         "ks": list(tested),
         "plan": base.table.plan.to_dict(),
     }
@@ -203,15 +222,15 @@ def prepare_base(data: pd.DataFrame | SheetLike, plan: FillPlan) -> RecoveryBase
 
 def draw_masks(
     layout: CellLayout, hide_fraction: float, masking: str, seed: int, repeats: int
-) -> list[np.ndarray]:
-    """Every repeat's hiding mask, drawn in order from one seeded generator.
+) -> list[list[np.ndarray]]:
+    """Every repeat's folds, drawn in order from one seeded generator.
 
     Returns
     -------
-    list of bool ndarray of shape (n_rows, n_columns), one per repeat
+    list (one per repeat) of list (one per fold) of bool ndarray of shape (n_rows, n_columns)
     """
     rng = np.random.default_rng(seed)
-    return [hide_cells(layout, hide_fraction, masking, rng) for _ in range(repeats)]
+    return [hide_folds(layout, hide_fraction, masking, rng) for _ in range(repeats)]
 
 
 def _base_table(data: pd.DataFrame | SheetLike, plan: FillPlan) -> PreparedTable:
@@ -347,20 +366,13 @@ def _outcome(
 ) -> ColumnOutcome:
     """Truth, every k's values and the baseline for one column's hidden cells."""
     rows = np.asarray(rows, dtype=np.intp)
-    visible = np.asarray(hidden.observed[column], dtype=bool)
-    values = np.asarray(hidden.values[column])
-    fallback: object  # a class label or a float
+    baseline = baseline_values(hidden, base.table, rows, column)
     if hidden.kinds[column] == "category":
         classes = hidden.categories[column]
         filled = np.stack([_labels(classes, codes) for codes in per_k])
-        counts = np.bincount(values[visible].astype(np.intp), minlength=len(classes))
-        fallback = _labels(classes, np.array([np.argmax(counts) if counts.sum() else -1]))[0]
-        baseline = np.full(rows.size, fallback, dtype=object)
         kind = "category"
     else:
         filled = np.stack([np.asarray(v, dtype=float) for v in per_k])
-        fallback = float(np.mean(values[visible])) if visible.any() else float("nan")
-        baseline = np.full(rows.size, fallback, dtype=float)
         kind = "number"
     spread = base.spread.get(column, float("nan"))
     return ColumnOutcome(column, kind, base.truth[column][rows], filled, baseline, spread)

@@ -28,19 +28,21 @@ class RecoveryReport:
     ----------
     scores : DataFrame
         Long table, one row per k, fill column and repeat: ``k``, ``column``,
-        ``repeat``, ``rmse``, ``mae``, ``nrmse``, ``error_rate``, ``n_hidden`` (cells
+        ``repeat``, ``fold``, ``rmse``, ``mae``, ``nrmse``, ``error_rate``, ``n_hidden`` (cells
         scored) and ``n_unfilled`` (hidden cells no donor reached; not scored).
         Number columns have NaN ``error_rate``; category columns NaN RMSE/MAE/NRMSE.
     summary : DataFrame
-        Indexed by k; columns ``(column, "mean" | "se")``: the mean over repeats of
-        each column's score (NRMSE for numbers, error rate for categories) and its
-        standard error.
+        Indexed by k; columns ``(column, "mean" | "se")``: the mean over every fold
+        of each column's score (NRMSE for numbers, error rate for categories) and its
+        standard error across the folds of a repeat, averaged over repeats.
     overall : DataFrame
         Indexed by k: ``score`` (mean NRMSE over number fill columns), ``se``,
         ``category_error`` (mean error rate over category fill columns), ``category_se``.
     baseline : DataFrame
-        The same hidden cells filled with the column mean (numbers) or most common
-        class (categories) of the visible cells: one row per column plus ``overall``;
+        The same hidden cells filled with the column mean of the visible cells
+        (numbers) or the most common class of the known cells (categories), of the
+        row's own group when the plan has a group column: one row per column plus
+        ``overall``;
         see :func:`imputer_app.validation._scoring.baseline_table`.
     best_k : int
         k with the lowest overall score (category error when no number column).
@@ -53,8 +55,9 @@ class RecoveryReport:
     kinds : dict of str to str
         Fill column name to ``"number"`` or ``"category"``, in plan order.
     settings : dict
-        ``hide_fraction``, ``repeats``, ``seed``, ``masking``, ``ks`` and ``plan``
-        (the resolved plan as a dict), enough to repeat the test exactly.
+        ``hide_fraction``, ``repeats``, ``folds`` (per repeat), ``seed``, ``masking``
+        (the hiding used), ``masking_asked``, ``ks`` and ``plan`` (the resolved plan
+        as a dict), enough to repeat the test exactly.
     warnings : tuple of str
         Plain-words remarks (k values dropped, cells no donor reached, ...).
     """
@@ -70,6 +73,11 @@ class RecoveryReport:
     kinds: dict[str, str]
     settings: dict[str, Any]
     warnings: tuple[str, ...] = field(default=())
+
+    @property
+    def masking(self) -> str:
+        """The hiding used: ``"random"`` or ``"pattern"`` (``auto`` resolved)."""
+        return str(self.settings.get("masking", "random"))
 
     @property
     def score_name(self) -> str:

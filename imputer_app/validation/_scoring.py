@@ -4,7 +4,11 @@ Numbers get RMSE, MAE and NRMSE (RMSE divided by the sample standard deviation,
 ``ddof=1``, of the column's observed values); categories get the error rate (share
 of hidden cells given the wrong class). The overall score of a k is the mean NRMSE
 over numeric fill columns; the error rate over category columns is kept apart.
-Means and standard errors are taken over repeats.
+
+Each repeat fills several folds. A mean is taken over every fold of every repeat; a
+standard error is taken across the folds of one repeat (``std(ddof=1) / sqrt(folds)``,
+as over the folds of one cross-validation in ESL 2nd ed., sec. 7.10) and averaged over
+repeats, so it does not shrink as repeats are added.
 """
 
 from __future__ import annotations
@@ -16,7 +20,18 @@ import numpy as np
 import pandas as pd
 
 #: Columns of the long score table, in order.
-SCORE_COLUMNS = ("k", "column", "repeat", "rmse", "mae", "nrmse", "error_rate", "n_hidden", "n_unfilled")
+SCORE_COLUMNS = (
+    "k",
+    "column",
+    "repeat",
+    "fold",
+    "rmse",
+    "mae",
+    "nrmse",
+    "error_rate",
+    "n_hidden",
+    "n_unfilled",
+)
 
 #: Per-cell metrics averaged in summaries.
 METRICS = ("rmse", "mae", "nrmse", "error_rate")
@@ -37,7 +52,8 @@ class ColumnOutcome:
     filled : ndarray of shape (n_ks, m)
         kNN values for every k, NaN (numbers) or None (categories) where no donor.
     baseline : ndarray of shape (m,)
-        Column mean, or most common class, of the visible cells.
+        Column (or group) mean of the visible cells, or most common class of the known
+        cells (see :mod:`~imputer_app.validation._baseline`); NaN or None where none.
     spread : float
         Sample standard deviation of the column's observed values (NRMSE scale).
     """
@@ -89,9 +105,9 @@ def reached(outcome: ColumnOutcome) -> np.ndarray:
 
 
 def score_repeat(
-    outcomes: Sequence[ColumnOutcome], ks: Sequence[int], repeat: int
+    outcomes: Sequence[ColumnOutcome], ks: Sequence[int], repeat: int, fold: int = 0
 ) -> tuple[pd.DataFrame, pd.DataFrame]:
-    """Score one repeat: every k and the baseline, for every column.
+    """Score one fold of a repeat: every k and the baseline, for every column.
 
     Returns
     -------
@@ -108,9 +124,10 @@ def score_repeat(
         counts = {"n_hidden": int(scored.sum()), "n_unfilled": int(scored.size - scored.sum())}
         knn = cell_errors(out, out.filled, scored)
         base = cell_errors(out, out.baseline[np.newaxis, :], scored)
-        knn_parts.append({"k": np.asarray(ks), "column": [out.column] * n_ks, "repeat": repeat, **knn})
+        where = {"repeat": repeat, "fold": fold}
+        knn_parts.append({"k": np.asarray(ks), "column": [out.column] * n_ks, **where, **knn})
         knn_parts[-1].update(counts)
-        base_parts.append({"column": [out.column], "repeat": repeat, **base, **counts})
+        base_parts.append({"column": [out.column], **where, **base, **counts})
     return _stack(knn_parts, SCORE_COLUMNS), _stack(base_parts, SCORE_COLUMNS[1:])
 
 
@@ -124,13 +141,41 @@ def _stack(parts: list[dict[str, object]], columns: Sequence[str]) -> pd.DataFra
 def standard_error(values: pd.Series | np.ndarray) -> float:
     """Standard error of the mean, ``std(ddof=1) / sqrt(n)`` over non-NaN values.
 
-    NaN when fewer than two values are present (one repeat gives no spread).
+    NaN when fewer than two values are present (one fold gives no spread).
     """
     data = np.asarray(values, dtype=float)
     data = data[np.isfinite(data)]
     if data.size < 2:
         return float("nan")
     return float(np.std(data, ddof=1) / np.sqrt(data.size))
+
+
+def over_folds(values: pd.Series, by: list[str]) -> pd.DataFrame:
+    """Mean over every fold and repeat, and the standard error across folds, per ``by``.
+
+    Parameters
+    ----------
+    values : Series
+        Indexed by ``(*by, "repeat", "fold")``; NaN values (a fold that hid no cell of a
+        column) are left out.
+    by : list of str
+        Index levels to summarise per (for instance ``["k", "column"]``).
+
+    Returns
+    -------
+    DataFrame
+        Indexed by ``by``, columns ``mean`` (mean of the repeats' fold means) and ``se``
+        (mean over repeats of :func:`standard_error` across that repeat's folds).
+    """
+    per_repeat = values.groupby(level=[*by, "repeat"], sort=False).agg(["mean", standard_error])
+    return per_repeat.groupby(level=by, sort=False).mean().set_axis(["mean", "se"], axis=1)
+
+
+def with_folds(scores: pd.DataFrame) -> pd.DataFrame:
+    """``scores`` with a ``fold`` column; without one, its repeats count as the folds of one repeat."""
+    if "fold" in scores.columns:
+        return scores
+    return scores.assign(fold=scores["repeat"], repeat=0)
 
 
 def column_score(scores: pd.DataFrame, kinds: dict[str, str]) -> pd.Series:
@@ -142,7 +187,7 @@ def column_score(scores: pd.DataFrame, kinds: dict[str, str]) -> pd.Series:
 
 
 def summarise(scores: pd.DataFrame, kinds: dict[str, str]) -> pd.DataFrame:
-    """Mean and standard error over repeats of each column's score, per k.
+    """Mean and standard error (across folds, see :func:`over_folds`) of each column's score, per k.
 
     Returns
     -------
@@ -150,10 +195,9 @@ def summarise(scores: pd.DataFrame, kinds: dict[str, str]) -> pd.DataFrame:
         Indexed by k; columns a MultiIndex ``(column, "mean" | "se")`` in the order the
         columns appear in ``kinds``.
     """
-    table = scores.assign(score=column_score(scores, kinds))
-    grouped = table.groupby(["k", "column"], sort=False)["score"]
-    means = grouped.mean().unstack("column")
-    ses = grouped.agg(standard_error).unstack("column")
+    table = with_folds(scores).assign(score=column_score(scores, kinds))
+    stats = over_folds(table.set_index(["k", "column", "repeat", "fold"])["score"], ["k", "column"])
+    means, ses = stats["mean"].unstack("column"), stats["se"].unstack("column")
     present = [c for c in kinds if c in means.columns]
     parts = {(c, stat): table[c] for c in present for stat, table in (("mean", means), ("se", ses))}
     wide = pd.DataFrame(parts).sort_index()
@@ -165,8 +209,8 @@ def summarise(scores: pd.DataFrame, kinds: dict[str, str]) -> pd.DataFrame:
 def overall_by_k(scores: pd.DataFrame, kinds: dict[str, str]) -> pd.DataFrame:
     """Overall score per k: mean NRMSE over number columns, error rate over categories.
 
-    Each repeat's overall value is the mean over columns; the table gives the mean and
-    standard error of those values over repeats.
+    Each fold's overall value is the mean over columns; the table gives the mean and
+    standard error of those values (see :func:`over_folds`).
 
     Returns
     -------
@@ -175,24 +219,26 @@ def overall_by_k(scores: pd.DataFrame, kinds: dict[str, str]) -> pd.DataFrame:
     """
     numeric = [c for c, kind in kinds.items() if kind == "number"]
     category = [c for c, kind in kinds.items() if kind == "category"]
-    per_repeat_num = _mean_over_columns(scores, numeric, "nrmse", ["k", "repeat"])
-    per_repeat_cat = _mean_over_columns(scores, category, "error_rate", ["k", "repeat"])
+    scores = with_folds(scores)
+    by = ["k", "repeat", "fold"]
+    per_fold_num = _mean_over_columns(scores, numeric, "nrmse", by)
+    per_fold_cat = _mean_over_columns(scores, category, "error_rate", by)
     ks = np.sort(scores["k"].unique())
     out = pd.DataFrame(index=pd.Index(ks, name="k"))
-    for name, se_name, per_repeat in (
-        ("score", "se", per_repeat_num),
-        ("category_error", "category_se", per_repeat_cat),
+    for name, se_name, per_fold in (
+        ("score", "se", per_fold_num),
+        ("category_error", "category_se", per_fold_cat),
     ):
-        grouped = per_repeat.groupby(level="k")
-        out[name] = grouped.mean().reindex(ks).to_numpy(dtype=float)
-        out[se_name] = grouped.agg(standard_error).reindex(ks).to_numpy(dtype=float)
+        stats = over_folds(per_fold, ["k"]) if len(per_fold) else pd.DataFrame(columns=["mean", "se"])
+        out[name] = stats["mean"].reindex(ks).to_numpy(dtype=float)
+        out[se_name] = stats["se"].reindex(ks).to_numpy(dtype=float)
     return out
 
 
 def _mean_over_columns(scores: pd.DataFrame, columns: list[str], metric: str, by: list[str]) -> pd.Series:
     part = scores[scores["column"].isin(columns)]
     if part.empty:
-        return pd.Series(dtype=float, index=pd.MultiIndex.from_arrays([[], []], names=by))
+        return pd.Series(dtype=float, index=pd.MultiIndex.from_arrays([[]] * len(by), names=by))
     return part.groupby(by)[metric].mean()
 
 
@@ -207,10 +253,13 @@ def baseline_table(base_scores: pd.DataFrame, kinds: dict[str, str]) -> pd.DataF
         categories; mean NRMSE over number columns on the overall row), ``se``, and on
         the overall row ``category_error`` and ``category_se``.
     """
+    base_scores = with_folds(base_scores)
     table = base_scores.assign(score=column_score(base_scores, kinds))
-    grouped = table.groupby("column", sort=False)
-    rows = grouped[[*METRICS, "n_hidden", "score"]].mean()
-    rows["se"] = grouped["score"].agg(standard_error)
+    rows = table.groupby("column", sort=False)[[*METRICS, "n_hidden", "score"]].mean()
+    rows["n_hidden"] = (
+        table.groupby(["column", "repeat"], sort=False)["n_hidden"].sum().groupby(level=0).mean()
+    )
+    rows["se"] = over_folds(table.set_index(["column", "repeat", "fold"])["score"], ["column"])["se"]
     rows = rows.reindex([c for c in kinds if c in rows.index])
     rows.insert(0, "kind", [kinds[c] for c in rows.index])
     with_k = base_scores.assign(k=0)

@@ -136,12 +136,15 @@ def test_score_k_json_best_k_is_the_lowest_mean_error(
     code, _, err = run(argv, capsys)
     assert code == 0, err
     data = json.loads(js.read_text(encoding="utf-8"))
-    # Recompute from the raw per-repeat scores: mean NRMSE over repeats per column, then
-    # over the number fill columns; the best k has the lowest mean (kinfill score-k --help).
+    # Recompute from the raw per-fold scores: mean NRMSE over folds and repeats per column,
+    # then over the number fill columns; the best k has the lowest mean (kinfill score-k --help).
     scores = pd.DataFrame(data["scores"])
     per_k = scores.groupby(["k", "column"])["nrmse"].mean().groupby("k").mean()
     assert sorted(per_k.index) == [1, 2, 3, 4, 5, 6]
     assert data["best_k"] == int(per_k.idxmin())
     assert data["best_k"] == 1  # the twin is the one right donor (see twins_sheet)
     # One donor recovers a hidden cell nearly exactly; any further donor is from another pair.
-    assert per_k[1] < 0.01 < per_k.drop(1).min()
+    # Every known cell is hidden once per repeat, so about one cell in ten has its twin's
+    # cell hidden in the same fold and takes another pair's row even at k = 1 (0.051 here,
+    # against 0.17 and more for k >= 2).
+    assert per_k[1] < 0.1 < per_k.drop(1).min()

@@ -150,7 +150,7 @@ def test_measured_cell_and_clear(panel, filled):
 
 
 def test_censored_cell_shows_its_original_text(panel):
-    """A below-limit entry is replaced by half its limit (plan default) and stays flagged."""
+    """A below-limit entry is replaced by half its limit (asked for in the plan) and stays flagged."""
     rng = np.random.default_rng(3)
     frame = pd.DataFrame(rng.uniform(1, 2, size=(12, 2)), columns=["nitrate", "zinc"])
     frame.index = frame.index + 2
@@ -161,7 +161,7 @@ def test_censored_cell_shows_its_original_text(panel):
     notes = pd.DataFrame({"row": [4], "column": ["zinc"], "state": ["censored"], "text": ["<0.05"],
                           "side": ["<"], "limit": [0.05]})
     sheet = SimpleNamespace(frame=frame, states=states, cell_notes=notes)
-    result = impute(sheet, FillPlan(k=3))
+    result = impute(sheet, FillPlan(k=3, censored="half_limit"))
     entry = result.log[(result.log["row"] == 4) & (result.log["column"] == "zinc")].iloc[0]
     assert entry["method"] == "half_limit" and entry["value"] == pytest.approx(0.025)
 

@@ -96,7 +96,7 @@ def test_read_fill_export_read_again(tmp_path) -> None:
     source = tmp_path / "survey.xlsx"
     write_lab_workbook(source)
     sheet = read_sheet(source)
-    plan = FillPlan(k=3, carried_columns=("sample",))
+    plan = FillPlan(k=3, carried_columns=("sample",), censored="half_limit")
     result = impute(sheet, plan)
     out = tmp_path / "survey.filled.xlsx"
     write_result(out, sheet, result, plan, layout="table")

@@ -50,7 +50,7 @@ def test_single_k_fill_equals_scikit_learn_knnimputer(k: int) -> None:
     # the masked array; Kinfill with scaling "none" and uniform weighting must agree.
     frame = _numbers()
     base = prepare_base(frame, _all_columns(frame))
-    (mask,) = draw_masks(base.layout, 0.15, "random", seed=4, repeats=1)
+    mask = draw_masks(base.layout, 0.15, "random", seed=4, repeats=1)[0][0]
     masked = frame.to_numpy(copy=True)
     masked[mask] = np.nan
     expected = KNNImputer(n_neighbors=k, weights="uniform").fit_transform(masked)
@@ -64,25 +64,32 @@ def test_single_k_fill_equals_scikit_learn_knnimputer(k: int) -> None:
 
 
 def test_report_rmse_equals_rmse_of_knnimputer_fill() -> None:
-    # Reference: scikit-learn KNNImputer on each repeat's masked array; the report's RMSE
-    # per k, column and repeat must be the RMSE of that fill at the hidden cells.
+    # Reference: scikit-learn KNNImputer on each fold's masked array; the report's RMSE
+    # per k, column, repeat and fold must be the RMSE of that fill at the hidden cells.
     frame = _numbers(seed=1)
     plan = _all_columns(frame)
-    report = recovery_test(frame, plan, ks=[2, 5], repeats=2, seed=9)
+    report = recovery_test(frame, plan, ks=[2, 5], repeats=2, seed=9, hide_fraction=0.25, masking="random")
     base = prepare_base(frame, plan)
-    masks = draw_masks(base.layout, 0.1, "random", seed=9, repeats=2)
-    for repeat, mask in enumerate(masks):
-        masked = frame.to_numpy(copy=True)
-        masked[mask] = np.nan
-        for k in (2, 5):
-            filled = KNNImputer(n_neighbors=k).fit_transform(masked)
-            for j, column in enumerate(frame.columns):
-                hidden = mask[:, j]
-                rmse = np.sqrt(np.mean((filled[hidden, j] - frame.to_numpy()[hidden, j]) ** 2))
-                s = report.scores
-                row = s[(s["k"] == k) & (s["column"] == column) & (s["repeat"] == repeat)]
-                assert row["rmse"].item() == pytest.approx(rmse, abs=1e-9)
-                assert row["n_hidden"].item() == hidden.sum()
+    masks = draw_masks(base.layout, 0.25, "random", seed=9, repeats=2)
+    assert [len(folds) for folds in masks] == [4, 4]
+    s = report.scores
+    for repeat, folds in enumerate(masks):
+        for fold, mask in enumerate(folds):
+            masked = frame.to_numpy(copy=True)
+            masked[mask] = np.nan
+            for k in (2, 5):
+                filled = KNNImputer(n_neighbors=k).fit_transform(masked)
+                for j, column in enumerate(frame.columns):
+                    hidden = mask[:, j]
+                    rmse = np.sqrt(np.mean((filled[hidden, j] - frame.to_numpy()[hidden, j]) ** 2))
+                    at = (
+                        (s["k"] == k)
+                        & (s["column"] == column)
+                        & (s["repeat"] == repeat)
+                        & (s["fold"] == fold)
+                    )
+                    assert s.loc[at, "rmse"].item() == pytest.approx(rmse, abs=1e-9)
+                    assert s.loc[at, "n_hidden"].item() == hidden.sum()
 
 
 # ------------------------------------------------------- reference: open data sets
@@ -146,7 +153,7 @@ def test_duplicate_row_pairs_make_k1_best_and_exact() -> None:
     assert report.best_k == 1
     base = prepare_base(frame, plan)
     checked = 0
-    for mask in draw_masks(base.layout, 0.1, "random", seed=2, repeats=3):
+    for mask in (m for folds in draw_masks(base.layout, 0.1, "random", seed=2, repeats=3) for m in folds):
         for out in fill_hidden(frame, base, mask, [1]):
             j = frame.columns.get_loc(out.column)
             rows = np.flatnonzero(mask[:, j])
@@ -171,7 +178,7 @@ def test_same_seed_same_report_other_seed_other_cells() -> None:
     base = prepare_base(frame, plan)
     (m7,) = draw_masks(base.layout, 0.1, "random", seed=7, repeats=1)
     (m8,) = draw_masks(base.layout, 0.1, "random", seed=8, repeats=1)
-    assert (m7 != m8).any()
+    assert (np.stack(m7) != np.stack(m8)).any()
 
 
 def test_settings_are_recorded_and_to_dict_is_json() -> None:
@@ -179,7 +186,13 @@ def test_settings_are_recorded_and_to_dict_is_json() -> None:
     report = recovery_test(frame, RAW, ks=[1, 2, 4], repeats=2, seed=11, hide_fraction=0.2)
     assert isinstance(report, RecoveryReport)
     assert report.settings["seed"] == 11 and report.settings["repeats"] == 2
-    assert report.settings["hide_fraction"] == 0.2 and report.settings["masking"] == "random"
+    assert report.settings["hide_fraction"] == 0.2 and report.settings["folds"] == 5
+    # 60 rows with 5 % gaps: 18 incomplete rows to copy from and 42 complete rows, so
+    # "auto" hides by the sheet's own gap patterns
+    assert (
+        report.settings["masking"] == report.masking == "pattern"
+        and report.settings["masking_asked"] == "auto"
+    )
     assert FillPlan.from_dict(report.settings["plan"]).scaling == "none"
     text = json.dumps(report.to_dict(), allow_nan=False)
     assert json.loads(text)["best_k"] == report.best_k
@@ -229,8 +242,8 @@ def test_censored_cells_are_never_hidden() -> None:
     j = sheet.frame.columns.get_loc("x1")
     assert not base.layout.hideable[[3, 17], j].any()
     for masking in ("random", "pattern"):
-        for mask in draw_masks(base.layout, 0.5, masking, seed=0, repeats=20):
-            assert not mask[[3, 17], j].any()
+        for folds in draw_masks(base.layout, 0.5, masking, seed=0, repeats=20):
+            assert not np.stack(folds)[:, [3, 17], j].any()
 
 
 # ------------------------------------------------------------ progress and cancel
@@ -269,7 +282,8 @@ def test_cancel_during_the_test_stops_promptly_and_changes_nothing() -> None:
 def test_default_ks_are_capped_at_the_number_of_donors() -> None:
     frame = _numbers(n_rows=12, gaps=0.0)
     report = recovery_test(frame, _all_columns(frame), repeats=1)
-    assert report.ks == tuple(range(1, 12))  # 12 rows, 1 cell hidden per column: 11 donors
+    # 12 rows in 10 folds: some fold hides one cell in each column it touches, leaving 11 donors
+    assert report.ks == tuple(range(1, 12))
     report = recovery_test(frame, _all_columns(frame), ks=[1, 5, 40], repeats=1)
     assert report.ks == (1, 5)
     assert any("40" in w for w in report.warnings)
