@@ -29,8 +29,10 @@ from numpy.typing import NDArray
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.intp]
 
-#: Pairs per batch in :meth:`DistanceModel.pairs` (their temporaries stay in cache).
+#: Pairs per batch in :meth:`DistanceModel.pairs` (their temporaries stay in cache) ...
 PAIR_BATCH = 4096
+#: ... and at most this many values per temporary (a wide table takes fewer pairs per batch).
+PAIR_VALUES = 2**16
 #: Numeric columns per slab in :meth:`DistanceModel.gram` (bounds its temporaries).
 SLAB = 1024
 #: Relative size of the rounding noise allowed for in a product-form squared distance.
@@ -191,7 +193,7 @@ class DistanceModel:
         Built on first use (a search whose head covers every candidate never needs them).
         """
         z, mask = self._shifted
-        z = z.copy()
+        z = np.array(z, order="C")  # row-major: pairs gather rows
         z[~mask] = np.nan  # a difference with a gap is NaN
         return z, np.ascontiguousarray(self._codes, dtype=np.intp)
 
@@ -272,8 +274,9 @@ class DistanceModel:
         """
         x, y = targets.rows[which], np.asarray(others, dtype=np.intp)
         out = np.empty(len(x))
-        for start in range(0, len(x), PAIR_BATCH):  # batches small enough to stay in cache
-            part = slice(start, start + PAIR_BATCH)
+        step = self._pair_batch()
+        for start in range(0, len(x), step):  # batches small enough to stay in cache
+            part = slice(start, start + step)
             out[part] = self._pairs(x[part], y[part])
         return out
 
@@ -287,10 +290,19 @@ class DistanceModel:
         """
         x, y = np.asarray(x, dtype=np.intp), np.asarray(y, dtype=np.intp)
         out = np.empty(len(x))
-        for start in range(0, len(x), PAIR_BATCH):
-            part = slice(start, start + PAIR_BATCH)
-            out[part] = self._pairs(x[part], y[part], self._x)
+        step = self._pair_batch()
+        for start in range(0, len(x), step):
+            part = slice(start, start + step)
+            out[part] = self._pairs(x[part], y[part], self._rows)
         return out
+
+    @cached_property
+    def _rows(self) -> FloatArray:
+        """The scaled numbers, row-major (a table read from a DataFrame is column-major)."""
+        return np.ascontiguousarray(self._x)
+
+    def _pair_batch(self) -> int:
+        return max(16, min(PAIR_BATCH, PAIR_VALUES // max(self._p, 1)))
 
     def _pairs(self, x: IntArray, y: IntArray, values: FloatArray | None = None) -> FloatArray:
         if values is None:
@@ -300,7 +312,8 @@ class DistanceModel:
         sq = np.take(z, x, axis=0)
         sq -= np.take(z, y, axis=0)
         sq *= sq
-        shared = ~np.isnan(sq) @ self._w  # 0 exactly when no column is shared
+        # 0 exactly when no column is shared (a float mask: a bool matrix product skips BLAS)
+        shared = self._w.sum() - np.isnan(sq).astype(np.float64) @ self._w
         np.fmax(sq, 0.0, out=sq)  # a gap's NaN adds 0
         total = sq @ self._tw_w
         if codes.shape[1]:

@@ -24,7 +24,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from imputer_app.engine._distance import DistanceModel
-from imputer_app.engine._exact import exact_lists, still_open
+from imputer_app.engine._exact import exact_cells, exact_lists, still_open
 from imputer_app.engine._nearest import BlockSearch, _pad, chunks, top_l
 from imputer_app.engine._table import PreparedTable
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
@@ -67,6 +67,21 @@ class ColumnDonors:
     count: IntArray
 
 
+def first_positions(good: BoolArray, kmax: int) -> IntArray:
+    """Positions of the first ``kmax`` True entries per row of ``good`` (cells, L); -1 pads."""
+    head = min(kmax, good.shape[1])
+    pos = np.broadcast_to(np.arange(head), (len(good), head)).copy()
+    # most cells' first kmax candidates are all donors; only the others need a sort
+    redo = np.flatnonzero(~good[:, :head].all(axis=1))
+    if len(redo):
+        sub = good[redo]
+        at = np.argsort(~sub, axis=1, kind="stable")[:, :head]
+        pos[redo] = np.where(np.take_along_axis(sub, at, axis=1), at, -1)
+    if head < kmax:
+        pos = np.hstack([pos, np.full((len(pos), kmax - head), -1, dtype=np.intp)])
+    return pos
+
+
 def first_donors(
     cand: IntArray, cd2: FloatArray, ok: BoolArray, kmax: int
 ) -> tuple[IntArray, FloatArray, BoolArray]:
@@ -90,24 +105,16 @@ def first_donors(
         candidates may exist beyond it).
     """
     good = ok & np.isfinite(cd2)
-    head = min(kmax, good.shape[1])
-    idx, d2 = cand[:, :head].copy(), cd2[:, :head].copy()
-    got = good[:, :head].copy()
-    # most cells' first kmax candidates are all donors; only the others need a sort
-    redo = np.flatnonzero(~got.all(axis=1))
-    if len(redo):
-        sub = good[redo]
-        pos = np.argsort(~sub, axis=1, kind="stable")[:, :head]
-        found = np.take_along_axis(sub, pos, axis=1)
-        got[redo] = found
-        idx[redo] = np.where(found, np.take_along_axis(cand[redo], pos, axis=1), -1)
-        d2[redo] = np.where(found, np.take_along_axis(cd2[redo], pos, axis=1), np.inf)
-    if idx.shape[1] < kmax:
-        pad = kmax - idx.shape[1]
-        idx = np.hstack([idx, np.full((len(idx), pad), -1, dtype=np.intp)])
-        d2 = np.hstack([d2, np.full((len(d2), pad), np.inf)])
-    short = (got.sum(axis=1) < kmax) & np.isfinite(cd2[:, -1]) if cd2.shape[1] else np.zeros(len(cd2), bool)
-    return idx, d2, short
+    pos = first_positions(good, kmax)
+    at = np.maximum(pos, 0)
+    idx = np.where(pos >= 0, np.take_along_axis(cand, at, axis=1) if cand.shape[1] else -1, -1)
+    d2 = np.where(pos >= 0, np.take_along_axis(cd2, at, axis=1) if cd2.shape[1] else np.inf, np.inf)
+    short = (
+        ((pos >= 0).sum(axis=1) < kmax) & np.isfinite(cd2[:, -1])
+        if cd2.shape[1]
+        else np.zeros(len(cd2), bool)
+    )
+    return idx.astype(np.intp), d2, short
 
 
 @dataclass
@@ -254,8 +261,8 @@ def search_cells(
 
 
 def extra_donors(kmax: int) -> int:
-    """Donors kept beyond ``kmax`` so that most ties with the ``kmax``-th are seen at once."""
-    return 2 + kmax // 4
+    """Donors kept beyond ``kmax``: the widened search finds longer ties (cheaper than keeping more)."""
+    return 1 + kmax // 8
 
 
 def _one_blas_thread() -> AbstractContextManager[object]:
@@ -401,23 +408,24 @@ class _Jobs:
     ) -> _Found:
         """The donors of every target cell of ``part`` from its rows' candidate lists ``best``.
 
-        The lists' distances are made exact and re-sorted first. Returns the cells
-        (column, row), their donors and exact squared distances, and which cells are
-        open (:func:`~imputer_app.engine._exact.still_open`; short of donors is never
-        open when ``everyone``: the lists hold every candidate).
+        Each cell keeps its first ``keep`` donors in the list's (search) order; their
+        distances are then made exact and re-sorted. Returns the cells (column, row),
+        their donors and exact squared distances, and which cells are open
+        (:func:`~imputer_app.engine._exact.still_open`: the next donor, or the first one
+        past a full list, might tie; never past the list when ``everyone``: the lists
+        hold every candidate).
         """
         r, j = np.nonzero(self.want[np.ix_(part, cols)])
         col = cols[j]
-        lists, dists, beyond = exact_lists(self.search.model, part, best[0], best[1])
-        if everyone:
-            beyond[:] = np.inf
-        cand, cd2 = lists[r], dists[r]
-        ok = self.ok[np.maximum(cand, 0), col[:, None]]
-        idx, d2, _ = first_donors(cand, cd2, ok, self.keep)
+        lists, ld2 = best
+        ok = self.ok[np.maximum(lists[r], 0), col[:, None]] & np.isfinite(ld2[r])
+        pos = first_positions(ok, self.keep + 1)  # one more: the next donor
+        width = ld2.shape[1]
+        past = ld2[r, -1] if width and not everyone else np.full(len(r), np.inf)
+        beyond = np.where(pos[:, -1] >= 0, ld2[r, np.maximum(pos[:, -1], 0)], past)
+        idx, d2 = exact_cells(self.search.model, part, lists, ld2, r, pos[:, : self.keep])
         count = (idx >= 0).sum(axis=1)
-        held = (ok & (cand >= 0)).sum(axis=1)  # donors in the list, kept or not
-        open_ = still_open(d2, count, self.kmax, beyond[r], self.search.model.noise, held > count)
-        return col, part[r], idx, d2, open_
+        return col, part[r], idx, d2, still_open(d2, count, self.kmax, beyond, self.search.model.noise)
 
     def _list_size(self, cols: IntArray, cand: IntArray) -> int:
         """Candidates kept per row so that nearly every cell finds kmax donors among them."""
@@ -445,7 +453,7 @@ class _Jobs:
                     if size >= len(cand):
                         beyond[:] = np.inf
                     count = (idx >= 0).sum(axis=1)
-                    open_ = still_open(d2, count, self.kmax, beyond, self.search.model.noise, count >= size)
+                    open_ = still_open(d2, count, self.kmax, beyond, self.search.model.noise)
                     open_ &= size < len(cand)
                     cells.put(np.full(len(part), j), part, idx, d2)
                     still.append(part[open_])

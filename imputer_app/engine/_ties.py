@@ -53,22 +53,32 @@ def shares(d2: FloatArray, count: IntArray, k: int) -> tuple[FloatArray, IntArra
     """
     cells, width = d2.shape
     used = np.minimum(int(k), count)
-    out = np.zeros((cells, width))
     if width == 0 or cells == 0:
-        return out, np.zeros(cells, dtype=np.intp)
-    has = used > 0
-    d2k = np.take_along_axis(d2, np.maximum(used - 1, 0)[:, None], axis=1)
-    low, high = tie_edges(np.where(has[:, None], d2k, 0.0))  # no donor: nothing is real
-    real = np.arange(width)[None, :] < count[:, None]
-    near = real & (d2 < low)
-    tied = real & ~near & (d2 <= high)
-    n_near = near.sum(axis=1)
-    n_tied = np.maximum(tied.sum(axis=1), 1)
-    share = (used - n_near) / n_tied
-    out[near] = 1.0
-    np.copyto(out, np.broadcast_to(share[:, None], out.shape), where=tied)
-    taken = np.where(has, n_near + tied.sum(axis=1), 0).astype(np.intp)
+        return np.zeros((cells, width)), np.zeros(cells, dtype=np.intp)
+    # the common case first: nothing ties with the k-th, so the first min(k, count) count 1
+    out = (np.arange(width)[None, :] < used[:, None]).astype(np.float64)
+    taken = used.astype(np.intp)
+    line = np.arange(cells)
+    low, high = tie_edges(d2[line, np.maximum(used - 1, 0)])
+    after = np.where(used < count, d2[line, np.minimum(used, width - 1)], np.inf)
+    before = np.where(used >= 2, d2[line, np.maximum(used - 2, 0)], -np.inf)
+    tied = np.flatnonzero((used > 0) & ((after <= high) | (before >= low)))
+    if len(tied):
+        out[tied], taken[tied] = _tied_shares(d2[tied], count[tied], used[tied], low[tied], high[tied])
     return out, taken
+
+
+def _tied_shares(
+    d2: FloatArray, count: IntArray, used: IntArray, low: FloatArray, high: FloatArray
+) -> tuple[FloatArray, IntArray]:
+    """:func:`shares` for cells where some donor ties with the k-th (``low``..``high``)."""
+    real = np.arange(d2.shape[1])[None, :] < count[:, None]
+    near = real & (d2 < low[:, None])
+    tied = real & ~near & (d2 <= high[:, None])
+    n_near, n_tied = near.sum(axis=1), tied.sum(axis=1)
+    share = (used - n_near) / np.maximum(n_tied, 1)
+    out = np.where(near, 1.0, np.where(tied, share[:, None], 0.0))
+    return out, (n_near + n_tied).astype(np.intp)
 
 
 def weighted_median(values: FloatArray, weights: FloatArray) -> FloatArray:
