@@ -4,8 +4,9 @@ Fill columns whose donors are most rows ("dense") share one search: each target 
 keeps a list of its nearest candidates (enough that nearly every cell finds ``kmax``
 donors in it) and every target cell takes the first candidates that are donors of its
 column, all columns at once. Columns with few donors ("sparse") are searched among that
-column's donors only. Each list's distances are recomputed exactly and re-sorted
-(:mod:`~imputer_app.engine._exact`); a cell keeps ``kmax`` donors and a few more, and a
+column's donors only. A cell keeps ``kmax`` donors and a few more; their distances are
+recomputed from differences wherever the products' rounding could matter (near 0, near
+a tie) and re-sorted (:mod:`~imputer_app.engine._exact`), and a
 cell whose list holds too few donors, or whose tie with the ``kmax``-th donor may run
 past its list, is searched again among its column's donors, more widely each round,
 until every tied donor is in hand (:mod:`~imputer_app.engine._ties`). Results are kept
@@ -56,7 +57,9 @@ class ColumnDonors:
         position; -1 pads missing donors. Beyond the ``kmax`` nearest it holds at least
         every donor tied with the ``kmax``-th (and maybe a few more).
     distance : ndarray of float, shape (m, w)
-        Donor distances, computed exactly from the rows' differences; ``inf`` pads.
+        Donor distances: from the rows' differences near 0 and wherever two donors lie
+        within rounding of each other (elsewhere the search's value, within 1e-9 of
+        it); ``inf`` pads.
     count : ndarray of int, shape (m,)
         Number of real donors per target (may exceed kmax).
     """
@@ -409,7 +412,7 @@ class _Jobs:
         """The donors of every target cell of ``part`` from its rows' candidate lists ``best``.
 
         Each cell keeps its first ``keep`` donors in the list's (search) order; their
-        distances are then made exact and re-sorted. Returns the cells (column, row),
+        distances are then made exact where rounding matters and re-sorted. Returns the cells (column, row),
         their donors and exact squared distances, and which cells are open
         (:func:`~imputer_app.engine._exact.still_open`: the next donor, or the first one
         past a full list, might tie; never past the list when ``everyone``: the lists

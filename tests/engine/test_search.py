@@ -167,7 +167,7 @@ def test_growing_tiles_match_brute_force(monkeypatch: pytest.MonkeyPatch, kmax: 
     # Common practice, no source: the k nearest by a full stable sort. A tiny head and
     # small first steps make the bound search run through many growing tiles (and reach
     # rows whose list is not yet full) on a table small enough for brute force; whole
-    # numbers make many exact ties, which must go to the earlier row whatever kmax is.
+    # numbers make many exact ties, listed by row among equals whatever kmax is.
     monkeypatch.setattr(_nearest, "HEAD", 32)
     monkeypatch.setattr(_nearest, "STEP_MIN", 8)
     rng = np.random.default_rng(kmax)

@@ -99,7 +99,7 @@ def _row_path_only(monkeypatch: pytest.MonkeyPatch) -> None:
 @pytest.mark.parametrize("seed", [0, 1])
 def test_square_and_row_paths_find_the_same_donors(monkeypatch: pytest.MonkeyPatch, seed: int) -> None:
     # Common practice, no source: one search, two ways to the same distances. Whole
-    # numbers make many exact ties, which both must give to the earlier row; a group
+    # numbers make many exact ties, which both must list by row among equals; a group
     # column and a category take part.
     rng = np.random.default_rng(seed)
     frame = (random_frame(150, 8, 0.2, seed=seed) * 2).round()
