@@ -412,8 +412,8 @@ class _Jobs:
         """The donors of every target cell of ``part`` from its rows' candidate lists ``best``.
 
         Each cell keeps its first ``keep`` donors in the list's (search) order; their
-        distances are then made exact where rounding matters and re-sorted. Returns the cells (column, row),
-        their donors and exact squared distances, and which cells are open
+        distances are then made exact where rounding matters and re-sorted. Returns the
+        cells (column, row), their donors and squared distances, and which cells are open
         (:func:`~imputer_app.engine._exact.still_open`: the next donor, or the first one
         past a full list, might tie; never past the list when ``everyone``: the lists
         hold every candidate).
