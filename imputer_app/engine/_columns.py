@@ -44,8 +44,12 @@ class Columns:
 
 def scaled_features(
     cols: Columns, plan: FillPlan, kinds: Mapping[str, str], scale: bool
-) -> tuple[Features, list[str]]:
-    """Scaled similarity columns and weights; constant or zero-weight columns left out."""
+) -> tuple[Features, list[str], NDArray[np.bool_]]:
+    """Scaled similarity columns and weights; constant or zero-weight columns left out.
+
+    Also returns, per row, whether it has a value in a weighted similarity column,
+    constant ones included (to tell "constant" from "empty" when a row has no donor).
+    """
     warnings: list[str] = []
     weight = {c: plan.weight(c) for c in plan.similarity_columns or ()}
     sim = [c for c in plan.similarity_columns or () if weight[c] > 0]
@@ -55,6 +59,7 @@ def scaled_features(
     x = cols.number_matrix(num) if num else np.empty((n, 0))
     codes = np.column_stack([cols.codes[c] for c in cat]) if cat else np.empty((n, 0), dtype=np.intp)
     fitted = fit_scale(x, plan.scaling if scale else "none")
+    measured = np.asarray(np.isfinite(x).any(axis=1) | (codes >= 0).any(axis=1), dtype=bool)
     keep_num = ~fitted.constant
     keep_cat = np.array(
         [len(np.unique(codes[:, j][codes[:, j] >= 0])) > 1 for j in range(len(cat))], dtype=bool
@@ -74,4 +79,35 @@ def scaled_features(
         warnings.append(
             "no similarity column is left to compare rows (all are constant, empty or weighted 0)"
         )
-    return Features(scaled, w_num, codes[:, keep_cat], w_cat, total), warnings
+    mismatch = mismatch_factor(scaled, plan.scaling if scale else "none") if w_cat.size else 1.0
+    return Features(scaled, w_num, codes[:, keep_cat], w_cat, total, mismatch), warnings, measured
+
+
+def mismatch_factor(scaled: NDArray[np.float64], scaling: str) -> float:
+    """What a category mismatch adds to the squared distance: a typical numeric difference.
+
+    Gower (1971) scores a mismatch 1 and a numeric difference by its share of the range;
+    Kinfill's own rule (no outside source) makes a mismatch weigh as much as the squared
+    difference of two random rows of a numeric similarity column under the plan's
+    scaling, ``E[(x - y)^2] = 2 var(x)``, averaged over the numeric similarity columns:
+    2 for z-scores (exactly, by construction), about 0.1 for range scaling, about 0.8 for
+    robust scaling of normal data. Without numeric similarity columns a mismatch adds 1.
+
+    Parameters
+    ----------
+    scaled : ndarray of shape (n_rows, n_numeric)
+        The scaled numeric similarity columns (constant ones left out), NaN gaps.
+    scaling : str
+        The plan's scaling.
+    """
+    if scaled.shape[1] == 0:
+        return 1.0
+    if scaling == "zscore":
+        return 2.0
+    seen = np.isfinite(scaled)
+    n = seen.sum(axis=0)
+    z = np.where(seen, scaled, 0.0)
+    mean = z.sum(axis=0) / np.maximum(n, 1)
+    var = (np.where(seen, z - mean, 0.0) ** 2).sum(axis=0) / np.maximum(n, 1)
+    used = n >= 2
+    return float(2.0 * var[used].mean()) if used.any() else 1.0

@@ -1,10 +1,11 @@
 """Combine donors' values into one value per target cell (numpy only).
 
-Numbers: mean, median or inverse-distance mean of the first ``min(k, count)`` donors'
-raw values, then bounds, censored caps and rounding. Categories: majority vote, a tie
-going to the tied class with the nearest donor. Uniform and inverse-distance means use
-prefix sums over the donor axis, so every k costs about as much as one; all numeric
-fill columns are worked on together as one stack of cells.
+Numbers: mean, median or inverse-distance mean of the k nearest donors' raw values,
+then bounds, censored caps and rounding. Categories: majority vote, a tie going to the
+tied class with the nearest donor, then to the smallest class. Donors tied with the
+k-th take part together, sharing the places left (:mod:`~imputer_app.engine._ties`), so
+the fill does not depend on row order. All numeric fill columns are worked on together
+as one stack of cells.
 """
 
 from __future__ import annotations
@@ -18,6 +19,7 @@ from numpy.typing import NDArray
 from imputer_app.engine._search import ColumnDonors
 from imputer_app.engine._stack import Stack
 from imputer_app.engine._table import PreparedTable
+from imputer_app.engine._ties import shares, weighted_median, weighted_vote
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.intp]
@@ -27,16 +29,13 @@ def _used(count: IntArray, k: int) -> IntArray:
     return np.minimum(int(k), count)
 
 
-def _at(prefix: FloatArray, used: IntArray) -> FloatArray:
-    """``prefix[i, used[i] - 1]``, 0 where ``used`` is 0."""
-    if prefix.shape[1] == 0:
-        return np.zeros(len(used))
-    got = np.take_along_axis(prefix, np.maximum(used - 1, 0)[:, None], axis=1)[:, 0]
-    return np.where(used > 0, got, 0.0)
+def donor_shares(donors: ColumnDonors, k: int) -> tuple[FloatArray, IntArray]:
+    """Each donor's weight for ``k`` places, and how many take part (:func:`._ties.shares`)."""
+    return shares(np.square(donors.distance), donors.count, k)
 
 
 def donor_values(values: FloatArray, donors: ColumnDonors) -> FloatArray:
-    """Donors' raw values of one column, shape (m, kmax); NaN where there is no donor."""
+    """Donors' raw values of one column, shape (m, w); NaN where there is no donor."""
     got = values[np.maximum(donors.index, 0)].astype(np.float64)
     return np.where(donors.index >= 0, got, np.nan)
 
@@ -44,92 +43,85 @@ def donor_values(values: FloatArray, donors: ColumnDonors) -> FloatArray:
 def mean_values(
     v: FloatArray, donors: ColumnDonors, ks: Iterable[int], *, inverse_distance: bool
 ) -> dict[int, FloatArray]:
-    """Uniform or inverse-distance mean of the first ``min(k, count)`` donors, per k.
+    """Uniform or inverse-distance mean of each cell's donors for ``k`` places, per k.
 
     Parameters
     ----------
-    v : ndarray of shape (m, kmax)
+    v : ndarray of shape (m, w)
         Donors' values (see :func:`donor_values`); padding is ignored.
     donors : ColumnDonors
         Distances and counts aligned with ``v``.
     ks : iterable of int
-        Numbers of donors to use (each >= 1).
+        Numbers of places (each >= 1).
     inverse_distance : bool
-        Weights ``1/d``; when some of the used donors are at distance 0, only those
-        count (equally), as scikit-learn's ``KNNImputer(weights="distance")`` does.
+        Weights ``share/d``; when some donor that takes part is at distance 0, only
+        those count (by their shares), as scikit-learn's ``KNNImputer(weights="distance")``
+        counts only the zero-distance donors.
 
     Returns
     -------
     dict of int to ndarray of shape (m,)
-        NaN where a target has no donor.
+        NaN where a target has no donor. Donors tied with the k-th share the places
+        left (:func:`~imputer_app.engine._ties.shares`); without ties this is the mean
+        of the k nearest.
     """
     valid = donors.index >= 0
     v0 = np.where(valid, v, 0.0)
-    out: dict[int, FloatArray] = {}
-    if not inverse_distance:
-        csum = np.cumsum(v0, axis=1)
-        for k in ks:
-            used = _used(donors.count, k)
-            with np.errstate(invalid="ignore", divide="ignore"):
-                out[int(k)] = np.where(used > 0, _at(csum, used) / used, np.nan)
-        return out
     zero = valid & (donors.distance == 0.0)
     with np.errstate(divide="ignore"):
-        w = np.where(valid & ~zero, 1.0 / donors.distance, 0.0)
-    zcount, zsum = np.cumsum(zero, axis=1).astype(np.float64), np.cumsum(np.where(zero, v0, 0.0), axis=1)
-    wsum, wvsum = np.cumsum(w, axis=1), np.cumsum(w * v0, axis=1)
+        inverse = np.where(valid & ~zero, 1.0 / donors.distance, 0.0)
+    out: dict[int, FloatArray] = {}
     for k in ks:
+        w, _ = donor_shares(donors, k)
         used = _used(donors.count, k)
-        nz = _at(zcount, used)
         with np.errstate(invalid="ignore", divide="ignore"):
-            by_zero = _at(zsum, used) / nz
-            by_weight = _at(wvsum, used) / _at(wsum, used)
+            if not inverse_distance:
+                out[int(k)] = np.where(used > 0, (w * v0).sum(axis=1) / used, np.nan)
+                continue
+            wz = np.where(zero, w, 0.0)
+            nz = wz.sum(axis=1)
+            by_zero = (wz * v0).sum(axis=1) / nz
+            wd = w * inverse
+            by_weight = (wd * v0).sum(axis=1) / wd.sum(axis=1)
         out[int(k)] = np.where(used > 0, np.where(nz > 0, by_zero, by_weight), np.nan)
     return out
 
 
 def median_values(v: FloatArray, donors: ColumnDonors, ks: Iterable[int]) -> dict[int, FloatArray]:
-    """Median of the first ``min(k, count)`` donors' values ``v`` (m, kmax), per k; NaN if none."""
-    position = np.arange(v.shape[1])
-    out: dict[int, FloatArray] = {}
-    for k in ks:
-        used = _used(donors.count, k)
-        part = np.where(position[None, :] < used[:, None], v, np.nan)
-        res = np.full(len(used), np.nan)
-        has = used > 0
-        if has.any():
-            res[has] = np.nanmedian(part[has], axis=1)
-        out[int(k)] = res
-    return out
+    """Weighted median of each cell's donors for ``k`` places, per k; NaN if none.
+
+    Donors count by their shares (:func:`~imputer_app.engine._ties.weighted_median`);
+    without ties this is the median of the k nearest.
+    """
+    return {int(k): weighted_median(v, donor_shares(donors, k)[0]) for k in ks}
 
 
 def spread(v: FloatArray, donors: ColumnDonors, k: int) -> FloatArray:
-    """Sample standard deviation of the first ``min(k, count)`` donors' values (NaN below 2).
+    """Sample standard deviation of the donors for ``k`` places, each counted by its share.
 
-    The steps of ``np.nanstd(..., ddof=1)`` (zeros in place of the unused donors), without
-    its checks and copies.
+    ``sqrt(sum w (v - mean)^2 / (sum w - 1))`` with ``sum w = min(k, count)``: the usual
+    ``ddof=1`` standard deviation of the k nearest when nothing ties; NaN below 2 places.
     """
+    w, _ = donor_shares(donors, k)
     used = _used(donors.count, k)
     out = np.full(len(used), np.nan)
     many = np.flatnonzero(used >= 2)
     if not len(many):
         return out
-    n = used[many]
-    unused = np.arange(min(k, v.shape[1]))[None, :] >= n[:, None]
-    part = v[many, : unused.shape[1]]
-    part[unused] = 0.0
-    part -= part.sum(axis=1, keepdims=True) / n[:, None]
-    part[unused] = 0.0
-    np.multiply(part, part, out=part)
-    out[many] = np.sqrt(part.sum(axis=1) / (n - 1))
+    wm, vm = w[many], np.where(w[many] > 0, v[many], 0.0)
+    n = used[many].astype(np.float64)
+    mean = (wm * vm).sum(axis=1) / n
+    dev = np.where(wm > 0, vm - mean[:, None], 0.0)
+    out[many] = np.sqrt((wm * dev * dev).sum(axis=1) / (n - 1))
     return out
 
 
 def vote(codes: IntArray, donors: ColumnDonors, ks: Iterable[int]) -> dict[int, IntArray]:
-    """Majority class of the first ``min(k, count)`` donors per k.
+    """Class with the most weight among each cell's donors for ``k`` places, per k.
 
-    A tie goes to the tied class whose nearest donor comes first (donors are ordered
-    by distance, ties by row order). Returns int codes, -1 where there is no donor.
+    Donors count by their shares; a tie goes to the tied class with the nearest donor,
+    then to the smallest class code (:func:`~imputer_app.engine._ties.weighted_vote`).
+    Returns int codes, -1 where there is no donor.
     """
     return {k: win for k, (win, _) in vote_with_share(codes, donors, ks).items()}
 
@@ -137,25 +129,11 @@ def vote(codes: IntArray, donors: ColumnDonors, ks: Iterable[int]) -> dict[int, 
 def vote_with_share(
     codes: IntArray, donors: ColumnDonors, ks: Iterable[int]
 ) -> dict[int, tuple[IntArray, FloatArray]]:
-    """Like :func:`vote`, also returning the winning class's vote share (NaN if none)."""
+    """Like :func:`vote`, also returning the winning class's share of the weight (NaN if none)."""
     got = np.where(donors.index >= 0, codes[np.maximum(donors.index, 0)], -1)
-    m, kmax = got.shape
     n_classes = int(max(got.max(initial=-1), codes.max(initial=-1)) + 1)
-    out: dict[int, tuple[IntArray, FloatArray]] = {}
-    if m == 0 or n_classes == 0:
-        return {int(k): (np.full(m, -1, dtype=np.intp), np.full(m, np.nan)) for k in ks}
-    onehot = (got[:, :, None] == np.arange(n_classes)[None, None, :]).astype(np.int32)
-    counts = np.cumsum(onehot, axis=1)  # (m, kmax, classes)
-    first = np.where(onehot.any(axis=1), onehot.argmax(axis=1), kmax)  # (m, classes)
-    rows = np.arange(m)
-    for k in ks:
-        used = _used(donors.count, k)
-        cnt = counts[rows, np.maximum(used - 1, 0), :]
-        score = cnt * (kmax + 1) + (kmax - first)  # more votes first, then the nearest donor
-        win = np.argmax(np.where(cnt > 0, score, -1), axis=1).astype(np.intp)
-        share = cnt[rows, win] / np.maximum(used, 1)
-        out[int(k)] = (np.where(used > 0, win, -1).astype(np.intp), np.where(used > 0, share, np.nan))
-    return out
+    d2 = np.square(donors.distance)
+    return {int(k): weighted_vote(got, d2, donor_shares(donors, k)[0], n_classes) for k in ks}
 
 
 @dataclass(frozen=True)

@@ -14,7 +14,14 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from imputer_app.engine._combine import Finish, number_values, spread, stack_values, vote_with_share
+from imputer_app.engine._combine import (
+    Finish,
+    donor_shares,
+    number_values,
+    spread,
+    stack_values,
+    vote_with_share,
+)
 from imputer_app.engine._group_fill import group_fill
 from imputer_app.engine._log import (
     COLUMN_MEAN,
@@ -30,6 +37,7 @@ from imputer_app.engine._search import ColumnDonors
 from imputer_app.engine._stack import Stack
 from imputer_app.engine._support import support_levels
 from imputer_app.engine._table import PreparedTable
+from imputer_app.engine._ties import share_notes
 
 
 def no_donor_reasons(table: PreparedTable, col: str, rows: NDArray[np.intp]) -> list[str]:
@@ -50,6 +58,8 @@ def no_donor_reasons(table: PreparedTable, col: str, rows: NDArray[np.intp]) -> 
             out.append(f"group column {table.plan.group_column!r} is empty in this row")
         elif by_group is not None and groups is not None and by_group[groups[r]] == 0:
             out.append(f"no row of group {table.group_labels[groups[r]]!r} has a value in {col!r}")
+        elif not present[r] and table.measured is not None and table.measured[r]:
+            out.append("this row's similarity values are all in constant columns (left out of the distance)")
         elif not present[r]:
             out.append("every similarity column is empty in this row")
         else:
@@ -108,13 +118,17 @@ def _knn_records(
     if capped is not None:
         method[np.isfinite(capped.cap_lower) | np.isfinite(capped.cap_upper)] = KNN_CAPPED
     columns = np.array([out.position(c) for c in stack.columns], dtype=np.intp)
-    width = min(k, found.index.shape[1])
+    weights, taken = donor_shares(found, k)  # tied donors all take part: list every one
+    width = int(taken.max(initial=0))
+    notes = _notes(table, stack, k, used, capped, written)
+    for i, text in share_notes(weights, used):
+        notes[i] = f"{notes[i]}; {text}" if notes[i] else text
     at: slice | IntArray = slice(None) if has.all() else np.flatnonzero(has)  # views when all have donors
     piece = LogPiece(
         pos=found.rows[at], column=columns[stack.col[at]], value=written[at], method=method[at],
         k=used[at], donors=found.index[at, :width], distances=found.distance[at, :width],
         donor_values=shown[at, :width], spread=spreads[at], support=support_levels(found, threshold)[at],
-        note=_notes(table, stack, k, used, capped, written)[at],
+        note=notes[at], listed=taken[at],
     )  # fmt: skip
     out.add_log(piece)
     none = np.flatnonzero(~has)

@@ -7,7 +7,8 @@ matching rule for categorical columns::
 
 where ``W_all`` is the total weight of the similarity columns, ``W_shared`` the
 weight of the columns both rows have, ``delta_j = x_j - y_j`` for numbers (already
-scaled) and ``delta_j^2 = [x_j != y_j]`` for categories. Rows sharing no column have
+scaled) and ``delta_j^2 = c [x_j != y_j]`` for categories, ``c`` the mismatch factor
+(:attr:`Features.mismatch`). Rows sharing no column have
 no distance (``inf`` here, NaN in :func:`~imputer_app.engine._pairwise.pairwise_distances`).
 
 With all weights 1 and numeric columns only this is scikit-learn's
@@ -28,10 +29,14 @@ from numpy.typing import NDArray
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.intp]
 
-#: Pairs per batch in :meth:`DistanceModel.pairs` (their temporaries stay in cache).
+#: Pairs per batch in :meth:`DistanceModel.pairs` (their temporaries stay in cache) ...
 PAIR_BATCH = 4096
+#: ... and at most this many values per temporary (a wide table takes fewer pairs per batch).
+PAIR_VALUES = 2**16
 #: Numeric columns per slab in :meth:`DistanceModel.gram` (bounds its temporaries).
 SLAB = 1024
+#: Relative size of the rounding noise allowed for in a product-form squared distance.
+NOISE = 1e-11
 #: More different column weights than this: :meth:`DistanceModel.gram` weighs per column.
 WEIGHT_GROUPS = 4
 
@@ -50,6 +55,10 @@ class Features:
     code_weights : ndarray of shape (n_categorical,)
     total_weight : float
         Sum of the weights of all similarity columns used in the distance.
+    mismatch : float, default=1
+        What a category mismatch adds to ``delta^2`` (before its column's weight):
+        Gower's matching rule gives 1; :func:`~imputer_app.engine._columns.scaled_features`
+        sets the mean squared difference of a numeric column under the plan's scaling.
     """
 
     numbers: FloatArray
@@ -57,6 +66,7 @@ class Features:
     codes: IntArray
     code_weights: FloatArray
     total_weight: float
+    mismatch: float = 1.0
 
     @property
     def n_rows(self) -> int:
@@ -136,14 +146,20 @@ class DistanceModel:
         self._p = p
         self._codes = features.codes
         self._w, self._tw_w = np.asarray(w, dtype=np.float64), w * tw
-        self._cw, self._tw_cw = np.asarray(cw, dtype=np.float64), cw * tw
+        mis = float(features.mismatch)
+        self._cw, self._tw_cw = np.asarray(cw, dtype=np.float64), cw * (tw * mis)
+        self._mis = mis
         self._tw = tw
         # left: w z^2 | w m | w z | cw cmask | -cw onehot (all x W_all) || w m | cw cmask, which is
         # right with the first two blocks swapped, times a scale per column: built per chunk
         self._scale = np.concatenate(
-            [w * tw, w * tw, w * (-tw / 2), cw * tw, -_expand(cw * tw, features.codes), w, cw]
+            [w * tw, w * tw, w * (-tw / 2), self._tw_cw, -_expand(self._tw_cw, features.codes), w, cw]
         )
         self.n_rows = int(n)
+        z2 = float(np.fmax.reduce(np.abs(x), axis=None, initial=0.0)) ** 2 if x.size else 0.0
+        # bound on the rounding of a product-form d^2 (its terms are at most tw x max z^2 each,
+        # shifted values are smaller still); the exact form decides, this only says how far to look
+        self.noise = NOISE * tw * max(z2, mis, 1e-300)
 
     @cached_property
     def _shifted(self) -> tuple[FloatArray, NDArray[np.bool_]]:
@@ -177,7 +193,7 @@ class DistanceModel:
         Built on first use (a search whose head covers every candidate never needs them).
         """
         z, mask = self._shifted
-        z = z.copy()
+        z = np.array(z, order="C")  # row-major: pairs gather rows
         z[~mask] = np.nan  # a difference with a gap is NaN
         return z, np.ascontiguousarray(self._codes, dtype=np.intp)
 
@@ -258,17 +274,46 @@ class DistanceModel:
         """
         x, y = targets.rows[which], np.asarray(others, dtype=np.intp)
         out = np.empty(len(x))
-        for start in range(0, len(x), PAIR_BATCH):  # batches small enough to stay in cache
-            part = slice(start, start + PAIR_BATCH)
+        step = self._pair_batch()
+        for start in range(0, len(x), step):  # batches small enough to stay in cache
+            part = slice(start, start + step)
             out[part] = self._pairs(x[part], y[part])
         return out
 
-    def _pairs(self, x: IntArray, y: IntArray) -> FloatArray:
-        z, codes = self._values
+    def exact(self, x: IntArray, y: IntArray) -> FloatArray:
+        """Squared distances of the pairs (x[i], y[i]) from the rows' differences, shape (len(x),).
+
+        Dixon's weighted form with Gower's matching, summed from ``x_j - y_j`` of the
+        scaled values (not shifted, not from products): rows with equal values are at
+        distance exactly 0, and the result depends only on the two rows. Used for the
+        chosen candidates only, before ties, weights and the fill log.
+        """
+        x, y = np.asarray(x, dtype=np.intp), np.asarray(y, dtype=np.intp)
+        out = np.empty(len(x))
+        step = self._pair_batch()
+        for start in range(0, len(x), step):
+            part = slice(start, start + step)
+            out[part] = self._pairs(x[part], y[part], self._rows)
+        return out
+
+    @cached_property
+    def _rows(self) -> FloatArray:
+        """The scaled numbers, row-major (a table read from a DataFrame is column-major)."""
+        return np.ascontiguousarray(self._x)
+
+    def _pair_batch(self) -> int:
+        return max(16, min(PAIR_BATCH, PAIR_VALUES // max(self._p, 1)))
+
+    def _pairs(self, x: IntArray, y: IntArray, values: FloatArray | None = None) -> FloatArray:
+        if values is None:
+            z, codes = self._values
+        else:
+            z, codes = values, self._codes
         sq = np.take(z, x, axis=0)
         sq -= np.take(z, y, axis=0)
         sq *= sq
-        shared = ~np.isnan(sq) @ self._w  # 0 exactly when no column is shared
+        # 0 exactly when no column is shared (a float mask: a bool matrix product skips BLAS)
+        shared = self._w.sum() - np.isnan(sq).astype(np.float64) @ self._w
         np.fmax(sq, 0.0, out=sq)  # a gap's NaN adds 0
         total = sq @ self._tw_w
         if codes.shape[1]:
@@ -368,7 +413,7 @@ class DistanceModel:
         cmask, onehot = self._cmask[rows], self._onehot[rows]
         shared = (cmask * self._cw) @ cmask.T
         total = shared - (onehot * _expand(self._cw, self._codes)) @ onehot.T
-        return total, shared
+        return total * self._mis, shared
 
     def square(self, rows: IntArray, total: FloatArray, shared: FloatArray) -> FloatArray:
         """Squared distances among ``rows`` from the summed :meth:`gram` parts (written into ``total``).

@@ -8,7 +8,10 @@ in its own module (:mod:`~imputer_app.engine._prepare`,
 
 from __future__ import annotations
 
+from typing import Any
+
 import pandas as pd
+from numpy.typing import NDArray
 
 from imputer_app.engine._censored import censored_records
 from imputer_app.engine._decide import fill_records
@@ -24,7 +27,7 @@ from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
 
 def impute(
-    data: pd.DataFrame | SheetLike,
+    data: pd.DataFrame | SheetLike | NDArray[Any],
     plan: FillPlan,
     progress: Progress | None = None,
     cancel: CancelFlag | None = None,
@@ -33,10 +36,13 @@ def impute(
 
     Parameters
     ----------
-    data : DataFrame or SheetLike
-        A DataFrame of shape (n_rows, n_columns) with NaN gaps, or a read sheet
+    data : DataFrame, SheetLike or ndarray
+        A DataFrame of shape (n_rows, n_columns) with NaN gaps (any column labels:
+        labels that are not text are named by their text in the plan, messages and the
+        fill log, and kept in the result), a read sheet
         (:class:`~imputer_app.engine.SheetLike`), whose censored cells are handled as
-        the plan says. Never modified.
+        the plan says, or a 2-D ndarray (columns named "0", "1", ...; the filled array
+        is ``FillResult.array``). Never modified.
     plan : FillPlan
         The settings; the resolved plan is returned in ``FillResult.plan``.
     progress : callable(done, total), optional
@@ -60,6 +66,8 @@ def impute(
     >>> frame = pd.DataFrame({"a": [1.0, 2.0, 3.0, None], "b": [1.0, 2.0, 3.0, 3.1]})
     >>> impute(frame, FillPlan(k=1, scaling="none")).frame["a"].tolist()
     [1.0, 2.0, 3.0, 3.0]
+    >>> impute(frame.to_numpy(), FillPlan(k=1, scaling="none")).array[3].tolist()
+    [3.0, 3.1]
     """
     raise_if_cancelled(cancel)
     inp = unpack(data)

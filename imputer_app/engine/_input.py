@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Protocol, runtime_checkable
+from typing import Any, Protocol, runtime_checkable
 
 import numpy as np
 import pandas as pd
@@ -74,12 +74,16 @@ class Input:
     Attributes
     ----------
     names : tuple of str
-        The frame's column names (iterating a pandas Index is slow).
+        The frame's column names as text (iterating a pandas Index is slow).
     frame : DataFrame
+        Its columns named by ``names``.
     states, notes : DataFrame or None
         The sheet's cell states and censored entries' notes (None for a DataFrame).
     sheet_kinds : dict of str to str or None
         The sheet's kind per column, when it says.
+    labels : Index or None
+        The input's own column labels when some were not text (integers, ...): the
+        result gets them back. None when they were all text.
     """
 
     names: tuple[str, ...]
@@ -87,11 +91,23 @@ class Input:
     states: pd.DataFrame | None
     notes: pd.DataFrame | None
     sheet_kinds: dict[str, str] | None
+    labels: pd.Index | None = None
 
 
-def unpack(data: pd.DataFrame | SheetLike) -> Input:
-    """Check ``data`` and take it apart; raise :class:`PlanError` for anything else."""
+def unpack(data: pd.DataFrame | SheetLike | NDArray[Any]) -> Input:
+    """Check ``data`` and take it apart; raise :class:`PlanError` for anything else.
+
+    A 2-D ndarray becomes a DataFrame with columns 0..n-1 (named "0", "1", ... in a
+    plan). Column labels that are not text are named by their text (``str(label)``)
+    inside the engine, in messages and in the fill log; :attr:`Input.labels` keeps them.
+    """
     kinds: dict[str, str] | None = None
+    if isinstance(data, np.ndarray):
+        if data.ndim != 2:
+            raise PlanError(
+                f"cannot fill an array of {data.ndim} dimensions; give a 2-D array (rows x columns)"
+            )
+        data = pd.DataFrame(data)
     if isinstance(data, pd.DataFrame):
         frame, states, notes = data, None, None
     elif isinstance(data, SheetLike):
@@ -102,14 +118,25 @@ def unpack(data: pd.DataFrame | SheetLike) -> Input:
         raise PlanError(f"cannot fill a {type(data).__name__}; give a table (DataFrame) or a read sheet")
     if not isinstance(frame, pd.DataFrame):
         raise PlanError("the sheet's frame is not a table")
-    names = tuple(frame.columns.tolist())
-    bad = [c for c in names if not isinstance(c, str)]
-    if bad:
-        raise PlanError(f"column names must be text; column {bad[0]!r} is not")
     if frame.columns.has_duplicates:
         dup = frame.columns[frame.columns.duplicated()][0]
-        raise PlanError(f"column {dup!r} appears twice; column names must be unique")
-    return Input(names, frame, states, notes, kinds)
+        raise PlanError(f"column {str(dup)!r} appears twice; column names must be unique")
+    labels = frame.columns
+    names = tuple(str(c) for c in labels.tolist())
+    if all(isinstance(c, str) for c in labels.tolist()):
+        return Input(names, frame, states, notes, kinds)
+    text = pd.Index(names)
+    if text.has_duplicates:
+        dup = text[text.duplicated()][0]
+        raise PlanError(f"two columns are both named {dup!r} as text; column names must be unique")
+    frame = frame.copy(deep=False)
+    frame.columns = text
+    if states is not None:
+        states = states.copy(deep=False)
+        states.columns = pd.Index([str(c) for c in states.columns.tolist()])
+    if notes is not None and "column" in notes.columns:
+        notes = notes.assign(column=notes["column"].map(str))
+    return Input(names, frame, states, notes, kinds, labels)
 
 
 def state_masks(inp: Input, columns: list[str], words: tuple[str, ...]) -> dict[str, NDArray[np.bool_]]:

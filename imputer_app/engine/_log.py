@@ -64,7 +64,7 @@ class LogPiece:
     method : ndarray of int, shape (m,)
         Position in :data:`METHODS`.
     k : ndarray of int, shape (m,)
-        Donors used; each cell's donor arrays are cut to this many.
+        Places filled by donors (``min(k, donors found)``): the log's ``k``.
     donors : ndarray of int, shape (m, w)
         Donor row positions, nearest first.
     distances, donor_values : ndarray of shape (m, w)
@@ -72,6 +72,9 @@ class LogPiece:
     support : ndarray of int, shape (m,)
         Position in :data:`~imputer_app.engine._support.SUPPORT_WORDS`.
     note : ndarray of object, shape (m,)
+    listed : ndarray of int, shape (m,), optional
+        Donors that took part (tied donors sharing the last places included); each
+        cell's donor arrays are cut to this many. Default: ``k``.
     """
 
     pos: IntArray
@@ -85,6 +88,7 @@ class LogPiece:
     spread: FloatArray
     support: IntArray
     note: NDArray[np.object_]
+    listed: IntArray | None = None
 
     @classmethod
     def without_donors(
@@ -183,7 +187,8 @@ class Records:
         pos, col = _join([p.pos for p in pieces], np.intp), _join([p.column for p in pieces], np.intp)
         order = np.argsort(pos * len(self.columns) + col)  # a cell is written once: no ties
         pos, col = np.take(pos, order), np.take(col, order)
-        method, used = _sorted(pieces, "method", order), _sorted(pieces, "k", order)
+        method, places = _sorted(pieces, "method", order), _sorted(pieces, "k", order)
+        used = np.take(_join([p.k if p.listed is None else p.listed for p in pieces], np.intp), order)
         # donors are sorted as numbers and only then made into tuples, in one pass per length
         width = max((p.donors.shape[1] for p in pieces), default=0)
         index = _sorted(pieces, "donors", order, width, -1)
@@ -193,7 +198,7 @@ class Records:
             "column": _words(self.columns)[col],
             "value": _sorted(pieces, "value", order).astype(object, copy=False),
             "method": _words(METHODS)[method],
-            "k": used.astype(np.int64),
+            "k": places.astype(np.int64),
             "donors": tuples(row_labels[np.maximum(index, 0)] if width else index, used, same),
             "distances": tuples(dist, used, same),
             "donor_values": tuples(_sorted(pieces, "donor_values", order, width, np.nan), used),

@@ -216,7 +216,7 @@ def prepare_input(
     )
     kinds = {c: ("number" if kinds_all[c] == "number" else "category") for c in (*sim, *fill)}
     raise_if_cancelled(cancel)  # each step takes about a second on a sheet of ten million cells
-    features, warnings = scaled_features(cols, resolved, kinds, scale)
+    features, warnings, has_values = scaled_features(cols, resolved, kinds, scale)
     if resolved.neighbour_weighting == "inverse_distance" and resolved.numeric_rule == "median":
         warnings.append(
             "numeric_rule 'median' is not used with inverse-distance weighting (weighted mean used)"
@@ -242,6 +242,11 @@ def prepare_input(
         else:
             values[col] = cols.codes[col]
             observed[col] = cols.codes[col] >= 0
+    if scale and features.total_weight <= 0 and any(o.any() and not o.all() for o in observed.values()):
+        raise PlanError(
+            "no similarity column can compare rows: every one is constant, empty or weighted 0; "
+            "choose other similarity columns or weights"
+        )
     groups, group_labels = _groups(inp, resolved, hide)
     return PreparedTable(
         n_rows=n,
@@ -261,4 +266,5 @@ def prepare_input(
         cap_upper=cap_upper,
         cap_lower=cap_lower,
         unknown_limit=unknown_limit,
+        measured=has_values,
     ), cols.censored

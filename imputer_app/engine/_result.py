@@ -48,6 +48,12 @@ class FillResult:
         Plain-words remarks (constant columns left out, ...).
     k_weak_threshold : float
         Distance above which a cell's support is "weak" (NaN when nothing was filled).
+
+    Notes
+    -----
+    ``impute(X, plan)`` with a 2-D ndarray ``X`` gives ``frame`` with columns 0..n-1
+    (like ``pd.DataFrame(X)``) and :attr:`array`, the filled array itself (what
+    scikit-learn's ``KNNImputer().fit_transform(X)`` returns).
     """
 
     frame: pd.DataFrame
@@ -58,6 +64,11 @@ class FillResult:
     plan: FillPlan
     warnings: tuple[str, ...]
     k_weak_threshold: float
+
+    @property
+    def array(self) -> NDArray[Any]:
+        """The filled values as a 2-D ndarray (``frame.to_numpy()``: float when every column is a number)."""
+        return self.frame.to_numpy()
 
 
 def build_result(
@@ -84,10 +95,14 @@ def build_result(
         },
         columns=list(UNFILLED_COLUMNS),
     )
+    out = _filled_frame(frame, table, log.pos, log.column, log.fields["value"])
+    columns = frame.columns if inp.labels is None else inp.labels
+    if inp.labels is not None:  # the input's own labels back (the engine named them as text)
+        out.columns = inp.labels
     return FillResult(
-        frame=_filled_frame(frame, table, log.pos, log.column, log.fields["value"]),
-        filled=pd.DataFrame(filled, index=labels, columns=frame.columns, copy=False),
-        censored=pd.DataFrame(flags, index=labels, columns=frame.columns, copy=False),
+        frame=out,
+        filled=pd.DataFrame(filled, index=labels, columns=columns, copy=False),
+        censored=pd.DataFrame(flags, index=labels, columns=columns, copy=False),
         log=_log_frame(inp, log, states),
         unfilled=unfilled.reset_index(drop=True),
         plan=table.plan,

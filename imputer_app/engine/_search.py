@@ -3,8 +3,13 @@
 Fill columns whose donors are most rows ("dense") share one search: each target row
 keeps a list of its nearest candidates (enough that nearly every cell finds ``kmax``
 donors in it) and every target cell takes the first candidates that are donors of its
-column, all columns at once. Cells whose list holds too few donors, and columns with
-few donors ("sparse"), are searched among that column's donors only. Results are kept
+column, all columns at once. Columns with few donors ("sparse") are searched among that
+column's donors only. A cell keeps ``kmax`` donors and a few more; their distances are
+recomputed from differences wherever the products' rounding could matter (near 0, near
+a tie) and re-sorted (:mod:`~imputer_app.engine._exact`), and a
+cell whose list holds too few donors, or whose tie with the ``kmax``-th donor may run
+past its list, is searched again among its column's donors, more widely each round,
+until every tied donor is in hand (:mod:`~imputer_app.engine._ties`). Results are kept
 flat (one row per target cell, sorted by column then row) and handed out per column.
 """
 
@@ -20,7 +25,8 @@ import numpy as np
 from numpy.typing import NDArray
 
 from imputer_app.engine._distance import DistanceModel
-from imputer_app.engine._nearest import BlockSearch, chunks, top_l
+from imputer_app.engine._exact import exact_cells, exact_lists, still_open
+from imputer_app.engine._nearest import BlockSearch, _pad, chunks, top_l
 from imputer_app.engine._table import PreparedTable
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
@@ -46,18 +52,37 @@ class ColumnDonors:
     ----------
     rows : ndarray of int, shape (m,)
         Target row positions, ascending.
-    index : ndarray of int, shape (m, kmax)
-        Donor row positions, nearest first, ties by row order; -1 pads missing donors.
-    distance : ndarray of float, shape (m, kmax)
-        Donor distances; ``inf`` pads.
+    index : ndarray of int, shape (m, w), w >= kmax
+        Donor row positions, nearest first by exact distance, equal distances by row
+        position; -1 pads missing donors. Beyond the ``kmax`` nearest it holds at least
+        every donor tied with the ``kmax``-th (and maybe a few more).
+    distance : ndarray of float, shape (m, w)
+        Donor distances: from the rows' differences near 0 and wherever two donors lie
+        within rounding of each other (elsewhere the search's value, within 1e-9 of
+        it); ``inf`` pads.
     count : ndarray of int, shape (m,)
-        Number of real donors per target (<= kmax).
+        Number of real donors per target (may exceed kmax).
     """
 
     rows: IntArray
     index: IntArray
     distance: FloatArray
     count: IntArray
+
+
+def first_positions(good: BoolArray, kmax: int) -> IntArray:
+    """Positions of the first ``kmax`` True entries per row of ``good`` (cells, L); -1 pads."""
+    head = min(kmax, good.shape[1])
+    pos = np.broadcast_to(np.arange(head), (len(good), head)).copy()
+    # most cells' first kmax candidates are all donors; only the others need a sort
+    redo = np.flatnonzero(~good[:, :head].all(axis=1))
+    if len(redo):
+        sub = good[redo]
+        at = np.argsort(~sub, axis=1, kind="stable")[:, :head]
+        pos[redo] = np.where(np.take_along_axis(sub, at, axis=1), at, -1)
+    if head < kmax:
+        pos = np.hstack([pos, np.full((len(pos), kmax - head), -1, dtype=np.intp)])
+    return pos
 
 
 def first_donors(
@@ -83,24 +108,16 @@ def first_donors(
         candidates may exist beyond it).
     """
     good = ok & np.isfinite(cd2)
-    head = min(kmax, good.shape[1])
-    idx, d2 = cand[:, :head].copy(), cd2[:, :head].copy()
-    got = good[:, :head].copy()
-    # most cells' first kmax candidates are all donors; only the others need a sort
-    redo = np.flatnonzero(~got.all(axis=1))
-    if len(redo):
-        sub = good[redo]
-        pos = np.argsort(~sub, axis=1, kind="stable")[:, :head]
-        found = np.take_along_axis(sub, pos, axis=1)
-        got[redo] = found
-        idx[redo] = np.where(found, np.take_along_axis(cand[redo], pos, axis=1), -1)
-        d2[redo] = np.where(found, np.take_along_axis(cd2[redo], pos, axis=1), np.inf)
-    if idx.shape[1] < kmax:
-        pad = kmax - idx.shape[1]
-        idx = np.hstack([idx, np.full((len(idx), pad), -1, dtype=np.intp)])
-        d2 = np.hstack([d2, np.full((len(d2), pad), np.inf)])
-    short = (got.sum(axis=1) < kmax) & np.isfinite(cd2[:, -1]) if cd2.shape[1] else np.zeros(len(cd2), bool)
-    return idx, d2, short
+    pos = first_positions(good, kmax)
+    at = np.maximum(pos, 0)
+    idx = np.where(pos >= 0, np.take_along_axis(cand, at, axis=1) if cand.shape[1] else -1, -1)
+    d2 = np.where(pos >= 0, np.take_along_axis(cd2, at, axis=1) if cd2.shape[1] else np.inf, np.inf)
+    short = (
+        ((pos >= 0).sum(axis=1) < kmax) & np.isfinite(cd2[:, -1])
+        if cd2.shape[1]
+        else np.zeros(len(cd2), bool)
+    )
+    return idx.astype(np.intp), d2, short
 
 
 @dataclass
@@ -116,6 +133,7 @@ class _Cells:
     index: IntArray
     d2: FloatArray
     slot: IntArray
+    wide: list[tuple[IntArray, IntArray, FloatArray]] = field(default_factory=list)
 
     @classmethod
     def of(cls, want: BoolArray, kmax: int) -> _Cells:
@@ -133,10 +151,18 @@ class _Cells:
 
     def put(self, col: IntArray, row: IntArray, index: IntArray, d2: FloatArray) -> None:
         at = self.slot[col, row]
-        self.index[at] = index
-        self.d2[at] = d2
+        if index.shape[1] > self.index.shape[1]:  # a widened search: kept aside until the end
+            self.wide.append((at, index, d2))
+            return
+        self.index[at], self.d2[at] = _pad((index, d2), self.index.shape[1])
 
     def flat(self) -> tuple[ColumnDonors, IntArray]:
+        if self.wide:
+            width = max(self.index.shape[1], *(w[1].shape[1] for w in self.wide))
+            self.index, self.d2 = _pad((self.index, self.d2), width)
+            for at, index, d2 in self.wide:
+                self.index[at], self.d2[at] = _pad((index, d2), width)
+            self.wide = []
         valid = self.index >= 0
         with np.errstate(invalid="ignore"):
             distance = np.where(valid, np.sqrt(self.d2), np.inf)
@@ -176,8 +202,10 @@ def nearest_donors(
     dict of str to ColumnDonors
         One entry per fill column (in ``table.fill_columns`` order). A donor is a row
         observed in that column, in the target's group, sharing at least one
-        similarity column, and never the target row itself; ties in distance go to the
-        earlier row. A target with fewer donors than ``kmax`` gets them all.
+        similarity column, and never the target row itself. Every donor tied with the
+        ``kmax``-th (:func:`~imputer_app.engine._ties.tie_edges`) is included, so that
+        :func:`~imputer_app.engine.combine` can share the last places among them. A
+        target with fewer donors than ``kmax`` gets them all.
 
     Examples
     --------
@@ -225,7 +253,7 @@ def search_cells(
         ok[:, j] = table.observed[name]
     if table.groups is not None:
         ok &= (table.groups >= 0)[:, None]
-    cells = _Cells.of(want, kmax)
+    cells = _Cells.of(want, kmax + extra_donors(kmax))
     active = np.flatnonzero(want.any(axis=0) & ok.any(axis=0))
     steps = 1
     if len(active):
@@ -233,6 +261,11 @@ def search_cells(
         steps = _Jobs(search, want, ok, kmax, active).run(cells, progress, cancel)
     report(progress, steps, steps)
     return cells.flat()
+
+
+def extra_donors(kmax: int) -> int:
+    """Donors kept beyond ``kmax``: the widened search finds longer ties (cheaper than keeping more)."""
+    return 1 + kmax // 8
 
 
 def _one_blas_thread() -> AbstractContextManager[object]:
@@ -276,8 +309,10 @@ class _Jobs:
     active: IntArray
     dense: IntArray = field(init=False)
     sparse: IntArray = field(init=False)
+    keep: int = field(init=False)
 
     def __post_init__(self) -> None:
+        self.keep = self.kmax + extra_donors(self.kmax)
         donors = self.ok[:, self.active].sum(axis=0)
         total = max(int(self.ok[:, self.active].any(axis=1).sum()), 1)
         self.dense = self.active[donors >= DENSE_SHARE * total]
@@ -286,8 +321,9 @@ class _Jobs:
     def run(self, cells: _Cells, progress: Progress | None, cancel: CancelFlag | None) -> int:
         """Search, reporting progress per chunk (and per slab of a symmetric block).
 
-        Short cells are searched again exactly. Returns the number of progress steps
-        (the last is reported by the caller).
+        Open cells (short of donors, or tied past their list) are searched again
+        (:meth:`_widen`). Returns the number of progress steps (the last is reported by
+        the caller).
         """
         jobs: list[_Job] = []
         if len(self.dense):
@@ -313,7 +349,7 @@ class _Jobs:
                 pool.shutdown(wait=True, cancel_futures=True)
             if short:
                 col, row = (np.concatenate(a) for a in zip(*short, strict=True))
-                self._exact(cells, col, row, cancel)
+                self._widen(cells, col, row, cancel)
         return total
 
     def _job(self, cols: IntArray, rows: IntArray) -> _Job:
@@ -339,7 +375,7 @@ class _Jobs:
         cancel: CancelFlag | None,
         advance: Callable[[int], None],
     ) -> Iterator[tuple[IntArray, IntArray]]:
-        """Search one job chunk by chunk; yield each chunk's short cells.
+        """Search one job chunk by chunk; yield each chunk's open cells.
 
         Chunks are searched, and their cells given donors, on the pool's threads (numpy
         and BLAS release the GIL); the results are stored in order here. ``advance`` is
@@ -375,30 +411,54 @@ class _Jobs:
     ) -> _Found:
         """The donors of every target cell of ``part`` from its rows' candidate lists ``best``.
 
-        Returns the cells (column, row), their donors and squared distances, and which
-        cells are short of ``kmax`` donors (never when ``everyone``: the lists hold every
-        candidate, so there is nothing more to find).
+        Each cell keeps its first ``keep`` donors in the list's (search) order; their
+        distances are then made exact where rounding matters and re-sorted. Returns the
+        cells (column, row), their donors and squared distances, and which cells are open
+        (:func:`~imputer_app.engine._exact.still_open`: the next donor, or the first one
+        past a full list, might tie; never past the list when ``everyone``: the lists
+        hold every candidate).
         """
         r, j = np.nonzero(self.want[np.ix_(part, cols)])
         col = cols[j]
-        cand, cd2 = best[0][r], best[1][r]
-        ok = self.ok[np.maximum(cand, 0), col[:, None]]
-        idx, d2, short = first_donors(cand, cd2, ok, self.kmax)
-        return col, part[r], idx, d2, short & (not everyone)
+        lists, ld2 = best
+        ok = self.ok[np.maximum(lists[r], 0), col[:, None]] & np.isfinite(ld2[r])
+        pos = first_positions(ok, self.keep + 1)  # one more: the next donor
+        width = ld2.shape[1]
+        past = ld2[r, -1] if width and not everyone else np.full(len(r), np.inf)
+        beyond = np.where(pos[:, -1] >= 0, ld2[r, np.maximum(pos[:, -1], 0)], past)
+        idx, d2 = exact_cells(self.search.model, part, lists, ld2, r, pos[:, : self.keep])
+        count = (idx >= 0).sum(axis=1)
+        return col, part[r], idx, d2, still_open(d2, count, self.kmax, beyond, self.search.model.noise)
 
     def _list_size(self, cols: IntArray, cand: IntArray) -> int:
         """Candidates kept per row so that nearly every cell finds kmax donors among them."""
         share = float(self.ok[np.ix_(cand, cols)].mean(axis=0).min()) if len(cand) else 1.0
         # expected donors in the list: share x length; a cell short of kmax is searched again
-        return min(len(cand), math.ceil(self.kmax / max(share, 1e-9) * 1.3) + 4)
+        return min(len(cand), math.ceil(self.keep / max(share, 1e-9) * 1.3) + 4)
 
-    def _exact(self, cells: _Cells, col: IntArray, row: IntArray, cancel: CancelFlag | None) -> None:
-        """Search the short cells among their own column's donors only."""
-        for j in np.unique(col):
+    def _widen(self, cells: _Cells, col: IntArray, row: IntArray, cancel: CancelFlag | None) -> None:
+        """Search the open cells among their own column's donors, twice as widely each round.
+
+        A round keeps every donor it finds (exact, sorted); a cell stays open while its
+        tie with the ``kmax``-th donor may run past them.
+        """
+        for j in np.unique(col).tolist():
             rows = np.sort(row[col == j])
             cand = self.search.model.candidates(np.flatnonzero(self.ok[:, j]))
             chunk, tile = self.search.sizes(len(cand))
-            for part in chunks(rows, chunk):
-                idx, d2 = self.search.nearest(part, cand, self.kmax, tile, cancel)
-                idx, d2, _ = first_donors(idx, d2, np.ones(idx.shape, dtype=bool), self.kmax)
-                cells.put(np.full(len(part), j), part, idx, d2)
+            size = 2 * self.keep
+            while len(rows):
+                size = min(size, len(cand))
+                still: list[IntArray] = []
+                for part in chunks(rows, chunk):
+                    idx, d2 = self.search.nearest(part, cand, size, tile, cancel)
+                    idx, d2, beyond = exact_lists(self.search.model, part, idx, d2)
+                    if size >= len(cand):
+                        beyond[:] = np.inf
+                    count = (idx >= 0).sum(axis=1)
+                    open_ = still_open(d2, count, self.kmax, beyond, self.search.model.noise)
+                    open_ &= size < len(cand)
+                    cells.put(np.full(len(part), j), part, idx, d2)
+                    still.append(part[open_])
+                rows = np.concatenate(still)
+                size *= 2

@@ -55,6 +55,9 @@ class PreparedTable:
         ("<" gives an upper cap, ">" a lower one); NaN where there is none.
     unknown_limit : dict of str to ndarray of bool, shape (n_rows,)
         Per numeric fill column: censored cells whose limit is unknown (filled by kNN).
+    measured : ndarray of bool, shape (n_rows,), or None
+        The row has a value in a weighted similarity column, constant columns (left
+        out of the distance) included.
     """
 
     n_rows: int
@@ -74,6 +77,7 @@ class PreparedTable:
     cap_upper: dict[str, NDArray[np.float64]] = field(default_factory=dict)
     cap_lower: dict[str, NDArray[np.float64]] = field(default_factory=dict)
     unknown_limit: dict[str, NDArray[np.bool_]] = field(default_factory=dict)
+    measured: NDArray[np.bool_] | None = None
 
     def targets(self) -> dict[str, NDArray[np.bool_]]:
         """Default rows to fill per fill column: every cell that is not observed."""

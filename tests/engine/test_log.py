@@ -141,7 +141,8 @@ def test_spread_equals_numpy_nanstd() -> None:
     count = rng.integers(0, 7, size=50)
     index = np.where(np.arange(6)[None, :] < count[:, None], 1, -1)
     v[index < 0] = np.nan
-    donors = ColumnDonors(np.arange(50), index, np.zeros((50, 6)), count)
+    distance = np.broadcast_to(np.arange(1.0, 7.0), (50, 6))  # no ties: the k nearest exactly
+    donors = ColumnDonors(np.arange(50), index, np.where(index >= 0, distance, np.inf), count)
     for k in (1, 3, 6):
         part = np.where(np.arange(6)[None, :] < np.minimum(count, k)[:, None], v, np.nan)[:, :k]
         many = np.minimum(count, k) >= 2

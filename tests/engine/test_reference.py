@@ -52,7 +52,8 @@ def _tied_at_k(x: np.ndarray, k: int) -> np.ndarray:
 
     There KNNImputer picks among the tied donors in no stated order (it uses
     argpartition, and its distances carry rounding noise up to ~1e-7 near 0) while
-    Kinfill takes the earlier row, so only the other cells compare.
+    Kinfill lets all tied donors share the last places (README "How the numbers are
+    made"), so only the other cells compare.
     """
     dist = nan_euclidean_distances(x)
     tied = np.zeros(x.shape, dtype=bool)
