@@ -8,6 +8,7 @@ in its own module (:mod:`~imputer_app.engine._prepare`,
 
 from __future__ import annotations
 
+import dataclasses
 from typing import Any
 
 import pandas as pd
@@ -73,6 +74,13 @@ def impute(
     inp = unpack(data)
     table, censored = prepare_input(inp, plan, cancel=cancel)
     k = table.plan.k
+    # A row is never its own donor, so no cell has more than n_rows - 1 donors: a larger k
+    # uses every donor, and must not size the search's arrays (k = 10**9 would ask for TiB).
+    most = max(1, table.n_rows - 1)
+    if k > most:
+        remark = f"k = {k} is more than the {most} possible donors; every donor is used"
+        table = dataclasses.replace(table, warnings=(*table.warnings, remark))
+        k = most
     # the search's steps, and one more for the values and the log (up to 40 % of the time on a
     # wide sheet), so that the bar is not full while the log is built
     steps = 0

@@ -365,3 +365,14 @@ def test_same_input_same_result() -> None:
     first, second = impute(frame, FillPlan(k=4)), impute(frame, FillPlan(k=4))
     pd.testing.assert_frame_equal(first.frame, second.frame)
     pd.testing.assert_frame_equal(first.log, second.log)
+
+
+@pytest.mark.parametrize("k", [299, 10**9])
+def test_a_k_beyond_the_donors_uses_every_donor_at_no_extra_cost(k):
+    # Common practice, no source: k equal to the number of donors gives the column mean.
+    rng = np.random.default_rng(0)
+    frame = pd.DataFrame(rng.normal(size=(300, 3)), columns=["a", "b", "c"])
+    frame.iloc[0, 0] = np.nan
+    result = impute(frame, FillPlan(k=k, scaling="none"))
+    assert result.frame.iloc[0, 0] == pytest.approx(frame["a"].iloc[1:].mean(), abs=1e-12)
+    assert any("299 possible donors" in w for w in result.warnings) == (k > 299)
