@@ -6,6 +6,7 @@ recorded, beside the writer that records it.
 
 from imputer_app.sheets._atomic import same_file
 from imputer_app.sheets._export_plan import read_export_plan
+from imputer_app.sheets._methods_text import methods_paragraph
 from imputer_app.sheets._model import CELL_STATES, ColumnInfo, Sheet, SourceInfo
 from imputer_app.sheets._read import list_sheets, read_sheet
 from imputer_app.sheets._run_record import RecoveryEvidence
@@ -19,6 +20,7 @@ __all__ = [
     "SourceInfo",
     "export_side_files",
     "list_sheets",
+    "methods_paragraph",
     "read_export_plan",
     "read_sheet",
     "same_file",

@@ -43,6 +43,9 @@ MAX_COMMENTS = 20_000
 #: Largest sheet a spreadsheet program opens (Excel specifications, quoted from memory).
 MAX_ROWS, MAX_COLUMNS = 1_048_576, 16_384
 
+#: About this many characters of wrapped text fit one line of "About this fill" column B.
+WRAP_CHARS = 110
+
 #: Data rows rendered per chunk (progress and cancel are checked between chunks).
 CHUNK_ROWS = 2_000
 
@@ -296,6 +299,8 @@ def _about_sheet(sheet: Worksheet, record: dict[str, Any], formats: dict[str, Fo
         else:
             _put(sheet, row, 0, key or None)
             _put(sheet, row, 1, value if value != "" else None, marks.get(key, formats["wrap"]))
+            if isinstance(value, str) and len(value) > WRAP_CHARS:  # the methods text: room to read it
+                sheet.set_row(row, min(409, 15 * (len(value) // WRAP_CHARS + 1)))
 
 
 # ------------------------------------------------------------------ streamed rows
