@@ -102,6 +102,28 @@ def run_score_k(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def run_gaps(args: argparse.Namespace) -> int:
+    """``kinfill gaps``: run the gap check and print it in plain words or as JSON."""
+    source = existing_input(args.input)
+    plan = plan_for(args)
+    from imputer_app.cli.gaps_text import gaps_record, gaps_text
+    from imputer_app.validation import gap_check
+
+    bar = TextProgress(sys.stderr)
+    try:
+        with stop_on_ctrl_c(sys.stderr) as stop:
+            sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            check = gap_check(sheet, plan, progress=bar.stage("checking"), cancel=stop)
+    finally:
+        bar.done()
+    print_notes(sheet.problems, ())
+    if args.json:
+        print(json.dumps(gaps_record(check, sheet), indent=2, ensure_ascii=False, allow_nan=False))
+    else:
+        print(gaps_text(check, source.name))
+    return EXIT_OK
+
+
 def run_plan(args: argparse.Namespace) -> int:
     """``kinfill plan``: write the plan Kinfill would use for a sheet, roles spelled out."""
     source = existing_input(args.input)
