@@ -233,6 +233,12 @@ def build_parser() -> argparse.ArgumentParser:
     fill.add_argument(
         "--out", metavar="OUTPUT", type=Path, help="xlsx, or csv with sidecars (default <input>.filled.xlsx)"
     )
+    fill.add_argument(
+        "--pictures",
+        metavar="DIR",
+        type=Path,
+        help="also write pictures of the fill (PNG and SVG) into this folder (made if missing)",
+    )
     fill.add_argument("--force", action="store_true", help="replace existing output files")
     _add_common(fill)
     fill.set_defaults(run=commands.run_fill)

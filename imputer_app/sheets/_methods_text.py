@@ -180,11 +180,11 @@ def _k_sentence(k: int, report: RecoveryEvidence | None, cites: list[str]) -> st
     text += f" The lowest mean error was at k = {best}"
     overall = getattr(report, "overall", None)
     if isinstance(overall, pd.DataFrame) and best in overall.index and "score" in overall:
-        text += f" (score {number_text(float(overall.loc[best, 'score']))})"
+        text += f" (score {number_text(_cell(overall, best, 'score'))})"
     text += f"; the largest k within one standard error of it was {one_se}."
     baseline = getattr(report, "baseline", None)
     if isinstance(baseline, pd.DataFrame) and "overall" in baseline.index and "score" in baseline:
-        score = float(baseline.loc["overall", "score"])
+        score = _cell(baseline, "overall", "score")
         if math.isfinite(score):
             text += f" Filling with the column average scored {number_text(score)}."
     if k == one_se:
@@ -195,6 +195,12 @@ def _k_sentence(k: int, report: RecoveryEvidence | None, cites: list[str]) -> st
     else:
         text += f" k = {k} was used, set by the user after the test."
     return text
+
+
+def _cell(table: pd.DataFrame, row: Any, column: str) -> float:
+    """One number of a table by row label and column (NaN when it is not a number)."""
+    values = pd.to_numeric(table[column], errors="coerce").to_numpy(dtype=float)
+    return float(values[table.index.get_loc(row)])
 
 
 def _k_range(ks: Sequence[int]) -> str:
