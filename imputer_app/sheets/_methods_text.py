@@ -24,7 +24,6 @@ if TYPE_CHECKING:
     from imputer_app.engine import FillResult
     from imputer_app.plan import FillPlan
     from imputer_app.sheets._model import Sheet
-    from imputer_app.sheets._run_record import RecoveryEvidence
 
 #: Works cited, by key; a paragraph cites only those its run used.
 REFERENCES = {
@@ -62,7 +61,7 @@ _CENSORED_WAYS = {
 def methods_paragraph(
     result: FillResult,
     plan: FillPlan,
-    report: RecoveryEvidence | None = None,
+    report: Any = None,
     sheet: Sheet | None = None,
 ) -> str:
     """Return a methods paragraph that states what this fill did, with its references.
@@ -74,8 +73,8 @@ def methods_paragraph(
     plan : FillPlan
         The plan as given; k counts as set by the user when no report is given.
     report : RecoveryReport or None, default=None
-        The recovery test behind k; its settings, best k, one-SE k and baseline are
-        stated when given.
+        The recovery test behind k; its ``settings``, ``ks``, ``best_k``, ``best_k_1se``,
+        ``overall`` and ``baseline`` are stated when given.
     sheet : Sheet or None, default=None
         The sheet filled; its file name is stated when given.
 
@@ -164,7 +163,7 @@ def _has_categories(result: FillResult) -> bool:
     return any(not pd.api.types.is_numeric_dtype(result.frame[c]) for c in fills)
 
 
-def _k_sentence(k: int, report: RecoveryEvidence | None, cites: list[str]) -> str:
+def _k_sentence(k: int, report: Any, cites: list[str]) -> str:
     if report is None:
         return f"k = {k} was set by the user."
     settings: Mapping[str, Any] = getattr(report, "settings", {}) or {}
