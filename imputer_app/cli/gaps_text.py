@@ -46,28 +46,40 @@ def gaps_text(check: GapCheck, name: str) -> str:
     lines.append(f"  {LIMITS}")
     lines += ["", check.headline, ""]
     lines.append(f"How rows with a gap differ from the others (largest first, top {TOP_DIFFERENCES}):")
-    lines.append(_table(_differences(check.differences).head(TOP_DIFFERENCES)))
+    lines.append(_table(difference_rows(check.differences).head(TOP_DIFFERENCES)))
     lines += ["", f"Gap patterns (x = gap; most frequent first, top {TOP_PATTERNS}):"]
-    lines.append(_table(_patterns(check.patterns).head(TOP_PATTERNS)))
+    lines.append(_table(pattern_rows(check.patterns).head(TOP_PATTERNS)))
     if len(check.patterns) > TOP_PATTERNS:
         lines.append(f"  ... {len(check.patterns) - TOP_PATTERNS} more patterns in --json")
     return "\n".join(lines)
 
 
-def _differences(table: pd.DataFrame) -> pd.DataFrame:
+#: Columns of :func:`difference_rows`, in order.
+DIFFERENCE_ROWS = ("gap_column", "other_column", "difference", "measure", "detail", "n_gap", "n_present")
+
+
+def difference_rows(table: pd.DataFrame) -> pd.DataFrame:
+    """The differences table for reading: the difference as signed text and its measure.
+
+    Shared by the command line and the app's Gaps view.
+    """
+    if table.empty:
+        return pd.DataFrame(columns=list(DIFFERENCE_ROWS))
     shown = table.copy()
-    if shown.empty:
-        return shown
     shown["difference"] = [_number(v) for v in shown["difference"]]
     shown["measure"] = ["SD units" if k == "number" else "share" for k in shown["kind"]]
-    return shown[["gap_column", "other_column", "difference", "measure", "detail", "n_gap", "n_present"]]
+    return shown[list(DIFFERENCE_ROWS)]
 
 
-def _patterns(table: pd.DataFrame) -> pd.DataFrame:
+def pattern_rows(table: pd.DataFrame, gap: str = "x", value: str = ".") -> pd.DataFrame:
+    """The pattern table for reading: ``gap`` where a column has a gap, the share in per cent.
+
+    Shared by the command line and the app's Gaps view.
+    """
     shown = table.copy()
     for column in shown.columns:
         if shown[column].dtype == bool:
-            shown[column] = shown[column].map({True: "x", False: "."})
+            shown[column] = shown[column].map({True: gap, False: value})
     if "share" in shown:
         shown["share"] = [f"{100 * float(v):.1f} %" for v in shown["share"]]
     return shown

@@ -24,6 +24,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from imputer_app.cli.gaps_text import LIMITS, difference_rows, pattern_rows
 from imputer_app.gui.widgets import button, named, text_label
 from imputer_app.gui.workers import TaskRunner
 
@@ -36,11 +37,6 @@ IDLE_TEXT = (
     "Check the gaps of the open sheet: are they random, or do they come with high or low values elsewhere?"
 )
 STALE_TEXT = "The sheet or the plan changed since this check; check again."
-LIMITS_TEXT = (
-    "The test compares means only: it cannot tell gaps that depend on other columns (kNN copes when "
-    "those are similarity columns) from gaps that depend on the missing value itself (no fill copes); "
-    "a large p-value does not prove the gaps random."
-)
 DIFFERENCE_HEADERS = (
     "Gaps in",
     "Compared column",
@@ -101,9 +97,7 @@ class GapsView(QWidget):
         self.mcar_label = text_label(
             self, "gapsMcar", "Little's test", "Statistic, degrees of freedom and p-value", selectable=True
         )
-        self.meaning_label = text_label(
-            self, "gapsMeaning", "What the test means", LIMITS_TEXT, selectable=True
-        )
+        self.meaning_label = text_label(self, "gapsMeaning", "What the test means", LIMITS, selectable=True)
         self.headline_label = text_label(
             self,
             "gapsHeadline",
@@ -181,10 +175,10 @@ class GapsView(QWidget):
             self._fill(self.patterns, pd.DataFrame())
             return
         self.mcar_label.setText(mcar_line(check))
-        self.meaning_label.setText(f"{check.mcar.meaning} {LIMITS_TEXT}")
+        self.meaning_label.setText(f"{check.mcar.meaning} {LIMITS}")
         self.headline_label.setText(check.headline)
-        self._fill(self.differences, _differences(check.differences), DIFFERENCE_HEADERS)
-        self._fill(self.patterns, _patterns(check.patterns))
+        self._fill(self.differences, difference_rows(check.differences), DIFFERENCE_HEADERS)
+        self._fill(self.patterns, pattern_rows(check.patterns, gap="x", value=""))
 
     @staticmethod
     def _fill(table: QTableWidget, frame: pd.DataFrame, headers: tuple[str, ...] | None = None) -> None:
@@ -196,31 +190,3 @@ class GapsView(QWidget):
             for j, value in enumerate(row):
                 table.setItem(i, j, QTableWidgetItem(str(value)))
         table.resizeColumnsToContents()
-
-
-def _differences(table: pd.DataFrame) -> pd.DataFrame:
-    if table.empty:
-        return pd.DataFrame(columns=list(DIFFERENCE_HEADERS))
-    difference = [f"{float(v):+.2f}" if math.isfinite(float(v)) else "–" for v in table["difference"]]
-    measure = ["SD units" if kind == "number" else "share" for kind in table["kind"]]
-    return pd.DataFrame(
-        {
-            "gap": table["gap_column"],
-            "other": table["other_column"],
-            "difference": difference,
-            "measure": measure,
-            "detail": table["detail"],
-            "n_gap": table["n_gap"],
-            "n_present": table["n_present"],
-        }
-    )
-
-
-def _patterns(table: pd.DataFrame) -> pd.DataFrame:
-    shown = table.copy()
-    for column in shown.columns:
-        if shown[column].dtype == bool:
-            shown[column] = shown[column].map({True: "x", False: ""})
-    if "share" in shown:
-        shown["share"] = [f"{100 * float(v):.1f} %" for v in shown["share"]]
-    return shown
