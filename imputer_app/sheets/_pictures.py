@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import io
 import re
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -24,6 +24,7 @@ import pandas as pd
 
 from imputer_app import __version__
 from imputer_app.charts import plot_coverage, plot_fill_distribution, plot_fill_scatter
+from imputer_app.errors import Cancelled
 from imputer_app.files import atomic_targets
 
 if TYPE_CHECKING:
@@ -203,7 +204,12 @@ def write_picture_files(
     return list(files)
 
 
-def add_pictures_sheet(book: Workbook, result: Any, similarity: Sequence[str] | None = None) -> str:
+def add_pictures_sheet(
+    book: Workbook,
+    result: Any,
+    similarity: Sequence[str] | None = None,
+    check: Callable[[], object] | None = None,
+) -> str:
     """Add the "Pictures" sheet with every picture of the fill as a PNG; return a note for the record.
 
     Nothing is added when the fill has no picture (no number was filled), nor when the
@@ -217,10 +223,18 @@ def add_pictures_sheet(book: Workbook, result: Any, similarity: Sequence[str] | 
         Has ``frame`` and ``filled`` (``censored``, ``plan`` and ``coverage`` optional).
     similarity : sequence of str or None, default=None
         Scatter partner candidates (see :func:`scatter_partner`).
+    check : callable or None, default=None
+        Called before each picture is rendered; raises ``Cancelled`` to stop the export.
     """
+    images: list[bytes] = []
     try:
         pictures = fill_pictures(result, similarity=similarity)
-        images = [picture_bytes(p.figure, "png", SHEET_DPI) for p in pictures]
+        for picture in pictures:
+            if check is not None:
+                check()
+            images.append(picture_bytes(picture.figure, "png", SHEET_DPI))
+    except Cancelled:
+        raise
     except Exception as exc:
         return f"pictures not included: they could not be drawn ({type(exc).__name__}: {exc})"
     if not pictures:

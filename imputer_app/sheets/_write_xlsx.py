@@ -183,14 +183,16 @@ def _skeleton(
         _table_skeleton(book.add_worksheet("Not filled"), content.unfilled)
     if report is not None:
         _recovery_sheet(book.add_worksheet("Recovery test"), report, record, chart, formats)
-    _add_pictures(book, content, record)
+    _add_pictures(book, content, record, ticker)
     _about_sheet(book.add_worksheet(ABOUT_SHEET), record, formats)
     filled.activate()
     book.close()  # assigns every format its xf_index
     return buffer.getvalue(), formats
 
 
-def _add_pictures(book: xlsxwriter.Workbook, content: ExportContent, record: dict[str, Any]) -> None:
+def _add_pictures(
+    book: xlsxwriter.Workbook, content: ExportContent, record: dict[str, Any], ticker: Ticker
+) -> None:
     """The "Pictures" sheet, drawn from the export's own marks (see :mod:`._pictures`)."""
     frame = content.frame
     table = FilledTable(
@@ -199,7 +201,7 @@ def _add_pictures(book: xlsxwriter.Workbook, content: ExportContent, record: dic
         censored=pd.DataFrame(content.marks == CENSORED, index=frame.index, columns=frame.columns),
     )
     similarity = (record.get("plan_resolved") or {}).get("similarity_columns")
-    record["output"]["pictures"] = add_pictures_sheet(book, table, similarity)
+    record["output"]["pictures"] = add_pictures_sheet(book, table, similarity, ticker.step)
 
 
 def _placeholders(sheet: Worksheet, first: int, last: int, n_columns: int) -> None:

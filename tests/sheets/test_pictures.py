@@ -104,3 +104,22 @@ def test_xlsx_export_has_a_pictures_sheet_with_every_picture(tmp_path: Path) -> 
     assert len(book["Pictures"]._images) == n
     about = {r[0]: r[1] for r in book["About this fill"].iter_rows(values_only=True) if r and r[0]}
     assert about["pictures"] == f"{n} pictures on the Pictures sheet"
+
+
+def test_cancel_during_an_export_with_pictures_writes_nothing(small: pd.DataFrame, tmp_path: Path) -> None:
+    import threading
+
+    from imputer_app.errors import Cancelled
+
+    result = impute(small, FillPlan(k=3))
+    stop = threading.Event()
+    calls = []
+
+    def progress(done: int, total: int) -> None:
+        calls.append(done)
+        if len(calls) > 3:
+            stop.set()
+
+    with pytest.raises(Cancelled):
+        write_result(tmp_path / "out.xlsx", None, result, FillPlan(k=3), progress=progress, cancel=stop)
+    assert list(tmp_path.iterdir()) == []
