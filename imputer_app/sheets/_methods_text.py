@@ -50,6 +50,7 @@ _SCALING = {
     "robust": "scaled by median and interquartile range",
     "none": "left unscaled",
 }
+_DEFAULT_SIMILARITY = ": by default, every number and category column not carried"
 _RULE = {"mean": "the mean", "median": "the median"}
 _CENSORED_WAYS = {
     **SUBSTITUTION_PHRASES,
@@ -71,7 +72,8 @@ def methods_paragraph(
     result : FillResult
         The fill; its ``plan`` (columns resolved), ``filled`` and ``log`` are read.
     plan : FillPlan
-        The plan as given; k counts as set by the user when no report is given.
+        The plan as given: when it names no similarity columns, the paragraph says the
+        default set was used.
     report : RecoveryReport or None, default=None
         The recovery test behind k; its ``settings``, ``ks``, ``best_k``, ``best_k_1se``,
         ``overall`` and ``baseline`` are stated when given.
@@ -85,7 +87,10 @@ def methods_paragraph(
     """
     used = result.plan
     cites: list[str] = ["troyanskaya", "dixon"]
-    parts = [_filled_sentence(result, sheet), _distance_sentence(result, cites)]
+    parts = [
+        _filled_sentence(result, sheet),
+        _distance_sentence(result, cites, plan.similarity_columns is None),
+    ]
     categories = _has_categories(result)
     parts.append(_donor_sentence(used.numeric_rule, used.neighbour_weighting, used.k, categories))
     parts.append(_k_sentence(used.k, report, cites))
@@ -121,7 +126,7 @@ def _filled_sentence(result: FillResult, sheet: Sheet | None) -> str:
     return text
 
 
-def _distance_sentence(result: FillResult, cites: list[str]) -> str:
+def _distance_sentence(result: FillResult, cites: list[str], by_default: bool) -> str:
     used = result.plan
     columns = list(used.similarity_columns or ())
     categories = [c for c in columns if not pd.api.types.is_numeric_dtype(result.frame[c])]
@@ -133,7 +138,8 @@ def _distance_sentence(result: FillResult, cites: list[str]) -> str:
     text = (
         "Similarity between rows was measured by Dixon's missing-aware Euclidean distance (Dixon 1979), "
         f"which rescales the sum over the columns both rows hold to all columns, over {len(columns)} "
-        f"similarity columns ({', '.join(columns)}), {weighted}; number columns were "
+        f"similarity columns ({', '.join(columns)}{_DEFAULT_SIMILARITY if by_default else ''}), "
+        f"{weighted}; number columns were "
         f"{_SCALING.get(used.scaling, used.scaling)}."
     )
     if categories:
