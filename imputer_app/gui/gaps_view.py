@@ -88,7 +88,7 @@ class GapsView(QWidget):
     def _build(self) -> None:
         layout = QVBoxLayout(self)
         top = QHBoxLayout()
-        self.run_button = button(self, "gapsRun", "&Check gaps", "Run Little's test and the gap tables now")
+        self.run_button = button(self, "gapsRun", "Check gaps", "Run Little's test and the gap tables now")
         self.run_button.clicked.connect(self.run)
         top.addWidget(self.run_button)
         top.addStretch(1)

@@ -103,10 +103,10 @@ class MainWindow(QMainWindow):
                 (self.unfilled_panel, "U&nfilled", "Cells the fill could not fill, with the reason"),
                 (
                     self.pictures_view,
-                    "&Pictures",
+                    "Pictures",
                     "Filled values against measured ones: click a point to see its cell",
                 ),
-                (self.gaps_view, "&Gaps", "Why the gaps are there: Little's test, differences and patterns"),
+                (self.gaps_view, "Gaps", "Why the gaps are there: Little's test, differences and patterns"),
             ]
         )
         self.recovery_panel.use_k.connect(self._use_k)

@@ -77,9 +77,9 @@ class PicturesView(QWidget):
         )
         self.x_box = compact(named(QComboBox(self), "picturesX", "Scatter x column", "Column across"))
         self.y_box = compact(named(QComboBox(self), "picturesY", "Scatter y column", "Column up"))
-        form.addRow(buddy("&Column", self.column_box, self), self.column_box)
+        form.addRow(buddy("Column", self.column_box, self), self.column_box)
         form.addRow(buddy("Scatter &x", self.x_box, self), self.x_box)
-        form.addRow(buddy("Scatter &y", self.y_box, self), self.y_box)
+        form.addRow(buddy("Scatter y", self.y_box, self), self.y_box)
         layout.addLayout(form)
         self.distribution_canvas = self._canvas(
             "picturesDistribution",
