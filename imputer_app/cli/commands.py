@@ -43,6 +43,7 @@ def run_fill(args: argparse.Namespace) -> int:
     out = fill_output(source, args.out)
     refuse_overwrite([out], args.force)
     refuse_too_wide_for_xlsx(source, out)
+    check_picture_folder(args.pictures)
     plan = plan_for(args)
     from imputer_app.engine import impute
     from imputer_app.sheets import export_side_files, write_result
@@ -58,14 +59,42 @@ def run_fill(args: argparse.Namespace) -> int:
             check_fits_xlsx(out, sheet)
             plan = capped_k(plan, len(sheet.frame))
             result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop)
+            pictures = fill_picture_files(args.pictures, result, source, args.force)
             written = write_result(out, sheet, result, plan, progress=bar.stage("writing"), cancel=stop)
     finally:
         bar.done()
+    if pictures:
+        from imputer_app.sheets import write_picture_files
+
+        written = [*written, *write_picture_files(pictures, source=source, force=args.force)]
     print_notes(sheet.problems, result.warnings)
     show(fill_summary(source, result, written, sheet))
     for path in remove_stale(old_sidecars, written, source):
         show(f"removed {path} (left over from an earlier export)")
     return EXIT_OK
+
+
+def fill_picture_files(folder: Path | None, result: Any, source: Path, force: bool) -> dict[Path, bytes]:
+    """Draw ``kinfill fill --pictures`` before anything is written, and check their names."""
+    if folder is None:
+        return {}
+    from imputer_app.sheets import picture_files
+
+    files = picture_files(folder, result)
+    refuse_input(list(files), source)
+    refuse_overwrite(list(files), force)
+    folder.mkdir(exist_ok=True)
+    return files
+
+
+def check_picture_folder(folder: Path | None) -> None:
+    """Refuse a ``--pictures`` folder that is a file or lies in a missing folder (before any work)."""
+    if folder is None:
+        return
+    if folder.exists() and not folder.is_dir():
+        raise UsageError(f"--pictures must name a folder; {folder} is a file")
+    if not folder.parent.is_dir():
+        raise UsageError(f"folder not found for --pictures: {folder.parent}")
 
 
 def run_score_k(args: argparse.Namespace) -> int:
@@ -108,6 +137,28 @@ def run_score_k(args: argparse.Namespace) -> int:
 
         save_figure(plot_error_vs_k(report), args.plot, force=args.force, source=source)
         show(f"wrote {args.plot}")
+    return EXIT_OK
+
+
+def run_gaps(args: argparse.Namespace) -> int:
+    """``kinfill gaps``: run the gap check and print it in plain words or as JSON."""
+    source = existing_input(args.input)
+    plan = plan_for(args)
+    from imputer_app.cli.gaps_text import gaps_record, gaps_text
+    from imputer_app.validation import gap_check
+
+    bar = TextProgress(sys.stderr)
+    try:
+        with stop_on_ctrl_c(sys.stderr) as stop:
+            sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            check = gap_check(sheet, plan, progress=bar.stage("checking"), cancel=stop)
+    finally:
+        bar.done()
+    print_notes(sheet.problems, ())
+    if args.json:
+        print(json.dumps(gaps_record(check, sheet), indent=2, ensure_ascii=False, allow_nan=False))
+    else:
+        print(gaps_text(check, source.name))
     return EXIT_OK
 
 

@@ -140,6 +140,17 @@ Writes the plan Kinfill would use for this sheet, with the column roles spelled 
 for you to edit and pass to `kinfill fill --plan`.
 """
 
+GAPS_EXAMPLES = """\
+examples:
+  kinfill gaps river_survey.xlsx
+  kinfill gaps river_survey.csv --plan monthly.plan.toml --json > gaps.json
+
+Checks the similarity and fill columns before a fill: Little's test of missing
+completely at random (Little 1988), how rows with a gap differ from the others, and
+which combinations of gaps occur. A small p-value says the gaps depend on something;
+it does not say on what, and a large one does not prove the gaps random.
+"""
+
 GUI_EXAMPLES = """\
 examples:
   kinfill gui
@@ -232,6 +243,12 @@ def build_parser() -> argparse.ArgumentParser:
     fill.add_argument(
         "--out", metavar="OUTPUT", type=Path, help="xlsx, or csv with sidecars (default <input>.filled.xlsx)"
     )
+    fill.add_argument(
+        "--pictures",
+        metavar="DIR",
+        type=Path,
+        help="also write pictures of the fill (PNG and SVG) into this folder (made if missing)",
+    )
     fill.add_argument("--force", action="store_true", help="replace existing output files")
     _add_common(fill)
     fill.set_defaults(run=commands.run_fill)
@@ -270,6 +287,13 @@ def build_parser() -> argparse.ArgumentParser:
     plan.add_argument("--force", action="store_true", help="replace an existing plan file")
     _add_common(plan)
     plan.set_defaults(run=commands.run_plan)
+
+    gaps = _subparser(subs, "gaps", "check why the gaps are there, before filling them", GAPS_EXAMPLES)
+    _add_read_options(gaps)
+    _add_plan_options(gaps, with_k=False)
+    gaps.add_argument("--json", action="store_true", help="print the gap check as JSON")
+    _add_common(gaps)
+    gaps.set_defaults(run=commands.run_gaps)
 
     gui = _subparser(subs, "gui", "open the Kinfill window", GUI_EXAMPLES)
     gui.add_argument("input", metavar="INPUT", nargs="?", type=Path, help="a sheet to open")

@@ -128,6 +128,8 @@ def _what_it_holds(path: Path) -> str:
         (".fill-log.csv", "fill log"),
         (".run.json", "run record"),
         (".not-filled.csv", "cells left empty, with reasons"),
+        (".png", "picture of the fill"),
+        (".svg", "picture of the fill"),
     ):
         if name.endswith(suffix):
             return f"  ({words})"

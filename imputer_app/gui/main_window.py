@@ -23,8 +23,11 @@ from imputer_app.gui.about import AboutDialog
 from imputer_app.gui.column_setup import ColumnSetup
 from imputer_app.gui.data_view import DataView
 from imputer_app.gui.donor_panel import DonorPanel
+from imputer_app.gui.gaps_view import GapsView
 from imputer_app.gui.markers import CENSORED, palette_is_dark
+from imputer_app.gui.methods_copy import copy_methods_text
 from imputer_app.gui.panel_tabs import PanelTabs
+from imputer_app.gui.pictures_view import PicturesView
 from imputer_app.gui.plan_files import PlanFiles
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
@@ -91,11 +94,19 @@ class MainWindow(QMainWindow):
         self.recovery_panel = RecoveryPanel(self.tabs, session=self.session)
         self.donor_panel = DonorPanel(self.tabs)
         self.unfilled_panel = UnfilledPanel(self.tabs)
+        self.gaps_view = GapsView(self.tabs, session=self.session)
+        self.pictures_view = PicturesView(self.tabs, session=self.session)
         self.tabs.add_panels(
             [
                 (self.recovery_panel, "&Recovery test", "Choose k: hide known values and score every k"),
                 (self.donor_panel, "&Donors", "Where the selected filled value came from"),
                 (self.unfilled_panel, "U&nfilled", "Cells the fill could not fill, with the reason"),
+                (
+                    self.pictures_view,
+                    "Pictures",
+                    "Filled values against measured ones: click a point to see its cell",
+                ),
+                (self.gaps_view, "Gaps", "Why the gaps are there: Little's test, differences and patterns"),
             ]
         )
         self.recovery_panel.use_k.connect(self._use_k)
@@ -105,6 +116,7 @@ class MainWindow(QMainWindow):
         )
         self.donor_panel.jump_requested.connect(self.select_cell)
         self.unfilled_panel.jump_requested.connect(self.select_cell)
+        self.pictures_view.point_chosen.connect(self.select_cell)
 
         setup_area = window_layout.setup_area(self.setup, self)
         self.splitter: QSplitter = window_layout.main_splitter(self, setup_area, self.data, self.tabs)
@@ -135,6 +147,7 @@ class MainWindow(QMainWindow):
             "focus_table": lambda: self.table.setFocus(focus),
             "focus_panels": lambda: self.tabs.setFocus(focus),
             "about": self.show_about,
+            "copy_methods": lambda: copy_methods_text(self.session, self.statusBar()),
         }
 
     # ------------------------------------------------------------- background
@@ -439,4 +452,5 @@ class MainWindow(QMainWindow):
         self.save_layout()
         self.runner.wait()
         self.recovery_panel.shutdown()
+        self.gaps_view.shutdown()
         event.accept()

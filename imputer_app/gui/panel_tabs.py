@@ -9,7 +9,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 from PySide6.QtCore import Qt
-from PySide6.QtWidgets import QScrollArea, QSplitter, QTabWidget, QWidget
+from PySide6.QtWidgets import QScrollArea, QSplitter, QTabWidget, QToolButton, QWidget
 
 
 class PanelTabs(QTabWidget):
@@ -18,9 +18,12 @@ class PanelTabs(QTabWidget):
     def __init__(self, parent: QWidget | None = None) -> None:
         super().__init__(parent)
         self.setObjectName("panelTabs")
-        self.setAccessibleName("Recovery test, donors and unfilled cells")
-        self.setToolTip("Recovery test, donors of the selected cell, and cells left empty")
+        self.setAccessibleName("Recovery test, donors, unfilled cells, pictures and gaps")
+        self.setToolTip("Recovery test, donors of the selected cell, cells left empty, pictures, gap check")
         self._pages: dict[QWidget, QScrollArea] = {}
+        # The tab bar's scroll arrows: Tab skips them (the arrow keys change tabs anyway).
+        for arrow in self.tabBar().findChildren(QToolButton):
+            arrow.setFocusPolicy(Qt.FocusPolicy.NoFocus)
 
     def add_panels(self, panels: Sequence[tuple[QWidget, str, str]]) -> None:
         """Add one tab per ``(panel, title, tip)``, in order."""

@@ -55,7 +55,8 @@ def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
     slots : mapping of str to callable
         What each action does, by key: ``open``, ``open_options``, ``open_plan``,
         ``save_plan``, ``export``, ``quit``, ``undo``, ``redo``, ``recovery``, ``preview``,
-        ``apply``, ``next_gap``, ``focus_setup``, ``focus_table``, ``focus_panels``, ``about``.
+        ``apply``, ``copy_methods``, ``next_gap``, ``focus_setup``, ``focus_table``, ``focus_panels``,
+        ``about``.
     """
     std = QKeySequence.StandardKey
     specs: list[tuple[str, str, str, Any, Any]] = [
@@ -118,6 +119,13 @@ def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
             "Ctrl+Return",
             _SP.SP_DialogApplyButton,
         ),
+        (
+            "copy_methods",
+            "Copy &methods text",
+            "Copy a methods paragraph of this fill, to paste into a report",
+            None,
+            None,
+        ),
         ("next_gap", "&Next gap", "Go to the next gap or marked cell in the table", "F3", None),
         (
             "focus_setup",
@@ -162,7 +170,7 @@ def build_menus(w: QMainWindow, a: Mapping[str, QAction], recent_menu: QMenu) ->
     file_menu.addAction(a["quit"])
     edit_menu = bar.addMenu("&Edit")
     edit_menu.setObjectName("menuEdit")
-    edit_menu.addActions([a["undo"], a["redo"]])
+    edit_menu.addActions([a["undo"], a["redo"], a["copy_methods"]])
     fill_menu = bar.addMenu("F&ill")
     fill_menu.setObjectName("menuFill")
     fill_menu.addActions([a["recovery"], a["preview"], a["apply"]])
@@ -223,6 +231,7 @@ def enabled_actions(session: Session, busy: bool) -> dict[str, bool]:
         "preview": has and not busy and session.plan_problem is None,
         "apply": session.can_apply and not busy,
         "next_gap": has,
+        "copy_methods": session.preview is not None or session.applied is not None,
     }
 
 

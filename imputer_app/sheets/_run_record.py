@@ -21,6 +21,7 @@ import pandas as pd
 
 from imputer_app import CAUTIONS, __version__
 from imputer_app.charts import ErrorVsK
+from imputer_app.sheets._methods_text import methods_paragraph
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
@@ -35,6 +36,9 @@ LIBRARIES = (
 
 #: Name of the xlsx export's sheet that shows the run record (read back by _export_plan).
 ABOUT_SHEET = "About this fill"
+
+#: Row label of the methods paragraph in "About this fill".
+METHODS_LABEL = "Methods text (ready to paste)"
 
 #: Section titles of "About this fill", in order, keyed by the record's keys.
 SECTIONS = {
@@ -141,6 +145,7 @@ def build_record(
         "recovery_test": _recovery(report, result.plan.k),
         "versions": library_versions(),
         "cautions": CAUTIONS,
+        "methods_text": methods_paragraph(result, plan, report, sheet),
     }
     return jsonable(record)
 
@@ -217,6 +222,8 @@ def about_rows(record: Mapping[str, Any]) -> list[tuple[str, Any, str]]:
     and ``""`` otherwise. Values are numbers or text (lists joined with ``"; "``).
     """
     rows: list[tuple[str, Any, str]] = [("Cautions", record["cautions"], "caution"), ("", None, "")]
+    if record.get("methods_text"):
+        rows.extend([(METHODS_LABEL, record["methods_text"], ""), ("", None, "")])
     for key, title in SECTIONS.items():
         value = record.get(key)
         if value in (None, {}, []):

@@ -1,4 +1,4 @@
-"""The xlsx export: sheets "Filled", "Fill log", "Not filled", "Recovery test", "About this fill".
+"""The xlsx export: "Filled", "Fill log", "Not filled", "Recovery test", "Pictures", "About this fill".
 
 xlsxwriter writes the workbook with placeholder data sheets (styles, comments,
 image, widths, frozen panes); the long sheets' rows are then streamed into that
@@ -27,6 +27,7 @@ from xlsxwriter.worksheet import Worksheet
 
 from imputer_app.errors import ExportError
 from imputer_app.sheets._content import CENSORED, FILLED, ExportContent, cell_comments
+from imputer_app.sheets._pictures import FilledTable, add_pictures_sheet
 from imputer_app.sheets._run_record import ABOUT_SHEET, RecoveryEvidence, about_rows, recovery_table
 from imputer_app.sheets._sheetxml import ColumnCells, column_letter, excel_serial, render_line, render_rows
 from imputer_app.sheets._ticker import Ticker
@@ -42,6 +43,9 @@ MAX_COMMENTS = 20_000
 
 #: Largest sheet a spreadsheet program opens (Excel specifications, quoted from memory).
 MAX_ROWS, MAX_COLUMNS = 1_048_576, 16_384
+
+#: About this many characters of wrapped text fit one line of "About this fill" column B.
+WRAP_CHARS = 110
 
 #: Data rows rendered per chunk (progress and cancel are checked between chunks).
 CHUNK_ROWS = 2_000
@@ -179,10 +183,25 @@ def _skeleton(
         _table_skeleton(book.add_worksheet("Not filled"), content.unfilled)
     if report is not None:
         _recovery_sheet(book.add_worksheet("Recovery test"), report, record, chart, formats)
+    _add_pictures(book, content, record, ticker)
     _about_sheet(book.add_worksheet(ABOUT_SHEET), record, formats)
     filled.activate()
     book.close()  # assigns every format its xf_index
     return buffer.getvalue(), formats
+
+
+def _add_pictures(
+    book: xlsxwriter.Workbook, content: ExportContent, record: dict[str, Any], ticker: Ticker
+) -> None:
+    """The "Pictures" sheet, drawn from the export's own marks (see :mod:`._pictures`)."""
+    frame = content.frame
+    table = FilledTable(
+        frame=frame,
+        filled=pd.DataFrame(content.marks == FILLED, index=frame.index, columns=frame.columns),
+        censored=pd.DataFrame(content.marks == CENSORED, index=frame.index, columns=frame.columns),
+    )
+    similarity = (record.get("plan_resolved") or {}).get("similarity_columns")
+    record["output"]["pictures"] = add_pictures_sheet(book, table, similarity, ticker.step)
 
 
 def _placeholders(sheet: Worksheet, first: int, last: int, n_columns: int) -> None:
@@ -296,6 +315,8 @@ def _about_sheet(sheet: Worksheet, record: dict[str, Any], formats: dict[str, Fo
         else:
             _put(sheet, row, 0, key or None)
             _put(sheet, row, 1, value if value != "" else None, marks.get(key, formats["wrap"]))
+            if isinstance(value, str) and len(value) > WRAP_CHARS:  # the methods text: room to read it
+                sheet.set_row(row, min(409, 15 * (len(value) // WRAP_CHARS + 1)))
 
 
 # ------------------------------------------------------------------ streamed rows

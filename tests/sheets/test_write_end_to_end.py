@@ -19,7 +19,7 @@ from sklearn.impute import KNNImputer
 
 from imputer_app.engine import impute
 from imputer_app.plan import FillPlan
-from imputer_app.sheets import read_sheet, write_result
+from imputer_app.sheets import fill_pictures, read_sheet, write_result
 from tests.sheets.write_support import about, calamine_cells, openpyxl_cells, raw_fills
 
 FILLED = "D2E7EF"
@@ -135,7 +135,9 @@ def test_recovery_test_sheet_with_the_real_chart(tmp_path) -> None:
                 assert cells[(i, j)] == value
     with zipfile.ZipFile(out) as package:
         images = [n for n in package.namelist() if n.startswith("xl/media/")]
-        assert len(images) == 1 and package.read(images[0]).startswith(b"\x89PNG")
+        # The error-vs-k chart, and the Pictures sheet's pictures of the fill.
+        assert len(images) == 1 + len(fill_pictures(result))
+        assert all(package.read(name).startswith(b"\x89PNG") for name in images)
     recovery = about(out)["Recovery test"]
     assert recovery["chosen k (used for this fill)"] == report.best_k
     assert recovery["best k (lowest mean error)"] == report.best_k

@@ -80,10 +80,11 @@ def test_package_is_accepted_by_zipfile_and_both_readers(lab) -> None:
     with zipfile.ZipFile(lab.path) as package:
         assert package.testzip() is None
         assert package.namelist()[0] == "[Content_Types].xml"
-    assert openpyxl.load_workbook(lab.path).sheetnames == ["Filled", "Fill log", "About this fill"]
+    names = ["Filled", "Fill log", "Pictures", "About this fill"]  # Pictures: numbers were filled
+    assert openpyxl.load_workbook(lab.path).sheetnames == names
     from python_calamine import CalamineWorkbook
 
-    assert CalamineWorkbook.from_path(str(lab.path)).sheet_names == ["Filled", "Fill log", "About this fill"]
+    assert CalamineWorkbook.from_path(str(lab.path)).sheet_names == names
 
 
 def _refs(mask: pd.DataFrame) -> set[str]:
