@@ -28,7 +28,7 @@ from imputer_app.sheets._ticker import Ticker
 from imputer_app.sheets._xlsx_package import sheet_parts
 
 #: Our sheets, in the order they are added (a role names each).
-ROLES = ("Fill log", "Not filled", "Recovery test", "About this fill")
+ROLES = ("Fill log", "Not filled", "Recovery test", "Pictures", "About this fill")
 
 _STYLE_REF = re.compile(r'(<(?:c|row)\b[^>]*?\ss=")(\d+)(")')
 _COL_STYLE = re.compile(r'(<col\b[^>]*?\sstyle=")(\d+)(")')
@@ -47,9 +47,18 @@ class Donor:
 
 
 def build_donor(
-    content: ExportContent, record: dict[str, Any], report: Any, chart: bytes | None, names: dict[str, str]
+    content: ExportContent,
+    record: dict[str, Any],
+    report: Any,
+    chart: bytes | None,
+    names: dict[str, str],
+    ticker: Ticker,
 ) -> Donor:
-    """Write our sheets (``names``: role -> final sheet name) into a small package."""
+    """Write our sheets (``names``: role -> final sheet name) into a small package.
+
+    The "Pictures" role is dropped from the donor's names when no picture was drawn.
+    """
+    names = dict(names)
     buffer = io.BytesIO()
     book = xlsxwriter.Workbook(buffer, flat._OPTIONS)
     formats = flat._formats(book)
@@ -61,6 +70,8 @@ def build_donor(
         flat._table_skeleton(book.add_worksheet(names["Not filled"]), content.unfilled)
     if "Recovery test" in names:
         flat._recovery_sheet(book.add_worksheet(names["Recovery test"]), report, record, chart, formats)
+    if "Pictures" in names and not flat._add_pictures(book, content, record, ticker, names["Pictures"]):
+        del names["Pictures"]
     flat._about_sheet(book.add_worksheet(names["About this fill"]), record, formats)
     book.close()
     package = buffer.getvalue()

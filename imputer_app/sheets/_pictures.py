@@ -209,6 +209,7 @@ def add_pictures_sheet(
     result: Any,
     similarity: Sequence[str] | None = None,
     check: Callable[[], object] | None = None,
+    name: str = PICTURES_SHEET,
 ) -> str:
     """Add the "Pictures" sheet with every picture of the fill as a PNG; return a note for the record.
 
@@ -225,6 +226,8 @@ def add_pictures_sheet(
         Scatter partner candidates (see :func:`scatter_partner`).
     check : callable or None, default=None
         Called before each picture is rendered; raises ``Cancelled`` to stop the export.
+    name : str, default="Pictures"
+        The sheet's name (another when the workbook already has a "Pictures" sheet).
     """
     images: list[bytes] = []
     try:
@@ -239,7 +242,7 @@ def add_pictures_sheet(
         return f"pictures not included: they could not be drawn ({type(exc).__name__}: {exc})"
     if not pictures:
         return "no pictures: no number was filled"
-    sheet = book.add_worksheet(PICTURES_SHEET)
+    sheet = book.add_worksheet(name)
     bold = book.add_format({"bold": True, "font_size": 12})
     sheet.write_string(0, 0, "Pictures of the fill: blue circles measured, vermillion triangles filled", bold)
     for i, picture in enumerate(pictures):
@@ -247,4 +250,4 @@ def add_pictures_sheet(
         sheet.write_string(row, 0, picture.caption, bold)
         data = io.BytesIO(images[i])
         sheet.insert_image(row + 1, 0, f"{picture.stem}.png", {"image_data": data, "object_position": 3})
-    return f"{len(pictures)} pictures on the {PICTURES_SHEET} sheet"
+    return f"{len(pictures)} pictures on the {name} sheet"

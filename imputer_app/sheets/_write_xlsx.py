@@ -27,7 +27,7 @@ from xlsxwriter.worksheet import Worksheet
 
 from imputer_app.errors import ExportError
 from imputer_app.sheets._content import CENSORED, FILLED, ExportContent, cell_comments
-from imputer_app.sheets._pictures import FilledTable, add_pictures_sheet
+from imputer_app.sheets._pictures import PICTURES_SHEET, FilledTable, add_pictures_sheet
 from imputer_app.sheets._run_record import ABOUT_SHEET, RecoveryEvidence, about_rows, recovery_table
 from imputer_app.sheets._sheetxml import ColumnCells, column_letter, excel_serial, render_line, render_rows
 from imputer_app.sheets._ticker import Ticker
@@ -191,8 +191,12 @@ def _skeleton(
 
 
 def _add_pictures(
-    book: xlsxwriter.Workbook, content: ExportContent, record: dict[str, Any], ticker: Ticker
-) -> None:
+    book: xlsxwriter.Workbook,
+    content: ExportContent,
+    record: dict[str, Any],
+    ticker: Ticker,
+    name: str = PICTURES_SHEET,
+) -> bool:
     """The "Pictures" sheet, drawn from the export's own marks (see :mod:`._pictures`)."""
     frame = content.frame
     table = FilledTable(
@@ -201,7 +205,9 @@ def _add_pictures(
         censored=pd.DataFrame(content.marks == CENSORED, index=frame.index, columns=frame.columns),
     )
     similarity = (record.get("plan_resolved") or {}).get("similarity_columns")
-    record["output"]["pictures"] = add_pictures_sheet(book, table, similarity, ticker.step)
+    sheets_before = len(book.worksheets())
+    record["output"]["pictures"] = add_pictures_sheet(book, table, similarity, ticker.step, name)
+    return len(book.worksheets()) > sheets_before
 
 
 def _placeholders(sheet: Worksheet, first: int, last: int, n_columns: int) -> None:

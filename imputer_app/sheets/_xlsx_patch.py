@@ -83,7 +83,7 @@ def plan_export(sheet: Sheet, target: Path, content: ExportContent, with_report:
         )
     taken = pkg.sheet_names(workbook)
     roles = ["Fill log"] + (["Not filled"] if len(content.unfilled) else [])
-    roles += (["Recovery test"] if with_report else []) + ["About this fill"]
+    roles += (["Recovery test"] if with_report else []) + ["Pictures", "About this fill"]
     names: dict[str, str] = {}
     for role in roles:
         names[role] = pkg.free_name(role, taken)
@@ -149,7 +149,7 @@ def write_workbook(
         parts = {name: package.read(name) for name in package.namelist()}
         changed, counts = _patch(parts, sheet, result, content, plan, data, with_notes)
         ticker.step(len(content.frame))  # the data sheet's rows are done
-        donor = build_donor(content, record, report, chart, plan.names)
+        donor = build_donor(content, record, report, chart, plan.names, ticker)
         style_xml = (changed["xl/styles.xml"] or b"").decode("utf-8")
         style_xml, xf_map = styles.merge(style_xml, _donor_styles(donor.package))
         changed["xl/styles.xml"] = style_xml.encode("utf-8")

@@ -108,7 +108,7 @@ def test_only_gap_cells_change_in_the_sheet_xml(tmp_path: Path) -> None:
 def test_workbook_items_survive(tmp_path: Path) -> None:
     source, out, _, _ = export(tmp_path)
     before, after = openpyxl.load_workbook(source), openpyxl.load_workbook(out)
-    assert after.sheetnames == ["Harvest", "Methods", "Fill log", "About this fill"]
+    assert after.sheetnames == ["Harvest", "Methods", "Fill log", "Pictures", "About this fill"]
     old, new = before["Harvest"], after["Harvest"]
     assert [str(r) for r in new.merged_cells.ranges] == ["A1:G1"]
     assert new.freeze_panes == old.freeze_panes == "B5"
@@ -126,9 +126,9 @@ def test_workbook_items_survive(tmp_path: Path) -> None:
     with zipfile.ZipFile(out) as package:
         app = package.read("docProps/app.xml").decode()
     titles = "".join(
-        f"<vt:lpstr>{n}</vt:lpstr>" for n in ("Harvest", "Methods", "Fill log", "About this fill")
+        f"<vt:lpstr>{n}</vt:lpstr>" for n in ("Harvest", "Methods", "Fill log", "Pictures", "About this fill")
     )
-    assert titles + "<vt:lpstr>PhValues</vt:lpstr>" in app and "<vt:i4>4</vt:i4>" in app
+    assert titles + "<vt:lpstr>PhValues</vt:lpstr>" in app and "<vt:i4>5</vt:i4>" in app
 
 
 def test_unchanged_parts_are_byte_identical(tmp_path: Path) -> None:
@@ -171,7 +171,7 @@ def test_formulas_stay_formulas_without_a_stored_result(tmp_path: Path) -> None:
 def test_calamine_reads_the_filled_values(tmp_path: Path) -> None:
     _, out, sheet, result = export(tmp_path)
     book = CalamineWorkbook.from_path(str(out))
-    assert book.sheet_names == ["Harvest", "Methods", "Fill log", "About this fill"]
+    assert book.sheet_names == ["Harvest", "Methods", "Fill log", "Pictures", "About this fill"]
     rows = book.get_sheet_by_name("Harvest").to_python()
     for ref, value in filled_cells(sheet, result).items():
         col, row = "ABCDEFG".index(ref[0]), int(ref[1:])
@@ -188,14 +188,16 @@ def test_calamine_reads_the_filled_values(tmp_path: Path) -> None:
 
 
 def test_name_collision_gets_a_free_name(tmp_path: Path) -> None:
-    _, out, _, _ = export(tmp_path, extra_sheets=("Fill log", "about this fill"))
+    _, out, _, _ = export(tmp_path, extra_sheets=("Fill log", "about this fill", "Pictures"))
     names = openpyxl.load_workbook(out).sheetnames
     assert names == [
         "Harvest",
         "Methods",
         "Fill log",
         "about this fill",
+        "Pictures",
         "Fill log (2)",
+        "Pictures (2)",
         "About this fill (2)",
     ]
     assert openpyxl.load_workbook(out)["Fill log"]["A1"].value == "the lab's own sheet"
@@ -204,11 +206,13 @@ def test_name_collision_gets_a_free_name(tmp_path: Path) -> None:
 def test_recovery_test_sheet_and_chart_are_added(tmp_path: Path) -> None:
     _, out, _, _ = export(tmp_path, report=True)
     book = openpyxl.load_workbook(out)
-    assert book.sheetnames[2:] == ["Fill log", "Recovery test", "About this fill"]
+    assert book.sheetnames[2:] == ["Fill log", "Recovery test", "Pictures", "About this fill"]
     with zipfile.ZipFile(out) as package:
         names = package.namelist()
         assert "xl/media/image1.png" in names and "xl/charts/chart1.xml" in names
-        assert len([n for n in names if n.startswith("xl/media/")]) == 2  # the lab's image and our chart
+        media = [n for n in names if n.startswith("xl/media/")]
+    # the lab's image, our chart, and one image per picture on the Pictures sheet
+    assert len(media) == 2 + len(book["Pictures"]._images) and book["Pictures"]._images
 
 
 @pytest.mark.parametrize(("suffix", "kept"), [(".xlsm", True), (".xlsx", False)])
@@ -263,7 +267,7 @@ def test_table_layout_keeps_the_flat_export(tmp_path: Path) -> None:
     sheet = read_sheet(source)
     out = tmp_path / "flat.xlsx"
     write_result(out, sheet, impute(sheet, PLAN), PLAN, layout="table")
-    assert openpyxl.load_workbook(out).sheetnames == ["Filled", "Fill log", "About this fill"]
+    assert openpyxl.load_workbook(out).sheetnames == ["Filled", "Fill log", "Pictures", "About this fill"]
 
 
 @pytest.mark.skipif(shutil.which("soffice") is None, reason="LibreOffice is not installed")
