@@ -72,6 +72,13 @@ class RecoveryReport:
     warnings: tuple[str, ...] = field(default=())
 
     @property
+    def k_by_column_1se(self) -> dict[str, int]:
+        """Per fill column, the k in its one-SE band nearest the best single k (ESL sec. 7.10)."""
+        from imputer_app.validation._per_column_k import k_by_column
+
+        return k_by_column(self.summary, self.best_k)
+
+    @property
     def score_name(self) -> str:
         """Name of the overall score column that chose k (``score`` or ``category_error``)."""
         return "score" if "number" in self.kinds.values() else "category_error"
@@ -115,6 +122,7 @@ class RecoveryReport:
             "best_k": int(self.best_k),
             "best_k_1se": int(self.best_k_1se),
             "best_k_by_column": {str(c): int(k) for c, k in self.best_k_by_column.items()},
+            "k_by_column_1se": self.k_by_column_1se,
             "overall": _plain(self.overall.reset_index().to_dict(orient="records")),
             "baseline": _plain(baseline.to_dict(orient="index")),
             "summary": summary,
