@@ -466,8 +466,9 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
         level = data["interval_level"]
         if level != INTERVAL_OFF and (isinstance(level, bool) or not isinstance(level, int | float)):
             where = line_of(text, "interval_level")
+            shown = shown_value(level)
             raise PlanError(
-                f"{source}: interval_level must be a number or {INTERVAL_OFF!r}; got {shown_value(level)}{where}"
+                f"{source}: interval_level must be a number or {INTERVAL_OFF!r}; got {shown}{where}"
             )
         kwargs["interval_level"] = level
     bounds: dict[str, Bound] = {}

@@ -7,8 +7,9 @@ and the column's k, and each hidden cell gets a score. Numbers use the locally w
 score ``|truth - fill| / (donor SD + floor)``, so that a cell whose donors disagree gets
 a wider interval and one whose donors agree a narrower one; the floor (the median
 donor SD of the hidden cells, at least a tenth of the column's SD: Kinfill's own
-choice) keeps a cell with identical donors from getting an interval of width 0. Categories use ``1 - share of the donors voting for the true
-class``. The ``ceil((n + 1) * level)``-th smallest score is the column's quantile; with
+choice) keeps a cell with identical donors from getting an interval of width 0.
+Categories use ``1 - share of the donors voting for the true class``. The
+``ceil((n + 1) * level)``-th smallest score is the column's quantile; with
 fewer hidden cells than ``1 / (1 - level) - 1`` there is no honest quantile and no
 interval is given.
 
@@ -172,6 +173,7 @@ def calibration_masks(
     keep : mapping of str to bool ndarray of shape (n_rows,)
         Per fill column, cells that must never be hidden (censored entries).
     rng : numpy.random.Generator
+        Source of the choice of cells and of the copied patterns.
 
     Returns
     -------

@@ -69,6 +69,7 @@ def calibrate(
     gaps : bool ndarray of shape (n_rows, n_frame_columns)
         The sheet's gaps, whose patterns the hidden rows copy.
     cancel : Event-like or callable, optional
+        Checked between the rounds of hiding.
     """
     level = table.plan.interval_level
     if level is None or not table.fill_columns:

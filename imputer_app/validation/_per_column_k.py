@@ -71,6 +71,7 @@ def plan_with_k(plan: FillPlan, report: RecoveryReport, choice: str) -> FillPlan
     Parameters
     ----------
     plan : FillPlan
+        The plan tested; only its k settings change.
     report : RecoveryReport
         A recovery test of this plan on this sheet.
     choice : {"best", "best-per-column"}

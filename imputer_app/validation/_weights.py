@@ -113,6 +113,7 @@ def suggest_weights(
     progress : callable(done, total), optional
         Called after every recovery fill.
     cancel : Event-like or callable, optional
+        Checked before every recovery fill.
 
     Returns
     -------
