@@ -14,6 +14,7 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
+from imputer_app.cli.evidence import chosen_by_test, interval_line, k_line
 from imputer_app.cli.exit_codes import EXIT_OK, UsageError
 from imputer_app.cli.outputs import (
     existing_input,
@@ -51,12 +52,20 @@ def run_fill(args: argparse.Namespace) -> int:
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            report = None
+            if isinstance(args.k, str):  # --k best | best-per-column: the recovery test chooses
+                plan, report = chosen_by_test(sheet, plan, args.k, bar.stage("testing"), stop)
             result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop)
-            written = write_result(out, sheet, result, plan, progress=bar.stage("writing"), cancel=stop)
+            written = write_result(
+                out, sheet, result, plan, report=report, progress=bar.stage("writing"), cancel=stop
+            )
     finally:
         bar.done()
     print_notes(sheet.problems, result.warnings)
     print(fill_summary(source, result, written, sheet))
+    for line in (k_line(plan, report, args.k) if report else None, interval_line(result)):
+        if line:
+            print(line)
     remove_stale(old_sidecars, written, source)
     return EXIT_OK
 
@@ -92,7 +101,12 @@ def run_score_k(args: argparse.Namespace) -> int:
     print_notes(sheet.problems, report.warnings)
     print(recovery_table(report))
     if args.json is not None:
-        write_text(args.json, json.dumps(score_record(report, sheet), indent=2, ensure_ascii=False) + "\n")
+        from imputer_app.engine import calibrate_intervals
+
+        record = score_record(report, sheet)
+        calibration = calibrate_intervals(sheet, plan)
+        record["intervals"] = None if calibration is None else calibration.to_dict()
+        write_text(args.json, json.dumps(record, indent=2, ensure_ascii=False) + "\n")
         print(f"wrote {args.json}")
     if args.plot is not None:
         from imputer_app.charts import plot_error_vs_k, save_figure
@@ -115,6 +129,8 @@ def run_plan(args: argparse.Namespace) -> int:
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            if isinstance(args.k, str):  # --k best | best-per-column
+                plan, _ = chosen_by_test(sheet, plan, args.k, bar.stage("testing"), stop)
     finally:
         bar.done()
     resolved = spell_out_roles(prepare(sheet, plan).plan, [str(c) for c in sheet.frame.columns])
@@ -159,9 +175,10 @@ def plan_for(args: argparse.Namespace) -> FillPlan:
         base = read_export_plan(existing_input(args.plan_from))
     else:
         base = FillPlan()
+    k = getattr(args, "k", None)
     return build_plan(
         base,
-        k=getattr(args, "k", None),
+        k=k if isinstance(k, int) else None,  # best / best-per-column: chosen after reading
         similarity=args.similarity,
         fill=args.fill,
         carry=args.carry,

@@ -16,6 +16,7 @@ import pandas as pd
 from numpy.typing import NDArray
 
 from imputer_app.engine._censored import Censored, censored_records
+from imputer_app.engine._conformal import Calibration
 from imputer_app.engine._decide import fill_records
 from imputer_app.engine._input import SheetLike, unpack
 from imputer_app.engine._intervals import add_intervals, calibrate
@@ -105,3 +106,27 @@ def impute(
 
 def _masks(censored: Mapping[str, Censored]) -> dict[str, NDArray[np.bool_]]:
     return {c: np.asarray(cen.mask, dtype=bool) for c, cen in censored.items()}
+
+
+def calibrate_intervals(
+    data: pd.DataFrame | SheetLike, plan: FillPlan, cancel: CancelFlag | None = None
+) -> Calibration | None:
+    """Calibrate the plan's intervals on ``data`` without filling (None when they are off).
+
+    The same calibration :func:`impute` runs; the command line's ``score-k --json``
+    reports it beside the recovery test.
+
+    Parameters
+    ----------
+    data : DataFrame or SheetLike
+        The sheet, never modified.
+    plan : FillPlan
+        Its ``interval_level`` and k settings are used.
+    cancel : Event-like or callable, optional
+        Checked between the steps.
+    """
+    inp = unpack(data)
+    table, censored = prepare_input(inp, plan, cancel=cancel)
+    if plan.interval_level is None:
+        return None
+    return calibrate(inp, table, _masks(censored), inp.frame.isna().to_numpy(), cancel)
