@@ -58,7 +58,10 @@ def chosen_by_test(
 def k_line(plan: FillPlan, report: RecoveryReport, choice: str) -> str:
     """One line saying which k the recovery test chose."""
     settings = report.settings
-    test = f"recovery test: {settings['repeats']} repeats, {settings['hide_fraction']:g} hidden, seed {settings['seed']}"
+    test = (
+        f"recovery test: {settings['repeats']} repeats, {settings['hide_fraction']:g} hidden, "
+        f"seed {settings['seed']}"
+    )
     if choice == "best":
         return f"k = {plan.k}, the best single k of the {test}"
     shown = ", ".join(f"{c} {k}" for c, k in plan.k_by_column.items())

@@ -189,7 +189,9 @@ def calibration_masks(
     totals = {c: _cell_count(table, c, gaps, keep, sim, where) for c in table.fill_columns}
     wanted = sum(totals.values()) / max(ROUND_ROWS * table.n_rows, 1.0)
     n_rounds = int(min(MAX_ROUNDS, max(1, math.ceil(wanted))))
-    rounds = [(np.zeros(gaps.shape, dtype=bool), {}) for _ in range(n_rounds)]
+    rounds: list[tuple[BoolArray, dict[str, BoolArray]]] = [
+        (np.zeros(gaps.shape, dtype=bool), {}) for _ in range(n_rounds)
+    ]
     patterned = False
     busy = np.zeros((n_rounds, table.n_rows), dtype=bool)
     for col in (table.fill_columns[i] for i in rng.permutation(len(table.fill_columns))):
@@ -325,7 +327,8 @@ def _category_scores(
 ) -> FloatArray:
     labels = np.asarray(table.categories[col], dtype=object)
     truth = labels[np.asarray(table.values[col], dtype=np.intp)[d.rows]]
-    hidden_labels = np.append(np.asarray(hidden.categories[col], dtype=object), None)
+    hidden_labels = np.empty(len(hidden.categories[col]) + 1, dtype=object)  # last entry: code -1 -> None
+    hidden_labels[:-1] = hidden.categories[col]
     codes = np.asarray(hidden.values[col], dtype=np.intp)
     got = hidden_labels[np.where(d.index >= 0, codes[np.maximum(d.index, 0)], -1)]
     used = np.minimum(k, d.count)
