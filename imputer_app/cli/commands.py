@@ -14,7 +14,7 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from imputer_app.cli.evidence import chosen_by_test, interval_line, k_line
+from imputer_app.cli.evidence import chosen_by_test, interval_line, k_line, weights_record, weights_text
 from imputer_app.cli.exit_codes import EXIT_OK, UsageError
 from imputer_app.cli.outputs import (
     existing_input,
@@ -137,6 +137,33 @@ def run_plan(args: argparse.Namespace) -> int:
     resolved.save(out)
     print_notes(sheet.problems, ())
     print(f"wrote {out}")
+    return EXIT_OK
+
+
+def run_suggest_weights(args: argparse.Namespace) -> int:
+    """``kinfill suggest-weights``: learn the weights, print before/after, write a plan."""
+    source = existing_input(args.input)
+    out = args.out if args.out is not None else source.with_name(source.stem + PLAN_SUFFIX)
+    outputs = [out, *([args.json] if args.json is not None else [])]
+    refuse_input(outputs, source)
+    refuse_overwrite(outputs, args.force)
+    plan = plan_for(args)
+    from imputer_app.validation import suggest_weights
+
+    bar = TextProgress(sys.stderr)
+    try:
+        with stop_on_ctrl_c(sys.stderr) as stop:
+            sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            got = suggest_weights(sheet, plan, seed=args.seed, progress=bar.stage("searching"), cancel=stop)
+    finally:
+        bar.done()
+    print_notes(sheet.problems, ())
+    print(weights_text(got))
+    got.plan.save(out, source=source)
+    print(f"wrote {out}")
+    if args.json is not None:
+        write_text(args.json, json.dumps(weights_record(got, sheet), indent=2, ensure_ascii=False) + "\n")
+        print(f"wrote {args.json}")
     return EXIT_OK
 
 

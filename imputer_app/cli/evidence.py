@@ -10,14 +10,10 @@ silently: the user passes the plan to ``kinfill fill --plan``).
 from __future__ import annotations
 
 import argparse
-import json
-import sys
 from typing import TYPE_CHECKING, Any
 
-from imputer_app.cli.exit_codes import EXIT_OK
-from imputer_app.cli.outputs import existing_input, refuse_input, refuse_overwrite, write_text
-from imputer_app.cli.progress import StopFlag, TextProgress, stop_on_ctrl_c
-from imputer_app.plan import PLAN_SUFFIX, FillPlan
+from imputer_app.cli.progress import StopFlag
+from imputer_app.plan import FillPlan
 from imputer_app.work import Progress
 
 if TYPE_CHECKING:
@@ -35,14 +31,11 @@ def k_option(text: str) -> int | str:
     if word in K_WORDS:
         return word
     try:
-        value = int(text)
+        return int(text)  # the plan says why a number below 1 will not do
     except ValueError:
         raise argparse.ArgumentTypeError(
-            f"expected a whole number of at least 1, best or best-per-column; got {text!r}"
+            f"invalid int value: {text!r} (a whole number, best or best-per-column)"
         ) from None
-    if value < 1:
-        raise argparse.ArgumentTypeError(f"expected a whole number of at least 1; got {value}")
-    return value
 
 
 def chosen_by_test(
@@ -79,35 +72,6 @@ def interval_line(result: FillResult) -> str | None:
     if missing:
         line += f"; none for {', '.join(missing)} (too few hidden cells)"
     return line
-
-
-def run_suggest_weights(args: argparse.Namespace) -> int:
-    """``kinfill suggest-weights``: learn the weights, print before/after, write a plan."""
-    from imputer_app.cli.commands import plan_for, print_notes, read_input
-
-    source = existing_input(args.input)
-    out = args.out if args.out is not None else source.with_name(source.stem + PLAN_SUFFIX)
-    outputs = [out, *([args.json] if args.json is not None else [])]
-    refuse_input(outputs, source)
-    refuse_overwrite(outputs, args.force)
-    plan = plan_for(args)
-    from imputer_app.validation import suggest_weights
-
-    bar = TextProgress(sys.stderr)
-    try:
-        with stop_on_ctrl_c(sys.stderr) as stop:
-            sheet = read_input(source, args, plan, bar.stage("reading"), stop)
-            got = suggest_weights(sheet, plan, seed=args.seed, progress=bar.stage("searching"), cancel=stop)
-    finally:
-        bar.done()
-    print_notes(sheet.problems, ())
-    print(weights_text(got))
-    got.plan.save(out, source=source)
-    print(f"wrote {out}")
-    if args.json is not None:
-        write_text(args.json, json.dumps(weights_record(got, sheet), indent=2, ensure_ascii=False) + "\n")
-        print(f"wrote {args.json}")
-    return EXIT_OK
 
 
 def weights_text(got: WeightSuggestion) -> str:

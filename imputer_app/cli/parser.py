@@ -12,7 +12,7 @@ from typing import TYPE_CHECKING, NoReturn
 
 from imputer_app import __version__
 from imputer_app.cli import commands
-from imputer_app.cli.evidence import k_option, run_suggest_weights
+from imputer_app.cli.evidence import k_option
 from imputer_app.cli.exit_codes import EXIT_USAGE
 from imputer_app.plan import CHOICES, PLAN_SUFFIX, FillPlan
 from imputer_app.words import CHOICE_WORDS, SETTING_TIPS
@@ -287,7 +287,7 @@ def build_parser() -> argparse.ArgumentParser:
     weights.add_argument("--json", metavar="FILE", type=Path, help="write the suggestion as JSON")
     weights.add_argument("--force", action="store_true", help="replace existing output files")
     _add_common(weights)
-    weights.set_defaults(run=run_suggest_weights)
+    weights.set_defaults(run=commands.run_suggest_weights)
 
     gui = _subparser(subs, "gui", "open the Kinfill window", GUI_EXAMPLES)
     gui.add_argument("input", metavar="INPUT", nargs="?", type=Path, help="a sheet to open")

@@ -12,15 +12,29 @@ beyond its noise, that another k is better. :func:`plan_with_k` turns a report i
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any
+from typing import Any, Protocol
 
 import numpy as np
 import pandas as pd
 
 from imputer_app.plan import FillPlan
 
-if TYPE_CHECKING:
-    from imputer_app.validation._report import RecoveryReport
+
+class RecoveryReport(Protocol):
+    """What a k choice reads from a recovery report (``validation.RecoveryReport`` has it)."""
+
+    @property
+    def summary(self) -> pd.DataFrame: ...
+
+    @property
+    def best_k(self) -> int: ...
+
+    @property
+    def best_k_1se(self) -> int: ...
+
+    @property
+    def settings(self) -> dict[str, Any]: ...
+
 
 #: What ``--k`` may say besides a number.
 K_CHOICES = ("best", "best-per-column")
@@ -82,7 +96,7 @@ def plan_with_k(plan: FillPlan, report: RecoveryReport, choice: str) -> FillPlan
     if choice == "best":
         return plan.replace(k=int(report.best_k), k_by_column={})
     if choice == "best-per-column":
-        return plan.replace(k=int(report.best_k), k_by_column=k_by_column(report.summary, report.best_k))
+        return plan.replace(k=int(report.best_k), k_by_column=k_by_column(report.summary, int(report.best_k)))
     raise ValueError(f"choice must be one of {', '.join(K_CHOICES)}; got {choice!r}")
 
 
@@ -92,7 +106,7 @@ def choice_record(report: RecoveryReport, choice: str) -> dict[str, Any]:
         "choice": choice,
         "best_k": int(report.best_k),
         "best_k_1se": int(report.best_k_1se),
-        "k_by_column": k_by_column(report.summary, report.best_k),
+        "k_by_column": k_by_column(report.summary, int(report.best_k)),
         "recovery_test": {
             key: report.settings[key] for key in ("hide_fraction", "repeats", "seed", "masking", "ks")
         },

@@ -10,6 +10,7 @@ import numpy as np
 import pandas as pd
 
 from imputer_app.errors import KinfillError
+from imputer_app.validation._per_column_k import k_by_column
 from imputer_app.validation._scoring import (
     baseline_table,
     best_k,
@@ -74,8 +75,6 @@ class RecoveryReport:
     @property
     def k_by_column_1se(self) -> dict[str, int]:
         """Per fill column, the k in its one-SE band nearest the best single k (ESL sec. 7.10)."""
-        from imputer_app.validation._per_column_k import k_by_column
-
         return k_by_column(self.summary, self.best_k)
 
     @property
