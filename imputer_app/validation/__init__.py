@@ -13,14 +13,13 @@ tabulates how rows with gaps differ from the others and which gap patterns occur
 """
 
 from imputer_app.validation._gaps import GapCheck, MCARTest, gap_check
-from imputer_app.validation._per_column_k import K_CHOICES, choice_record, k_by_column, plan_with_k
+from imputer_app.validation._per_column_k import choice_record, k_by_column, plan_with_k
 from imputer_app.validation._recovery import recovery_test
 from imputer_app.validation._report import RecoveryReport
 from imputer_app.validation._scoring import one_se_rule
 from imputer_app.validation._weights import WeightSuggestion, suggest_weights
 
 __all__ = [
-    "K_CHOICES",
     "GapCheck",
     "MCARTest",
     "RecoveryReport",
