@@ -186,53 +186,66 @@ def calibration_masks(
     where = {c: j for j, c in enumerate(table.columns)}
     sim = np.array([where[c] for c in table.similarity_columns if table.plan.weight(c) > 0], dtype=np.intp)
     visible_sim = ~gaps[:, sim]
-    totals = {c: _cell_count(table, c, gaps, keep, sim, where) for c in table.fill_columns}
+    n_visible = visible_sim.sum(axis=1)
+    in_sim = set(sim.tolist())
+    usable = {
+        c: _usable(table, c, where[c], gaps, keep, n_visible, where[c] in in_sim) for c in table.fill_columns
+    }
+    totals = {c: _cell_count(table, c, known, ok) for c, (known, ok) in usable.items()}
     wanted = sum(totals.values()) / max(ROUND_ROWS * table.n_rows, 1.0)
     n_rounds = int(min(MAX_ROUNDS, max(1, math.ceil(wanted))))
+    # scored cells a row may hold per round: 1, unless the sheet is wide (many fill
+    # columns for its rows), where one per row would leave most columns without cells
+    per_row = max(1, math.floor(wanted / n_rounds))
     rounds: list[tuple[BoolArray, dict[str, BoolArray]]] = [
         (np.zeros(gaps.shape, dtype=bool), {}) for _ in range(n_rounds)
     ]
     patterned = False
-    busy = np.zeros((n_rounds, table.n_rows), dtype=bool)
+    busy = np.zeros((n_rounds, table.n_rows), dtype=np.intp)
     for col in (table.fill_columns[i] for i in rng.permutation(len(table.fill_columns))):
         j = where[col]
         own = sim == j
-        known = np.asarray(table.observed[col], dtype=bool) & ~keep.get(col, False)
-        usable = known & (visible_sim & ~own).any(axis=1)  # keeps another similarity value
-        total = min(
-            CAL_MAX,
-            int(CAL_SHARE * int(known.sum()) + 0.5),
-            max(int(usable.sum()) - table.plan.k_for(col), 0),
-        )
-        sources = np.flatnonzero(gaps[:, j] & (visible_sim & ~own).any(axis=1))
+        total = totals[col]
+        other = n_visible - (own.any() & ~gaps[:, j]) >= 1  # keeps another similarity value
+        sources = np.flatnonzero(gaps[:, j] & other)
         taken = np.zeros(table.n_rows, dtype=bool)
         for r, (hide, chosen) in enumerate(rounds):
-            free = np.flatnonzero(usable & ~busy[r] & ~taken)
+            free = np.flatnonzero(usable[col][1] & (busy[r] < per_row) & ~taken)
             n = min(len(free), total // n_rounds + (1 if r < total % n_rounds else 0))
             pick = np.sort(rng.choice(free, size=n, replace=False)) if n > 0 else free[:0]
-            busy[r, pick] = taken[pick] = True
+            busy[r, pick] += 1
+            taken[pick] = True
             chosen[col] = np.zeros(table.n_rows, dtype=bool)
             chosen[col][pick] = True
             hide[pick, j] = True
-            if len(sources) and len(pick):
+            # a row holding several scored cells would collect several patterns and lose
+            # nearly all its similarity values: wide sheets hide the scored cells only
+            if per_row == 1 and len(sources) and len(pick):
                 patterned |= _copy_patterns(
                     hide, pick, sim, own, gaps[rng.choice(sources, size=len(pick))][:, sim], visible_sim
                 )
     return rounds, patterned
 
 
-def _cell_count(
+def _usable(
     table: PreparedTable,
     col: str,
+    column: int,
     gaps: BoolArray,
     keep: Mapping[str, BoolArray],
-    sim: NDArray[np.intp],
-    where: Mapping[str, int],
-) -> int:
+    n_visible: NDArray[np.intp],
+    is_similarity: bool,
+) -> tuple[BoolArray, BoolArray]:
+    """Known cells of ``col``, and those whose row keeps another similarity value."""
+    known = np.asarray(table.observed[col], dtype=bool)
+    if col in keep:
+        known = known & ~np.asarray(keep[col], dtype=bool)
+    own = (~gaps[:, column]).astype(np.intp) if is_similarity else np.zeros(len(known), dtype=np.intp)
+    return known, np.asarray(known & (n_visible - own >= 1), dtype=bool)
+
+
+def _cell_count(table: PreparedTable, col: str, known: BoolArray, usable: BoolArray) -> int:
     """Cells of ``col`` to score: a share of its known cells, capped, leaving k donors."""
-    own = sim == where[col]
-    known = np.asarray(table.observed[col], dtype=bool) & ~keep.get(col, False)
-    usable = known & (~gaps[:, sim] & ~own).any(axis=1)
     share = int(CAL_SHARE * int(known.sum()) + 0.5)
     return min(CAL_MAX, share, max(int(usable.sum()) - table.plan.k_for(col), 0))
 

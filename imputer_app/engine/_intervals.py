@@ -47,6 +47,8 @@ WIDE_SDS = 2.0
 #: Donors sharing on average less than this share of the cell's similarity weight: weak.
 FEW_SHARED = 0.5
 _CHUNK = 50_000
+#: Up to this many rows, the shared weight of every pair of rows is one matrix product.
+_PAIRS_ROWS = 4_000
 
 
 def calibrate(
@@ -198,12 +200,16 @@ def _shared_share(features: Features, piece: LogPiece) -> FloatArray:
     width = piece.donors.shape[1]
     if not width or not fin.shape[1]:
         return out
+    total = features.total_weight if features.total_weight > 0 else 1.0
+    first = np.arange(width)[None, :] < piece.k[:, None]
+    if fin.shape[0] <= _PAIRS_ROWS:  # every pair of rows at once, by one matrix product
+        pairs = (fin * w) @ fin.T
+        shared = pairs[piece.pos[:, None], np.maximum(piece.donors, 0)]
+        return np.asarray((shared * first).sum(axis=1) / np.maximum(piece.k, 1) / total)
     for a in range(0, len(piece.pos), _CHUNK):
         b = min(a + _CHUNK, len(piece.pos))
         own = fin[piece.pos[a:b]] * w  # (m, p)
         donors = fin[np.maximum(piece.donors[a:b], 0)]  # (m, width, p)
         shared = np.einsum("mp,mip->mi", own, donors)
-        first = np.arange(width)[None, :] < piece.k[a:b, None]
-        total = features.total_weight if features.total_weight > 0 else 1.0
-        out[a:b] = (shared * first).sum(axis=1) / np.maximum(piece.k[a:b], 1) / total
+        out[a:b] = (shared * first[a:b]).sum(axis=1) / np.maximum(piece.k[a:b], 1) / total
     return out
