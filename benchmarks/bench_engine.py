@@ -31,7 +31,7 @@ from sklearn.impute import KNNImputer
 from imputer_app.engine import combine, impute, nearest_donors, prepare
 from imputer_app.plan import FillPlan
 
-PLAN = FillPlan(k=5, scaling="none")
+PLAN = FillPlan(k=5, scaling="none", interval_level=None)  # KNNImputer gives no interval
 CASES = ("long", "wide", "large")
 
 

@@ -51,6 +51,12 @@ KINDS = ("number", "category")
 
 MAX_WEIGHT = 1000.0
 
+#: Default level of the interval of every filled number, and its allowed range.
+DEFAULT_INTERVAL_LEVEL = 0.9
+INTERVAL_LEVELS = (0.5, 0.99)
+#: How a plan file says "no intervals" (TOML has no empty value).
+INTERVAL_OFF = "off"
+
 Bound = tuple[float | None, float | None]
 
 
@@ -93,6 +99,12 @@ class FillPlan:
         What to do with a cell that has no donor; always reported.
     kinds : mapping of str to {"number", "category"}, default={}
         Column kinds that override detection.
+    k_by_column : mapping of str to int, default={}
+        Donors per filled cell for the fill columns named; ``k`` for the others. One
+        neighbour search for the largest k serves every column.
+    interval_level : float or None, default=0.9
+        Level of the interval given to every filled number (0.5-0.99), calibrated on
+        hidden known cells of the sheet; ``None`` gives no intervals (TOML: ``"off"``).
     """
 
     k: int = 5
@@ -109,6 +121,8 @@ class FillPlan:
     censored: str = "ros"
     no_donor: str = "leave_empty"
     kinds: Mapping[str, str] = field(default_factory=dict)
+    k_by_column: Mapping[str, int] = field(default_factory=dict)
+    interval_level: float | None = DEFAULT_INTERVAL_LEVEL
 
     def __post_init__(self) -> None:
         _set = object.__setattr__
@@ -128,12 +142,18 @@ class FillPlan:
         _set(self, "bounds", _check_bounds(self.bounds))
         _set(self, "decimals", _check_decimals(self.decimals))
         _set(self, "kinds", _check_kinds(self.kinds))
+        _set(self, "k_by_column", _check_k_by_column(self.k_by_column))
+        _set(self, "interval_level", _check_level(self.interval_level))
         self._check_roles()
 
     # ------------------------------------------------------------------ queries
     def weight(self, column: str) -> float:
         """Return the distance weight of ``column`` (1.0 unless set)."""
         return float(self.weights.get(column, 1.0))
+
+    def k_for(self, column: str) -> int:
+        """Return the k of ``column``: its entry in ``k_by_column``, else ``k``."""
+        return int(self.k_by_column.get(column, self.k))
 
     def named_columns(self) -> list[str]:
         """Return every column name the plan mentions, in first-mention order."""
@@ -146,6 +166,7 @@ class FillPlan:
             self.bounds,
             self.decimals,
             self.kinds,
+            self.k_by_column,
         )
         return list(dict.fromkeys(name for group in groups for name in group))
 
@@ -185,6 +206,8 @@ class FillPlan:
         }
         data["decimals"] = dict(self.decimals)
         data["kinds"] = dict(self.kinds)
+        data["k_by_column"] = dict(self.k_by_column)
+        data["interval_level"] = INTERVAL_OFF if self.interval_level is None else self.interval_level
         return data
 
     @classmethod
@@ -269,6 +292,32 @@ def _check_k(k: object) -> int:
     if number < 1:
         raise PlanError(f"k must be at least 1; got {number}")
     return number
+
+
+def _check_k_by_column(ks: Mapping[str, int]) -> dict[str, int]:
+    if not isinstance(ks, Mapping):
+        raise PlanError(f"k_by_column must be a table of column = k; got {shown_value(ks)}")
+    out: dict[str, int] = {}
+    for column, value in dict(ks).items():
+        if isinstance(value, bool) or not isinstance(value, numbers.Integral) or int(value) < 1:
+            raise PlanError(
+                f"k for column {shown_value(column)} must be a whole number of at least 1; "
+                f"got {shown_value(value)}"
+            )
+        out[str(column)] = int(value)
+    return out
+
+
+def _check_level(level: object) -> float | None:
+    if level is None or level == INTERVAL_OFF:
+        return None
+    low, high = INTERVAL_LEVELS
+    if isinstance(level, bool) or not isinstance(level, numbers.Real) or not low <= float(level) <= high:
+        raise PlanError(
+            f"interval_level must be a number from {low:g} to {high:g}, or {INTERVAL_OFF!r}; "
+            f"got {shown_value(level)}"
+        )
+    return float(level)
 
 
 def _names(setting: str, names: object) -> tuple[str, ...]:
@@ -363,7 +412,7 @@ _SCALAR_KEYS: dict[str, tuple[type, ...]] = {
     "group_column": (str,),
 }
 _LIST_KEYS = ("similarity_columns", "fill_columns", "carried_columns")
-_TABLE_KEYS = ("weights", "bounds", "decimals", "kinds")
+_TABLE_KEYS = ("weights", "bounds", "decimals", "kinds", "k_by_column")
 
 
 def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | None) -> None:
@@ -372,6 +421,7 @@ def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | No
         "weights": _check_weights,
         "decimals": _check_decimals,
         "kinds": _check_kinds,
+        "k_by_column": _check_k_by_column,
     }
     for table, check in checks.items():
         for column, value in dict(data.get(table, {})).items():
@@ -382,7 +432,7 @@ def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | No
 
 
 def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -> FillPlan:
-    known = set(_SCALAR_KEYS) | set(_LIST_KEYS) | set(_TABLE_KEYS)
+    known = set(_SCALAR_KEYS) | set(_LIST_KEYS) | set(_TABLE_KEYS) | {"interval_level"}
     for key in data:
         if key not in known:
             raise PlanError(f"{source}: unknown key {shown_value(key)}{line_of(text, key)}")
@@ -415,6 +465,16 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
     kwargs["weights"] = dict(data.get("weights", {}))
     kwargs["decimals"] = dict(data.get("decimals", {}))
     kwargs["kinds"] = dict(data.get("kinds", {}))
+    kwargs["k_by_column"] = dict(data.get("k_by_column", {}))
+    if "interval_level" in data:
+        level = data["interval_level"]
+        if level != INTERVAL_OFF and (isinstance(level, bool) or not isinstance(level, int | float)):
+            where = line_of(text, "interval_level")
+            shown = shown_value(level)
+            raise PlanError(
+                f"{source}: interval_level must be a number or {INTERVAL_OFF!r}; got {shown}{where}"
+            )
+        kwargs["interval_level"] = level
     bounds: dict[str, Bound] = {}
     for column, sides in dict(data.get("bounds", {})).items():
         if not isinstance(sides, Mapping) or set(sides) - {"lower", "upper"}:

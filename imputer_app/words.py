@@ -19,13 +19,13 @@ from dataclasses import dataclass
 #: Columns of ``FillResult.log``, in the order the engine builds them.
 LOG_COLUMNS = (
     "row", "column", "value", "original_state", "method", "k", "donors",
-    "distances", "donor_values", "spread", "support", "note",
+    "distances", "donor_values", "spread", "support", "note", "lower", "upper",
 )  # fmt: skip
 
 #: Columns of the fill log as exported (xlsx sheet "Fill log" and the csv fill log):
 #: where and what first, then how the value was found.
 EXPORT_LOG_COLUMNS = (
-    "row", "column", "original_state", "method", "value", "k",
+    "row", "column", "original_state", "method", "value", "lower", "upper", "k",
     "donors", "distances", "donor_values", "spread", "support", "note",
 )  # fmt: skip
 

@@ -14,6 +14,7 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
+from imputer_app.cli.evidence import chosen_by_test, interval_line, k_line, weights_record, weights_text
 from imputer_app.cli.exit_codes import EXIT_OK, UsageError
 from imputer_app.cli.outputs import (
     XLSX_MAX_COLUMNS,
@@ -57,10 +58,15 @@ def run_fill(args: argparse.Namespace) -> int:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
             check_fits_xlsx(out, sheet)
+            report = None
+            if isinstance(args.k, str):  # --k best | best-per-column: the recovery test chooses
+                plan, report = chosen_by_test(sheet, plan, args.k, bar.stage("testing"), stop)
             plan = capped_k(plan, len(sheet.frame))
             result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop)
             pictures = fill_picture_files(args.pictures, result, source, args.force)
-            written = write_result(out, sheet, result, plan, progress=bar.stage("writing"), cancel=stop)
+            written = write_result(
+                out, sheet, result, plan, report=report, progress=bar.stage("writing"), cancel=stop
+            )
     finally:
         bar.done()
     if pictures:
@@ -69,6 +75,9 @@ def run_fill(args: argparse.Namespace) -> int:
         written = [*written, *write_picture_files(pictures, source=source, force=args.force)]
     print_notes(sheet.problems, result.warnings)
     show(fill_summary(source, result, written, sheet))
+    for line in (k_line(plan, report, args.k) if report else None, interval_line(result)):
+        if line:
+            show(line)
     for path in remove_stale(old_sidecars, written, source):
         show(f"removed {path} (left over from an earlier export)")
     return EXIT_OK
@@ -129,7 +138,12 @@ def run_score_k(args: argparse.Namespace) -> int:
     print_notes(sheet.problems, report.warnings)
     show(recovery_table(report))
     if args.json is not None:
-        text = json.dumps(score_record(report, sheet), indent=2, ensure_ascii=False) + "\n"
+        from imputer_app.engine import calibrate_intervals
+
+        record = score_record(report, sheet)
+        calibration = calibrate_intervals(sheet, plan)
+        record["intervals"] = None if calibration is None else calibration.to_dict()
+        text = json.dumps(record, indent=2, ensure_ascii=False) + "\n"
         write_text(args.json, text, source=source, force=args.force)
         show(f"wrote {args.json}")
     if args.plot is not None:
@@ -158,7 +172,7 @@ def run_gaps(args: argparse.Namespace) -> int:
     if args.json:
         print(json.dumps(gaps_record(check, sheet), indent=2, ensure_ascii=False, allow_nan=False))
     else:
-        print(gaps_text(check, source.name))
+        show(gaps_text(check, source.name))
     return EXIT_OK
 
 
@@ -175,12 +189,42 @@ def run_plan(args: argparse.Namespace) -> int:
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            if isinstance(args.k, str):  # --k best | best-per-column
+                plan, _ = chosen_by_test(sheet, plan, args.k, bar.stage("testing"), stop)
     finally:
         bar.done()
     resolved = spell_out_roles(prepare(sheet, plan).plan, [str(c) for c in sheet.frame.columns])
     resolved.save(out, force=args.force, source=source)
     print_notes(sheet.problems, ())
     show(f"wrote {out}")
+    return EXIT_OK
+
+
+def run_suggest_weights(args: argparse.Namespace) -> int:
+    """``kinfill suggest-weights``: learn the weights, print before/after, write a plan."""
+    source = existing_input(args.input)
+    out = args.out if args.out is not None else source.with_name(source.stem + PLAN_SUFFIX)
+    outputs = [out, *([args.json] if args.json is not None else [])]
+    refuse_input(outputs, source)
+    refuse_overwrite(outputs, args.force)
+    plan = plan_for(args)
+    from imputer_app.validation import suggest_weights
+
+    bar = TextProgress(sys.stderr)
+    try:
+        with stop_on_ctrl_c(sys.stderr) as stop:
+            sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            got = suggest_weights(sheet, plan, seed=args.seed, progress=bar.stage("searching"), cancel=stop)
+    finally:
+        bar.done()
+    print_notes(sheet.problems, ())
+    show(weights_text(got))
+    got.plan.save(out, source=source, force=args.force)
+    show(f"wrote {out}")
+    if args.json is not None:
+        text = json.dumps(weights_record(got, sheet), indent=2, ensure_ascii=False) + "\n"
+        write_text(args.json, text, source=source, force=args.force)
+        show(f"wrote {args.json}")
     return EXIT_OK
 
 
@@ -220,9 +264,10 @@ def plan_for(args: argparse.Namespace) -> FillPlan:
         base = read_export_plan(existing_input(args.plan_from))
     else:
         base = FillPlan()
+    k = getattr(args, "k", None)
     return build_plan(
         base,
-        k=getattr(args, "k", None),
+        k=k if isinstance(k, int) else None,  # best / best-per-column: chosen after reading
         similarity=args.similarity,
         fill=args.fill,
         carry=args.carry,

@@ -12,6 +12,7 @@ from typing import TYPE_CHECKING, NoReturn
 
 from imputer_app import __version__
 from imputer_app.cli import commands
+from imputer_app.cli.evidence import k_option
 from imputer_app.cli.exit_codes import EXIT_USAGE
 from imputer_app.plan import CHOICES, PLAN_SUFFIX, FillPlan
 from imputer_app.words import CHOICE_WORDS, SETTING_TIPS
@@ -151,6 +152,16 @@ which combinations of gaps occur. A small p-value says the gaps depend on someth
 it does not say on what, and a large one does not prove the gaps random.
 """
 
+WEIGHT_EXAMPLES = """\
+examples:
+  kinfill suggest-weights river_survey.xlsx --out river.plan.toml
+  kinfill suggest-weights lab.csv --plan monthly.plan.toml --out weighted.plan.toml --force
+
+Tries the weights 0, 0.5, 1, 2 and 4 for each similarity column on hidden known cells
+and keeps those that clearly lower the error; judges the result on other hidden cells.
+The weights are written to a plan for `kinfill fill --plan`; nothing is filled here.
+"""
+
 GUI_EXAMPLES = """\
 examples:
   kinfill gui
@@ -183,8 +194,9 @@ def _add_plan_options(parser: argparse.ArgumentParser, *, with_k: bool) -> None:
         parser.add_argument(
             "--k",
             metavar="N",
-            type=positive_int,
-            help="donors per filled cell (default 5; at most every donor)",
+            type=k_option,
+            help="donors per filled cell (default 5; at most every donor); best or best-per-column: "
+            "chosen by a recovery test",
         )
     cols = parser.add_argument_group("columns (override the plan)")
     cols.add_argument(
@@ -294,6 +306,17 @@ def build_parser() -> argparse.ArgumentParser:
     gaps.add_argument("--json", action="store_true", help="print the gap check as JSON")
     _add_common(gaps)
     gaps.set_defaults(run=commands.run_gaps)
+    weights = _subparser(
+        subs, "suggest-weights", "learn the similarity columns' weights and write a plan", WEIGHT_EXAMPLES
+    )
+    _add_read_options(weights)
+    _add_plan_options(weights, with_k=False)
+    weights.add_argument("--out", metavar="FILE", type=Path, help=f"plan file (default <input>{PLAN_SUFFIX})")
+    weights.add_argument("--seed", metavar="N", type=int, default=0, help="random seed of the hiding (0)")
+    weights.add_argument("--json", metavar="FILE", type=Path, help="write the suggestion as JSON")
+    weights.add_argument("--force", action="store_true", help="replace existing output files")
+    _add_common(weights)
+    weights.set_defaults(run=commands.run_suggest_weights)
 
     gui = _subparser(subs, "gui", "open the Kinfill window", GUI_EXAMPLES)
     gui.add_argument("input", metavar="INPUT", nargs="?", type=Path, help="a sheet to open")

@@ -7,7 +7,8 @@ the fill log) is numpy only; reading a DataFrame or a :class:`SheetLike` sheet
 """
 
 from imputer_app.engine._combine import combine
-from imputer_app.engine._impute import impute
+from imputer_app.engine._conformal import Calibration, ColumnCalibration
+from imputer_app.engine._impute import calibrate_intervals, impute
 from imputer_app.engine._input import SheetLike
 from imputer_app.engine._prepare import default_roles, prepare
 from imputer_app.engine._result import FillResult
@@ -15,10 +16,13 @@ from imputer_app.engine._search import ColumnDonors, nearest_donors
 from imputer_app.engine._table import PreparedTable
 
 __all__ = [
+    "Calibration",
+    "ColumnCalibration",
     "ColumnDonors",
     "FillResult",
     "PreparedTable",
     "SheetLike",
+    "calibrate_intervals",
     "combine",
     "default_roles",
     "impute",

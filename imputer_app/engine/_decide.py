@@ -9,6 +9,7 @@ its reason; the log itself is only stored there.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
@@ -67,7 +68,14 @@ def no_donor_reasons(table: PreparedTable, col: str, rows: NDArray[np.intp]) -> 
     return out
 
 
-def fill_records(table: PreparedTable, stack: Stack, k: int, threshold: float, out: Records) -> None:
+def fill_records(
+    table: PreparedTable,
+    stack: Stack,
+    k: int,
+    threshold: float,
+    out: Records,
+    k_by_column: Mapping[str, int] | None = None,
+) -> None:
     """Work out the kNN value of every target cell and add its log row (or empty cell) to ``out``.
 
     Parameters
@@ -75,29 +83,34 @@ def fill_records(table: PreparedTable, stack: Stack, k: int, threshold: float, o
     table : PreparedTable
         The prepared table the donors were searched in.
     stack : Stack
-        Every target cell of the fill columns with its donors (kmax = ``k``).
+        Every target cell of the fill columns with its donors (kmax >= every k used).
     k : int
         Donors combined per cell (the plan's k).
     threshold : float
         Weak-support distance.
     out : Records
-        Receives the rows: all numeric fill columns as one piece, then each category column.
+        Receives the rows: the numeric fill columns sharing a k as one piece, then
+        each category column.
+    k_by_column : mapping of str to int, optional
+        Columns combined with their own k instead of ``k``.
     """
+    own = dict(k_by_column or {})
     numbers = [c for c in stack.columns if table.kinds[c] == "number"]
-    if numbers:
-        part = stack.select(numbers)
+    for kc in sorted({own.get(c, k) for c in numbers}):
+        part = stack.select([c for c in numbers if own.get(c, k) == kc])
         shown = stack_values(table, part)
-        written = number_values(table, part, [k], v=shown)[k]
-        _knn_records(table, part, k, written, shown, spread(shown, part.donors, k), threshold, out)
+        written = number_values(table, part, [kc], v=shown)[kc]
+        _knn_records(table, part, kc, written, shown, spread(shown, part.donors, kc), threshold, out)
     for col in (c for c in stack.columns if table.kinds[c] != "number"):
+        kc = own.get(col, k)
         part = stack.select([col])
         # the extra last entry: code -1 -> None
         labels = np.empty(len(table.categories[col]) + 1, dtype=object)
         labels[:-1] = table.categories[col]
         codes = np.asarray(table.values[col], dtype=np.intp)
         shown = labels[part.gather([codes], fill=-1).astype(np.intp)]
-        win, share = vote_with_share(codes, part.donors, [k])[k]
-        _knn_records(table, part, k, labels[win], shown, share, threshold, out)
+        win, share = vote_with_share(codes, part.donors, [kc])[kc]
+        _knn_records(table, part, kc, labels[win], shown, share, threshold, out)
 
 
 def _knn_records(

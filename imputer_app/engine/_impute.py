@@ -9,14 +9,18 @@ in its own module (:mod:`~imputer_app.engine._prepare`,
 from __future__ import annotations
 
 import dataclasses
+from collections.abc import Mapping
 from typing import Any
 
+import numpy as np
 import pandas as pd
 from numpy.typing import NDArray
 
-from imputer_app.engine._censored import censored_records
+from imputer_app.engine._censored import Censored, censored_records
+from imputer_app.engine._conformal import Calibration
 from imputer_app.engine._decide import fill_records
 from imputer_app.engine._input import SheetLike, unpack
+from imputer_app.engine._intervals import add_intervals, calibrate
 from imputer_app.engine._log import Records
 from imputer_app.engine._prepare import prepare_input
 from imputer_app.engine._result import FillResult, build_result
@@ -34,6 +38,11 @@ def impute(
     cancel: CancelFlag | None = None,
 ) -> FillResult:
     """Fill the gaps of ``data`` by k-nearest-neighbour imputation.
+
+    With ``plan.interval_level`` set, a share of the known cells is also hidden and
+    filled to calibrate an interval for every filled number (a class set for
+    categories): ``FillResult.log`` gets ``lower`` and ``upper``, and
+    ``FillResult.calibration`` says how many hidden cells each column used.
 
     Parameters
     ----------
@@ -73,7 +82,8 @@ def impute(
     raise_if_cancelled(cancel)
     inp = unpack(data)
     table, censored = prepare_input(inp, plan, cancel=cancel)
-    k = table.plan.k
+    plan_used = table.plan
+    k = max([plan_used.k, *(plan_used.k_for(c) for c in table.fill_columns)])  # one search for every k
     # A row is never its own donor, so no cell has more than n_rows - 1 donors: a larger k
     # uses every donor, and must not size the search's arrays (k = 10**9 would ask for TiB).
     most = max(1, table.n_rows - 1)
@@ -95,9 +105,42 @@ def impute(
     stack = Stack.of_cells(table.fill_columns, found, cell_col)
     threshold = weak_threshold([stack.donors])
     records = Records(inp.names)
-    fill_records(table, stack, k, threshold, records)
+    k_by_column = {c: min(v, k) for c, v in plan_used.k_by_column.items()}
+    fill_records(table, stack, min(plan_used.k, k), threshold, records, k_by_column)
     censored_records(censored, table.fill_columns, table.plan.censored, records)
     raise_if_cancelled(cancel)
+    gaps = inp.frame.isna().to_numpy() if plan_used.interval_level is not None else None
+    calibration = None if gaps is None else calibrate(inp, table, _masks(censored), gaps, cancel)
+    if calibration is not None:
+        add_intervals(records, table, calibration)
     result = build_result(inp, table, records, threshold, cancel)
     report(progress, steps + 1, steps + 1)
-    return result
+    return dataclasses.replace(result, calibration=calibration) if calibration is not None else result
+
+
+def _masks(censored: Mapping[str, Censored]) -> dict[str, NDArray[np.bool_]]:
+    return {c: np.asarray(cen.mask, dtype=bool) for c, cen in censored.items()}
+
+
+def calibrate_intervals(
+    data: pd.DataFrame | SheetLike, plan: FillPlan, cancel: CancelFlag | None = None
+) -> Calibration | None:
+    """Calibrate the plan's intervals on ``data`` without filling (None when they are off).
+
+    The same calibration :func:`impute` runs; the command line's ``score-k --json``
+    reports it beside the recovery test.
+
+    Parameters
+    ----------
+    data : DataFrame or SheetLike
+        The sheet, never modified.
+    plan : FillPlan
+        Its ``interval_level`` and k settings are used.
+    cancel : Event-like or callable, optional
+        Checked between the steps.
+    """
+    inp = unpack(data)
+    table, censored = prepare_input(inp, plan, cancel=cancel)
+    if plan.interval_level is None:
+        return None
+    return calibrate(inp, table, _masks(censored), inp.frame.isna().to_numpy(), cancel)

@@ -75,6 +75,8 @@ class LogPiece:
     listed : ndarray of int, shape (m,), optional
         Donors that took part (tied donors sharing the last places included); each
         cell's donor arrays are cut to this many. Default: ``k``.
+    lower, upper : ndarray of float, shape (m,), or None
+        The calibrated interval of each filled number (None: no interval, NaN in the log).
     """
 
     pos: IntArray
@@ -89,6 +91,8 @@ class LogPiece:
     support: IntArray
     note: NDArray[np.object_]
     listed: IntArray | None = None
+    lower: FloatArray | None = None
+    upper: FloatArray | None = None
 
     @classmethod
     def without_donors(
@@ -205,6 +209,8 @@ class Records:
             "spread": _sorted(pieces, "spread", order),
             "support": _words(SUPPORT_WORDS)[_sorted(pieces, "support", order)],
             "note": _sorted(pieces, "note", order),
+            "lower": _sorted(pieces, "lower", order),
+            "upper": _sorted(pieces, "upper", order),
         }
         return LogTable(pos, col, FILLS[method], fields)
 
@@ -217,9 +223,10 @@ def _sorted(
     ``width`` given: a 2-D field, narrower pieces padded with ``fill``. ``np.take`` is
     several times faster than ``array[order]`` for rows.
     """
-    parts = [getattr(p, name) for p in pieces]
+    parts = [_field(p, name) for p in pieces]
     if width is None:
-        joined = _join(parts, {"spread": np.float64, "value": object, "note": object}.get(name, np.intp))
+        floats = {"spread": np.float64, "lower": np.float64, "upper": np.float64}
+        joined = _join(parts, {**floats, "value": object, "note": object}.get(name, np.intp))
     elif not parts:
         joined = np.empty((0, width))
     elif len(parts) == 1 and parts[0].shape[1] == width:
@@ -227,6 +234,12 @@ def _sorted(
     else:
         joined = np.vstack([np.hstack([p, np.full((len(p), width - p.shape[1]), fill)]) for p in parts])
     return np.take(joined, order, axis=0)
+
+
+def _field(piece: LogPiece, name: str) -> NDArray[Any]:
+    """Field ``name`` of ``piece``; an interval the piece does not have is NaN."""
+    value = getattr(piece, name)
+    return np.full(len(piece.pos), np.nan) if value is None else value
 
 
 def _join(parts: Sequence[NDArray[Any]], dtype: Any) -> NDArray[Any]:

@@ -16,6 +16,7 @@ import numpy as np
 import pandas as pd
 from numpy.typing import NDArray
 
+from imputer_app.engine._conformal import Calibration
 from imputer_app.engine._input import Input, state_masks
 from imputer_app.engine._log import LogTable, Records, repeated
 from imputer_app.engine._table import PreparedTable
@@ -47,7 +48,10 @@ class FillResult:
     warnings : tuple of str
         Plain-words remarks (constant columns left out, ...).
     k_weak_threshold : float
-        Distance above which a cell's support is "weak" (NaN when nothing was filled).
+        Distance above which a cell's support is "weak" by the distance rule (NaN when
+        nothing was filled).
+    calibration : Calibration or None
+        How the intervals were calibrated (None when ``plan.interval_level`` is None).
 
     Notes
     -----
@@ -64,6 +68,7 @@ class FillResult:
     plan: FillPlan
     warnings: tuple[str, ...]
     k_weak_threshold: float
+    calibration: Calibration | None = None
 
     @property
     def array(self) -> NDArray[Any]:

@@ -126,7 +126,7 @@ def _spread_words(spread: Any, numeric: bool) -> str:
     return f"{float(spread):.0%} of the donors chose this value"
 
 
-def support_words(support: str, nearest: float, threshold: float) -> str:
+def support_words(support: str, nearest: float, threshold: float, width_sds: float | None = None) -> str:
     """Explain the support flag of a filled cell in plain words.
 
     Parameters
@@ -138,7 +138,13 @@ def support_words(support: str, nearest: float, threshold: float) -> str:
     threshold : float
         ``FillResult.k_weak_threshold``: the 95th percentile of the nearest-donor
         distances of the cells filled in this sheet.
+    width_sds : float or None
+        The cell's interval width in standard deviations of its column, when it has an
+        interval; support is then judged by the rule in README.md ("How the numbers
+        are made") instead of the distance.
     """
+    if width_sds is not None and math.isfinite(width_sds) and support in ("weak", "ok"):
+        return _interval_support_words(support, width_sds)
     near = format_value(nearest, 3)
     limit = format_value(threshold, 3)
     if support == "weak":
@@ -153,6 +159,32 @@ def support_words(support: str, nearest: float, threshold: float) -> str:
             f"{limit} that only 5% of the cells filled in this sheet exceed."
         )
     return "Not applicable: this value was not taken from donors."
+
+
+def _interval_support_words(support: str, width_sds: float) -> str:
+    wide = f"{width_sds:.1f} standard deviations of the column"
+    if support == "weak":
+        return (
+            f"Weak support: the interval is {wide} wide (more than 2), or the donors share few "
+            "similarity columns with this row. Treat the value with extra care."
+        )
+    return (
+        f"Ordinary support: the interval is {wide} wide (2 or less) and the donors share most "
+        "similarity columns with this row."
+    )
+
+
+def _interval(result: FillResult, entry: pd.Series, column: str) -> tuple[str, float | None]:
+    """The interval fact ("6.21 to 6.63 (90 %)") and its width in column SDs, if it has one."""
+    lower, upper = entry.get("lower", math.nan), entry.get("upper", math.nan)
+    calibration = getattr(result, "calibration", None)
+    if calibration is None or pd.isna(lower) or pd.isna(upper):
+        return "", None
+    rule = calibration.columns.get(column)
+    sd = rule.column_sd if rule is not None else math.nan
+    width = (float(upper) - float(lower)) / sd if sd and math.isfinite(sd) and sd > 0 else math.nan
+    text = f"{format_value(lower)} to {format_value(upper)} ({calibration.level:.0%} interval)"
+    return text, width
 
 
 def _censored_entry(notes: pd.DataFrame | None, row_label: Any, column: str) -> str:
@@ -208,14 +240,19 @@ def _filled_story(result: FillResult, entry: pd.Series, where: str, notes: pd.Da
     facts.append(("Spread", _spread_words(entry.get("spread"), numeric)))
     support = str(entry.get("support", "") or "")
     nearest = donors[0].distance if donors else math.nan
-    support_text = support_words(support, nearest, getattr(result, "k_weak_threshold", math.nan))
+    interval, width = _interval(result, entry, column)
+    threshold = getattr(result, "k_weak_threshold", math.nan)
+    support_text = support_words(support, nearest, threshold, width)
+    if interval:
+        facts.insert(1, ("Interval", interval))
     facts.append(("Support", "weak" if support == "weak" else ("ok" if support == "ok" else "–")))
     note = str(entry.get("note", "") or "")
     if note:
         facts.append(("Note", note))
     if state == "censored":
         facts.append(("Flag", "stays marked as censored in every view and export"))
-    return CellStory("filled", f"{where}: filled with {value}", facts, support, support_text, donors)
+    headline = f"{where}: filled with {value}" + (f", {interval}" if interval else "")
+    return CellStory("filled", headline, facts, support, support_text, donors)
 
 
 def describe_cell(

@@ -260,6 +260,8 @@ def log_table(log: pd.DataFrame) -> pd.DataFrame:
             "original_state": log["original_state"].astype(str).to_numpy(dtype=object),
             "method": log["method"].astype(str).to_numpy(dtype=object),
             "value": log["value"].to_numpy(dtype=object),
+            "lower": _floats(log, "lower"),
+            "upper": _floats(log, "upper"),
             "k": k.astype("Int64") if k.notna().all() else k,
             "donors": [join_text(t, str) for t in log["donors"]],
             "distances": [join_text(t, distance_text) for t in log["distances"]],
@@ -270,6 +272,13 @@ def log_table(log: pd.DataFrame) -> pd.DataFrame:
         },
         index=pd.RangeIndex(n),
     )
+
+
+def _floats(log: pd.DataFrame, name: str) -> np.ndarray:
+    """A float column of the log (NaN throughout when the log has none)."""
+    if name not in log:
+        return np.full(len(log), np.nan)
+    return pd.to_numeric(log[name], errors="coerce").to_numpy(dtype=float)
 
 
 # --------------------------------------------------------------------- comments
@@ -307,6 +316,9 @@ def _log_comment(entry: Mapping[Any, Any], original: str | None, number: bool) -
         lines = [f"{censored}: filled by kNN from {k} donor(s), capped at its limit ({value})."]
     else:
         lines = [f"Filled by Kinfill: kNN from {k} donor(s) gives {value}."]
+    interval = _interval_line(entry)
+    if interval:
+        lines.append(interval)
     lines += _donor_lines(entry)
     spread = entry["spread"]
     if spread is not None and not (isinstance(spread, float) and math.isnan(spread)):
@@ -320,6 +332,14 @@ def _log_comment(entry: Mapping[Any, Any], original: str | None, number: bool) -
     if original and entry["original_state"] == "text_in_number":
         lines.append(f'Original entry: "{original}"')
     return "\n".join(lines)
+
+
+def _interval_line(entry: Mapping[Any, Any]) -> str:
+    """``"Interval: 6.21-6.63"`` for a number with a calibrated interval, else ''."""
+    lower, upper = entry.get("lower"), entry.get("upper")
+    if not isinstance(lower, float) or not isinstance(upper, float) or math.isnan(lower) or math.isnan(upper):
+        return ""
+    return f"Interval (see the note for its level): {value_text(lower)} to {value_text(upper)}"
 
 
 def _donor_lines(entry: Mapping[Any, Any]) -> list[str]:

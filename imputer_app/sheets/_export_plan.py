@@ -28,7 +28,7 @@ from imputer_app.sheets._write_csv import side_files
 #: Label of the exact plan row an xlsx export may carry in "About this fill".
 PLAN_JSON_LABELS = ("plan (json)", "plan json")
 _LIST_KEYS = ("similarity_columns", "fill_columns", "carried_columns")
-_TABLE_TYPES: dict[str, type] = {"weights": float, "decimals": int, "kinds": str}
+_TABLE_TYPES: dict[str, type] = {"weights": float, "decimals": int, "kinds": str, "k_by_column": int}
 
 
 def read_export_plan(path: str | PathLike[str]) -> FillPlan:
@@ -157,6 +157,8 @@ def plan_from_about_rows(rows: Sequence[tuple[Any, Any]], name: str) -> dict[str
             data[field] = {c: _TABLE_TYPES[field](v) for c, v in _pairs(str(text)).items()}
         elif field in ("k", "format"):
             data[field] = int(float(text))
+        elif field == "interval_level":
+            data[field] = text if text in ("off", "") else float(text)
         elif field != "bounds":
             data[field] = str(text)
     return data

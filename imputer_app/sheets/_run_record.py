@@ -143,6 +143,7 @@ def build_record(
         "unfilled_reasons": {str(k): int(v) for k, v in result.unfilled["reason"].value_counts().items()},
         "warnings": [str(w) for w in result.warnings] + (list(sheet.problems) if sheet is not None else []),
         "recovery_test": _recovery(report, result.plan.k),
+        "intervals": _intervals(result),
         "versions": library_versions(),
         "cautions": CAUTIONS,
         "methods_text": methods_paragraph(result, plan, report, sheet),
@@ -167,6 +168,12 @@ def _input(sheet: Sheet | None) -> dict[str, Any]:
     }
 
 
+def _intervals(result: FillResult) -> dict[str, Any] | None:
+    """How the intervals were calibrated (None when they were off)."""
+    calibration = getattr(result, "calibration", None)
+    return None if calibration is None else calibration.to_dict()
+
+
 def _recovery(report: RecoveryEvidence | None, chosen_k: int) -> dict[str, Any] | None:
     """Summarise a recovery report through its documented attributes."""
     if report is None:
@@ -175,6 +182,7 @@ def _recovery(report: RecoveryEvidence | None, chosen_k: int) -> dict[str, Any] 
         "chosen_k": chosen_k,
         "best_k": getattr(report, "best_k", None),
         "best_k_1se": getattr(report, "best_k_1se", None),
+        "k_by_column_1se": getattr(report, "k_by_column_1se", None),
         "ks": list(getattr(report, "ks", []) or []),
         "settings": getattr(report, "settings", {}),
     }

@@ -5,13 +5,30 @@ of each fill column, fills them with the same engine and plan for every k, and
 compares the errors with a plain column-mean fill. :func:`one_se_rule` picks the
 largest k within one standard error of the best (ESL 2nd ed., sec. 7.10).
 
+Suggested weights: :func:`suggest_weights` learns each similarity column's weight
+from hidden known cells, judged on other hidden cells.
+
 Gap check: :func:`gap_check` runs Little's test of missing completely at random and
 tabulates how rows with gaps differ from the others and which gap patterns occur.
 """
 
 from imputer_app.validation._gaps import GapCheck, MCARTest, gap_check
+from imputer_app.validation._per_column_k import choice_record, k_by_column, plan_with_k
 from imputer_app.validation._recovery import recovery_test
 from imputer_app.validation._report import RecoveryReport
 from imputer_app.validation._scoring import one_se_rule
+from imputer_app.validation._weights import WeightSuggestion, suggest_weights
 
-__all__ = ["GapCheck", "MCARTest", "RecoveryReport", "gap_check", "one_se_rule", "recovery_test"]
+__all__ = [
+    "GapCheck",
+    "MCARTest",
+    "RecoveryReport",
+    "WeightSuggestion",
+    "choice_record",
+    "gap_check",
+    "k_by_column",
+    "one_se_rule",
+    "plan_with_k",
+    "recovery_test",
+    "suggest_weights",
+]

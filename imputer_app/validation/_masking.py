@@ -129,6 +129,20 @@ def fold_ids(layout: CellLayout, fraction: float, masking: str, rng: np.random.G
     raise KinfillError(f"masking must be one of {', '.join(MASKINGS)}; got {masking!r}")
 
 
+def random_mask(layout: CellLayout, fraction: float, rng: np.random.Generator) -> np.ndarray:
+    """One random fold: about ``fraction`` of each fill column's hideable cells, hidden.
+
+    The first of ``round(1 / fraction)`` random folds (:func:`random_folds`), for work
+    that needs one hiding rather than a whole split (the suggested weights' fit and
+    judge sets).
+
+    Returns
+    -------
+    bool ndarray of shape (n_rows, n_columns)
+    """
+    return random_folds(layout, fold_count(fraction), rng) == 0
+
+
 def random_folds(layout: CellLayout, n_folds: int, rng: np.random.Generator) -> np.ndarray:
     """Split each fill column's hideable cells at random into ``n_folds`` folds.
 

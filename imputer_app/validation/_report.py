@@ -10,6 +10,7 @@ import numpy as np
 import pandas as pd
 
 from imputer_app.errors import KinfillError
+from imputer_app.validation._per_column_k import k_by_column
 from imputer_app.validation._scoring import (
     baseline_table,
     best_k,
@@ -80,6 +81,11 @@ class RecoveryReport:
         return str(self.settings.get("masking", "random"))
 
     @property
+    def k_by_column_1se(self) -> dict[str, int]:
+        """Per fill column, the k in its one-SE band nearest the best single k (ESL sec. 7.10)."""
+        return k_by_column(self.summary, self.best_k)
+
+    @property
     def score_name(self) -> str:
         """Name of the overall score column that chose k (``score`` or ``category_error``)."""
         return "score" if "number" in self.kinds.values() else "category_error"
@@ -123,6 +129,7 @@ class RecoveryReport:
             "best_k": int(self.best_k),
             "best_k_1se": int(self.best_k_1se),
             "best_k_by_column": {str(c): int(k) for c, k in self.best_k_by_column.items()},
+            "k_by_column_1se": self.k_by_column_1se,
             "overall": _plain(self.overall.reset_index().to_dict(orient="records")),
             "baseline": _plain(baseline.to_dict(orient="index")),
             "summary": summary,

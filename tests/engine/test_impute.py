@@ -83,7 +83,7 @@ def test_log_rows_explain_each_fill() -> None:
     log = result.log
     assert list(log.columns) == [
         "row", "column", "value", "original_state", "method", "k", "donors",
-        "distances", "donor_values", "spread", "support", "note",
+        "distances", "donor_values", "spread", "support", "note", "lower", "upper",
     ]  # fmt: skip
     row = log[(log["row"] == 2) & (log["column"] == "ph")].iloc[0]
     # row 2 has only nitrate 1.1: nearest site-A rows with ph are 1 (1.2) and 0 (1.0), tied (in
@@ -108,10 +108,11 @@ def test_fewer_donors_than_k_are_all_used_and_noted() -> None:
 
 
 def test_weak_support_uses_the_95th_percentile() -> None:
-    # Kinfill's own convention, no outside source: support is weak when the nearest donor
-    # is farther than the 95th percentile of every filled cell's nearest-donor distance.
+    # Kinfill's own convention, no outside source: without intervals, support is weak when
+    # the nearest donor is farther than the 95th percentile of every filled cell's
+    # nearest-donor distance (README "How the numbers are made").
     frame = random_frame(200, 3, 0.1, seed=5)
-    result = impute(frame, FillPlan(k=3))
+    result = impute(frame, FillPlan(k=3, interval_level=None))
     nearest = np.array([d[0] for d in result.log["distances"]])
     assert result.k_weak_threshold == pytest.approx(np.percentile(nearest, 95))
     assert ((result.log["support"] == "weak") == (nearest > result.k_weak_threshold)).all()

@@ -19,7 +19,7 @@ from tests.engine.helpers import fake_sheet, random_frame
 LOG_DTYPES = {
     "row": "int64", "column": "str", "value": "object", "original_state": "str", "method": "str",
     "k": "int64", "donors": "object", "distances": "object", "donor_values": "object",
-    "spread": "float64", "support": "str", "note": "str",
+    "spread": "float64", "support": "str", "note": "str", "lower": "float64", "upper": "float64",
 }  # fmt: skip
 
 
@@ -41,7 +41,7 @@ def test_every_log_row_matches_a_cell_by_cell_reference(seed: int) -> None:
     """
     frame = _sparse_column_frame(seed)
     k = 4
-    result = impute(frame, FillPlan(k=k, scaling="none"))
+    result = impute(frame, FillPlan(k=k, scaling="none", interval_level=None))
     x = frame.to_numpy()
     dist = nan_euclidean_distances(x, x)
     reference = KNNImputer(n_neighbors=k).fit_transform(x)

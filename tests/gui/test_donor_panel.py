@@ -73,7 +73,8 @@ def test_donors_in_order_with_the_logs_distances(panel, filled, which):
     assert told["Donors used (k)"] == "3"
     assert told["Method"] == "mean of the nearest donors' values"
     assert told["Support"] == entry["support"]
-    assert panel.headline.text() == f"Row {entry['row']}, {entry['column']}: filled with {told['Value']}"
+    headline = f"Row {entry['row']}, {entry['column']}: filled with {told['Value']}"
+    assert panel.headline.text() in (headline, f"{headline}, {told.get('Interval')}")
     # A plain mean of k donors (scikit-learn KNNImputer, uniform weights): the shown value
     # is the mean of the shown donor values.
     assert float(told["Value"]) == pytest.approx(np.mean(shown_values), rel=1e-5)
@@ -103,12 +104,12 @@ def test_category_cell_shows_the_vote(panel):
 
 
 def test_weak_support_is_explained(qtbot):
-    """An outlier row's nearest donor is farther than for 95% of the filled cells."""
+    """Without intervals: an outlier row's nearest donor is farther than for 95% of the filled cells."""
     rng = np.random.default_rng(7)
     frame = pd.DataFrame(rng.normal(size=(40, 3)), columns=["a", "b", "c"])
     frame.iloc[::4, 2] = np.nan
     frame.loc[39] = [25.0, -25.0, np.nan]  # far from every other row
-    result = impute(frame, FillPlan(k=3))
+    result = impute(frame, FillPlan(k=3, interval_level=None))
     entry = result.log[(result.log["row"] == 39) & (result.log["column"] == "c")].iloc[0]
     assert entry["support"] == "weak"
     panel = DonorPanel()
@@ -161,8 +162,16 @@ def test_censored_cell_shows_its_original_text(panel):
     states = pd.DataFrame("observed", index=frame.index, columns=frame.columns)
     states.loc[4, "zinc"] = "censored"
     states = states.astype(pd.CategoricalDtype(["observed", "missing", "censored", "text_in_number"]))
-    notes = pd.DataFrame({"row": [4], "column": ["zinc"], "state": ["censored"], "text": ["<0.05"],
-                          "side": ["<"], "limit": [0.05]})
+    notes = pd.DataFrame(
+        {
+            "row": [4],
+            "column": ["zinc"],
+            "state": ["censored"],
+            "text": ["<0.05"],
+            "side": ["<"],
+            "limit": [0.05],
+        }
+    )
     sheet = SimpleNamespace(frame=frame, states=states, cell_notes=notes)
     result = impute(sheet, FillPlan(k=3, censored="half_limit"))
     entry = result.log[(result.log["row"] == 4) & (result.log["column"] == "zinc")].iloc[0]
@@ -192,10 +201,18 @@ def test_enter_on_a_donor_asks_to_show_its_row(qtbot, panel, filled):
     [
         ("knn", True, FillPlan(), "mean of the nearest donors' values"),
         ("knn", True, FillPlan(numeric_rule="median"), "median of the nearest donors' values"),
-        ("knn", True, FillPlan(neighbour_weighting="inverse_distance"),
-         "distance-weighted mean of the nearest donors (nearer donors count more)"),
-        ("knn", False, FillPlan(),
-         "majority vote of the nearest donors (a tie goes to the nearest donor's class)"),
+        (
+            "knn",
+            True,
+            FillPlan(neighbour_weighting="inverse_distance"),
+            "distance-weighted mean of the nearest donors (nearer donors count more)",
+        ),
+        (
+            "knn",
+            False,
+            FillPlan(),
+            "majority vote of the nearest donors (a tie goes to the nearest donor's class)",
+        ),
         ("knn_capped", True, FillPlan(), "mean of the nearest donors' values, capped at the entry's limit"),
         ("column_mean", True, FillPlan(), "column average (no donor was available)"),
         ("limit_sqrt2", True, FillPlan(), "replaced by the limit divided by sqrt(2) (Hornung & Reed 1990)"),
@@ -208,3 +225,24 @@ def test_method_words(method, numeric, plan, words):
 def test_words_without_a_result():
     assert describe_cell(None, 3, "x").status == "none"
     assert support_words("", 1.0, 2.0).startswith("Not applicable")
+
+
+def test_interval_is_shown_and_support_follows_its_width(qtbot):
+    """With intervals on (README "How the numbers are made"): the interval is a fact and in
+    the headline, and support is judged by its width in column SDs."""
+    rng = np.random.default_rng(3)
+    frame = pd.DataFrame(rng.normal(size=(200, 3)), columns=["a", "b", "c"])
+    frame.iloc[::5, 2] = np.nan
+    result = impute(frame, FillPlan(k=5))
+    entry = result.log[result.log["column"] == "c"].iloc[0]
+    panel = DonorPanel()
+    qtbot.addWidget(panel)
+    panel.show_cell(result, entry["row"], "c")
+    told = facts(panel)
+    interval = f"{format_value(entry['lower'])} to {format_value(entry['upper'])} (90% interval)"
+    assert told["Interval"] == interval
+    assert panel.headline.text().endswith(f", {interval}")
+    width = (entry["upper"] - entry["lower"]) / frame["c"].std()
+    assert f"{width:.1f} standard deviations of the column" in panel.support_text.text()
+    # pure noise columns: the interval is wider than 2 column SDs, so support is weak
+    assert entry["support"] == "weak" and panel.support_text.text().startswith("Weak support")

@@ -103,8 +103,8 @@ def test_table_holds_filled_values_and_original_texts(lab_csv) -> None:
 def test_fill_log_csv_matches_the_log(lab_csv) -> None:
     _, result, files = lab_csv
     rows = read_rows(files[1])
-    assert rows[0] == ["row", "column", "original_state", "method", "value", "k", "donors", "distances",
-                       "donor_values", "spread", "support", "note"]  # fmt: skip
+    assert rows[0] == ["row", "column", "original_state", "method", "value", "lower", "upper", "k",
+                       "donors", "distances", "donor_values", "spread", "support", "note"]  # fmt: skip
     assert len(rows) == len(result.log) + 1
     for line, entry in zip(rows[1:], result.log.itertuples(index=False), strict=True):
         record = dict(zip(rows[0], line, strict=True))

@@ -127,12 +127,12 @@ def test_comments_give_each_cells_evidence(lab) -> None:
 def test_fill_log_sheet_has_one_row_per_log_row(lab) -> None:
     log = lab.result.log
     for cells in (openpyxl_cells(lab.path, "Fill log"), calamine_cells(lab.path, "Fill log")):
-        header = [cells[(1, j)] for j in range(1, 13)]
-        assert header == ["row", "column", "original_state", "method", "value", "k", "donors", "distances",
-                          "donor_values", "spread", "support", "note"]  # fmt: skip
+        header = [cells[(1, j)] for j in range(1, 15)]
+        assert header == ["row", "column", "original_state", "method", "value", "lower", "upper", "k",
+                          "donors", "distances", "donor_values", "spread", "support", "note"]  # fmt: skip
         assert max(r for r, _ in cells) == len(log) + 1
         for i, entry in enumerate(log.itertuples(index=False), start=2):
-            row = {header[j - 1]: cells.get((i, j), "") for j in range(1, 13)}
+            row = {header[j - 1]: cells.get((i, j), "") for j in range(1, 15)}
             assert row["row"] == entry.row and row["column"] == entry.column
             assert row["original_state"] == entry.original_state and row["method"] == entry.method
             assert row["value"] == entry.value

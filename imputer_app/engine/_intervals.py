@@ -1,0 +1,215 @@
+"""Give every kNN-filled value its calibrated interval, and judge its support (numpy only).
+
+:func:`calibrate` hides known cells and calibrates each fill column
+(:mod:`~imputer_app.engine._conformal`); :func:`add_intervals` then writes ``lower`` and
+``upper`` (numbers) or the class set (categories, in the note) into the fill log's
+records, and sets the support word by an absolute rule:
+
+* a number is ``weak`` when its interval is wider than :data:`WIDE_SDS` times the
+  column's SD (a fill that says no more than "somewhere in the column's usual range");
+* any kNN value is ``weak`` when its donors share on average less than
+  :data:`FEW_SHARED` of the similarity weight that the cell itself has, i.e. the
+  donors were compared on few columns;
+* a number without an interval, and a category, keeps the distance rule of
+  :mod:`~imputer_app.engine._support` besides the shared-column rule.
+
+Both thresholds are Kinfill's own choices, stated in README.md.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Mapping
+
+import numpy as np
+from numpy.typing import NDArray
+
+from imputer_app.engine._conformal import (
+    CAL_SEED,
+    Calibration,
+    ColumnCalibration,
+    calibration_masks,
+    column_rule,
+    round_scores,
+)
+from imputer_app.engine._distance import Features
+from imputer_app.engine._input import Input
+from imputer_app.engine._log import KNN, KNN_CAPPED, LogPiece, Records
+from imputer_app.engine._prepare import prepare_input
+from imputer_app.engine._table import PreparedTable
+from imputer_app.work import CancelFlag
+
+BoolArray = NDArray[np.bool_]
+FloatArray = NDArray[np.float64]
+
+#: An interval wider than this many column SDs makes a number's support weak.
+WIDE_SDS = 2.0
+#: Donors sharing on average less than this share of the cell's similarity weight: weak.
+FEW_SHARED = 0.5
+_CHUNK = 50_000
+#: Up to this many rows, the shared weight of every pair of rows is one matrix product.
+_PAIRS_ROWS = 4_000
+
+
+def calibrate(
+    inp: Input,
+    table: PreparedTable,
+    censored_masks: Mapping[str, BoolArray],
+    gaps: BoolArray,
+    cancel: CancelFlag | None = None,
+) -> Calibration | None:
+    """Calibrate the plan's interval on hidden known cells; None when intervals are off.
+
+    Parameters
+    ----------
+    inp : Input
+        The checked input (prepared again with the calibration cells hidden).
+    table : PreparedTable
+        The sheet prepared for the fill.
+    censored_masks : mapping of str to bool ndarray of shape (n_rows,)
+        Censored cells per column; never hidden.
+    gaps : bool ndarray of shape (n_rows, n_frame_columns)
+        The sheet's gaps, whose patterns the hidden rows copy.
+    cancel : Event-like or callable, optional
+        Checked between the rounds of hiding.
+    """
+    level = table.plan.interval_level
+    if level is None or not table.fill_columns:
+        return None
+    rng = np.random.default_rng(CAL_SEED)
+    rounds, patterned = calibration_masks(table, gaps, censored_masks, rng)
+    pooled: dict[str, list[FloatArray]] = {c: [] for c in table.fill_columns}
+    for hide, chosen in rounds:
+        hidden = prepare_input(inp, table.plan, hide=hide, cancel=cancel)[0]
+        for col, scores in round_scores(table, hidden, chosen, cancel).items():
+            pooled[col].append(scores)
+    columns = {
+        c: column_rule(table, c, np.hstack(parts) if parts else np.empty((2, 0)), level)
+        for c, parts in pooled.items()
+    }
+    return Calibration(level, columns, "gap patterns" if patterned else "random")
+
+
+def add_intervals(records: Records, table: PreparedTable, calibration: Calibration) -> None:
+    """Replace ``records``' kNN pieces by copies with intervals, notes and support set."""
+    by_position = {records.position(c): cal for c, cal in calibration.columns.items()}
+    records.pieces[:] = [
+        _with_interval(p, table, calibration.level, by_position) if _is_knn(p) else p for p in records.pieces
+    ]
+
+
+def _is_knn(piece: LogPiece) -> bool:
+    return bool(np.isin(piece.method, (KNN, KNN_CAPPED)).all()) and len(piece.pos) > 0
+
+
+def _per_cell(
+    column: NDArray[np.intp], by_position: Mapping[int, ColumnCalibration], name: str
+) -> FloatArray:
+    lookup = np.full(int(column.max()) + 1, np.nan)
+    for j, cal in by_position.items():
+        if j < len(lookup):
+            lookup[j] = getattr(cal, name)
+    return lookup[column]
+
+
+def _with_interval(
+    piece: LogPiece, table: PreparedTable, level: float, by_position: Mapping[int, ColumnCalibration]
+) -> LogPiece:
+    first = by_position.get(int(piece.column[0]))
+    if first is None:
+        return piece
+    few = _shared_share(table.features, piece) < FEW_SHARED
+    support = piece.support.copy()
+    nan = np.full(len(piece.pos), np.nan)
+    if first.kind == "number":
+        lower, upper, wide = _number_interval(piece, table, by_position)
+        has = np.isfinite(lower)
+        support[has] = np.where(wide[has], 2, 1)
+        extra = _column_words(piece, by_position, level)
+    else:
+        lower, upper = nan, nan.copy()
+        extra = _class_sets(piece, table, first, level)
+    support[few] = 2
+    support[piece.k == 0] = 0
+    note = np.where(piece.note == "", extra, piece.note + "; " + extra)
+    return dataclasses.replace(piece, lower=lower, upper=upper, support=support, note=note)
+
+
+def _number_interval(
+    piece: LogPiece, table: PreparedTable, by_position: Mapping[int, ColumnCalibration]
+) -> tuple[FloatArray, FloatArray, BoolArray]:
+    q = _per_cell(piece.column, by_position, "quantile")
+    floor = _per_cell(piece.column, by_position, "floor")
+    sd_col = _per_cell(piece.column, by_position, "column_sd")
+    value = np.asarray(piece.value, dtype=np.float64)
+    half = q * (np.nan_to_num(piece.spread) + floor)
+    lower, upper = value - half, value + half
+    lo = np.array([_bound(table, c, 0) for c in table.columns])[piece.column]
+    hi = np.array([_bound(table, c, 1) for c in table.columns])[piece.column]
+    with np.errstate(invalid="ignore"):
+        lower = np.where(lower < lo, lo, lower)
+        upper = np.where(upper > hi, hi, upper)
+        wide = (upper - lower) > WIDE_SDS * sd_col
+    return lower, upper, wide
+
+
+def _bound(table: PreparedTable, column: str, side: int) -> float:
+    value = table.plan.bounds.get(column, (None, None))[side]
+    return float("nan") if value is None else float(value)
+
+
+def _column_words(
+    piece: LogPiece, by_position: Mapping[int, ColumnCalibration], level: float
+) -> NDArray[np.object_]:
+    words = np.empty(int(piece.column.max()) + 1, dtype=object)
+    words[:] = ""
+    for j, cal in by_position.items():
+        if j < len(words):
+            words[j] = cal.note(level)
+    return words[piece.column]
+
+
+def _class_sets(
+    piece: LogPiece, table: PreparedTable, cal: ColumnCalibration, level: float
+) -> NDArray[np.object_]:
+    """Per cell the note on its class set: classes whose donor share reaches the threshold."""
+    out = np.empty(len(piece.pos), dtype=object)
+    if not cal.usable:
+        out[:] = cal.note(level)
+        return out
+    classes = list(table.categories[cal.column])
+    width = piece.donor_values.shape[1]
+    first = np.arange(width)[None, :] < piece.k[:, None]
+    used = np.maximum(piece.k, 1)
+    share = np.stack(
+        [((piece.donor_values == c) & first).sum(axis=1) / used for c in classes], axis=1
+    ) if classes else np.zeros((len(piece.pos), 0))  # fmt: skip
+    keep = share >= (1.0 - cal.quantile) - 1e-12
+    kinds, which = np.unique(keep, axis=0, return_inverse=True)
+    head = f"{level:.0%} set calibrated on {cal.n_hidden} hidden known cells: "
+    texts = [head + ", ".join(str(c) for c, ok in zip(classes, row, strict=True) if ok) for row in kinds]
+    out[:] = np.asarray(texts, dtype=object)[np.ravel(which)] if len(texts) else ""
+    return out
+
+
+def _shared_share(features: Features, piece: LogPiece) -> FloatArray:
+    """Per cell, the mean share of all similarity weight that it and a used donor both have."""
+    fin = np.hstack([np.isfinite(features.numbers), features.codes >= 0]).astype(np.float64)
+    w = np.concatenate([features.number_weights, features.code_weights])
+    out = np.ones(len(piece.pos))
+    width = piece.donors.shape[1]
+    if not width or not fin.shape[1]:
+        return out
+    total = features.total_weight if features.total_weight > 0 else 1.0
+    first = np.arange(width)[None, :] < piece.k[:, None]
+    if fin.shape[0] <= _PAIRS_ROWS:  # every pair of rows at once, by one matrix product
+        pairs = (fin * w) @ fin.T
+        shared = pairs[piece.pos[:, None], np.maximum(piece.donors, 0)]
+        return np.asarray((shared * first).sum(axis=1) / np.maximum(piece.k, 1) / total)
+    for a in range(0, len(piece.pos), _CHUNK):
+        b = min(a + _CHUNK, len(piece.pos))
+        own = fin[piece.pos[a:b]] * w  # (m, p)
+        donors = fin[np.maximum(piece.donors[a:b], 0)]  # (m, width, p)
+        shared = np.einsum("mp,mip->mi", own, donors)
+        out[a:b] = (shared * first[a:b]).sum(axis=1) / np.maximum(piece.k[a:b], 1) / total
+    return out
