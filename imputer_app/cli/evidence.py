@@ -31,11 +31,14 @@ def k_option(text: str) -> int | str:
     if word in K_WORDS:
         return word
     try:
-        return int(text)  # the plan says why a number below 1 will not do
+        value = int(text)
     except ValueError:
         raise argparse.ArgumentTypeError(
-            f"invalid int value: {text!r} (a whole number, best or best-per-column)"
+            f"expected a whole number of at least 1, best or best-per-column; got {text!r}"
         ) from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"expected a whole number of at least 1; got {value}")
+    return value
 
 
 def chosen_by_test(

@@ -282,7 +282,10 @@ def build_parser() -> argparse.ArgumentParser:
     )
     test.add_argument("--seed", metavar="N", type=int, default=0, help="random seed of the hiding (0)")
     test.add_argument(
-        "--masking", choices=("random", "pattern"), default="random", help="how cells are hidden"
+        "--masking",
+        choices=("auto", "random", "pattern"),
+        default="auto",
+        help="how cells are hidden: the sheet's own gap patterns where it has enough, else at random (auto)",
     )
     score.add_argument("--json", metavar="FILE", type=Path, help="write the full report as JSON")
     score.add_argument(

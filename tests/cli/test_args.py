@@ -64,7 +64,7 @@ def test_top_help_lists_commands(capsys: pytest.CaptureFixture[str]) -> None:
         (["frobnicate"], "invalid choice"),
         (["fill"], "required: INPUT"),
         (["fill", "x.xlsx", "--bogus"], "unrecognized arguments: --bogus"),
-        (["fill", "x.xlsx", "--k", "five"], "expected a whole number of at least 1; got 'five'"),
+        (["fill", "x.xlsx", "--k", "five"], "best or best-per-column; got 'five'"),
         (["fill", "x.xlsx", "--weight", "pH"], "expected COLUMN=WEIGHT"),
         (["fill", "x.xlsx", "--weight", "pH=heavy"], "weight for column 'pH' must be a number"),
         (["fill", "x.xlsx", "--similarity", " , "], "expected comma-separated column names"),
