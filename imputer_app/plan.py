@@ -50,6 +50,9 @@ KINDS = ("number", "category")
 
 MAX_WEIGHT = 1000.0
 
+#: The k values a recovery test tries by default, in the app and on the command line alike.
+DEFAULT_KS = tuple(range(1, 31))
+
 Bound = tuple[float | None, float | None]
 
 

@@ -25,7 +25,7 @@ from imputer_app.cli.outputs import (
 )
 from imputer_app.cli.plan_options import build_plan, check_plan_columns, spell_out_roles
 from imputer_app.cli.progress import StopFlag, TextProgress, stop_on_ctrl_c
-from imputer_app.cli.text import fill_summary, recovery_table
+from imputer_app.cli.text import fill_summary, k_notes, recovery_table
 from imputer_app.plan import PLAN_SUFFIX, FillPlan
 from imputer_app.work import Progress
 
@@ -47,10 +47,11 @@ def run_fill(args: argparse.Namespace) -> int:
     refuse_input(sidecars, source)
     refuse_overwrite(sidecars, args.force)
     old_sidecars = [p for p in sidecars if p.exists()]
-    bar = TextProgress(sys.stderr)
+    bar = TextProgress.for_args(args, sys.stderr)
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
+            print_notes(k_notes(sheet, plan), ())  # before the fill, which may take a while
             result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop)
             written = write_result(out, sheet, result, plan, progress=bar.stage("writing"), cancel=stop)
     finally:
@@ -72,7 +73,7 @@ def run_score_k(args: argparse.Namespace) -> int:
     plan = plan_for(args)
     from imputer_app.validation import recovery_test
 
-    bar = TextProgress(sys.stderr)
+    bar = TextProgress.for_args(args, sys.stderr)
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
@@ -111,7 +112,7 @@ def run_plan(args: argparse.Namespace) -> int:
     plan = plan_for(args)
     from imputer_app.engine import prepare
 
-    bar = TextProgress(sys.stderr)
+    bar = TextProgress.for_args(args, sys.stderr)
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)

@@ -11,7 +11,7 @@ import contextlib
 import os
 import sys
 import traceback
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 
 from imputer_app.cli.exit_codes import EXIT_FAULT, EXIT_OK, EXIT_STOPPED, EXIT_USAGE
 from imputer_app.cli.parser import build_parser
@@ -43,7 +43,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     prog = f"kinfill {args.command}"
     run: Callable[[argparse.Namespace], int] = args.run
     try:
-        return run(args)
+        with quiet_output(bool(getattr(args, "quiet", False))):
+            return run(args)
     except KinfillError as exc:
         if debug:
             traceback.print_exc()
@@ -66,6 +67,16 @@ def main(argv: Sequence[str] | None = None) -> int:
             hint = " (run again with --debug to see where)"
         print(f"{prog}: internal error: {type(exc).__name__}: {one_line(str(exc))}{hint}", file=sys.stderr)
         return EXIT_FAULT
+
+
+@contextlib.contextmanager
+def quiet_output(quiet: bool) -> Iterator[None]:
+    """``--quiet``: the summary on stdout goes nowhere (notes and errors stay on stderr)."""
+    if not quiet:
+        yield
+        return
+    with open(os.devnull, "w", encoding="utf-8") as nowhere, contextlib.redirect_stdout(nowhere):
+        yield
 
 
 def one_line(text: str) -> str:

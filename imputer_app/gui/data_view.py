@@ -36,6 +36,15 @@ class DataView(QWidget):
         layout.setContentsMargins(0, 0, 0, 0)
         self.legend = Legend(self)
         layout.addWidget(self.legend)
+        self.layer_note = QLabel(self)
+        self.layer_note.setObjectName("layerNote")
+        self.layer_note.setAccessibleName("Which fill the table shows")
+        self.layer_note.setWordWrap(True)
+        self.layer_note.setStyleSheet(
+            "QLabel { background: palette(highlight); color: palette(highlighted-text); padding: 3px; }"
+        )
+        self.layer_note.hide()
+        layout.addWidget(self.layer_note)
         self.model = SheetTableModel(self)
         self.table = QTableView(self)
         self.table.setObjectName("dataTable")
@@ -79,6 +88,11 @@ class DataView(QWidget):
         )
         self.table.resizeColumnsToContents()
         self._update_viewport()
+
+    def set_layer_note(self, text: str) -> None:
+        """Say above the table which fill it shows ('' hides the line)."""
+        self.layer_note.setText(text)
+        self.layer_note.setVisible(bool(text))
 
     # --------------------------------------------------------------- navigation
     def select_position(self, row: int, column: int) -> None:

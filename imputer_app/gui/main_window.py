@@ -18,6 +18,7 @@ from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent, QSh
 from PySide6.QtWidgets import QMainWindow, QMenu, QSplitter, QToolBar, QWidget
 
 from imputer_app.gui import file_actions as fa
+from imputer_app.gui import fill_questions as fq
 from imputer_app.gui import window_layout
 from imputer_app.gui.about import AboutDialog
 from imputer_app.gui.column_setup import ColumnSetup
@@ -29,6 +30,7 @@ from imputer_app.gui.plan_files import PlanFiles
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
 from imputer_app.gui.state import Session
+from imputer_app.gui.status_text import fill_remarks, layer_note, state_line
 from imputer_app.gui.unfilled_panel import UnfilledPanel
 from imputer_app.gui.window_actions import build_actions, build_menus, enabled_actions, fill_recent_menu
 from imputer_app.gui.window_jobs import JobDesk
@@ -65,6 +67,9 @@ class MainWindow(QMainWindow):
         self.interactive = True
         self.recent_menu = QMenu("&Recent files", self)
         self.toolbar: QToolBar | None = None
+        #: What to do once the export under way has been written (quit, open another sheet).
+        self._after_export: Callable[[], object] | None = None
+        self._reading_remarks = ""
         self.setAcceptDrops(True)
         self._build()
         self.actions_ = build_actions(self, self._slots())
@@ -170,7 +175,7 @@ class MainWindow(QMainWindow):
             The user already agreed to lose an unexported fill.
         """
         path = Path(path)
-        if not confirmed and not fa.confirm_discard(self, self.session.dirty):
+        if not confirmed and not self._may_leave(lambda: self.open_path(path, options, confirmed=True)):
             return
         if options is None:
             options = fa.ask_open_options(self, path)
@@ -191,7 +196,7 @@ class MainWindow(QMainWindow):
 
     def open_dialog(self, with_options: bool = False) -> None:
         """File > Open (or Open with options): choose a sheet."""
-        if not fa.confirm_discard(self, self.session.dirty):
+        if not self._may_leave(lambda: self.open_dialog(with_options)):
             return
         path = fa.ask_sheet_path(self)
         if path is None:
@@ -206,7 +211,8 @@ class MainWindow(QMainWindow):
         self.recent_changed(self.settings.add_recent(sheet.source.path))
         self.settings.set_last_folder(sheet.source.path)
         problems = "; ".join(sheet.problems[:3])
-        self.notice.setText(f"Remarks on reading: {problems}" if problems else "")
+        self._reading_remarks = f"Remarks on reading: {problems}" if problems else ""
+        self._show_remarks()
         self.statusBar().showMessage(f"Opened {Path(sheet.source.path).name}.", 5000)
         self.sheet_loaded.emit()
 
@@ -240,8 +246,9 @@ class MainWindow(QMainWindow):
     def preview_fill(self) -> None:
         """Compute the fill in the background and show it over the data."""
         sheet, plan = self.session.sheet, self.session.plan
-        if sheet is None:
+        if sheet is None or not self._k_fits(sheet):
             return
+        plan = self.session.plan
 
         def job(progress: Progress, cancel: CancelFlag) -> FillResult:
             from imputer_app.engine import impute
@@ -250,13 +257,7 @@ class MainWindow(QMainWindow):
 
         def done(result: FillResult) -> None:
             if self.session.sheet is sheet and self.session.plan == plan:
-                self.session.set_preview(result)
-                proposed = int(result.filled.to_numpy().sum())
-                self.statusBar().showMessage(
-                    f"Preview: {proposed} values proposed, nothing changed yet. "
-                    "Select one to see its donors; Ctrl+Return applies.",
-                    15000,
-                )
+                self.session.set_preview(result)  # the status bar says so (see _on_session)
                 self.preview_ready.emit()
 
         self.run_job("Computing the fill preview…", job, done)
@@ -265,11 +266,6 @@ class MainWindow(QMainWindow):
         """Write the preview into the working table."""
         if self.session.can_apply:
             self.session.apply()
-            self.statusBar().showMessage(
-                "Applied. Filled values are estimates, not measurements; "
-                "Export (Ctrl+E) writes them marked, with the fill log.",
-                10000,
-            )
 
     def undo(self) -> None:
         """Take back the last applied fill."""
@@ -281,15 +277,21 @@ class MainWindow(QMainWindow):
         if self.session.can_redo:
             self.session.redo()
 
-    def export(self, path: str | Path | None = None) -> None:
-        """Write the applied fill and its log (never over the source; asks before replacing)."""
+    def export(self, path: str | Path | None = None) -> bool:
+        """Write the applied fill and its log (never over the source; asks before replacing).
+
+        A preview on screen is settled first (apply it, or export the applied fill).
+        Returns True when the export started.
+        """
+        if not self._settle_preview():
+            return False
         sheet, result, report = self.session.sheet, self.session.applied, self.session.report
         if sheet is None or result is None:
             self.show_error("Nothing to export yet: preview a fill and apply it first.")
-            return
+            return False
         target = fa.ask_export_path(self, Path(sheet.source.path), path)
         if target is None:
-            return
+            return False
 
         def job(progress: Progress, cancel: CancelFlag) -> list[Path]:
             from imputer_app.sheets import write_result
@@ -302,8 +304,11 @@ class MainWindow(QMainWindow):
             names = ", ".join(Path(p).name for p in paths)
             self.statusBar().showMessage(f"Exported {names} to {Path(target).parent}.", 10000)
             self.exported.emit(list(paths))
+            then, self._after_export = self._after_export, None
+            if then is not None:
+                then()
 
-        self.run_job(f"Exporting {target.name}…", job, done)
+        return self.run_job(f"Exporting {target.name}…", job, done)
 
     # ------------------------------------------------------------------- table
     def shown_result(self) -> FillResult | None:
@@ -358,6 +363,8 @@ class MainWindow(QMainWindow):
             self._refresh_layer()
         if event == "plan" and self.session.plan_problem is None:
             self.settings.save_options(self.session.plan)
+        if event in ("sheet", "preview", "applied", "saved"):
+            self.statusBar().showMessage(state_line(self.session), 15000)
         self._update_title()
         self._update_actions()
 
@@ -372,9 +379,20 @@ class MainWindow(QMainWindow):
         self.donor_panel.clear()
         self._on_current_cell(self.table.currentIndex(), QModelIndex())
         self.summary.setText(fa.summary_text(self.table_model, self.session))
-        warnings = "; ".join(result.warnings[:3]) if result is not None and result.warnings else ""
-        if warnings:
-            self.notice.setText(f"Remarks on the fill: {warnings}")
+        self.data.set_layer_note(layer_note(self.session))
+        self._show_remarks()
+
+    def _may_leave(self, then: Callable[[], object], closing: bool = False) -> bool:
+        return fq.may_leave(self, then, closing)
+
+    def _k_fits(self, sheet: Sheet) -> bool:
+        return fq.k_fits(self, sheet)
+
+    def _settle_preview(self) -> bool:
+        return fq.settle_preview(self)
+
+    def _show_remarks(self) -> None:
+        self.notice.setText(fill_remarks(self.session, self._reading_remarks))
 
     def _update_title(self) -> None:
         path = self.session.path
@@ -432,8 +450,8 @@ class MainWindow(QMainWindow):
         window_layout.save_layout(self, self.settings, self.splitter, self.table_split)
 
     def closeEvent(self, event: QCloseEvent) -> None:
-        """Ask before losing an applied fill that was not exported; stop background work."""
-        if not fa.confirm_discard(self, self.session.dirty, closing=True):
+        """Offer to export an applied fill that was not exported; stop background work."""
+        if not self._may_leave(lambda: bool(self.close()), closing=True):
             event.ignore()
             return
         self.save_layout()

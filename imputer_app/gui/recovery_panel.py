@@ -144,7 +144,7 @@ class RecoveryPanel(QWidget):
                                  "Enter in a setting)")
         self.run_button.clicked.connect(self.run)
         self.cancel_button = button(self, "recoveryCancel", "&Cancel",
-                                    "Stop the running test; the previous result is kept")
+                                    "Stop the running test; a previous result, if any, is kept")
         self.cancel_button.clicked.connect(self.cancel)
         self.progress = named(QProgressBar(self), "recoveryProgress", "Recovery test progress",
                               "Progress of the running test")
@@ -325,7 +325,8 @@ class RecoveryPanel(QWidget):
 
     def _on_cancelled(self) -> None:
         self._set_running(False, "stopped")
-        self._show_status("Stopped. The previous result is kept.", problem=False)
+        kept = "The previous result is kept." if self._report is not None else "No result yet."
+        self._show_status(f"Stopped. {kept}", problem=False)
 
     def _set_running(self, running: bool, outcome: str = "") -> None:
         """Lock the settings while a test runs; ``outcome`` labels the idle progress bar."""

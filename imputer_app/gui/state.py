@@ -184,16 +184,21 @@ class Session:
         return result
 
     def undo(self) -> None:
-        """Take back the last applied fill (the one before it, if any, is shown again)."""
+        """Take back the last applied fill (the one before it, if any, is shown again).
+
+        A preview on screen is dropped, so that the table shows what is applied.
+        """
         if not self.can_undo:
             raise SessionError("nothing to undo")
+        self._drop_preview()
         self._position -= 1
         self._emit("applied")
 
     def redo(self) -> None:
-        """Apply again the fill last taken back."""
+        """Apply again the fill last taken back (a preview on screen is dropped)."""
         if not self.can_redo:
             raise SessionError("nothing to redo")
+        self._drop_preview()
         self._position += 1
         self._emit("applied")
 
@@ -201,6 +206,12 @@ class Session:
         """Record that the applied fill has been written out (no longer dirty)."""
         self._exported = self.applied
         self._emit("saved")
+
+    def _drop_preview(self) -> None:
+        # Undo and redo change what is applied; the table then shows it, not an older preview.
+        if self.preview is not None:
+            self.preview = None
+            self._emit("preview")
 
     def _require_sheet(self) -> None:
         if self.sheet is None:

@@ -10,8 +10,19 @@ tabulates how rows with gaps differ from the others and which gap patterns occur
 """
 
 from imputer_app.validation._gaps import GapCheck, MCARTest, gap_check
+from imputer_app.validation._k_check import KCheck, check_k, fill_columns
 from imputer_app.validation._recovery import recovery_test
 from imputer_app.validation._report import RecoveryReport
 from imputer_app.validation._scoring import one_se_rule
 
-__all__ = ["GapCheck", "MCARTest", "RecoveryReport", "gap_check", "one_se_rule", "recovery_test"]
+__all__ = [
+    "GapCheck",
+    "KCheck",
+    "MCARTest",
+    "RecoveryReport",
+    "check_k",
+    "fill_columns",
+    "gap_check",
+    "one_se_rule",
+    "recovery_test",
+]

@@ -30,7 +30,7 @@ from imputer_app.gui.recovery_logic import (
     verdict,
 )
 from imputer_app.gui.recovery_panel import RecoveryPanel
-from imputer_app.plan import FillPlan
+from imputer_app.plan import DEFAULT_KS, FillPlan
 from imputer_app.work import raise_if_cancelled
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
@@ -355,7 +355,7 @@ def test_k_range_is_capped_by_donors_and_100(qtbot, panel, n_rows, gaps, plan, c
     assert k_ceiling(frame, plan) == ceiling
     panel.set_source(frame, plan)
     assert panel.k_to.maximum() == ceiling and panel.k_from.maximum() == ceiling
-    assert panel.k_to.value() == min(20, ceiling)
+    assert panel.k_to.value() == min(max(DEFAULT_KS), ceiling)  # the command line's default range
 
 
 def test_k_from_never_passes_k_to(qtbot, panel):
