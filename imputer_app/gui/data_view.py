@@ -10,6 +10,7 @@ from PySide6.QtWidgets import QAbstractItemView, QLabel, QSplitter, QTableView, 
 from imputer_app.gui.gap_map import GapMap
 from imputer_app.gui.legend import Legend
 from imputer_app.gui.markers import CENSORED, MISSING, TEXT
+from imputer_app.gui.read_bar import ReadBar
 from imputer_app.gui.table_model import SheetTableModel
 
 if TYPE_CHECKING:
@@ -34,6 +35,8 @@ class DataView(QWidget):
         self.setAccessibleName("Data")
         layout = QVBoxLayout(self)
         layout.setContentsMargins(0, 0, 0, 0)
+        self.read_bar = ReadBar(self)
+        layout.addWidget(self.read_bar)
         self.legend = Legend(self)
         layout.addWidget(self.legend)
         self.layer_note = QLabel(self)

@@ -27,6 +27,7 @@ from imputer_app.gui.donor_panel import DonorPanel
 from imputer_app.gui.markers import CENSORED, palette_is_dark
 from imputer_app.gui.panel_tabs import PanelTabs
 from imputer_app.gui.plan_files import PlanFiles
+from imputer_app.gui.read_bar import worksheets
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
 from imputer_app.gui.state import Session
@@ -91,6 +92,7 @@ class MainWindow(QMainWindow):
         self.table_split, self.notice = self.data.splitter, self.data.notice
         self.table.selectionModel().currentChanged.connect(self._on_current_cell)
         self.data.cell_not_found.connect(lambda text: self.statusBar().showMessage(text, 5000))
+        self.data.read_bar.reread.connect(self._reread)
 
         self.tabs = PanelTabs(self)
         self.recovery_panel = RecoveryPanel(self.tabs, session=self.session)
@@ -177,22 +179,35 @@ class MainWindow(QMainWindow):
         path = Path(path)
         if not confirmed and not self._may_leave(lambda: self.open_path(path, options, confirmed=True)):
             return
-        if options is None:
-            options = fa.ask_open_options(self, path)
-            if options is None:
-                return
-        options = dict(options)
+        guess = options is None  # a double-click: open the best guess, ask only if it cannot be read
+        options = dict(options or {})
         sheet = options.pop("_sheet", None)
         if sheet is not None:
-            self._show_sheet(sheet)
+            self._show_sheet((sheet, worksheets(path)))
             return
 
-        def job(progress: Progress, cancel: CancelFlag) -> Sheet:
+        def job(progress: Progress, cancel: CancelFlag) -> tuple[Sheet | None, list[str]]:
+            from imputer_app.errors import KinfillError
             from imputer_app.sheets import read_sheet
 
-            return read_sheet(path, progress=progress, cancel=cancel, **options)
+            names = worksheets(path)
+            try:
+                return read_sheet(path, progress=progress, cancel=cancel, **options), names
+            except KinfillError:
+                if guess and len(names) > 1:
+                    return None, names  # no guess works: ask (see _show_sheet)
+                raise
 
-        self.run_job(f"Reading {path.name}…", job, self._show_sheet)
+        def done(payload: tuple[Sheet | None, list[str]]) -> None:
+            sheet, names = payload
+            if sheet is None:
+                chosen = fa.options_dialog(self, path, names)
+                if chosen is not None:
+                    self.open_path(path, chosen, confirmed=True)
+                return
+            self._show_sheet((sheet, names))
+
+        self.run_job(f"Reading {path.name}…", job, done)
 
     def open_dialog(self, with_options: bool = False) -> None:
         """File > Open (or Open with options): choose a sheet."""
@@ -206,8 +221,10 @@ class MainWindow(QMainWindow):
             return
         self.open_path(path, options, confirmed=True)
 
-    def _show_sheet(self, sheet: Sheet) -> None:
+    def _show_sheet(self, payload: tuple[Sheet, list[str]]) -> None:
+        sheet, names = payload
         self.session.load(sheet)  # the panels show it and the setup writes the plan for its columns
+        self.data.read_bar.show_sheet(sheet, names)
         self.recent_changed(self.settings.add_recent(sheet.source.path))
         self.settings.set_last_folder(sheet.source.path)
         problems = "; ".join(sheet.problems[:3])
@@ -215,6 +232,10 @@ class MainWindow(QMainWindow):
         self._show_remarks()
         self.statusBar().showMessage(f"Opened {Path(sheet.source.path).name}.", 5000)
         self.sheet_loaded.emit()
+
+    def _reread(self, options: dict[str, Any]) -> None:
+        if self.session.path is not None:
+            self.open_path(self.session.path, options)
 
     def recent_changed(self, files: list[Path]) -> None:
         """Rebuild File > Recent files."""

@@ -88,7 +88,8 @@ def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
             "Ctrl+E",
             _SP.SP_DriveFDIcon,
         ),
-        ("quit", "&Quit", "Close Kinfill", std.Quit, None),
+        # Spelled out: the standard Quit key is empty on desktops without a platform theme.
+        ("quit", "&Quit", "Close Kinfill", "Ctrl+Q", None),
         ("undo", "&Undo apply", "Take back the last applied fill", "Ctrl+Z", _SP.SP_ArrowBack),
         (
             "redo",
