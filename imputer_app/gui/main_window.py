@@ -17,6 +17,7 @@ from PySide6.QtCore import QEvent, QModelIndex, Qt, Signal
 from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent, QShowEvent
 from PySide6.QtWidgets import QMainWindow, QMenu, QSplitter, QToolBar, QWidget
 
+from imputer_app.errors import KinfillError
 from imputer_app.gui import file_actions as fa
 from imputer_app.gui import fill_questions as fq
 from imputer_app.gui import window_layout
@@ -31,10 +32,11 @@ from imputer_app.gui.read_bar import worksheets
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
 from imputer_app.gui.state import Session
-from imputer_app.gui.status_text import fill_remarks, layer_note, state_line
+from imputer_app.gui.status_text import fill_remarks, layer_note, plan_source, state_line
 from imputer_app.gui.unfilled_panel import UnfilledPanel
 from imputer_app.gui.window_actions import build_actions, build_menus, enabled_actions, fill_recent_menu
 from imputer_app.gui.window_jobs import JobDesk
+from imputer_app.plan import FillPlan
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
@@ -59,7 +61,6 @@ class MainWindow(QMainWindow):
         self.setAccessibleName("Kinfill")
         self.settings = settings or AppSettings()
         self.session = Session()
-        self.session.plan = self.settings.last_options()
         self.jobs = JobDesk(self, self.statusBar(), self.show_error)
         self.runner, self.busy = self.jobs.runner, self.jobs.busy
         self.plan_files = PlanFiles(self, self.session, self.statusBar(), self.show_error)
@@ -71,6 +72,8 @@ class MainWindow(QMainWindow):
         #: What to do once the export under way has been written (quit, open another sheet).
         self._after_export: Callable[[], object] | None = None
         self._reading_remarks = ""
+        #: The plan of the last fill of the open file (offered, never imposed), or None.
+        self._last_plan: FillPlan | None = None
         self.setAcceptDrops(True)
         self._build()
         self.actions_ = build_actions(self, self._slots())
@@ -93,6 +96,7 @@ class MainWindow(QMainWindow):
         self.table.selectionModel().currentChanged.connect(self._on_current_cell)
         self.data.cell_not_found.connect(lambda text: self.statusBar().showMessage(text, 5000))
         self.data.read_bar.reread.connect(self._reread)
+        self.data.read_bar.use_plan.connect(self.session.set_plan)
 
         self.tabs = PanelTabs(self)
         self.recovery_panel = RecoveryPanel(self.tabs, session=self.session)
@@ -223,8 +227,10 @@ class MainWindow(QMainWindow):
 
     def _show_sheet(self, payload: tuple[Sheet, list[str]]) -> None:
         sheet, names = payload
+        self._last_plan = self.settings.sheet_plan(sheet.source.path)
         self.session.load(sheet)  # the panels show it and the setup writes the plan for its columns
         self.data.read_bar.show_sheet(sheet, names)
+        self._show_plan_source()
         self.recent_changed(self.settings.add_recent(sheet.source.path))
         self.settings.set_last_folder(sheet.source.path)
         problems = "; ".join(sheet.problems[:3])
@@ -277,6 +283,9 @@ class MainWindow(QMainWindow):
             return impute(sheet, plan, progress=progress, cancel=cancel)
 
         def done(result: FillResult) -> None:
+            if self.session.path is not None:
+                self.settings.set_sheet_plan(self.session.path, plan)  # offered when the file opens again
+                self._last_plan = plan
             if self.session.sheet is sheet and self.session.plan == plan:
                 self.session.set_preview(result)  # the status bar says so (see _on_session)
                 self.preview_ready.emit()
@@ -382,8 +391,8 @@ class MainWindow(QMainWindow):
             self.data.set_sheet(self.session.sheet)
         if event in ("sheet", "preview", "applied"):
             self._refresh_layer()
-        if event == "plan" and self.session.plan_problem is None:
-            self.settings.save_options(self.session.plan)
+        if event == "plan":
+            self._show_plan_source()
         if event in ("sheet", "preview", "applied", "saved"):
             self.statusBar().showMessage(state_line(self.session), 15000)
         self._update_title()
@@ -402,6 +411,16 @@ class MainWindow(QMainWindow):
         self.summary.setText(fa.summary_text(self.table_model, self.session))
         self.data.set_layer_note(layer_note(self.session))
         self._show_remarks()
+
+    def _show_plan_source(self) -> None:
+        sheet, last = self.session.sheet, self._last_plan
+        if sheet is not None and last is not None:
+            try:
+                last.check_columns(list(map(str, sheet.frame.columns)))
+            except KinfillError:
+                last = None  # made for other columns: nothing to offer
+        text, offer = plan_source(self.session.plan, last)
+        self.data.read_bar.show_plan_source(text, offer)
 
     def _may_leave(self, then: Callable[[], object], closing: bool = False) -> bool:
         return fq.may_leave(self, then, closing)

@@ -12,12 +12,13 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from PySide6.QtCore import Signal
-from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QLineEdit, QSpinBox, QWidget
+from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QLineEdit, QPushButton, QSpinBox, QWidget
 
 from imputer_app.gui.open_dialog import parse_markers
 from imputer_app.gui.widgets import buddy, named
 
 if TYPE_CHECKING:
+    from imputer_app.plan import FillPlan
     from imputer_app.sheets import Sheet
 
 #: Cell states of the reader that come from a marker, and what they mean.
@@ -69,8 +70,11 @@ class ReadBar(QWidget):
     -------
     reread(dict)
         ``read_sheet`` keywords (sheet, header_row, markers) the user chose.
+    use_plan(FillPlan)
+        The user takes the plan of this file's last fill instead of the defaults.
     """
 
+    use_plan = Signal(object)
     reread = Signal(dict)
 
     def __init__(self, parent: QWidget | None = None) -> None:
@@ -110,6 +114,23 @@ class ReadBar(QWidget):
         row.addWidget(buddy("Markers:", self.markers_edit, self))
         row.addWidget(self.markers_edit)
         row.addWidget(self.found, 1)
+        self.plan_note = named(
+            QLabel(self),
+            "planSource",
+            "Where the settings come from",
+            "Settings belong to this sheet: defaults, or the plan of its last fill",
+        )
+        self.plan_button = named(
+            QPushButton(self),
+            "usePlanButton",
+            "Use the last plan",
+            "Take the settings of this file's last fill instead of the defaults",
+        )
+        self.plan_button.clicked.connect(self._use_offer)
+        self.plan_button.hide()
+        row.addWidget(self.plan_note)
+        row.addWidget(self.plan_button)
+        self._offer: FillPlan | None = None
         self._filling = False
         self.sheet_combo.activated.connect(lambda _i: self._changed())
         self.header_spin.editingFinished.connect(self._changed)
@@ -135,6 +156,18 @@ class ReadBar(QWidget):
         self._filling = False
         self._shown = self.options()
         self.show()
+
+    def show_plan_source(self, text: str, offer: FillPlan | None = None) -> None:
+        """Say where the settings come from; ``offer`` is a plan the user may take instead."""
+        self.plan_note.setText(text)
+        self._offer = offer
+        if offer is not None:
+            self.plan_button.setText(f"Use the plan of its last fill (k = {offer.k})")
+        self.plan_button.setVisible(offer is not None)
+
+    def _use_offer(self) -> None:
+        if self._offer is not None:
+            self.use_plan.emit(self._offer)
 
     def options(self) -> dict[str, Any]:
         """The ``read_sheet`` keywords the bar shows."""

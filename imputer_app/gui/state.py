@@ -125,11 +125,12 @@ class Session:
         path : str or Path, optional
             Where it came from (defaults to ``sheet.source.path``).
         plan : FillPlan, optional
-            The plan to start with (default: the current plan's column-free settings).
+            The plan to start with (default: Kinfill's defaults; settings chosen for
+            another sheet never carry over).
         """
         self.sheet = sheet
         self.path = Path(path) if path is not None else Path(sheet.source.path)
-        self.plan = plan if plan is not None else column_free(self.plan)
+        self.plan = plan if plan is not None else FillPlan()
         self.plan_problem = None
         self.report = None
         self.preview = None
@@ -216,23 +217,6 @@ class Session:
     def _require_sheet(self) -> None:
         if self.sheet is None:
             raise SessionError("no sheet is loaded")
-
-
-def column_free(plan: FillPlan) -> FillPlan:
-    """Return ``plan`` without any setting that names a column.
-
-    Used to carry the general options (k, scaling, rules) from one sheet to the next.
-    """
-    return plan.replace(
-        similarity_columns=None,
-        fill_columns=None,
-        carried_columns=(),
-        weights={},
-        group_column=None,
-        bounds={},
-        decimals={},
-        kinds={},
-    )
 
 
 def default_export_path(source: str | Path) -> Path:

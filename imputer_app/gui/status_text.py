@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
+from imputer_app.plan import FillPlan
+
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
     from imputer_app.gui.state import Session
@@ -75,3 +77,31 @@ def fill_remarks(session: Session, reading: str) -> str:
         which = "the preview" if shown is session.preview else "the applied fill"
         parts.append(f"Remarks on {which}: " + "; ".join(shown.warnings[:3]))
     return "\n".join(parts)
+
+
+def plan_source(plan: FillPlan, last: FillPlan | None) -> tuple[str, FillPlan | None]:
+    """Say where the sheet's settings come from, and which plan to offer instead (or None).
+
+    ``last`` is the plan of the file's last fill. Column roles are written by the setup
+    for every sheet, so only the settings a user chooses are compared.
+
+    Examples
+    --------
+    >>> plan_source(FillPlan(), None)
+    ("Settings: Kinfill's defaults (k = 5).", None)
+    """
+    defaults = FillPlan()
+    same = last is not None and _chosen(plan) == _chosen(last)
+    if same and last is not None:
+        return f"Settings: the plan of this file's last fill (k = {last.k}).", None
+    if _chosen(plan) == _chosen(defaults):
+        return f"Settings: Kinfill's defaults (k = {plan.k}).", last
+    return f"Settings: chosen for this sheet (k = {plan.k}).", last
+
+
+def _chosen(plan: FillPlan) -> dict[str, object]:
+    """A plan's settings without the roles the setup fills in for every sheet."""
+    data = plan.to_dict()
+    for key in ("similarity_columns", "fill_columns", "carried_columns"):
+        data.pop(key, None)
+    return data
