@@ -15,7 +15,7 @@ from typing import TYPE_CHECKING, Any, TypeVar
 
 from PySide6.QtCore import QEvent, QModelIndex, Qt, Signal
 from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent, QShowEvent
-from PySide6.QtWidgets import QMainWindow, QMenu, QSplitter, QToolBar, QWidget
+from PySide6.QtWidgets import QMainWindow, QMenu, QSplitter, QStackedWidget, QToolBar, QWidget
 
 from imputer_app.errors import KinfillError
 from imputer_app.gui import file_actions as fa
@@ -31,6 +31,7 @@ from imputer_app.gui.plan_files import PlanFiles
 from imputer_app.gui.read_bar import worksheets
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
+from imputer_app.gui.start_view import StartView
 from imputer_app.gui.state import Session
 from imputer_app.gui.status_text import fill_remarks, layer_note, plan_source, state_line
 from imputer_app.gui.unfilled_panel import UnfilledPanel
@@ -119,7 +120,13 @@ class MainWindow(QMainWindow):
 
         setup_area = window_layout.setup_area(self.setup, self)
         self.splitter: QSplitter = window_layout.main_splitter(self, setup_area, self.data, self.tabs)
-        self.setCentralWidget(self.splitter)
+        # No sheet yet: a start page instead of empty panels showing "k from 1 to 1".
+        self.start = StartView(self.open_dialog, self.open_path, self)
+        self.pages = QStackedWidget(self)
+        self.pages.setObjectName("pages")
+        self.pages.addWidget(self.start)
+        self.pages.addWidget(self.splitter)
+        self.setCentralWidget(self.pages)
         self.summary = window_layout.summary_label(self)
         self.statusBar().setObjectName("statusBar")
         self.statusBar().addPermanentWidget(self.summary)
@@ -246,6 +253,7 @@ class MainWindow(QMainWindow):
     def recent_changed(self, files: list[Path]) -> None:
         """Rebuild File > Recent files."""
         fill_recent_menu(self.recent_menu, files, self.open_path, self._clear_recent)
+        self.start.set_recent(files)
 
     def _clear_recent(self) -> None:
         self.settings.clear_recent()
@@ -389,6 +397,7 @@ class MainWindow(QMainWindow):
     def _on_session(self, event: str) -> None:
         if event == "sheet":
             self.data.set_sheet(self.session.sheet)
+            self.pages.setCurrentWidget(self.splitter if self.session.has_sheet else self.start)
         if event in ("sheet", "preview", "applied"):
             self._refresh_layer()
         if event == "plan":
