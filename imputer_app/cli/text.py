@@ -150,9 +150,12 @@ def recovery_table(report: RecoveryReport) -> str:
         ``overall`` (indexed by k), ``baseline``, ``best_k``, ``best_k_1se``,
         ``best_k_by_column`` and ``settings``.
     """
+    from imputer_app.validation import advice
+
     overall = report.overall
     settings = report.settings
     lines = [
+        advice(report),
         f"recovery test: {settings.get('hide_fraction', 0):.0%} of known cells hidden, "
         f"{settings.get('repeats', '?')} repeats, seed {settings.get('seed', '?')}, "
         f"{settings.get('masking', '?')} hiding"

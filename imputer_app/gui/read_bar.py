@@ -12,7 +12,16 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from PySide6.QtCore import Signal
-from PySide6.QtWidgets import QComboBox, QHBoxLayout, QLabel, QLineEdit, QPushButton, QSpinBox, QWidget
+from PySide6.QtWidgets import (
+    QComboBox,
+    QHBoxLayout,
+    QLabel,
+    QLineEdit,
+    QPushButton,
+    QSpinBox,
+    QVBoxLayout,
+    QWidget,
+)
 
 from imputer_app.gui.open_dialog import parse_markers
 from imputer_app.gui.widgets import buddy, named
@@ -60,7 +69,7 @@ def markers_found(sheet: Sheet, most: int = 4) -> str:
             shown = ", ".join(f"{text} ×{count}" for text, count in texts.most_common(most))
             more = " …" if len(texts) > most else ""
             parts.append(f"{shown}{more} read as {meaning}")
-    return "; ".join(parts) or "no markers found"
+    return "Found: " + "; ".join(parts) if parts else "no markers found"
 
 
 class ReadBar(QWidget):
@@ -85,8 +94,12 @@ class ReadBar(QWidget):
             "How the sheet was read",
             "Worksheet, header row and markers; change to read again",
         )
-        row = QHBoxLayout(self)
-        row.setContentsMargins(0, 0, 0, 0)
+        rows = QVBoxLayout(self)
+        rows.setContentsMargins(0, 0, 0, 0)
+        rows.setSpacing(2)
+        row, second = QHBoxLayout(), QHBoxLayout()
+        rows.addLayout(row)
+        rows.addLayout(second)
         self.sheet_combo = named(
             QComboBox(self), "readSheet", "Worksheet", "The worksheet shown; pick another"
         )
@@ -102,7 +115,8 @@ class ReadBar(QWidget):
             "Enter reads the sheet again",
         )
         self.markers_edit.setPlaceholderText("extra markers, e.g. -999")
-        self.markers_edit.setMaximumWidth(160)
+        self.markers_edit.setMinimumWidth(150)
+        self.markers_edit.setMaximumWidth(220)
         self.found = named(
             QLabel(self), "readFound", "Markers found", "Entries that are not numbers, and how they were read"
         )
@@ -113,7 +127,9 @@ class ReadBar(QWidget):
         row.addWidget(self.header_spin)
         row.addWidget(buddy("Markers:", self.markers_edit, self))
         row.addWidget(self.markers_edit)
-        row.addWidget(self.found, 1)
+        row.addStretch(1)
+        second.addWidget(self.found, 1)
+        self.found.setWordWrap(True)
         self.plan_note = named(
             QLabel(self),
             "planSource",
@@ -128,8 +144,8 @@ class ReadBar(QWidget):
         )
         self.plan_button.clicked.connect(self._use_offer)
         self.plan_button.hide()
-        row.addWidget(self.plan_note)
-        row.addWidget(self.plan_button)
+        second.addWidget(self.plan_note)
+        second.addWidget(self.plan_button)
         self._offer: FillPlan | None = None
         self._filling = False
         self.sheet_combo.activated.connect(lambda _i: self._changed())

@@ -223,16 +223,14 @@ def summary_text(report: RecoveryReport) -> str:
     se_name = "se" if name == "score" else "category_se"
     best = _score(report.overall, report.best_k, name)
     baseline = _score(report.baseline, "overall", name)
-    text = f"best k = {report.best_k} ({metric} {_two(best)})"
+    text = validation.advice(report) + "\n"
+    text += f"Detail: best k = {report.best_k} ({metric} {_two(best)})"
     if report.best_k_1se == report.best_k:
         text += "; one-SE rule agrees"
     else:
         text += f"; one-SE rule suggests k = {report.best_k_1se}"
     text += f"; column average scores {_two(baseline)}"
     text += " — " + verdict(best, _score(report.overall, report.best_k, se_name), baseline)
-    if report.best_k_1se == max(report.ks) and report.best_k_1se != report.best_k:
-        text += (f". The one-SE k is the largest k tested; try k above {max(report.ks)} "
-                 "to see where the error rises")
     if name == "score" and "category" in report.kinds.values():
         cat = _score(report.overall, report.best_k, "category_error")
         cat_base = _score(report.baseline, "overall", "category_error")

@@ -9,6 +9,7 @@ Gap check: :func:`gap_check` runs Little's test of missing completely at random 
 tabulates how rows with gaps differ from the others and which gap patterns occur.
 """
 
+from imputer_app.validation._advice import about_as_good, advice
 from imputer_app.validation._gaps import GapCheck, MCARTest, gap_check
 from imputer_app.validation._k_check import KCheck, check_k, fill_columns
 from imputer_app.validation._recovery import recovery_test
@@ -20,6 +21,8 @@ __all__ = [
     "KCheck",
     "MCARTest",
     "RecoveryReport",
+    "about_as_good",
+    "advice",
     "check_k",
     "fill_columns",
     "gap_check",
