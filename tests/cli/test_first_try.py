@@ -77,3 +77,24 @@ def test_the_fill_summary_lists_every_filled_column_with_its_count(tmp_path, cap
     line = next(line for line in out.splitlines() if line.startswith("filled "))
     assert line.endswith(", ".join(f"m{i} {i % 2 + 1}" for i in range(14)))
     assert "more" not in line
+
+
+def test_kinfill_plan_writes_a_comment_above_every_key_and_reads_back(demo, capsys) -> None:
+    import tomllib
+
+    from imputer_app.plan import CHOICES, FillPlan
+
+    out = demo.with_name("river.plan.toml")
+    code, _out, err = run(["plan", demo, "--out", out, "--k", 7, "--weight", "pH=2"], capsys)
+    assert code == 0, err
+    text = out.read_text(encoding="utf-8")
+    data = tomllib.loads(text)  # still valid TOML
+    lines = text.splitlines()
+    for key in data:
+        at = next(i for i, line in enumerate(lines) if line.startswith((f"{key} =", f"[{key}]")))
+        assert lines[at - 1].startswith("# "), key
+        if key in CHOICES:
+            assert lines[at - 1] == "# one of: " + ", ".join(f'"{v}"' for v in CHOICES[key])
+    plan = FillPlan.load(out)
+    assert plan.k == 7 and plan.weights == {"pH": 2.0}
+    assert FillPlan.load(plan.save(out)) == plan  # the round trip

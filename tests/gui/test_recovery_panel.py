@@ -119,7 +119,8 @@ def test_category_fill_shows_error_rates(qtbot, panel):
     for row, (_, values) in enumerate(report.overall.iterrows()):
         assert same(panel.model.index(row, error).data(RAW_ROLE), float(values["category_error"]))
     best = float(report.overall.loc[report.best_k, "category_error"])
-    assert panel.summary.text().split("\n")[1].startswith(f"Detail: best k = {report.best_k} (error rate {best:.2f})")
+    detail = panel.summary.text().split("\n")[1]
+    assert detail.startswith(f"Detail: best k = {report.best_k} (error rate {best:.2f})")
 
 
 def test_panel_passes_its_settings_to_the_recovery_test(qtbot, panel):
@@ -146,7 +147,8 @@ def test_summary_line_names_best_and_one_se_k_and_the_baseline(qtbot, panel):
     best = float(report.overall.loc[report.best_k, "score"])
     baseline = float(report.baseline.loc["overall", "score"])
     low, high = validation.about_as_good(report)
-    lead = f"Use k = {report.best_k}: hidden values came back with {round(100 * (1 - best / baseline))} % less error"
+    gain = round(100 * (1 - best / baseline))
+    lead = f"Use k = {report.best_k}: hidden values came back with {gain} % less error"
     assert text.startswith(lead) and (high == low or f"any k from {low} to {high} does about as well" in text)
     assert text.split("\n")[1].startswith(f"Detail: best k = {report.best_k} (NRMSE {best:.2f})")
     if report.best_k_1se != report.best_k:

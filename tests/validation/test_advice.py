@@ -37,7 +37,8 @@ def report(scores, ses, baseline, best_k):
             1.0,
             3,
             "Use k = 3: hidden values came back with 50 % less error than column averages; any k from 3 to 5 "
-            "does about as well. The curve is flat up to the largest k tested (5); the range could go further.",
+            "does about as well. The curve is flat up to the largest k tested (5); "
+            "the range could go further.",
         ),
         (
             [1.10, 1.05, 1.20],
