@@ -30,7 +30,9 @@ def about_as_good(report: RecoveryReport) -> tuple[int, int]:
     se = _value(report.overall, report.best_k, se_name)
     limit = best + (0.0 if math.isnan(se) else se)
     scores = report.overall[name]
-    close = [int(str(k)) for k, value in scores.items() if not math.isnan(float(value)) and float(value) <= limit]
+    close = [
+        int(str(k)) for k, value in scores.items() if not math.isnan(float(value)) and float(value) <= limit
+    ]
     return (min(close), max(close)) if close else (report.best_k, report.best_k)
 
 
