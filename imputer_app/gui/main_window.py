@@ -25,6 +25,7 @@ from imputer_app.gui.about import AboutDialog
 from imputer_app.gui.column_setup import ColumnSetup
 from imputer_app.gui.data_view import DataView
 from imputer_app.gui.donor_panel import DonorPanel
+from imputer_app.gui.guide import GuideDialog
 from imputer_app.gui.markers import CENSORED, palette_is_dark
 from imputer_app.gui.panel_tabs import PanelTabs
 from imputer_app.gui.plan_files import PlanFiles
@@ -152,6 +153,7 @@ class MainWindow(QMainWindow):
             "focus_setup": lambda: self.setup.table.setFocus(focus),
             "focus_table": lambda: self.table.setFocus(focus),
             "focus_panels": lambda: self.tabs.setFocus(focus),
+            "guide": lambda: GuideDialog(self).exec(),
             "about": self.show_about,
         }
 

@@ -55,7 +55,7 @@ def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
     slots : mapping of str to callable
         What each action does, by key: ``open``, ``open_options``, ``open_plan``,
         ``save_plan``, ``export``, ``quit``, ``undo``, ``redo``, ``recovery``, ``preview``,
-        ``apply``, ``next_gap``, ``focus_setup``, ``focus_table``, ``focus_panels``, ``about``.
+        ``apply``, ``next_gap``, ``focus_setup``, ``focus_table``, ``focus_panels``, ``guide``, ``about``.
     """
     std = QKeySequence.StandardKey
     specs: list[tuple[str, str, str, Any, Any]] = [
@@ -141,6 +141,7 @@ def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
             "Alt+3",
             None,
         ),
+        ("guide", "&Guide", "The five steps, the recovery test, cell symbols and the export", "F1", None),
         ("about", "&About Kinfill", "Version, cautions and references", None, None),
     ]
     return {key: _action(w, key, text, tip, slots[key], sc, icon) for key, text, tip, sc, icon in specs}
@@ -172,7 +173,7 @@ def build_menus(w: QMainWindow, a: Mapping[str, QAction], recent_menu: QMenu) ->
     view_menu.addActions([a["next_gap"], a["focus_setup"], a["focus_table"], a["focus_panels"]])
     help_menu = bar.addMenu("&Help")
     help_menu.setObjectName("menuHelp")
-    help_menu.addAction(a["about"])
+    help_menu.addActions([a["guide"], a["about"]])
 
     tools = QToolBar("Main steps", w)
     tools.setObjectName("mainToolBar")
