@@ -17,7 +17,6 @@ from PySide6.QtCore import QEvent, QModelIndex, Qt, Signal
 from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent, QShowEvent
 from PySide6.QtWidgets import QMainWindow, QMenu, QSplitter, QStackedWidget, QToolBar, QWidget
 
-from imputer_app.errors import KinfillError
 from imputer_app.gui import file_actions as fa
 from imputer_app.gui import fill_questions as fq
 from imputer_app.gui import window_layout
@@ -29,7 +28,7 @@ from imputer_app.gui.guide import GuideDialog
 from imputer_app.gui.markers import CENSORED, palette_is_dark
 from imputer_app.gui.panel_tabs import PanelTabs
 from imputer_app.gui.plan_files import PlanFiles
-from imputer_app.gui.read_bar import worksheets
+from imputer_app.gui.read_bar import read_job, worksheets
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
 from imputer_app.gui.start_view import StartView
@@ -178,19 +177,13 @@ class MainWindow(QMainWindow):
     def open_path(
         self, path: str | Path, options: dict[str, Any] | None = None, confirmed: bool = False
     ) -> None:
-        """Read ``path`` in the background (asks for a worksheet when there are several).
+        """Read ``path`` in the background (``options`` None: a double-click's best guess).
 
-        Parameters
-        ----------
-        path : str or Path
-            The sheet to read.
-        options : dict, optional
-            ``read_sheet`` keywords; a ``_sheet`` entry is a sheet already read with them.
-        confirmed : bool
-            The user already agreed to lose an unexported fill.
+        ``options`` are ``read_sheet`` keywords (``_sheet``: a sheet already read with them);
+        ``confirmed`` says the user already agreed to leave an unexported fill.
         """
         path = Path(path)
-        if not confirmed and not self._may_leave(lambda: self.open_path(path, options, confirmed=True)):
+        if not confirmed and not fq.may_leave(self, lambda: self.open_path(path, options, confirmed=True)):
             return
         guess = options is None  # a double-click: open the best guess, ask only if it cannot be read
         options = dict(options or {})
@@ -198,18 +191,6 @@ class MainWindow(QMainWindow):
         if sheet is not None:
             self._show_sheet((sheet, worksheets(path)))
             return
-
-        def job(progress: Progress, cancel: CancelFlag) -> tuple[Sheet | None, list[str]]:
-            from imputer_app.errors import KinfillError
-            from imputer_app.sheets import read_sheet
-
-            names = worksheets(path)
-            try:
-                return read_sheet(path, progress=progress, cancel=cancel, **options), names
-            except KinfillError:
-                if guess and len(names) > 1:
-                    return None, names  # no guess works: ask (see _show_sheet)
-                raise
 
         def done(payload: tuple[Sheet | None, list[str]]) -> None:
             sheet, names = payload
@@ -220,11 +201,11 @@ class MainWindow(QMainWindow):
                 return
             self._show_sheet((sheet, names))
 
-        self.run_job(f"Reading {path.name}…", job, done)
+        self.run_job(f"Reading {path.name}…", read_job(path, options, guess), done)
 
     def open_dialog(self, with_options: bool = False) -> None:
         """File > Open (or Open with options): choose a sheet."""
-        if not self._may_leave(lambda: self.open_dialog(with_options)):
+        if not fq.may_leave(self, lambda: self.open_dialog(with_options)):
             return
         path = fa.ask_sheet_path(self)
         if path is None:
@@ -283,7 +264,7 @@ class MainWindow(QMainWindow):
     def preview_fill(self) -> None:
         """Compute the fill in the background and show it over the data."""
         sheet, plan = self.session.sheet, self.session.plan
-        if sheet is None or not self._k_fits(sheet):
+        if sheet is None or not fq.k_fits(self, sheet):
             return
         plan = self.session.plan
 
@@ -323,7 +304,7 @@ class MainWindow(QMainWindow):
         A preview on screen is settled first (apply it, or export the applied fill).
         Returns True when the export started.
         """
-        if not self._settle_preview():
+        if not fq.settle_preview(self):
             return False
         sheet, result, report = self.session.sheet, self.session.applied, self.session.report
         if sheet is None or result is None:
@@ -424,23 +405,9 @@ class MainWindow(QMainWindow):
         self._show_remarks()
 
     def _show_plan_source(self) -> None:
-        sheet, last = self.session.sheet, self._last_plan
-        if sheet is not None and last is not None:
-            try:
-                last.check_columns(list(map(str, sheet.frame.columns)))
-            except KinfillError:
-                last = None  # made for other columns: nothing to offer
-        text, offer = plan_source(self.session.plan, last)
-        self.data.read_bar.show_plan_source(text, offer)
-
-    def _may_leave(self, then: Callable[[], object], closing: bool = False) -> bool:
-        return fq.may_leave(self, then, closing)
-
-    def _k_fits(self, sheet: Sheet) -> bool:
-        return fq.k_fits(self, sheet)
-
-    def _settle_preview(self) -> bool:
-        return fq.settle_preview(self)
+        sheet = self.session.sheet
+        columns = list(map(str, sheet.frame.columns)) if sheet is not None else []
+        self.data.read_bar.show_plan_source(*plan_source(self.session.plan, self._last_plan, columns))
 
     def _show_remarks(self) -> None:
         self.notice.setText(fill_remarks(self.session, self._reading_remarks))
@@ -502,7 +469,7 @@ class MainWindow(QMainWindow):
 
     def closeEvent(self, event: QCloseEvent) -> None:
         """Offer to export an applied fill that was not exported; stop background work."""
-        if not self._may_leave(lambda: bool(self.close()), closing=True):
+        if not fq.may_leave(self, lambda: bool(self.close()), closing=True):
             event.ignore()
             return
         self.save_layout()

@@ -8,6 +8,7 @@ missing-value markers found, and reading again with other choices is one change 
 from __future__ import annotations
 
 from collections import Counter
+from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -29,6 +30,7 @@ from imputer_app.gui.widgets import buddy, named
 if TYPE_CHECKING:
     from imputer_app.plan import FillPlan
     from imputer_app.sheets import Sheet
+    from imputer_app.work import CancelFlag, Progress
 
 #: Cell states of the reader that come from a marker, and what they mean.
 _MEANINGS = {"missing": "a gap", "censored": "beyond a limit", "text": "unreadable"}
@@ -52,6 +54,30 @@ def worksheets(path: Path) -> list[str]:
         return list(list_sheets(path))
     except (KinfillError, OSError):
         return []
+
+
+def read_job(
+    path: Path, options: dict[str, Any], guess: bool
+) -> Callable[[Progress, CancelFlag], tuple[Sheet | None, list[str]]]:
+    """A worker job reading ``path``: ``(sheet, worksheets)``.
+
+    With ``guess`` (a double-click: no choices made), a workbook whose best guess cannot
+    be read gives ``(None, worksheets)``, so that the caller asks which to read.
+    """
+
+    def job(progress: Progress, cancel: CancelFlag) -> tuple[Sheet | None, list[str]]:
+        from imputer_app.errors import KinfillError
+        from imputer_app.sheets import read_sheet
+
+        names = worksheets(path)
+        try:
+            return read_sheet(path, progress=progress, cancel=cancel, **options), names
+        except KinfillError:
+            if guess and len(names) > 1:
+                return None, names
+            raise
+
+    return job
 
 
 def markers_found(sheet: Sheet, most: int = 4) -> str:

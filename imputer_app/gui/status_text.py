@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
+from imputer_app.errors import KinfillError
 from imputer_app.plan import FillPlan
 
 if TYPE_CHECKING:
@@ -79,17 +80,25 @@ def fill_remarks(session: Session, reading: str) -> str:
     return "\n".join(parts)
 
 
-def plan_source(plan: FillPlan, last: FillPlan | None) -> tuple[str, FillPlan | None]:
+def plan_source(
+    plan: FillPlan, last: FillPlan | None, columns: list[str]
+) -> tuple[str, FillPlan | None]:
     """Say where the sheet's settings come from, and which plan to offer instead (or None).
 
-    ``last`` is the plan of the file's last fill. Column roles are written by the setup
-    for every sheet, so only the settings a user chooses are compared.
+    ``last`` is the plan of the file's last fill; it is offered only when it fits the
+    sheet's ``columns``. Column roles are written by the setup for every sheet, so only
+    the settings a user chooses are compared.
 
     Examples
     --------
-    >>> plan_source(FillPlan(), None)
+    >>> plan_source(FillPlan(), None, ["a"])
     ("Settings: Kinfill's defaults (k = 5).", None)
     """
+    if last is not None:
+        try:
+            last.check_columns(columns)
+        except KinfillError:
+            last = None  # made for other columns: nothing to offer
     defaults = FillPlan()
     same = last is not None and _chosen(plan) == _chosen(last)
     if same and last is not None:
