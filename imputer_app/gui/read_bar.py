@@ -19,6 +19,7 @@ from PySide6.QtWidgets import (
     QLabel,
     QLineEdit,
     QPushButton,
+    QSizePolicy,
     QSpinBox,
     QVBoxLayout,
     QWidget,
@@ -120,6 +121,8 @@ class ReadBar(QWidget):
             "How the sheet was read",
             "Worksheet, header row and markers; change to read again",
         )
+        # The table's column decides the window's minimum; a narrow window clips this bar.
+        self.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
         rows = QVBoxLayout(self)
         rows.setContentsMargins(0, 0, 0, 0)
         rows.setSpacing(2)
@@ -170,6 +173,9 @@ class ReadBar(QWidget):
         )
         self.plan_button.clicked.connect(self._use_offer)
         self.plan_button.hide()
+        self.plan_note.setWordWrap(True)
+        for label in (self.found, self.plan_note):  # long texts wrap, never widen the window
+            label.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
         second.addWidget(self.plan_note)
         second.addWidget(self.plan_button)
         self._offer: FillPlan | None = None

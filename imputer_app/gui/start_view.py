@@ -6,7 +6,7 @@ from collections.abc import Callable, Sequence
 from pathlib import Path
 
 from PySide6.QtCore import Qt
-from PySide6.QtWidgets import QHBoxLayout, QLabel, QPushButton, QVBoxLayout, QWidget
+from PySide6.QtWidgets import QHBoxLayout, QLabel, QPushButton, QSizePolicy, QVBoxLayout, QWidget
 
 from imputer_app.gui.widgets import named
 
@@ -52,6 +52,7 @@ class StartView(QWidget):
         outer.addLayout(column)
         outer.addStretch(2)
         title = QLabel("<h2>Fill the gaps of a measurement sheet</h2>", self)
+        title.setWordWrap(True)
         column.addWidget(title)
         steps = "".join(f"<li>{step}</li>" for step in STEPS)
         self.steps = named(QLabel(f"<ol>{steps}</ol>", self), "startSteps", "The three steps", "")
@@ -96,6 +97,8 @@ class StartView(QWidget):
                 QPushButton(f"{path.name}  —  {path.parent}", self), "startRecent", path.name, str(path)
             )
             button.setFlat(True)
+            # a long path must never widen the window's minimum (the page shares it with the panels)
+            button.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
             button.setStyleSheet("text-align: left;")
             button.clicked.connect(lambda _c=False, p=path: self._open_path(p))
             self.recent_box.addWidget(button)
