@@ -122,7 +122,7 @@ class ReadBar(QWidget):
             "Worksheet, header row and markers; change to read again",
         )
         # The table's column decides the window's minimum; a narrow window clips this bar.
-        self.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
+        self.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Fixed)
         rows = QVBoxLayout(self)
         rows.setContentsMargins(0, 0, 0, 0)
         rows.setSpacing(2)
@@ -158,7 +158,6 @@ class ReadBar(QWidget):
         row.addWidget(self.markers_edit)
         row.addStretch(1)
         second.addWidget(self.found, 1)
-        self.found.setWordWrap(True)
         self.plan_note = named(
             QLabel(self),
             "planSource",
@@ -173,11 +172,10 @@ class ReadBar(QWidget):
         )
         self.plan_button.clicked.connect(self._use_offer)
         self.plan_button.hide()
-        self.plan_note.setWordWrap(True)
-        for label in (self.found, self.plan_note):  # long texts wrap, never widen the window
-            label.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
-        second.addWidget(self.plan_note)
-        second.addWidget(self.plan_button)
+        # a long list of markers is clipped (full text in the tooltip)
+        self.found.setSizePolicy(QSizePolicy.Policy.Ignored, QSizePolicy.Policy.Preferred)
+        row.addWidget(self.plan_note)
+        row.addWidget(self.plan_button)
         self._offer: FillPlan | None = None
         self._filling = False
         self.sheet_combo.activated.connect(lambda _i: self._changed())
@@ -201,6 +199,7 @@ class ReadBar(QWidget):
         self.sheet_label.setVisible(len(sheets) > 1)
         self.header_spin.setValue(max(1, int(source.header_row or 1)))
         self.found.setText(markers_found(sheet))
+        self.found.setToolTip(self.found.text())
         self._filling = False
         self._shown = self.options()
         self.show()
