@@ -29,7 +29,14 @@ import tomli_w
 
 from imputer_app.errors import PlanError
 from imputer_app.files import write_text_atomic
-from imputer_app.plan_text import line_in_table, line_of, name_list, read_plan_text, shown_value
+from imputer_app.plan_text import (
+    commented_toml,
+    line_in_table,
+    line_of,
+    name_list,
+    read_plan_text,
+    shown_value,
+)
 
 PLAN_FORMAT = 1
 PLAN_SUFFIX = ".plan.toml"
@@ -56,6 +63,8 @@ DEFAULT_INTERVAL_LEVEL = 0.9
 INTERVAL_LEVELS = (0.5, 0.99)
 #: How a plan file says "no intervals" (TOML has no empty value).
 INTERVAL_OFF = "off"
+#: The k values a recovery test tries by default, in the app and on the command line alike.
+DEFAULT_KS = tuple(range(1, 31))
 
 Bound = tuple[float | None, float | None]
 
@@ -247,7 +256,7 @@ class FillPlan:
             temporary file is left.
         """
         text = "# Kinfill fill plan. Edit with care; `kinfill fill --plan` reads it.\n"
-        text += tomli_w.dumps(self.to_dict())
+        text += commented_toml(self.to_dict(), CHOICES, tomli_w.dumps)
         write_text_atomic(path, text, source=source, force=force)
         return Path(path)
 

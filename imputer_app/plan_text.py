@@ -18,7 +18,7 @@ from __future__ import annotations
 import os
 import re
 import stat
-from collections.abc import Collection, Sequence
+from collections.abc import Callable, Collection, Sequence
 from pathlib import Path
 
 from imputer_app.errors import PlanError
@@ -139,3 +139,55 @@ def line_in_table(text: str | None, table: str, key: str) -> str:
         if (section == [table] and assign.match(line)) or (not section and dotted.match(line)):
             return f" (line {number})"
     return line_of(text, table)
+
+
+#: One-line comment written above each key of a plan file: what it takes.
+_KEY_NOTES = {
+    "format": "plan file format; this Kinfill reads 1",
+    "k": "donors per filled cell: a whole number from 1 (the recovery test helps choose it)",
+    "similarity_columns": "column names used to find similar rows; leave out the key for every usable column",
+    "fill_columns": "column names whose gaps are filled; leave out the key for similarity columns with gaps",
+    "carried_columns": "column names copied unchanged (identifiers, dates, notes)",
+    "group_column": "a column name: donors come only from rows of the same group; leave out for no groups",
+    "weights": "column = weight in the distance, a number from 0 to 1000 (default 1)",
+    "bounds": "column = { lower = number, upper = number }: filled values are kept inside",
+    "decimals": "column = decimals a filled value is rounded to, a whole number from 0",
+    "kinds": 'column = "number" or "category", overriding what was detected',
+}
+
+
+def commented_toml(
+    data: dict[str, object], choices: dict[str, tuple[str, ...]], dumps: Callable[[dict], str]
+) -> str:
+    """Write plan data as TOML with a one-line comment above each key listing what it takes.
+
+    Parameters
+    ----------
+    data : dict
+        :meth:`FillPlan.to_dict` output (keys first, tables after, as TOML requires).
+    choices : dict
+        Allowed values of each choice key (``plan.CHOICES``).
+    dumps : callable
+        The TOML writer of one ``{key: value}`` (``tomli_w.dumps``).
+
+    Examples
+    --------
+    >>> import tomli_w
+    >>> choices = {"no_donor": ("leave_empty", "column_mean")}
+    >>> print(commented_toml({"k": 5, "no_donor": "leave_empty"}, choices, tomli_w.dumps), end="")
+    # donors per filled cell: a whole number from 1 (the recovery test helps choose it)
+    k = 5
+    # one of: "leave_empty", "column_mean"
+    no_donor = "leave_empty"
+    """
+    plain = [key for key, value in data.items() if not isinstance(value, dict)]
+    tables = [key for key, value in data.items() if isinstance(value, dict)]
+    parts = []
+    for key in plain + tables:
+        if key in choices:
+            note = "one of: " + ", ".join(f'"{value}"' for value in choices[key])
+        else:
+            note = _KEY_NOTES.get(key, "")
+        block = dumps({key: data[key]})
+        parts.append((f"# {note}\n" if note else "") + block)
+    return "".join(part if part.endswith("\n") else part + "\n" for part in parts)

@@ -29,7 +29,7 @@ from imputer_app.cli.outputs import (
 )
 from imputer_app.cli.plan_options import build_plan, check_plan_columns, spell_out_roles
 from imputer_app.cli.progress import StopFlag, TextProgress, default_signals, stop_on_ctrl_c
-from imputer_app.cli.text import fill_summary, recovery_table, terminal_safe
+from imputer_app.cli.text import fill_summary, k_notes, recovery_table, terminal_safe
 from imputer_app.plan import PLAN_SUFFIX, FillPlan
 from imputer_app.work import Progress
 
@@ -53,7 +53,7 @@ def run_fill(args: argparse.Namespace) -> int:
     refuse_input(sidecars, source)
     refuse_overwrite(sidecars, args.force)
     old_sidecars = [p for p in sidecars if os.path.lexists(p)]
-    bar = TextProgress(sys.stderr)
+    bar = TextProgress.for_args(args, sys.stderr)
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
@@ -61,7 +61,9 @@ def run_fill(args: argparse.Namespace) -> int:
             report = None
             if isinstance(args.k, str):  # --k best | best-per-column: the recovery test chooses
                 plan, report = chosen_by_test(sheet, plan, args.k, bar.stage("testing"), stop)
-            plan = capped_k(plan, len(sheet.frame))
+            notes = k_notes(sheet, plan)  # said before the fill, which may take a while
+            print_notes(notes, ())
+            plan = capped_k(plan, len(sheet.frame), quiet=bool(notes))
             result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop)
             pictures = fill_picture_files(args.pictures, result, source, args.force)
             written = write_result(
@@ -117,7 +119,7 @@ def run_score_k(args: argparse.Namespace) -> int:
     plan = plan_for(args)
     from imputer_app.validation import recovery_test
 
-    bar = TextProgress(sys.stderr)
+    bar = TextProgress.for_args(args, sys.stderr)
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
@@ -185,7 +187,7 @@ def run_plan(args: argparse.Namespace) -> int:
     plan = plan_for(args)
     from imputer_app.engine import prepare
 
-    bar = TextProgress(sys.stderr)
+    bar = TextProgress.for_args(args, sys.stderr)
     try:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)

@@ -13,7 +13,7 @@ import contextlib
 import os
 import sys
 import traceback
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 
 from imputer_app.cli.exit_codes import EXIT_FAULT, EXIT_OK, EXIT_USAGE
 from imputer_app.cli.progress import Stopped, stop_signal, stop_signals_handled
@@ -58,7 +58,8 @@ def _main(argv: Sequence[str] | None) -> int:
     prog = f"kinfill {args.command}"
     run: Callable[[argparse.Namespace], int] = args.run
     try:
-        return run(args)
+        with quiet_output(bool(getattr(args, "quiet", False))):
+            return run(args)
     except KinfillError as exc:
         if debug:
             traceback.print_exc()
@@ -98,6 +99,16 @@ def say(message: str) -> None:
 
     with contextlib.suppress(OSError, ValueError):
         print(terminal_safe(message), file=sys.stderr)
+
+
+@contextlib.contextmanager
+def quiet_output(quiet: bool) -> Iterator[None]:
+    """``--quiet``: the summary on stdout goes nowhere (notes and errors stay on stderr)."""
+    if not quiet:
+        yield
+        return
+    with open(os.devnull, "w", encoding="utf-8") as nowhere, contextlib.redirect_stdout(nowhere):
+        yield
 
 
 def one_line(text: str) -> str:

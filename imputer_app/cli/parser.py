@@ -14,7 +14,8 @@ from imputer_app import __version__
 from imputer_app.cli import commands
 from imputer_app.cli.evidence import k_option
 from imputer_app.cli.exit_codes import EXIT_USAGE
-from imputer_app.plan import CHOICES, PLAN_SUFFIX, FillPlan
+from imputer_app.cli.progress import PROGRESS_MODES
+from imputer_app.plan import CHOICES, DEFAULT_KS, PLAN_SUFFIX, FillPlan
 from imputer_app.words import CHOICE_WORDS, SETTING_TIPS
 
 
@@ -222,6 +223,19 @@ def _add_common(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--debug", action="store_true", default=argparse.SUPPRESS, help="show tracebacks of faults"
     )
+    parser.add_argument(
+        "--progress",
+        choices=PROGRESS_MODES,
+        default=argparse.SUPPRESS,
+        help="how to show progress on stderr: auto (a bar on a terminal, nothing in a pipe), bar, "
+        "lines (one line per stage and about every 10%%, for logs and scheduled jobs) or none",
+    )
+    parser.add_argument(
+        "--quiet",
+        action="store_true",
+        default=argparse.SUPPRESS,
+        help="print no progress and no summary; notes and errors still go to stderr",
+    )
 
 
 def _subparser(subs: _SubParsers, name: str, help_text: str, epilog: str) -> argparse.ArgumentParser:
@@ -272,7 +286,11 @@ def build_parser() -> argparse.ArgumentParser:
     _add_plan_options(score, with_k=False)
     test = score.add_argument_group("recovery test")
     test.add_argument(
-        "--k-range", metavar="KS", type=k_range, default=k_range("1-30"), help="k values (default 1-30)"
+        "--k-range",
+        metavar="KS",
+        type=k_range,
+        default=DEFAULT_KS,
+        help=f"k values (default {min(DEFAULT_KS)}-{max(DEFAULT_KS)}, as in the app)",
     )
     test.add_argument(
         "--hide", metavar="SHARE", type=fraction, default=0.1, help="share of known cells hidden (0.1)"

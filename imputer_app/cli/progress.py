@@ -22,6 +22,10 @@ from typing import Any, NoReturn, TextIO
 from imputer_app.work import Progress
 
 BAR_WIDTH = 28
+#: Choices of ``--progress``.
+PROGRESS_MODES = ("auto", "bar", "lines", "none")
+#: In ``lines`` mode, a line each time a stage passes another tenth of its work.
+LINE_STEP = 10
 #: Seconds between two redraws of the bar; more often only flickers and costs time.
 REDRAW_EVERY = 0.1
 
@@ -46,23 +50,57 @@ class TextProgress:
     >>> bar.done()
     """
 
-    def __init__(self, stream: TextIO, *, enabled: bool | None = None) -> None:
+    def __init__(self, stream: TextIO, *, enabled: bool | None = None, lines: bool = False) -> None:
         self.stream = stream
         if enabled is None:
             isatty = getattr(stream, "isatty", None)
             enabled = bool(isatty and isatty())
-        self.enabled = enabled
+        self.enabled = enabled and not lines
+        self.lines = lines
         self._label = ""
         self._last_draw = 0.0
         self._drawn = False
+        self._last_step = -1
+
+    @classmethod
+    def for_args(cls, args: object, stream: TextIO) -> TextProgress:
+        """The progress a command's ``--progress`` and ``--quiet`` ask for (default: auto).
+
+        Examples
+        --------
+        >>> import argparse, io
+        >>> TextProgress.for_args(argparse.Namespace(progress="lines"), io.StringIO()).lines
+        True
+        """
+        mode = "none" if getattr(args, "quiet", False) else getattr(args, "progress", "auto")
+        if mode == "lines":
+            return cls(stream, lines=True)
+        return cls(stream, enabled={"auto": None, "bar": True, "none": False}[mode])
 
     def stage(self, label: str) -> Progress:
         """Start a new stage called ``label`` and return its ``progress(done, total)``."""
         self._label = label
         self._last_draw = 0.0
+        self._last_step = -1
+        if self.lines:
+            self.stream.write(f"{label}...\n")
+            self.stream.flush()
         return self._update
 
+    def _write_line(self, done: int, total: int) -> None:
+        """``lines`` mode: one line each time the stage passes another tenth (never in place)."""
+        if total <= 0:
+            return
+        step = min(100, int(100 * done / total)) // LINE_STEP
+        if step > self._last_step and step > 0:
+            self._last_step = step
+            self.stream.write(f"{self._label}: {step * LINE_STEP}% ({done} of {total})\n")
+            self.stream.flush()
+
     def _update(self, done: int, total: int) -> None:
+        if self.lines:
+            self._write_line(done, total)
+            return
         if not self.enabled:
             return
         now = time.monotonic()

@@ -18,6 +18,7 @@ if TYPE_CHECKING:
     import pandas as pd
 
     from imputer_app.engine import FillResult
+    from imputer_app.plan import FillPlan
     from imputer_app.sheets import Sheet
     from imputer_app.validation import RecoveryReport
 
@@ -63,7 +64,8 @@ def fill_summary(
     per_column = filled.sum(axis=0)
     per_column = per_column[per_column > 0]
     lines = [f"{source.name}: {len(filled)} rows; k = {result.plan.k}"]
-    by_column = listing([f"{col} {int(n)}" for col, n in per_column.items()])
+    # every column with its count, however many: a cut list hides where the estimates are
+    by_column = ", ".join(f"{col} {int(n)}" for col, n in per_column.items())
     lines.append(
         f"filled {n_filled} cells ({weak} with weak support)" + (f": {by_column}" if by_column else "")
     )
@@ -81,6 +83,14 @@ def fill_summary(
     lines.extend(f"  {path}{_what_it_holds(path)}" for path in written)
     lines.append("Filled values are estimates, not measurements (see the cautions in the export).")
     return "\n".join(lines)
+
+
+def k_notes(sheet: Sheet, plan: FillPlan) -> list[str]:
+    """Before a fill: a note when the plan's k exceeds the donors any gap can have ([] otherwise)."""
+    from imputer_app.validation import check_k
+
+    message = check_k(sheet, plan).message()
+    return [message] if message else []
 
 
 def _no_limit_cells(sheet: Sheet | None) -> set[tuple[Any, str]]:
@@ -167,9 +177,12 @@ def recovery_table(report: RecoveryReport) -> str:
         ``overall`` (indexed by k), ``baseline``, ``best_k``, ``best_k_1se``,
         ``best_k_by_column`` and ``settings``.
     """
+    from imputer_app.validation import advice
+
     overall = report.overall
     settings = report.settings
     lines = [
+        advice(report),
         f"recovery test: {settings.get('hide_fraction', 0):.0%} of known cells hidden, "
         f"{settings.get('repeats', '?')} repeats, seed {settings.get('seed', '?')}, "
         f"{settings.get('masking', '?')} hiding"

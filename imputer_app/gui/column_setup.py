@@ -369,9 +369,12 @@ class ColumnSetup(QWidget):
     def _enable_editors(self) -> None:
         rows = self._selected_rows()
         grouped = any(self._choices[r].name == self._group for r in rows)
-        for widget in (self.role_combo, self.kind_combo, self.weight_spin, self.lower_edit, self.upper_edit):
-            widget.setEnabled(bool(rows) and not grouped)
-        self.decimals_spin.setEnabled(bool(rows) and not grouped)
+        for editor in (self.role_combo, self.kind_combo, self.weight_spin):
+            editor.setEnabled(bool(rows) and not grouped)
+        # bounds and decimals mean nothing for a category column
+        numbers = bool(rows) and not grouped and all(self._choices[r].shown_kind == "number" for r in rows)
+        for widget in (self.lower_edit, self.upper_edit, self.decimals_spin):
+            widget.setEnabled(numbers)
 
     def _write(self, *_args: Any) -> None:
         """Write the plan the controls describe into the session (or the reason there is none)."""

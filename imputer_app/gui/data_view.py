@@ -10,6 +10,7 @@ from PySide6.QtWidgets import QAbstractItemView, QLabel, QSplitter, QTableView, 
 from imputer_app.gui.gap_map import GapMap
 from imputer_app.gui.legend import Legend
 from imputer_app.gui.markers import CENSORED, MISSING, TEXT
+from imputer_app.gui.read_bar import ReadBar
 from imputer_app.gui.table_model import SheetTableModel
 
 if TYPE_CHECKING:
@@ -34,8 +35,19 @@ class DataView(QWidget):
         self.setAccessibleName("Data")
         layout = QVBoxLayout(self)
         layout.setContentsMargins(0, 0, 0, 0)
+        self.read_bar = ReadBar(self)
+        layout.addWidget(self.read_bar)
         self.legend = Legend(self)
         layout.addWidget(self.legend)
+        self.layer_note = QLabel(self)
+        self.layer_note.setObjectName("layerNote")
+        self.layer_note.setAccessibleName("Which fill the table shows")
+        self.layer_note.setWordWrap(True)
+        self.layer_note.setStyleSheet(
+            "QLabel { background: palette(highlight); color: palette(highlighted-text); padding: 3px; }"
+        )
+        self.layer_note.hide()
+        layout.addWidget(self.layer_note)
         self.model = SheetTableModel(self)
         self.table = QTableView(self)
         self.table.setObjectName("dataTable")
@@ -79,6 +91,11 @@ class DataView(QWidget):
         )
         self.table.resizeColumnsToContents()
         self._update_viewport()
+
+    def set_layer_note(self, text: str) -> None:
+        """Say above the table which fill it shows ('' hides the line)."""
+        self.layer_note.setText(text)
+        self.layer_note.setVisible(bool(text))
 
     # --------------------------------------------------------------- navigation
     def select_position(self, row: int, column: int) -> None:

@@ -71,20 +71,6 @@ def ask_sheet_path(parent: QWidget) -> Path | None:
     return Path(name)
 
 
-def ask_open_options(parent: QWidget, path: Path) -> dict[str, Any] | None:
-    """Reading options for ``path``: ``{}`` for one worksheet, the dialog's choice for several."""
-    from imputer_app.sheets import list_sheets
-
-    try:
-        sheets = list_sheets(path) if path.suffix.lower() in (".xlsx", ".xlsm", ".xls", ".ods") else []
-    except Exception as exc:
-        warn(parent, str(exc))
-        return None
-    if len(sheets) > 1:
-        return options_dialog(parent, path, sheets)
-    return {}
-
-
 def options_dialog(parent: QWidget, path: Path, sheets: list[str] | None = None) -> dict[str, Any] | None:
     """Show the open dialog; returns read options (plus ``_sheet`` when already read) or None."""
     if sheets is None and path.suffix.lower() in (".xlsx", ".xlsm", ".xls", ".ods"):

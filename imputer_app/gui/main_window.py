@@ -15,26 +15,32 @@ from typing import TYPE_CHECKING, Any, TypeVar
 
 from PySide6.QtCore import QEvent, QModelIndex, Qt, Signal
 from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent, QShowEvent
-from PySide6.QtWidgets import QMainWindow, QMenu, QSplitter, QToolBar, QWidget
+from PySide6.QtWidgets import QMainWindow, QMenu, QSplitter, QStackedWidget, QToolBar, QWidget
 
 from imputer_app.gui import file_actions as fa
+from imputer_app.gui import fill_questions as fq
 from imputer_app.gui import window_layout
 from imputer_app.gui.about import AboutDialog
 from imputer_app.gui.column_setup import ColumnSetup
 from imputer_app.gui.data_view import DataView
 from imputer_app.gui.donor_panel import DonorPanel
 from imputer_app.gui.gaps_view import GapsView
+from imputer_app.gui.guide import GuideDialog
 from imputer_app.gui.markers import CENSORED, palette_is_dark
 from imputer_app.gui.methods_copy import copy_methods_text
 from imputer_app.gui.panel_tabs import PanelTabs
 from imputer_app.gui.pictures_view import PicturesView
 from imputer_app.gui.plan_files import PlanFiles
+from imputer_app.gui.read_bar import read_job, worksheets
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
+from imputer_app.gui.start_view import StartView
 from imputer_app.gui.state import Session
+from imputer_app.gui.status_text import fill_remarks, layer_note, plan_source, state_line
 from imputer_app.gui.unfilled_panel import UnfilledPanel
 from imputer_app.gui.window_actions import build_actions, build_menus, enabled_actions, fill_recent_menu
 from imputer_app.gui.window_jobs import JobDesk
+from imputer_app.plan import FillPlan
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
@@ -59,7 +65,6 @@ class MainWindow(QMainWindow):
         self.setAccessibleName("Kinfill")
         self.settings = settings or AppSettings()
         self.session = Session()
-        self.session.plan = self.settings.last_options()
         self.jobs = JobDesk(self, self.statusBar(), self.show_error)
         self.runner, self.busy = self.jobs.runner, self.jobs.busy
         self.plan_files = PlanFiles(self, self.session, self.statusBar(), self.show_error)
@@ -68,6 +73,11 @@ class MainWindow(QMainWindow):
         self.interactive = True
         self.recent_menu = QMenu("&Recent files", self)
         self.toolbar: QToolBar | None = None
+        #: What to do once the export under way has been written (quit, open another sheet).
+        self._after_export: Callable[[], object] | None = None
+        self._reading_remarks = ""
+        #: The plan of the last fill of the open file (offered, never imposed), or None.
+        self._last_plan: FillPlan | None = None
         self.setAcceptDrops(True)
         self._build()
         self.actions_ = build_actions(self, self._slots())
@@ -89,6 +99,8 @@ class MainWindow(QMainWindow):
         self.table_split, self.notice = self.data.splitter, self.data.notice
         self.table.selectionModel().currentChanged.connect(self._on_current_cell)
         self.data.cell_not_found.connect(lambda text: self.statusBar().showMessage(text, 5000))
+        self.data.read_bar.reread.connect(self._reread)
+        self.data.read_bar.use_plan.connect(self.session.set_plan)
 
         self.tabs = PanelTabs(self)
         self.recovery_panel = RecoveryPanel(self.tabs, session=self.session)
@@ -120,7 +132,13 @@ class MainWindow(QMainWindow):
 
         setup_area = window_layout.setup_area(self.setup, self)
         self.splitter: QSplitter = window_layout.main_splitter(self, setup_area, self.data, self.tabs)
-        self.setCentralWidget(self.splitter)
+        # No sheet yet: a start page instead of empty panels showing "k from 1 to 1".
+        self.start = StartView(self.open_dialog, self.open_path, self)
+        self.pages = QStackedWidget(self)
+        self.pages.setObjectName("pages")
+        self.pages.addWidget(self.start)
+        self.pages.addWidget(self.splitter)
+        self.setCentralWidget(self.pages)
         self.summary = window_layout.summary_label(self)
         self.statusBar().setObjectName("statusBar")
         self.statusBar().addPermanentWidget(self.summary)
@@ -146,6 +164,7 @@ class MainWindow(QMainWindow):
             "focus_setup": lambda: self.setup.table.setFocus(focus),
             "focus_table": lambda: self.table.setFocus(focus),
             "focus_panels": lambda: self.tabs.setFocus(focus),
+            "guide": lambda: GuideDialog(self).exec(),
             "about": self.show_about,
             "copy_methods": lambda: copy_methods_text(self.session, self.statusBar()),
         }
@@ -171,40 +190,35 @@ class MainWindow(QMainWindow):
     def open_path(
         self, path: str | Path, options: dict[str, Any] | None = None, confirmed: bool = False
     ) -> None:
-        """Read ``path`` in the background (asks for a worksheet when there are several).
+        """Read ``path`` in the background (``options`` None: a double-click's best guess).
 
-        Parameters
-        ----------
-        path : str or Path
-            The sheet to read.
-        options : dict, optional
-            ``read_sheet`` keywords; a ``_sheet`` entry is a sheet already read with them.
-        confirmed : bool
-            The user already agreed to lose an unexported fill.
+        ``options`` are ``read_sheet`` keywords (``_sheet``: a sheet already read with them);
+        ``confirmed`` says the user already agreed to leave an unexported fill.
         """
         path = Path(path)
-        if not confirmed and not fa.confirm_discard(self, self.session.dirty):
+        if not confirmed and not fq.may_leave(self, lambda: self.open_path(path, options, confirmed=True)):
             return
-        if options is None:
-            options = fa.ask_open_options(self, path)
-            if options is None:
-                return
-        options = dict(options)
+        guess = options is None  # a double-click: open the best guess, ask only if it cannot be read
+        options = dict(options or {})
         sheet = options.pop("_sheet", None)
         if sheet is not None:
-            self._show_sheet(sheet)
+            self._show_sheet((sheet, worksheets(path)))
             return
 
-        def job(progress: Progress, cancel: CancelFlag) -> Sheet:
-            from imputer_app.sheets import read_sheet
+        def done(payload: tuple[Sheet | None, list[str]]) -> None:
+            sheet, names = payload
+            if sheet is None:
+                chosen = fa.options_dialog(self, path, names)
+                if chosen is not None:
+                    self.open_path(path, chosen, confirmed=True)
+                return
+            self._show_sheet((sheet, names))
 
-            return read_sheet(path, progress=progress, cancel=cancel, **options)
-
-        self.run_job(f"Reading {path.name}…", job, self._show_sheet)
+        self.run_job(f"Reading {path.name}…", read_job(path, options, guess), done)
 
     def open_dialog(self, with_options: bool = False) -> None:
         """File > Open (or Open with options): choose a sheet."""
-        if not fa.confirm_discard(self, self.session.dirty):
+        if not fq.may_leave(self, lambda: self.open_dialog(with_options)):
             return
         path = fa.ask_sheet_path(self)
         if path is None:
@@ -214,18 +228,28 @@ class MainWindow(QMainWindow):
             return
         self.open_path(path, options, confirmed=True)
 
-    def _show_sheet(self, sheet: Sheet) -> None:
+    def _show_sheet(self, payload: tuple[Sheet, list[str]]) -> None:
+        sheet, names = payload
+        self._last_plan = self.settings.sheet_plan(sheet.source.path)
         self.session.load(sheet)  # the panels show it and the setup writes the plan for its columns
+        self.data.read_bar.show_sheet(sheet, names)
+        self._show_plan_source()
         self.recent_changed(self.settings.add_recent(sheet.source.path))
         self.settings.set_last_folder(sheet.source.path)
         problems = "; ".join(sheet.problems[:3])
-        self.notice.setText(f"Remarks on reading: {problems}" if problems else "")
+        self._reading_remarks = f"Remarks on reading: {problems}" if problems else ""
+        self._show_remarks()
         self.statusBar().showMessage(f"Opened {Path(sheet.source.path).name}.", 5000)
         self.sheet_loaded.emit()
+
+    def _reread(self, options: dict[str, Any]) -> None:
+        if self.session.path is not None:
+            self.open_path(self.session.path, options)
 
     def recent_changed(self, files: list[Path]) -> None:
         """Rebuild File > Recent files."""
         fill_recent_menu(self.recent_menu, files, self.open_path, self._clear_recent)
+        self.start.set_recent(files)
 
     def _clear_recent(self) -> None:
         self.settings.clear_recent()
@@ -253,8 +277,9 @@ class MainWindow(QMainWindow):
     def preview_fill(self) -> None:
         """Compute the fill in the background and show it over the data."""
         sheet, plan = self.session.sheet, self.session.plan
-        if sheet is None:
+        if sheet is None or not fq.k_fits(self, sheet):
             return
+        plan = self.session.plan
 
         def job(progress: Progress, cancel: CancelFlag) -> FillResult:
             from imputer_app.engine import impute
@@ -262,14 +287,11 @@ class MainWindow(QMainWindow):
             return impute(sheet, plan, progress=progress, cancel=cancel)
 
         def done(result: FillResult) -> None:
+            if self.session.path is not None:
+                self.settings.set_sheet_plan(self.session.path, plan)  # offered when the file opens again
+                self._last_plan = plan
             if self.session.sheet is sheet and self.session.plan == plan:
-                self.session.set_preview(result)
-                proposed = int(result.filled.to_numpy().sum())
-                self.statusBar().showMessage(
-                    f"Preview: {proposed} values proposed, nothing changed yet. "
-                    "Select one to see its donors; Ctrl+Return applies.",
-                    15000,
-                )
+                self.session.set_preview(result)  # the status bar says so (see _on_session)
                 self.preview_ready.emit()
 
         self.run_job("Computing the fill preview…", job, done)
@@ -278,11 +300,6 @@ class MainWindow(QMainWindow):
         """Write the preview into the working table."""
         if self.session.can_apply:
             self.session.apply()
-            self.statusBar().showMessage(
-                "Applied. Filled values are estimates, not measurements; "
-                "Export (Ctrl+E) writes them marked, with the fill log.",
-                10000,
-            )
 
     def undo(self) -> None:
         """Take back the last applied fill."""
@@ -294,15 +311,21 @@ class MainWindow(QMainWindow):
         if self.session.can_redo:
             self.session.redo()
 
-    def export(self, path: str | Path | None = None) -> None:
-        """Write the applied fill and its log (never over the source; asks before replacing)."""
+    def export(self, path: str | Path | None = None) -> bool:
+        """Write the applied fill and its log (never over the source; asks before replacing).
+
+        A preview on screen is settled first (apply it, or export the applied fill).
+        Returns True when the export started.
+        """
+        if not fq.settle_preview(self):
+            return False
         sheet, result, report = self.session.sheet, self.session.applied, self.session.report
         if sheet is None or result is None:
             self.show_error("Nothing to export yet: preview a fill and apply it first.")
-            return
+            return False
         target = fa.ask_export_path(self, Path(sheet.source.path), path)
         if target is None:
-            return
+            return False
 
         def job(progress: Progress, cancel: CancelFlag) -> list[Path]:
             from imputer_app.sheets import write_result
@@ -315,8 +338,11 @@ class MainWindow(QMainWindow):
             names = ", ".join(Path(p).name for p in paths)
             self.statusBar().showMessage(f"Exported {names} to {Path(target).parent}.", 10000)
             self.exported.emit(list(paths))
+            then, self._after_export = self._after_export, None
+            if then is not None:
+                then()
 
-        self.run_job(f"Exporting {target.name}…", job, done)
+        return self.run_job(f"Exporting {target.name}…", job, done)
 
     # ------------------------------------------------------------------- table
     def shown_result(self) -> FillResult | None:
@@ -367,10 +393,13 @@ class MainWindow(QMainWindow):
     def _on_session(self, event: str) -> None:
         if event == "sheet":
             self.data.set_sheet(self.session.sheet)
+            self.pages.setCurrentWidget(self.splitter if self.session.has_sheet else self.start)
         if event in ("sheet", "preview", "applied"):
             self._refresh_layer()
-        if event == "plan" and self.session.plan_problem is None:
-            self.settings.save_options(self.session.plan)
+        if event == "plan":
+            self._show_plan_source()
+        if event in ("sheet", "preview", "applied", "saved"):
+            self.statusBar().showMessage(state_line(self.session), 15000)
         self._update_title()
         self._update_actions()
 
@@ -385,9 +414,16 @@ class MainWindow(QMainWindow):
         self.donor_panel.clear()
         self._on_current_cell(self.table.currentIndex(), QModelIndex())
         self.summary.setText(fa.summary_text(self.table_model, self.session))
-        warnings = "; ".join(result.warnings[:3]) if result is not None and result.warnings else ""
-        if warnings:
-            self.notice.setText(f"Remarks on the fill: {warnings}")
+        self.data.set_layer_note(layer_note(self.session))
+        self._show_remarks()
+
+    def _show_plan_source(self) -> None:
+        sheet = self.session.sheet
+        columns = list(map(str, sheet.frame.columns)) if sheet is not None else []
+        self.data.read_bar.show_plan_source(*plan_source(self.session.plan, self._last_plan, columns))
+
+    def _show_remarks(self) -> None:
+        self.notice.setText(fill_remarks(self.session, self._reading_remarks))
 
     def _update_title(self) -> None:
         path = self.session.path
@@ -445,8 +481,8 @@ class MainWindow(QMainWindow):
         window_layout.save_layout(self, self.settings, self.splitter, self.table_split)
 
     def closeEvent(self, event: QCloseEvent) -> None:
-        """Ask before losing an applied fill that was not exported; stop background work."""
-        if not fa.confirm_discard(self, self.session.dirty, closing=True):
+        """Offer to export an applied fill that was not exported; stop background work."""
+        if not fq.may_leave(self, lambda: bool(self.close()), closing=True):
             event.ignore()
             return
         self.save_layout()

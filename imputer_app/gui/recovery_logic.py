@@ -16,9 +16,8 @@ from typing import TYPE_CHECKING, Any
 import pandas as pd
 
 from imputer_app import validation
-from imputer_app.errors import KinfillError
 from imputer_app.gui.formatting import NOT_AVAILABLE, Cell, number_cell
-from imputer_app.plan import FillPlan
+from imputer_app.plan import DEFAULT_KS, FillPlan
 from imputer_app.work import CancelFlag, Progress
 
 if TYPE_CHECKING:
@@ -64,8 +63,8 @@ class RecoveryRequest:
 
     hide_fraction: float = 0.1
     repeats: int = 5
-    k_from: int = 1
-    k_to: int = 20
+    k_from: int = min(DEFAULT_KS)
+    k_to: int = max(DEFAULT_KS)
     masking: str = "random"
     seed: int = 0
 
@@ -107,27 +106,8 @@ def frame_of(data: Sheet | pd.DataFrame) -> pd.DataFrame:
 
 
 def tested_columns(data: Sheet | pd.DataFrame, plan: FillPlan) -> list[str]:
-    """Return the columns a recovery test scores: the plan's fill columns.
-
-    Unset fill columns resolve as the engine does (similarity columns with gaps); a sheet
-    without gaps is tested on every similarity column, as ``recovery_test`` does.
-    """
-    frame = frame_of(data)
-    if plan.fill_columns is not None:
-        return [c for c in plan.fill_columns if c in frame.columns]
-    if plan.similarity_columns is not None:
-        similar = [c for c in plan.similarity_columns if c in frame.columns]
-    else:
-        try:
-            from imputer_app.engine import default_roles
-
-            roles = default_roles(data)
-        except KinfillError:
-            return [str(c) for c in frame.columns]
-        excluded = {*plan.carried_columns, plan.group_column}
-        similar = [c for c, role in roles.items() if role in ("similarity", "fill") and c not in excluded]
-    with_gaps = [c for c in similar if bool(frame[c].isna().any())]
-    return with_gaps or similar
+    """Return the columns a recovery test scores: the plan's fill columns (``validation.fill_columns``)."""
+    return validation.fill_columns(data, plan)
 
 
 def k_ceiling(data: Sheet | pd.DataFrame, plan: FillPlan) -> int:
@@ -268,18 +248,14 @@ def summary_text(report: RecoveryReport) -> str:
     se_name = "se" if name == "score" else "category_se"
     best = _score(report.overall, report.best_k, name)
     baseline = _score(report.baseline, "overall", name)
-    text = f"best k = {report.best_k} ({metric} {_two(best)})"
+    text = validation.advice(report) + "\n"
+    text += f"Detail: best k = {report.best_k} ({metric} {_two(best)})"
     if report.best_k_1se == report.best_k:
         text += "; one-SE rule agrees"
     else:
         text += f"; one-SE rule suggests k = {report.best_k_1se}"
     text += f"; column average scores {_two(baseline)}"
     text += " — " + verdict(best, _score(report.overall, report.best_k, se_name), baseline)
-    if report.best_k_1se == max(report.ks) and report.best_k_1se != report.best_k:
-        text += (
-            f". The one-SE k is the largest k tested; try k above {max(report.ks)} "
-            "to see where the error rises"
-        )
     if name == "score" and "category" in report.kinds.values():
         cat = _score(report.overall, report.best_k, "category_error")
         cat_base = _score(report.baseline, "overall", "category_error")

@@ -155,7 +155,7 @@ class RecoveryPanel(QWidget):
         )
         self.run_button.clicked.connect(self.run)
         self.cancel_button = button(
-            self, "recoveryCancel", "&Cancel", "Stop the running test; the previous result is kept"
+            self, "recoveryCancel", "&Cancel", "Stop the running test; a previous result, if any, is kept"
         )
         self.cancel_button.clicked.connect(self.cancel)
         self.progress = named(
@@ -367,7 +367,8 @@ class RecoveryPanel(QWidget):
 
     def _on_cancelled(self) -> None:
         self._set_running(False, "stopped")
-        self._show_status("Stopped. The previous result is kept.", problem=False)
+        kept = "The previous result is kept." if self._report is not None else "No result yet."
+        self._show_status(f"Stopped. {kept}", problem=False)
 
     def _set_running(self, running: bool, outcome: str = "") -> None:
         """Lock the settings while a test runs; ``outcome`` labels the idle progress bar."""

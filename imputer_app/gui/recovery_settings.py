@@ -19,6 +19,7 @@ from PySide6.QtWidgets import (
 
 from imputer_app.gui.recovery_logic import MASKINGS, RecoveryRequest
 from imputer_app.gui.widgets import Reflow, buddy, compact, named
+from imputer_app.plan import DEFAULT_KS
 
 SPIN_WIDTH = 90
 
@@ -107,11 +108,14 @@ class RecoverySettings(QGroupBox):
         return [self.hide_fraction, self.repeats, self.k_from, self.k_to, self.masking, self.seed]
 
     def set_ceiling(self, ceiling: int) -> None:
-        """Allow k up to ``ceiling``; a range still at 1 opens to 20 (or the ceiling)."""
+        """Allow k up to ``ceiling``; a range still at 1 opens to the default range (or the ceiling).
+
+        The default range is the command line's (``plan.DEFAULT_KS``).
+        """
         for spin in (self.k_from, self.k_to):
             spin.setMaximum(ceiling)
         if self.k_to.value() <= 1 < ceiling:
-            self.k_to.setValue(min(20, ceiling))
+            self.k_to.setValue(min(max(DEFAULT_KS), ceiling))
 
     def request(self) -> RecoveryRequest:
         """The test the fields describe."""

@@ -1,14 +1,18 @@
-"""What the app remembers between runs (QSettings): window, splitters, recent files, options."""
+"""What the app remembers between runs (QSettings): window, splitters, recent files, folders.
+
+Fill settings are not global: each file remembers the plan of its last fill, offered
+(never imposed) when that file is opened again.
+"""
 
 from __future__ import annotations
 
+import hashlib
 import json
 from pathlib import Path
 
 from PySide6.QtCore import QByteArray, QSettings
 
 from imputer_app.errors import KinfillError
-from imputer_app.gui.state import column_free
 from imputer_app.plan import FillPlan
 
 MAX_RECENT = 8
@@ -41,20 +45,27 @@ class AppSettings:
         """Forget the recent files."""
         self.qt.remove("recent/files")
 
-    # ----------------------------------------------------------------- options
-    def last_options(self) -> FillPlan:
-        """The general fill options used last (no column settings), or the defaults."""
-        text = self.qt.value("fill/options", "")
-        if not text:
-            return FillPlan()
-        try:
-            return FillPlan.from_dict(json.loads(str(text)), source="saved options")
-        except (KinfillError, ValueError, TypeError):
-            return FillPlan()
+    # ------------------------------------------------------------ sheet plans
+    # Settings belong to a sheet: k tested on one sheet must never slip into a fill of
+    # another. Only the plan of the last fill of each file is kept, keyed by its path.
+    @staticmethod
+    def _plan_key(path: str | Path) -> str:
+        digest = hashlib.sha256(str(Path(path).resolve()).encode("utf-8")).hexdigest()[:16]
+        return f"sheetPlans/{digest}"
 
-    def save_options(self, plan: FillPlan) -> None:
-        """Remember the general options of ``plan`` for the next sheet."""
-        self.qt.setValue("fill/options", json.dumps(column_free(plan).to_dict()))
+    def sheet_plan(self, path: str | Path) -> FillPlan | None:
+        """The plan of the last fill of the file at ``path`` (None: none, or unreadable)."""
+        text = self.qt.value(self._plan_key(path), "")
+        if not text:
+            return None
+        try:
+            return FillPlan.from_dict(json.loads(str(text)), source="the plan last used for this file")
+        except (KinfillError, ValueError, TypeError):
+            return None
+
+    def set_sheet_plan(self, path: str | Path, plan: FillPlan) -> None:
+        """Remember ``plan`` as the one last used to fill the file at ``path``."""
+        self.qt.setValue(self._plan_key(path), json.dumps(plan.to_dict()))
 
     # ----------------------------------------------------------------- folders
     def last_folder(self) -> str:

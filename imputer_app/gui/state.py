@@ -125,11 +125,12 @@ class Session:
         path : str or Path, optional
             Where it came from (defaults to ``sheet.source.path``).
         plan : FillPlan, optional
-            The plan to start with (default: the current plan's column-free settings).
+            The plan to start with (default: Kinfill's defaults; settings chosen for
+            another sheet never carry over).
         """
         self.sheet = sheet
         self.path = Path(path) if path is not None else Path(sheet.source.path)
-        self.plan = plan if plan is not None else column_free(self.plan)
+        self.plan = plan if plan is not None else FillPlan()
         self.plan_problem = None
         self.report = None
         self.preview = None
@@ -184,16 +185,21 @@ class Session:
         return result
 
     def undo(self) -> None:
-        """Take back the last applied fill (the one before it, if any, is shown again)."""
+        """Take back the last applied fill (the one before it, if any, is shown again).
+
+        A preview on screen is dropped, so that the table shows what is applied.
+        """
         if not self.can_undo:
             raise SessionError("nothing to undo")
+        self._drop_preview()
         self._position -= 1
         self._emit("applied")
 
     def redo(self) -> None:
-        """Apply again the fill last taken back."""
+        """Apply again the fill last taken back (a preview on screen is dropped)."""
         if not self.can_redo:
             raise SessionError("nothing to redo")
+        self._drop_preview()
         self._position += 1
         self._emit("applied")
 
@@ -202,26 +208,15 @@ class Session:
         self._exported = self.applied
         self._emit("saved")
 
+    def _drop_preview(self) -> None:
+        # Undo and redo change what is applied; the table then shows it, not an older preview.
+        if self.preview is not None:
+            self.preview = None
+            self._emit("preview")
+
     def _require_sheet(self) -> None:
         if self.sheet is None:
             raise SessionError("no sheet is loaded")
-
-
-def column_free(plan: FillPlan) -> FillPlan:
-    """Return ``plan`` without any setting that names a column.
-
-    Used to carry the general options (k, scaling, rules) from one sheet to the next.
-    """
-    return plan.replace(
-        similarity_columns=None,
-        fill_columns=None,
-        carried_columns=(),
-        weights={},
-        group_column=None,
-        bounds={},
-        decimals={},
-        kinds={},
-    )
 
 
 def default_export_path(source: str | Path) -> Path:

@@ -56,7 +56,7 @@ def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
         What each action does, by key: ``open``, ``open_options``, ``open_plan``,
         ``save_plan``, ``export``, ``quit``, ``undo``, ``redo``, ``recovery``, ``preview``,
         ``apply``, ``copy_methods``, ``next_gap``, ``focus_setup``, ``focus_table``, ``focus_panels``,
-        ``about``.
+        ``guide``, ``about``.
     """
     std = QKeySequence.StandardKey
     specs: list[tuple[str, str, str, Any, Any]] = [
@@ -89,7 +89,8 @@ def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
             "Ctrl+E",
             _SP.SP_DriveFDIcon,
         ),
-        ("quit", "&Quit", "Close Kinfill", std.Quit, None),
+        # Spelled out: the standard Quit key is empty on desktops without a platform theme.
+        ("quit", "&Quit", "Close Kinfill", "Ctrl+Q", None),
         ("undo", "&Undo apply", "Take back the last applied fill", "Ctrl+Z", _SP.SP_ArrowBack),
         (
             "redo",
@@ -148,6 +149,7 @@ def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
             "Alt+3",
             None,
         ),
+        ("guide", "&Guide", "The five steps, the recovery test, cell symbols and the export", "F1", None),
         ("about", "&About Kinfill", "Version, cautions and references", None, None),
     ]
     return {key: _action(w, key, text, tip, slots[key], sc, icon) for key, text, tip, sc, icon in specs}
@@ -179,7 +181,7 @@ def build_menus(w: QMainWindow, a: Mapping[str, QAction], recent_menu: QMenu) ->
     view_menu.addActions([a["next_gap"], a["focus_setup"], a["focus_table"], a["focus_panels"]])
     help_menu = bar.addMenu("&Help")
     help_menu.setObjectName("menuHelp")
-    help_menu.addAction(a["about"])
+    help_menu.addActions([a["guide"], a["about"]])
 
     tools = QToolBar("Main steps", w)
     tools.setObjectName("mainToolBar")

@@ -12,7 +12,9 @@ Gap check: :func:`gap_check` runs Little's test of missing completely at random 
 tabulates how rows with gaps differ from the others and which gap patterns occur.
 """
 
+from imputer_app.validation._advice import about_as_good, advice
 from imputer_app.validation._gaps import GapCheck, MCARTest, gap_check
+from imputer_app.validation._k_check import KCheck, check_k, fill_columns
 from imputer_app.validation._per_column_k import choice_record, k_by_column, plan_with_k
 from imputer_app.validation._recovery import recovery_test
 from imputer_app.validation._report import RecoveryReport
@@ -21,10 +23,15 @@ from imputer_app.validation._weights import WeightSuggestion, suggest_weights
 
 __all__ = [
     "GapCheck",
+    "KCheck",
     "MCARTest",
     "RecoveryReport",
     "WeightSuggestion",
+    "about_as_good",
+    "advice",
+    "check_k",
     "choice_record",
+    "fill_columns",
     "gap_check",
     "k_by_column",
     "one_se_rule",

@@ -23,15 +23,12 @@ import pandas as pd
 from imputer_app import engine
 from imputer_app.engine import PreparedTable, SheetLike
 from imputer_app.errors import KinfillError
-from imputer_app.plan import FillPlan
+from imputer_app.plan import DEFAULT_KS, FillPlan
 from imputer_app.validation._baseline import baseline_values
 from imputer_app.validation._masking import MASKINGS, CellLayout, fold_count, hide_folds, resolve_masking
 from imputer_app.validation._report import RecoveryReport, build_report
 from imputer_app.validation._scoring import ColumnOutcome, score_repeat
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
-
-#: k values tried when none are given (capped at the number of donors).
-DEFAULT_KS = tuple(range(1, 31))
 
 #: Largest share of a column's known cells a test may hide.
 MAX_HIDE_FRACTION = 0.5

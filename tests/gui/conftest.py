@@ -6,6 +6,7 @@ import time
 import weakref
 
 import pytest
+from PySide6.QtWidgets import QMessageBox
 
 
 @pytest.fixture(autouse=True)
@@ -23,6 +24,35 @@ def private_settings(tmp_path, request):
         for scope in (QSettings.Scope.UserScope, QSettings.Scope.SystemScope):
             QSettings.setPath(fmt, scope, str(folder))
     yield folder
+
+
+class Questions:
+    """Stands in for :func:`imputer_app.gui.fill_questions.choose`: records each question.
+
+    ``answers`` is consumed first to last; without one, the safe answer (the last button)
+    is given, as Escape would.
+    """
+
+    def __init__(self) -> None:
+        self.asked: list[tuple[str, list[str]]] = []
+        self.answers: list[str] = []
+
+    def __call__(self, _parent, text, buttons):
+        self.asked.append((text, [answer for answer, _label, _role in buttons]))
+        return self.answers.pop(0) if self.answers else buttons[-1][0]
+
+
+@pytest.fixture(autouse=True)
+def questions(request, monkeypatch):
+    """No fill question ever opens a modal box in a test; the test may script the answers."""
+    if "qtbot" not in request.fixturenames:
+        yield None
+        return
+    from imputer_app.gui import fill_questions
+
+    stand_in = Questions()
+    monkeypatch.setattr(fill_questions, "choose", stand_in)
+    yield stand_in
 
 
 @pytest.fixture(autouse=True)
@@ -64,3 +94,57 @@ def no_thread_left(request, monkeypatch):
         runner.wait(10_000)
     if left:
         pytest.fail(f"{len(left)} background job(s) still running when the test ended", pytrace=False)
+
+
+# ------------------------------------------------ a window with the demo sheet open
+class Boxes:
+    """Records message boxes instead of showing them; answers questions with ``answer``."""
+
+    def __init__(self, answer=QMessageBox.StandardButton.Cancel):
+        self.warnings: list[str] = []
+        self.questions: list[str] = []
+        self.answer = answer
+
+    def warning(self, parent, title, text, *a, **k):
+        self.warnings.append(text)
+        return QMessageBox.StandardButton.Ok
+
+    def question(self, parent, title, text, *a, **k):
+        self.questions.append(text)
+        return self.answer
+
+
+@pytest.fixture
+def boxes(monkeypatch):
+    b = Boxes()
+    monkeypatch.setattr(QMessageBox, "warning", b.warning)
+    monkeypatch.setattr(QMessageBox, "question", b.question)
+    return b
+
+
+@pytest.fixture
+def demo(samples_dir):
+    return samples_dir / "river_survey.xlsx"
+
+
+def new_window(qtbot):
+    """A shown main window with private settings, closed at the end of the test."""
+    from imputer_app.gui.main_window import MainWindow
+    from imputer_app.gui.settings import AppSettings
+
+    w = MainWindow(AppSettings())
+    qtbot.addWidget(w)
+    w.show()
+    return w
+
+
+@pytest.fixture
+def window(qtbot, boxes, demo):
+    w = new_window(qtbot)
+    with qtbot.waitSignal(w.sheet_loaded, timeout=30_000):
+        w.open_path(demo, {})
+    yield w
+    w.session.mark_exported()
+    w.close()
+
+

@@ -23,57 +23,9 @@ from PySide6.QtWidgets import (
 )
 
 import imputer_app.engine
-from imputer_app.gui.main_window import MainWindow
-from imputer_app.gui.settings import AppSettings
 from imputer_app.plan import FillPlan
 from imputer_app.work import raise_if_cancelled
-
-
-class Boxes:
-    """Records message boxes instead of showing them; answers questions with ``answer``."""
-
-    def __init__(self, answer=QMessageBox.StandardButton.Cancel):
-        self.warnings: list[str] = []
-        self.questions: list[str] = []
-        self.answer = answer
-
-    def warning(self, parent, title, text, *a, **k):
-        self.warnings.append(text)
-        return QMessageBox.StandardButton.Ok
-
-    def question(self, parent, title, text, *a, **k):
-        self.questions.append(text)
-        return self.answer
-
-
-@pytest.fixture
-def boxes(monkeypatch):
-    b = Boxes()
-    monkeypatch.setattr(QMessageBox, "warning", b.warning)
-    monkeypatch.setattr(QMessageBox, "question", b.question)
-    return b
-
-
-@pytest.fixture
-def demo(samples_dir):
-    return samples_dir / "river_survey.xlsx"
-
-
-def new_window(qtbot) -> MainWindow:
-    w = MainWindow(AppSettings())
-    qtbot.addWidget(w)
-    w.show()
-    return w
-
-
-@pytest.fixture
-def window(qtbot, boxes, demo):
-    w = new_window(qtbot)
-    with qtbot.waitSignal(w.sheet_loaded, timeout=30_000):
-        w.open_path(demo, {})
-    yield w
-    w.session.mark_exported()
-    w.close()
+from tests.gui.conftest import new_window  # the fixtures boxes, demo and window live there too
 
 
 def preview_and_apply(w, qtbot):
@@ -159,18 +111,16 @@ def test_export_offers_stem_filled_xlsx(window, qtbot, monkeypatch):
     assert offered[0].endswith("river_survey.filled.xlsx")
 
 
-@pytest.mark.parametrize(
-    ("answer", "closes"),
-    [(QMessageBox.StandardButton.Cancel, False), (QMessageBox.StandardButton.Discard, True)],
-)
-def test_closing_with_an_unexported_fill_asks_first(qtbot, boxes, demo, answer, closes):
+@pytest.mark.parametrize(("answer", "closes"), [("cancel", False), ("discard", True)])
+def test_closing_with_an_unexported_fill_asks_first(qtbot, questions, demo, answer, closes):
     w = new_window(qtbot)
     with qtbot.waitSignal(w.sheet_loaded, timeout=30_000):
         w.open_path(demo, {})
     preview_and_apply(w, qtbot)
-    boxes.answer = answer
+    questions.answers = [answer]
     assert w.close() == closes
-    assert "not been exported" in boxes.questions[-1]
+    text, offered = questions.asked[-1]
+    assert "not been exported" in text and offered == ["export", "discard", "cancel"]
     if not closes:
         w.session.mark_exported()
         assert w.close()
@@ -223,10 +173,10 @@ def test_settings_persist_between_windows(qtbot, boxes, demo, private_settings):
     assert second.settings.recent_files() == [demo.resolve()]
     assert [a.toolTip() for a in second.recent_menu.actions()[:1]] == [str(demo.resolve())]
     assert (second.width(), second.height()) == (760, 560)
-    assert second.splitter.sizes() == sizes
     with qtbot.waitSignal(second.sheet_loaded, timeout=30_000):
         second.recent_menu.actions()[0].trigger()
-    assert second.session.plan.k == 7
+    assert second.splitter.sizes() == sizes  # shown once a sheet is open (the start page before)
+    assert second.session.plan.k == FillPlan().k  # settings belong to a sheet's fills, not the app
     assert list(private_settings.rglob("*.conf")) or list(private_settings.rglob("*.ini"))
 
 

@@ -73,8 +73,18 @@ def test_parse_markers(text, expected):
     assert parse_markers(text) == expected
 
 
-def test_a_workbook_with_several_sheets_asks_which(qtbot, workbook, monkeypatch):
+def test_a_workbook_is_asked_about_only_when_no_guess_can_be_read(qtbot, tmp_path, monkeypatch):
+    book = openpyxl.Workbook()
+    book.active.title = "Notes"  # the first worksheet is empty: nothing to guess from
+    second = book.create_sheet("Autumn")
+    for row in (["site", "pH", "NO3"], ["A", 6.9, 0.5], ["B", 7.0, None]):
+        second.append(row)
+    path = tmp_path / "notes_first.xlsx"
+    book.save(path)
+    asked = []
+
     def choose_autumn(self):
+        asked.append([self.sheet_combo.itemText(i) for i in range(self.sheet_combo.count())])
         self.sheet_combo.setCurrentText("Autumn")
         qtbot.waitUntil(
             lambda: self.sheet() is not None and self.sheet().source.sheet == "Autumn", timeout=10_000
@@ -85,5 +95,6 @@ def test_a_workbook_with_several_sheets_asks_which(qtbot, workbook, monkeypatch)
     window = MainWindow(AppSettings())
     qtbot.addWidget(window)
     with qtbot.waitSignal(window.sheet_loaded, timeout=10_000):
-        window.open_path(workbook)
+        window.open_path(path)
+    assert asked == [["Notes", "Autumn"]]
     assert window.session.sheet.source.sheet == "Autumn" and window.table_model.rowCount() == 2

@@ -30,7 +30,7 @@ from imputer_app.gui.recovery_logic import (
     verdict,
 )
 from imputer_app.gui.recovery_panel import RecoveryPanel
-from imputer_app.plan import FillPlan
+from imputer_app.plan import DEFAULT_KS, FillPlan
 from imputer_app.work import raise_if_cancelled
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
@@ -126,7 +126,8 @@ def test_category_fill_shows_error_rates(qtbot, panel):
     for row, (_, values) in enumerate(report.overall.iterrows()):
         assert same(panel.model.index(row, error).data(RAW_ROLE), float(values["category_error"]))
     best = float(report.overall.loc[report.best_k, "category_error"])
-    assert panel.summary.text().startswith(f"best k = {report.best_k} (error rate {best:.2f})")
+    detail = panel.summary.text().split("\n")[1]
+    assert detail.startswith(f"Detail: best k = {report.best_k} (error rate {best:.2f})")
 
 
 def test_panel_passes_its_settings_to_the_recovery_test(qtbot, panel):
@@ -152,7 +153,12 @@ def test_summary_line_names_best_and_one_se_k_and_the_baseline(qtbot, panel):
     report = run_to_report(qtbot, panel)
     text = panel.summary.text()
     best = float(report.overall.loc[report.best_k, "score"])
-    assert text.startswith(f"best k = {report.best_k} (NRMSE {best:.2f})")
+    baseline = float(report.baseline.loc["overall", "score"])
+    low, high = validation.about_as_good(report)
+    gain = round(100 * (1 - best / baseline))
+    lead = f"Use k = {report.best_k}: hidden values came back with {gain} % less error"
+    assert text.startswith(lead) and (high == low or f"any k from {low} to {high} does about as well" in text)
+    assert text.split("\n")[1].startswith(f"Detail: best k = {report.best_k} (NRMSE {best:.2f})")
     if report.best_k_1se != report.best_k:
         assert f"one-SE rule suggests k = {report.best_k_1se}" in text
     assert f"column average scores {float(report.baseline.loc['overall', 'score']):.2f}" in text
@@ -373,7 +379,7 @@ def test_k_range_is_capped_by_donors_and_100(qtbot, panel, n_rows, gaps, plan, c
     assert k_ceiling(frame, plan) == ceiling
     panel.set_source(frame, plan)
     assert panel.k_to.maximum() == ceiling and panel.k_from.maximum() == ceiling
-    assert panel.k_to.value() == min(20, ceiling)
+    assert panel.k_to.value() == min(max(DEFAULT_KS), ceiling)  # the command line's default range
 
 
 def test_k_from_never_passes_k_to(qtbot, panel):

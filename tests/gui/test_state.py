@@ -14,7 +14,7 @@ import pandas as pd
 import pytest
 
 from imputer_app.files import same_file
-from imputer_app.gui.state import Session, SessionError, column_free, default_export_path
+from imputer_app.gui.state import Session, SessionError, default_export_path
 from imputer_app.plan import FillPlan
 
 
@@ -112,21 +112,16 @@ def test_changing_the_plan_drops_a_stale_preview_and_tells_listeners(session):
     assert events[-1] == "plan" and len(events) == 3
 
 
-def test_loading_a_sheet_keeps_general_options_but_forgets_columns(session):
+def test_loading_a_sheet_starts_from_the_defaults_not_the_last_sheet_s_settings(session):
     session.set_plan(FillPlan(k=7, scaling="range", weights={"a": 2.0}, carried_columns=("b",)))
     session.set_preview(fake_result(1.0))
     session.apply()
     session.load(fake_sheet("/data/other.csv"))
-    assert session.plan == FillPlan(k=7, scaling="range")
+    assert session.plan == FillPlan()  # k = 7 was chosen for another sheet
+    session.load(fake_sheet("/data/third.csv"), plan=FillPlan(k=4))
+    assert session.plan == FillPlan(k=4)
     assert session.applied is None and not session.can_redo and not session.dirty
-    assert session.path == Path("/data/other.csv")
-
-
-def test_column_free_keeps_only_general_settings():
-    plan = FillPlan(
-        k=4, censored="limit", bounds={"a": (0.0, None)}, group_column="g", kinds={"a": "category"}
-    )
-    assert column_free(plan) == FillPlan(k=4, censored="limit")
+    assert session.path == Path("/data/third.csv")
 
 
 @pytest.mark.parametrize(
