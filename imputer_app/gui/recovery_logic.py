@@ -30,6 +30,12 @@ K_LIMIT = 100
 #: Hiding styles: value passed to recovery_test, label, explanation.
 MASKINGS = (
     (
+        "auto",
+        "Automatic",
+        "The sheet's own gap patterns where it has enough incomplete rows to copy from, "
+        "otherwise random known cells; the result says which was used",
+    ),
+    (
         "random",
         "Random known cells",
         "Hide a share of each fill column's known cells at random (gaps assumed MCAR)",
@@ -52,11 +58,11 @@ class RecoveryRequest:
     hide_fraction : float
         Share of known cells hidden per repeat, in (0, 1).
     repeats : int
-        Number of independent hidings (>= 1); more repeats give smaller standard errors.
+        Number of fold splits (>= 1); more repeats give a steadier curve.
     k_from, k_to : int
         Inclusive range of k values scored.
-    masking : {"random", "pattern"}
-        How cells are chosen for hiding.
+    masking : {"auto", "random", "pattern"}
+        How cells are chosen for hiding (as :func:`imputer_app.validation.recovery_test`).
     seed : int
         Seed of the hiding, so the same request gives the same report.
     """
@@ -65,7 +71,7 @@ class RecoveryRequest:
     repeats: int = 5
     k_from: int = min(DEFAULT_KS)
     k_to: int = max(DEFAULT_KS)
-    masking: str = "random"
+    masking: str = "auto"
     seed: int = 0
 
     @property

@@ -49,8 +49,8 @@ class RecoverySettings(QGroupBox):
         self.repeats = self._spin(
             "recoveryRepeats",
             "Repeats",
-            "How many times to hide a fresh set of cells; more repeats give "
-            "steadier errors and smaller standard errors",
+            "How many times the known cells are split afresh into folds (each fold hidden "
+            "once); more repeats give a steadier curve, not a smaller standard error",
             1,
             50,
         )

@@ -399,7 +399,7 @@ def test_request_reads_the_controls(qtbot, panel):
     panel.k_from.setValue(2)
     panel.k_to.setValue(9)
     panel.seed.setValue(4)
-    assert panel.request() == RecoveryRequest(0.25, 7, 2, 9, "random", 4)
+    assert panel.request() == RecoveryRequest(0.25, 7, 2, 9, "auto", 4)  # auto: the library's default hiding
     assert (panel.hide_fraction.minimum(), panel.hide_fraction.maximum()) == (0.01, 0.5)
     assert (panel.repeats.minimum(), panel.repeats.maximum()) == (1, 50)
 
