@@ -48,6 +48,10 @@ CHOICES: dict[str, tuple[str, ...]] = {
 #: Column kinds a plan may force on a column (overriding detection).
 KINDS = ("number", "category")
 
+#: What a marker text in a cell ("n.d.", "NA") may mean: a missing value (a gap to
+#: fill) or an entry below the limit of detection (a censored cell).
+MARKER_MEANINGS = ("missing", "below-limit")
+
 MAX_WEIGHT = 1000.0
 
 Bound = tuple[float | None, float | None]
@@ -89,6 +93,18 @@ class FillPlan:
         What to do with a cell that has no donor; always reported.
     kinds : mapping of str to {"number", "category"}, default={}
         Column kinds that override detection.
+    fill_formula_errors : bool, default=False
+        Whether cells holding a formula's error result (``#DIV/0!``) are filled like
+        gaps; by default they are left alone.
+    markers : mapping of str to {"missing", "below-limit"}, default={}
+        The meaning of marker texts found in cells (``{"n.d.": "below-limit"}``);
+        markers not named keep their usual meaning (see README.md).
+    limits : mapping of str to float, default={}
+        Per column, the limit a below-limit marker stands under, when the sheet has
+        no limit row or column.
+    id_column : str or None, default=None
+        The column naming samples in the fill log and cell notes; default the first
+        carried identifier.
     """
 
     k: int = 5
@@ -105,6 +121,10 @@ class FillPlan:
     censored: str = "half_limit"
     no_donor: str = "leave_empty"
     kinds: Mapping[str, str] = field(default_factory=dict)
+    fill_formula_errors: bool = False
+    markers: Mapping[str, str] = field(default_factory=dict)
+    limits: Mapping[str, float] = field(default_factory=dict)
+    id_column: str | None = None
 
     def __post_init__(self) -> None:
         _set = object.__setattr__
@@ -124,6 +144,12 @@ class FillPlan:
         _set(self, "bounds", _check_bounds(self.bounds))
         _set(self, "decimals", _check_decimals(self.decimals))
         _set(self, "kinds", _check_kinds(self.kinds))
+        if not isinstance(self.fill_formula_errors, bool):
+            raise PlanError(f"fill_formula_errors must be true or false; got {shown_value(self.fill_formula_errors)}")
+        _set(self, "markers", _check_markers(self.markers))
+        _set(self, "limits", {str(c): _number("limit", c, v) for c, v in dict(self.limits).items()})
+        if self.id_column is not None and (not isinstance(self.id_column, str) or not self.id_column):
+            raise PlanError(f"id_column must be a column name or empty; got {shown_value(self.id_column)}")
         self._check_roles()
 
     # ------------------------------------------------------------------ queries
@@ -142,6 +168,8 @@ class FillPlan:
             self.bounds,
             self.decimals,
             self.kinds,
+            self.limits,
+            (self.id_column,) if self.id_column else (),
         )
         return list(dict.fromkeys(name for group in groups for name in group))
 
@@ -181,6 +209,11 @@ class FillPlan:
         }
         data["decimals"] = dict(self.decimals)
         data["kinds"] = dict(self.kinds)
+        data["fill_formula_errors"] = self.fill_formula_errors
+        if self.id_column is not None:
+            data["id_column"] = self.id_column
+        data["markers"] = dict(self.markers)
+        data["limits"] = dict(self.limits)
         return data
 
     @classmethod
@@ -335,6 +368,19 @@ def _check_decimals(decimals: Mapping[str, int]) -> dict[str, int]:
     return out
 
 
+def _check_markers(markers: Mapping[str, str]) -> dict[str, str]:
+    out: dict[str, str] = {}
+    for text, meaning in dict(markers).items():
+        if not isinstance(text, str) or not text.strip():
+            raise PlanError(f"a marker must be the text found in cells; got {shown_value(text)}")
+        if meaning not in MARKER_MEANINGS:
+            raise PlanError(
+                f"marker {shown_value(text)} must mean one of {', '.join(MARKER_MEANINGS)}; got {shown_value(meaning)}"
+            )
+        out[text.strip()] = meaning
+    return out
+
+
 def _check_kinds(kinds: Mapping[str, str]) -> dict[str, str]:
     out: dict[str, str] = {}
     for column, kind in dict(kinds).items():
@@ -357,9 +403,10 @@ _SCALAR_KEYS: dict[str, tuple[type, ...]] = {
     "censored": (str,),
     "no_donor": (str,),
     "group_column": (str,),
+    "id_column": (str,),
 }
 _LIST_KEYS = ("similarity_columns", "fill_columns", "carried_columns")
-_TABLE_KEYS = ("weights", "bounds", "decimals", "kinds")
+_TABLE_KEYS = ("weights", "bounds", "decimals", "kinds", "markers", "limits")
 
 
 def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | None) -> None:
@@ -378,7 +425,7 @@ def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | No
 
 
 def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -> FillPlan:
-    known = set(_SCALAR_KEYS) | set(_LIST_KEYS) | set(_TABLE_KEYS)
+    known = set(_SCALAR_KEYS) | set(_LIST_KEYS) | set(_TABLE_KEYS) | {"fill_formula_errors"}
     for key in data:
         if key not in known:
             raise PlanError(f"{source}: unknown key {shown_value(key)}{line_of(text, key)}")
@@ -411,6 +458,13 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
     kwargs["weights"] = dict(data.get("weights", {}))
     kwargs["decimals"] = dict(data.get("decimals", {}))
     kwargs["kinds"] = dict(data.get("kinds", {}))
+    kwargs["markers"] = dict(data.get("markers", {}))
+    kwargs["limits"] = dict(data.get("limits", {}))
+    if "fill_formula_errors" in data:
+        if not isinstance(data["fill_formula_errors"], bool):
+            where = line_of(text, "fill_formula_errors")
+            raise PlanError(f"{source}: fill_formula_errors must be true or false{where}")
+        kwargs["fill_formula_errors"] = data["fill_formula_errors"]
     bounds: dict[str, Bound] = {}
     for column, sides in dict(data.get("bounds", {})).items():
         if not isinstance(sides, Mapping) or set(sides) - {"lower", "upper"}:

@@ -9,7 +9,7 @@ the fill log) is numpy only; reading a DataFrame or a :class:`SheetLike` sheet
 from imputer_app.engine._combine import combine
 from imputer_app.engine._impute import impute
 from imputer_app.engine._input import SheetLike
-from imputer_app.engine._prepare import default_roles, prepare
+from imputer_app.engine._prepare import default_role_reasons, default_roles, prepare
 from imputer_app.engine._result import FillResult
 from imputer_app.engine._search import ColumnDonors, nearest_donors
 from imputer_app.engine._table import PreparedTable
@@ -20,6 +20,7 @@ __all__ = [
     "PreparedTable",
     "SheetLike",
     "combine",
+    "default_role_reasons",
     "default_roles",
     "impute",
     "nearest_donors",

@@ -9,7 +9,7 @@ that nothing after them looks at the sheet again.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Protocol, runtime_checkable
 
 import numpy as np
@@ -40,7 +40,8 @@ class SheetLike(Protocol):
     frame : DataFrame of shape (n_rows, n_columns)
         The values; NaN where a cell holds none.
     states : DataFrame of str, same shape and labels as ``frame``, or None
-        Per cell ``observed``, ``missing``, ``censored`` or ``text_in_number``.
+        Per cell ``observed``, ``missing``, ``censored``, ``text_in_number`` or
+        ``formula_error`` (a formula's error result: left alone unless the plan says).
     cell_notes : DataFrame or None
         One row per censored cell: ``row`` (label), ``column``, ``text``, ``side``
         (``"<"`` or ``">"``) and ``limit``.
@@ -80,6 +81,9 @@ class Input:
         The sheet's cell states and censored entries' notes (None for a DataFrame).
     sheet_kinds : dict of str to str or None
         The sheet's kind per column, when it says.
+    sheet_reasons : dict of str to str
+        Why the sheet says a column must be carried by default (a computed column,
+        free text), from its column facts' ``carry_reason``; empty for a DataFrame.
     """
 
     names: tuple[str, ...]
@@ -87,17 +91,20 @@ class Input:
     states: pd.DataFrame | None
     notes: pd.DataFrame | None
     sheet_kinds: dict[str, str] | None
+    sheet_reasons: dict[str, str] = field(default_factory=dict)
 
 
 def unpack(data: pd.DataFrame | SheetLike) -> Input:
     """Check ``data`` and take it apart; raise :class:`PlanError` for anything else."""
     kinds: dict[str, str] | None = None
+    reasons: dict[str, str] = {}
     if isinstance(data, pd.DataFrame):
         frame, states, notes = data, None, None
     elif isinstance(data, SheetLike):
         frame, states, notes = data.frame, data.states, data.cell_notes
         if isinstance(data, SheetWithKinds) and isinstance(data.columns, list | tuple) and data.columns:
             kinds = {c.name: c.kind for c in data.columns}
+            reasons = {c.name: why for c in data.columns if (why := getattr(c, "carry_reason", None))}
     else:
         raise PlanError(f"cannot fill a {type(data).__name__}; give a table (DataFrame) or a read sheet")
     if not isinstance(frame, pd.DataFrame):
@@ -109,7 +116,7 @@ def unpack(data: pd.DataFrame | SheetLike) -> Input:
     if frame.columns.has_duplicates:
         dup = frame.columns[frame.columns.duplicated()][0]
         raise PlanError(f"column {dup!r} appears twice; column names must be unique")
-    return Input(names, frame, states, notes, kinds)
+    return Input(names, frame, states, notes, kinds, reasons)
 
 
 def state_masks(inp: Input, columns: list[str], words: tuple[str, ...]) -> dict[str, NDArray[np.bool_]]:

@@ -21,6 +21,7 @@ from imputer_app.engine._input import Input, SheetLike, censored_cells, state_ma
 from imputer_app.engine._roles import (
     USABLE_KINDS,
     carried_columns,
+    carry_reasons,
     column_kinds,
     plain_number,
     similarity_columns,
@@ -55,6 +56,25 @@ def default_roles(data: pd.DataFrame | SheetLike) -> dict[str, str]:
         else:
             roles[col] = "carried"
     return roles
+
+
+def default_role_reasons(data: pd.DataFrame | SheetLike) -> dict[str, str]:
+    """Why each column the default plan carries is carried, in plain words.
+
+    Parameters
+    ----------
+    data : DataFrame or sheet-like
+        As for :func:`default_roles`.
+
+    Returns
+    -------
+    dict of str to str
+        Column name to reason ("an identifier ...", "computed by formulas in the
+        sheet", "free text ..."); columns the default plan uses are absent.
+    """
+    inp = unpack(data)
+    plan = FillPlan()
+    return carry_reasons(inp, plan, column_kinds(inp, plan))
 
 
 def _numbers(frame: pd.DataFrame, col: str) -> NDArray[np.float64]:
@@ -179,7 +199,8 @@ def prepare_input(
     names = list(inp.names)
     plan.check_columns(names)
     kinds_all = column_kinds(inp, plan)
-    sim = similarity_columns(names, plan, kinds_all)
+    reasons = carry_reasons(inp, plan, kinds_all)
+    sim = similarity_columns(names, plan, kinds_all, reasons)
     for col in (*sim, *(plan.fill_columns or ())):
         if kinds_all[col] == "date":
             raise PlanError(f"column {col!r} holds dates; it cannot be a similarity or fill column")
@@ -194,7 +215,7 @@ def prepare_input(
     resolved = plan.replace(
         similarity_columns=sim,
         fill_columns=fill,
-        carried_columns=carried_columns(names, plan, kinds_all, {*sim, *fill}),
+        carried_columns=carried_columns(names, plan, kinds_all, {*sim, *fill}, reasons),
     )
     kinds = {c: ("number" if kinds_all[c] == "number" else "category") for c in (*sim, *fill)}
     raise_if_cancelled(cancel)  # each step takes about a second on a sheet of ten million cells
@@ -224,6 +245,13 @@ def prepare_input(
         else:
             values[col] = cols.codes[col]
             observed[col] = cols.codes[col] >= 0
+    # A formula's error result (#DIV/0!) is NaN like a gap, but it is the lab's formula
+    # that failed, not a missing measurement: not a gap unless the plan fills those.
+    left_alone: dict[str, NDArray[np.bool_]] = {}
+    if not resolved.fill_formula_errors and fill:
+        errors = state_masks(inp, list(fill), ("formula_error",))["formula_error"]
+        for j in np.flatnonzero(errors.any(axis=0)).tolist():
+            left_alone[fill[j]] = errors[:, j]
     groups, group_labels = _groups(inp, resolved, hide)
     return PreparedTable(
         n_rows=n,
@@ -243,4 +271,5 @@ def prepare_input(
         cap_upper=cap_upper,
         cap_lower=cap_lower,
         unknown_limit=unknown_limit,
+        left_alone=left_alone,
     ), cols.censored

@@ -74,7 +74,7 @@ def build_result(
     raise_if_cancelled(cancel)  # the log's tuples take about half of this step
     filled = np.zeros(frame.shape, dtype=bool)
     filled[log.pos[log.filled], log.column[log.filled]] = True
-    states = state_masks(inp, list(inp.names), ("censored", "text_in_number"))
+    states = state_masks(inp, list(inp.names), ("censored", "text_in_number", "formula_error"))
     flags = states["censored"]  # every censored cell, whatever its column's role
     unfilled = pd.DataFrame(
         {
@@ -132,11 +132,12 @@ def _filled_frame(
 def _log_frame(inp: Input, log: LogTable, states: Mapping[str, NDArray[np.bool_]]) -> pd.DataFrame:
     """The fill log as a DataFrame (already ordered by row and then by column).
 
-    ``states`` holds the cells marked ``censored`` and ``text_in_number``; others were gaps.
+    ``states`` holds the cells marked ``censored``, ``text_in_number`` and
+    ``formula_error`` (filled only when the plan says); others were gaps.
     """
     pos, colpos = log.pos, log.column
     state = repeated("missing", len(pos))
-    for word in ("text_in_number", "censored"):
+    for word in ("text_in_number", "censored", "formula_error"):
         state[states[word][pos, colpos]] = word
     columns: dict[str, Any] = {"row": inp.frame.index.to_numpy()[pos], "original_state": state, **log.fields}
     return pd.DataFrame(columns, columns=list(LOG_COLUMNS))

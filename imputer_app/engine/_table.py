@@ -55,6 +55,9 @@ class PreparedTable:
         ("<" gives an upper cap, ">" a lower one); NaN where there is none.
     unknown_limit : dict of str to ndarray of bool, shape (n_rows,)
         Per numeric fill column: censored cells whose limit is unknown (filled by kNN).
+    left_alone : dict of str to ndarray of bool, shape (n_rows,)
+        Per fill column: empty cells that are not gaps (a formula's error result,
+        unless the plan fills those); never targets, never donors.
     """
 
     n_rows: int
@@ -74,7 +77,12 @@ class PreparedTable:
     cap_upper: dict[str, NDArray[np.float64]] = field(default_factory=dict)
     cap_lower: dict[str, NDArray[np.float64]] = field(default_factory=dict)
     unknown_limit: dict[str, NDArray[np.bool_]] = field(default_factory=dict)
+    left_alone: dict[str, NDArray[np.bool_]] = field(default_factory=dict)
 
     def targets(self) -> dict[str, NDArray[np.bool_]]:
-        """Default rows to fill per fill column: every cell that is not observed."""
-        return {col: ~self.observed[col] for col in self.fill_columns}
+        """Default rows to fill per fill column: every cell not observed nor left alone."""
+        out = {}
+        for col in self.fill_columns:
+            alone = self.left_alone.get(col)
+            out[col] = ~self.observed[col] if alone is None else ~self.observed[col] & ~alone
+        return out

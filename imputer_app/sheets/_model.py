@@ -41,6 +41,15 @@ class ColumnInfo:
         Plain-words remarks from detection ("renamed from a blank header", ...).
     original_name : str
         The header text as found in the file.
+    carry_reason : str or None
+        Why the default plan must carry this column untouched, when the sheet knows
+        (a computed column: most of its cells are formulas).
+    group_like : bool
+        A number column of a few distinct whole values (block, plot, replicate):
+        offered as a category and as a group column.
+    group_label : str
+        The label merged over this column and its neighbours above the header
+        ("Cations"); "" when none. It enters ``name`` only where names would repeat.
     """
 
     name: str
@@ -48,6 +57,9 @@ class ColumnInfo:
     unit: str | None = None
     notes: tuple[str, ...] = ()
     original_name: str = ""
+    carry_reason: str | None = None
+    group_like: bool = False
+    group_label: str = ""
 
 
 @dataclass(frozen=True)

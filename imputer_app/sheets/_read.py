@@ -10,7 +10,7 @@ The source file is only ever opened for reading.
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from os import PathLike
 from pathlib import Path
 
@@ -27,6 +27,7 @@ from imputer_app.sheets._cells import (
     make_markers,
     parse_column,
 )
+from imputer_app.sheets._facts import COMPUTED_REASON, is_computed, is_group_like
 from imputer_app.sheets._grid import Merge
 from imputer_app.sheets._header import Layout, find_layout, unique_names
 from imputer_app.sheets._model import ColumnInfo, Sheet, SourceInfo
@@ -52,6 +53,7 @@ class _Grid:
     delimiter: str | None = None
     encoding: str | None = None
     line_end: str | None = None
+    formulas: Mapping[int, np.ndarray] = field(default_factory=dict)
 
 
 def list_sheets(path: str | PathLike[str]) -> list[str]:
@@ -178,8 +180,10 @@ def read_sheet(
     )
     forced = resolve_kinds(columns, kinds, where)
     built = assemble(columns, rows, forced, workbook=grid.sheet is not None, cancel=cancel)
+    groups = layout.groups or ("",) * grid.cells.shape[1]
     infos = [
-        ColumnInfo(c.name, built.kinds[c.name], c.unit, built.notes[c.name], c.original) for c in columns
+        _info(c, built.kinds[c.name], built.notes[c.name], rows, grid.formulas, groups[c.position])
+        for c in columns
     ]
     info = SourceInfo(
         path=source.absolute(),
@@ -206,6 +210,28 @@ def read_sheet(
     )
 
 
+def _info(
+    column: Column,
+    kind: str,
+    notes: tuple[str, ...],
+    rows: np.ndarray,
+    formulas: Mapping[int, np.ndarray],
+    group: str,
+) -> ColumnInfo:
+    """The column's facts, with the reason to carry it when it is computed by formulas."""
+    computed = is_computed(column.parsed, column.position, rows, formulas)
+    return ColumnInfo(
+        column.name,
+        kind,
+        column.unit,
+        notes,
+        column.original,
+        carry_reason=COMPUTED_REASON if computed else None,
+        group_like=kind == "number" and is_group_like(column.parsed),
+        group_label=group,
+    )
+
+
 def _check_decimal(decimal: str | None, path: Path) -> str | None:
     if decimal is None or decimal in (".", ","):
         return decimal
@@ -225,7 +251,7 @@ def _load_grid(
         _guards.check_workbook_bytes(data, path, fmt)
         raise_if_cancelled(cancel)
         book = read_workbook(data, path, fmt, sheet)
-        return _Grid(book.cells, book.merges, book.sheet)
+        return _Grid(book.cells, book.merges, book.sheet, formulas=book.formulas)
     if sheet not in (None, 0, path.stem):
         raise SheetError(f"'{path.name}' is a text file with one table; there is no sheet {sheet!r}")
     utf16 = _text.is_utf16(data) or _text.is_wide_codec(encoding)

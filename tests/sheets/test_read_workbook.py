@@ -239,6 +239,33 @@ def _merged_book(path: Path, writer: str) -> Path:
     return path
 
 
+def test_title_over_the_header_and_repeated_names_in_groups(tmp_path: Path) -> None:
+    path = tmp_path / "groups.xlsx"
+    book = xlsxwriter.Workbook(str(path))
+    xsheet = book.add_worksheet()
+    xsheet.merge_range("A1:E1", "Harvest panel (invented)")  # a title right above the group row
+    xsheet.write_row(1, 1, ["Soil", None, "Water"])
+    xsheet.merge_range("B2:C2", "Soil")
+    xsheet.merge_range("D2:E2", "Water")
+    xsheet.write_row(2, 0, ["Plot", "Ca", "Mg", "Ca", "pH"])
+    for r in range(3, 7):
+        xsheet.write_row(r, 0, [f"P{r}", 1.0 + r, 2.0 + r, 3.0 + r, 6.0 + r / 10])
+    book.close()
+    sheet = read_sheet(path)
+    assert [c.name for c in sheet.columns] == ["Plot", "Soil: Ca", "Mg", "Water: Ca", "pH"]
+    assert [c.group_label for c in sheet.columns] == ["", "Soil", "Soil", "Water", "Water"]
+
+    title = tmp_path / "title.xlsx"
+    book = xlsxwriter.Workbook(str(title))
+    xsheet = book.add_worksheet()
+    xsheet.merge_range("A1:C1", "Harvest panel (invented)")  # right above the header
+    xsheet.write_row(1, 0, ["Plot", "pH", "Ca"])
+    for r in range(2, 6):
+        xsheet.write_row(r, 0, [f"P{r}", 6.0 + r / 10, 1.0 + r])
+    book.close()
+    assert [c.name for c in read_sheet(title).columns] == ["Plot", "pH", "Ca"]
+
+
 def _value_at(rows: list[list[Any]], ref: str) -> Any:
     r, c = openpyxl.utils.cell.coordinate_to_tuple(ref)
     return rows[r - 1][c - 1]
@@ -248,13 +275,13 @@ def _value_at(rows: list[list[Any]], ref: str) -> Any:
 def test_merged_header_cells(tmp_path: Path, writer: str) -> None:
     sheet = read_sheet(_merged_book(tmp_path / "merged.xlsx", writer))
     assert (sheet.source.header_row, sheet.source.units_row) == (3, 4)
-    assert [c.name for c in sheet.columns] == [
-        "Site", "Anions: Cl", "Anions: NO3", "Anions: SO4", "Cations: Na", "Cations: K",
-    ]  # fmt: skip
-    assert sheet.units["Anions: NO3"] == "mg/L" and sheet.units["Site"] is None
+    # group labels are column facts; they enter names only where names would repeat
+    assert [c.name for c in sheet.columns] == ["Site", "Cl", "NO3", "SO4", "Na", "K"]
+    assert [c.group_label for c in sheet.columns] == ["", "Anions", "Anions", "Anions", "Cations", "Cations"]
+    assert sheet.units["NO3"] == "mg/L" and sheet.units["Site"] is None
     assert sheet.frame["Site"].tolist() == ["north", "north", "south"]  # merged data cell spread
     assert sheet.states["Site"].astype(str).tolist() == [OBS, OBS, OBS]
-    assert sheet.frame["Cations: K"].tolist() == [1.5, 1.6, 2.5]
+    assert sheet.frame["K"].tolist() == [1.5, 1.6, 2.5]
     assert any("merged cell range" in p for p in sheet.problems)
 
 
