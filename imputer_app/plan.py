@@ -145,7 +145,9 @@ class FillPlan:
         _set(self, "decimals", _check_decimals(self.decimals))
         _set(self, "kinds", _check_kinds(self.kinds))
         if not isinstance(self.fill_formula_errors, bool):
-            raise PlanError(f"fill_formula_errors must be true or false; got {shown_value(self.fill_formula_errors)}")
+            raise PlanError(
+                f"fill_formula_errors must be true or false; got {shown_value(self.fill_formula_errors)}"
+            )
         _set(self, "markers", _check_markers(self.markers))
         _set(self, "limits", {str(c): _number("limit", c, v) for c, v in dict(self.limits).items()})
         if self.id_column is not None and (not isinstance(self.id_column, str) or not self.id_column):

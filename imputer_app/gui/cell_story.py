@@ -193,6 +193,8 @@ def _filled_story(result: FillResult, entry: pd.Series, where: str, notes: pd.Da
         facts.append(("Original entry", original))
     else:
         facts.append(("Before", STATE_WORDS.get(state, state)))
+        if state == "formula_error":  # the error text the formula gave (#DIV/0!), from the sheet's notes
+            facts.append(("Original entry", _censored_entry(notes, entry["row"], column) or "–"))
     if method in SUBSTITUTED:
         note = str(entry.get("note", "") or "")
         if note:

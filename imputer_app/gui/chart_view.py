@@ -49,8 +49,14 @@ def fit_for_screen(figure: Figure, *, narrow: bool, unlisted: Collection[str] = 
         if narrow:  # the legend shares the panel's width with nothing: short labels fit
             labels = [_without_brackets(label) for label in labels]
         if handles:
-            figure.legend(handles, labels, loc="outside lower center" if narrow else "outside right upper",
-                          ncols=2 if narrow else 1, fontsize="x-small" if narrow else "small", frameon=False)
+            figure.legend(
+                handles,
+                labels,
+                loc="outside lower center" if narrow else "outside right upper",
+                ncols=2 if narrow else 1,
+                fontsize="x-small" if narrow else "small",
+                frameon=False,
+            )
         # A panel is short: the axis title loses its explanation in brackets (the saved
         # chart and the canvas's tooltip keep it), and the chart title its first words.
         ylabel = _without_brackets(ax.get_ylabel())
@@ -82,10 +88,19 @@ def palette_style(palette: QPalette) -> Iterator[None]:
     text = palette.color(QPalette.ColorRole.WindowText).name()
     back = palette.color(QPalette.ColorRole.Window).name()
     base = palette.color(QPalette.ColorRole.Base).name()
-    with matplotlib.rc_context({
-        "figure.facecolor": back, "axes.facecolor": base, "savefig.facecolor": back,
-        "text.color": text, "axes.labelcolor": text, "axes.edgecolor": text,
-        "xtick.color": text, "ytick.color": text, "legend.edgecolor": text,
-        "legend.facecolor": base, "axes.titlecolor": text,
-    }):
+    with matplotlib.rc_context(
+        {
+            "figure.facecolor": back,
+            "axes.facecolor": base,
+            "savefig.facecolor": back,
+            "text.color": text,
+            "axes.labelcolor": text,
+            "axes.edgecolor": text,
+            "xtick.color": text,
+            "ytick.color": text,
+            "legend.edgecolor": text,
+            "legend.facecolor": base,
+            "axes.titlecolor": text,
+        }
+    ):
         yield

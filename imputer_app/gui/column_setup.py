@@ -80,8 +80,12 @@ class ColumnSetup(QWidget):
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
         self.model = ColumnListModel(self)
-        self.table = named(QTableView(self), "setupTable", "Columns of the sheet",
-                           "Select one or more columns to set them below.")
+        self.table = named(
+            QTableView(self),
+            "setupTable",
+            "Columns of the sheet",
+            "Select one or more columns to set them below.",
+        )
         self.table.setModel(self.model)
         self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.ExtendedSelection)
@@ -95,8 +99,9 @@ class ColumnSetup(QWidget):
         layout.addWidget(self.table, 3)
         layout.addWidget(self._build_column_box())
         layout.addWidget(self._build_fill_box())
-        self.message = text_label(self, "setupMessage", "Setup problem",
-                                  "Why the settings cannot be used as they are.")
+        self.message = text_label(
+            self, "setupMessage", "Setup problem", "Why the settings cannot be used as they are."
+        )
         layout.addWidget(self.message)
         chain = self.focus_chain()
         for first, second in itertools.pairwise(chain):
@@ -106,8 +111,12 @@ class ColumnSetup(QWidget):
     # (R, D, N) and the recovery panel (T, C, B, O, P, M, Y) keep theirs; fields left
     # without one are reached with Tab.
     def _build_column_box(self) -> QGroupBox:
-        box = named(QGroupBox("Selected column", self), "columnBox", "Selected column settings",
-                    "Settings of the column(s) selected above.")
+        box = named(
+            QGroupBox("Selected column", self),
+            "columnBox",
+            "Selected column settings",
+            "Settings of the column(s) selected above.",
+        )
         self.column_box = box
         form = QFormLayout(box)
         self.role_combo = _combo(box, "roleCombo", "Role", "What the selected column(s) do in the fill.")
@@ -118,8 +127,12 @@ class ColumnSetup(QWidget):
         self.kind_combo.addItem("as read", None)
         self.kind_combo.addItem("number", "number")
         self.kind_combo.addItem("category", "category")
-        self.weight_spin = named(QDoubleSpinBox(box), "weightSpin", "Weight",
-                                 "How much the column counts towards similarity; 0 leaves it out.")
+        self.weight_spin = named(
+            QDoubleSpinBox(box),
+            "weightSpin",
+            "Weight",
+            "How much the column counts towards similarity; 0 leaves it out.",
+        )
         self.weight_spin.setRange(0.0, 10.0)
         self.weight_spin.setSingleStep(0.5)
         self.weight_spin.setDecimals(1)
@@ -129,8 +142,9 @@ class ColumnSetup(QWidget):
         self.upper_edit = _bound_edit(
             box, "upperEdit", "Upper bound", "Filled numbers never go above this (empty: no bound)."
         )
-        self.decimals_spin = named(QSpinBox(box), "decimalsSpin", "Decimals",
-                                   "Round filled numbers to this many decimals.")
+        self.decimals_spin = named(
+            QSpinBox(box), "decimalsSpin", "Decimals", "Round filled numbers to this many decimals."
+        )
         self.decimals_spin.setRange(-1, 15)
         self.decimals_spin.setSpecialValueText("as computed")
         self.decimals_spin.setValue(-1)
@@ -154,16 +168,25 @@ class ColumnSetup(QWidget):
         return box
 
     def _build_fill_box(self) -> QGroupBox:
-        box = named(QGroupBox("Fill settings", self), "fillBox", "Fill settings",
-                    "How donors are found and how their values are combined.")
+        box = named(
+            QGroupBox("Fill settings", self),
+            "fillBox",
+            "Fill settings",
+            "How donors are found and how their values are combined.",
+        )
         form = QFormLayout(box)
-        self.k_spin = named(QSpinBox(box), "kSpin", "k, donors per cell",
-                            "Number of nearest rows (donors) used for every filled cell.")
+        self.k_spin = named(
+            QSpinBox(box),
+            "kSpin",
+            "k, donors per cell",
+            "Number of nearest rows (donors) used for every filled cell.",
+        )
         self.k_spin.setRange(1, 999)
         self.k_spin.valueChanged.connect(self._write)
         form.addRow(buddy("&k (donors per cell)", self.k_spin, box), self.k_spin)
-        self.group_combo = _combo(box, "groupCombo", "Group column",
-                                  "Take donors only from rows of the same group.")
+        self.group_combo = _combo(
+            box, "groupCombo", "Group column", "Take donors only from rows of the same group."
+        )
         self.group_combo.activated.connect(self._on_group)
         form.addRow(buddy("&Group by", self.group_combo, box), self.group_combo)
         self.choice_combos: dict[str, QComboBox] = {}

@@ -56,8 +56,7 @@ class DonorPanel(QWidget):
     # ------------------------------------------------------------------ layout
     def _build(self) -> None:
         layout = QVBoxLayout(self)
-        self.headline = self._label("donorHeadline", "Selected cell",
-                                    "What happened to the selected cell")
+        self.headline = self._label("donorHeadline", "Selected cell", "What happened to the selected cell")
         font = self.headline.font()
         font.setBold(True)
         self.headline.setFont(font)
@@ -70,13 +69,19 @@ class DonorPanel(QWidget):
         self.facts.setContentsMargins(0, 0, 0, 0)
         layout.addWidget(self.facts_box)
 
-        self.support_icon = named(QLabel(self), "donorSupportIcon", "Weak support warning",
-                                  "Weak support: the donors are far from this row")
+        self.support_icon = named(
+            QLabel(self),
+            "donorSupportIcon",
+            "Weak support warning",
+            "Weak support: the donors are far from this row",
+        )
         warning = self.style().standardIcon(QStyle.StandardPixmap.SP_MessageBoxWarning)
         self.support_icon.setPixmap(warning.pixmap(16, 16))
-        self.support_text = self._label("donorSupportText", "Support of the filled value",
-                                        "Weak support: the nearest donor is farther than 95% of "
-                                        "nearest-donor distances in this sheet")
+        self.support_text = self._label(
+            "donorSupportText",
+            "Support of the filled value",
+            "Weak support: the nearest donor is farther than 95% of nearest-donor distances in this sheet",
+        )
         support_row = QWidget(self)
         support_layout = QFormLayout(support_row)
         support_layout.setContentsMargins(0, 0, 0, 0)
@@ -88,7 +93,10 @@ class DonorPanel(QWidget):
         layout.addWidget(self.donors_title)
         self.model = RecordsModel(DONOR_HEADERS, DONOR_TIPS, self)
         self.table = RecordTable(
-            self, self.model, "donorTable", "Donor rows, nearest first",
+            self,
+            self.model,
+            "donorTable",
+            "Donor rows, nearest first",
             "Donor rows, nearest first. Enter or double-click shows the row in the sheet.",
         )
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Stretch)

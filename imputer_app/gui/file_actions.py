@@ -147,8 +147,9 @@ def ask_export_path(parent: QWidget, source: Path, path: str | Path | None = Non
         warn(parent, f"Kinfill never writes over the sheet it read ({source.name}); choose another name.")
         return None
     replace = f"{target.name} already exists in {target.parent}. Replace it?"
-    if os.path.lexists(target) and not agree(parent, replace, QMessageBox.StandardButton.Yes,
-                                     QMessageBox.StandardButton.No):
+    if os.path.lexists(target) and not agree(
+        parent, replace, QMessageBox.StandardButton.Yes, QMessageBox.StandardButton.No
+    ):
         return None
     _remember(parent, target)
     return target

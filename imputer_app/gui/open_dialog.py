@@ -108,13 +108,19 @@ class OpenDialog(QDialog):
         )
         self.sheet_combo.addItems(sheets)
         self.sheet_combo.setEnabled(len(sheets) > 1)
-        self.header_spin = named(QSpinBox(self), "headerSpin", "Header row",
-                                 "Row of the file that holds the column names; 'find it' lets Kinfill look.")
+        self.header_spin = named(
+            QSpinBox(self),
+            "headerSpin",
+            "Header row",
+            "Row of the file that holds the column names; 'find it' lets Kinfill look.",
+        )
         self.header_spin.setRange(0, 10_000)
         self.header_spin.setSpecialValueText("find it")
         self.header_spin.setValue(header_row or 0)
         self.markers_edit = named(
-            QLineEdit(self), "markersEdit", "Extra missing-value markers",
+            QLineEdit(self),
+            "markersEdit",
+            "Extra missing-value markers",
             "Texts or numbers that mean 'no value' in this file, separated by commas (e.g. -999, lost). "
             "They are added to Kinfill's own list: NA, N/A, n.d., nd, -, --, ?, missing, #N/A, NaN.",
         )
@@ -131,8 +137,12 @@ class OpenDialog(QDialog):
         self.status.setText("Reading…")
         layout.addWidget(self.status)
         self.model = SheetTableModel(self)
-        self.preview = named(QTableView(self), "openPreview", "Preview of the first rows",
-                             f"The first {PREVIEW_ROWS} rows as Kinfill reads them, with cell markers.")
+        self.preview = named(
+            QTableView(self),
+            "openPreview",
+            "Preview of the first rows",
+            f"The first {PREVIEW_ROWS} rows as Kinfill reads them, with cell markers.",
+        )
         self.preview.setModel(self.model)
         self.preview.setTabKeyNavigation(False)
         self.preview.verticalHeader().setDefaultSectionSize(row_height(self))  # as compact as the main table

@@ -43,8 +43,12 @@ class RecordsModel(FlatTableModel):
         self._bold.setBold(True)
 
     # ------------------------------------------------------------------ content
-    def set_rows(self, rows: Sequence[Sequence[Cell]], headers: Sequence[str] | None = None,
-                 header_tips: Sequence[str] | None = None) -> None:
+    def set_rows(
+        self,
+        rows: Sequence[Sequence[Cell]],
+        headers: Sequence[str] | None = None,
+        header_tips: Sequence[str] | None = None,
+    ) -> None:
         """Replace every row (and optionally the headers) at once."""
         self.beginResetModel()
         if headers is not None:
@@ -83,8 +87,9 @@ class RecordsModel(FlatTableModel):
             return int(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
         return None
 
-    def headerData(self, section: int, orientation: Qt.Orientation,
-                   role: int = Qt.ItemDataRole.DisplayRole) -> Any:
+    def headerData(
+        self, section: int, orientation: Qt.Orientation, role: int = Qt.ItemDataRole.DisplayRole
+    ) -> Any:
         """Column titles and their tooltips (rows have no titles)."""
         if orientation != Qt.Orientation.Horizontal or not 0 <= section < len(self._headers):
             return None

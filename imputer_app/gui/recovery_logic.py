@@ -30,11 +30,17 @@ K_LIMIT = 100
 
 #: Hiding styles: value passed to recovery_test, label, explanation.
 MASKINGS = (
-    ("random", "Random known cells",
-     "Hide a share of each fill column's known cells at random (gaps assumed MCAR)"),
-    ("pattern", "The sheet's own gap patterns",
-     "Copy the gap patterns of the sheet's incomplete rows onto complete rows, "
-     "so the test looks like the sheet's real gaps"),
+    (
+        "random",
+        "Random known cells",
+        "Hide a share of each fill column's known cells at random (gaps assumed MCAR)",
+    ),
+    (
+        "pattern",
+        "The sheet's own gap patterns",
+        "Copy the gap patterns of the sheet's incomplete rows onto complete rows, "
+        "so the test looks like the sheet's real gaps",
+    ),
 )
 
 
@@ -81,8 +87,15 @@ class RecoveryRequest:
         def run(progress: Progress, cancel: CancelFlag) -> RecoveryReport:
             # Looked up at call time so that tests can stand in a slow or failing test.
             return validation.recovery_test(
-                data, plan, ks=ks, hide_fraction=self.hide_fraction, repeats=self.repeats,
-                seed=self.seed, masking=self.masking, progress=progress, cancel=cancel,
+                data,
+                plan,
+                ks=ks,
+                hide_fraction=self.hide_fraction,
+                repeats=self.repeats,
+                seed=self.seed,
+                masking=self.masking,
+                progress=progress,
+                cancel=cancel,
             )
 
         return run
@@ -142,12 +155,16 @@ def report_headers(report: RecoveryReport) -> tuple[list[str], list[str]]:
     tips = ["Number of donors averaged", "Which k the rules pick: lowest error, or the one-SE rule"]
     if has_numbers:
         headers += ["NRMSE", "SE"]
-        tips += ["Mean NRMSE over the number fill columns (RMSE / standard deviation); lower is better",
-                 "Standard error of the NRMSE over the repeats"]
+        tips += [
+            "Mean NRMSE over the number fill columns (RMSE / standard deviation); lower is better",
+            "Standard error of the NRMSE over the repeats",
+        ]
     if has_categories:
         headers += ["Error rate", "Error rate SE"]
-        tips += ["Share of hidden category cells filled with the wrong class; lower is better",
-                 "Standard error of the error rate over the repeats"]
+        tips += [
+            "Share of hidden category cells filled with the wrong class; lower is better",
+            "Standard error of the error rate over the repeats",
+        ]
     for column, kind in report.kinds.items():
         headers.append(f"{column} {_metric(kind)}")
         tips.append(f"Mean {_metric(kind)} of column '{column}' over the repeats")
@@ -167,8 +184,10 @@ def _row_numbers(
     if "number" in report.kinds.values():
         cells += [number_cell(values.get("score"), strong=strong), number_cell(values.get("se"))]
     if "category" in report.kinds.values():
-        cells += [number_cell(values.get("category_error"), strong=strong),
-                  number_cell(values.get("category_se"))]
+        cells += [
+            number_cell(values.get("category_error"), strong=strong),
+            number_cell(values.get("category_se")),
+        ]
     cells += [number_cell(per_column.get(column)) for column in report.kinds]
     return cells
 
@@ -195,9 +214,15 @@ def report_rows(report: RecoveryReport) -> list[list[Cell]]:
     overall = base.loc["overall"] if "overall" in base.index else pd.Series(dtype=float)
     assert isinstance(overall, pd.Series)  # one row label: a row, not a frame
     per_column = {c: base.loc[c, "score"] for c in report.kinds if c in base.index}
-    head = [Cell("average", "average", "Every hidden cell filled with its column's average "
-                 "(most common class for categories): the bar kNN must beat"),
-            Cell("baseline", "baseline")]
+    head = [
+        Cell(
+            "average",
+            "average",
+            "Every hidden cell filled with its column's average "
+            "(most common class for categories): the bar kNN must beat",
+        ),
+        Cell("baseline", "baseline"),
+    ]
     rows.append(head + _row_numbers(report, overall, per_column, False))
     return rows
 
@@ -251,13 +276,17 @@ def summary_text(report: RecoveryReport) -> str:
     text += f"; column average scores {_two(baseline)}"
     text += " — " + verdict(best, _score(report.overall, report.best_k, se_name), baseline)
     if report.best_k_1se == max(report.ks) and report.best_k_1se != report.best_k:
-        text += (f". The one-SE k is the largest k tested; try k above {max(report.ks)} "
-                 "to see where the error rises")
+        text += (
+            f". The one-SE k is the largest k tested; try k above {max(report.ks)} "
+            "to see where the error rises"
+        )
     if name == "score" and "category" in report.kinds.values():
         cat = _score(report.overall, report.best_k, "category_error")
         cat_base = _score(report.baseline, "overall", "category_error")
-        text += (f". Category columns at k = {report.best_k}: error rate {_two(cat)} "
-                 f"(most common class: {_two(cat_base)})")
+        text += (
+            f". Category columns at k = {report.best_k}: error rate {_two(cat)} "
+            f"(most common class: {_two(cat_base)})"
+        )
     no_gain = columns_without_gain(report, report.best_k)
     if no_gain:
         text += f". At k = {report.best_k}, no gain over the column average for: {', '.join(no_gain)}"

@@ -116,19 +116,27 @@ class RecoveryPanel(QWidget):
         self.settings_flow = self.settings_box.flow
         layout.addWidget(self.settings_box)
         layout.addLayout(self._build_run_row())
-        self.status = text_label(self, "recoveryStatus", "Recovery test message",
-                                 "Messages about the last run (errors, stops, remarks)")
+        self.status = text_label(
+            self,
+            "recoveryStatus",
+            "Recovery test message",
+            "Messages about the last run (errors, stops, remarks)",
+        )
         self.status_icon = named(QLabel(self), "recoveryStatusIcon", "Problem", "The last run did not finish")
         self.status_icon.setPixmap(
-            self.style().standardIcon(QStyle.StandardPixmap.SP_MessageBoxWarning).pixmap(16, 16))
+            self.style().standardIcon(QStyle.StandardPixmap.SP_MessageBoxWarning).pixmap(16, 16)
+        )
         status_row = QHBoxLayout()
         status_row.addWidget(self.status_icon)
         status_row.addWidget(self.status, 1)
         layout.addLayout(status_row)
         self.summary = text_label(
-            self, "recoverySummary", "Recovery test summary",
+            self,
+            "recoverySummary",
+            "Recovery test summary",
             "Best k, the k the one-standard-error rule suggests, and the column-average baseline",
-            selectable=True)
+            selectable=True,
+        )
         font = self.summary.font()
         font.setBold(True)
         self.summary.setFont(font)
@@ -139,15 +147,20 @@ class RecoveryPanel(QWidget):
 
     def _build_run_row(self) -> QHBoxLayout:
         row = QHBoxLayout()
-        self.run_button = button(self, "recoveryRun", "Run recovery &test",
-                                 "Hide known cells, fill them for every k and score the error (Ctrl+T; "
-                                 "Enter in a setting)")
+        self.run_button = button(
+            self,
+            "recoveryRun",
+            "Run recovery &test",
+            "Hide known cells, fill them for every k and score the error (Ctrl+T; Enter in a setting)",
+        )
         self.run_button.clicked.connect(self.run)
-        self.cancel_button = button(self, "recoveryCancel", "&Cancel",
-                                    "Stop the running test; the previous result is kept")
+        self.cancel_button = button(
+            self, "recoveryCancel", "&Cancel", "Stop the running test; the previous result is kept"
+        )
         self.cancel_button.clicked.connect(self.cancel)
-        self.progress = named(QProgressBar(self), "recoveryProgress", "Recovery test progress",
-                              "Progress of the running test")
+        self.progress = named(
+            QProgressBar(self), "recoveryProgress", "Recovery test progress", "Progress of the running test"
+        )
         self.progress.setRange(0, 1)
         self.progress.setValue(0)
         row.addWidget(self.run_button)
@@ -162,9 +175,13 @@ class RecoveryPanel(QWidget):
         self.placeholder, self.figure = self.chart.placeholder, self.chart.figure
         self.canvas = self.chart.canvas
         self.model = RecordsModel(parent=self)
-        self.table = RecordTable(splitter, self.model, "recoveryTable", "Errors per k",
-                                 "Error for every k and the column-average baseline; "
-                                 "Enter or double-click uses that k")
+        self.table = RecordTable(
+            splitter,
+            self.model,
+            "recoveryTable",
+            "Errors per k",
+            "Error for every k and the column-average baseline; Enter or double-click uses that k",
+        )
         self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
         self.table.chosen.connect(lambda index: self._use_row(index.row()))
         self.table.selectionModel().currentRowChanged.connect(lambda *_: self._update_choice_buttons())
@@ -177,29 +194,46 @@ class RecoveryPanel(QWidget):
 
     def _build_choices(self) -> Reflow:
         """The "use this k" buttons and the chart's controls; they wrap onto more rows when narrow."""
-        self.use_best_button = button(self, "recoveryUseBest", "Use &best k",
-                                      "Set k to the value with the lowest error")
+        self.use_best_button = button(
+            self, "recoveryUseBest", "Use &best k", "Set k to the value with the lowest error"
+        )
         self.use_best_button.clicked.connect(lambda: self._use_report_k(one_se=False))
         self.use_one_se_button = button(
-            self, "recoveryUseOneSe", "Use &one-SE k",
+            self,
+            "recoveryUseOneSe",
+            "Use &one-SE k",
             "Set k to the largest k whose error is within one standard error of the best "
-            "(a smoother fill that does about as well)")
+            "(a smoother fill that does about as well)",
+        )
         self.use_one_se_button.clicked.connect(lambda: self._use_report_k(one_se=True))
-        self.use_selected_button = button(self, "recoveryUseSelected", "Use selected k",
-                                          "Set k to the k of the selected table row (or press Enter "
-                                          "on the row)")
+        self.use_selected_button = button(
+            self,
+            "recoveryUseSelected",
+            "Use selected k",
+            "Set k to the k of the selected table row (or press Enter on the row)",
+        )
         self.use_selected_button.clicked.connect(lambda: self._use_row(self.table.currentIndex().row()))
-        self.save_button = button(self, "recoverySaveChart", "Save chart…",
-                                  "Save the chart as a PNG image or an SVG drawing")
+        self.save_button = button(
+            self, "recoverySaveChart", "Save chart…", "Save the chart as a PNG image or an SVG drawing"
+        )
         self.save_button.clicked.connect(self.save_chart)
-        self.chart_columns = compact(named(
-            QComboBox(self), "recoveryChartColumns", "Columns drawn in the chart",
-            "Draw every fill column's own line, none, or one column beside the overall error"))
+        self.chart_columns = compact(
+            named(
+                QComboBox(self),
+                "recoveryChartColumns",
+                "Columns drawn in the chart",
+                "Draw every fill column's own line, none, or one column beside the overall error",
+            )
+        )
         self.chart_columns.currentIndexChanged.connect(
-            lambda _i: self.chart.set_columns(self.chart_columns.currentData()))
-        k_buttons = Reflow([(None, b) for b in (self.use_best_button, self.use_one_se_button,
-                                                  self.use_selected_button)], self, max_columns=3,
-                           stretch=False)
+            lambda _i: self.chart.set_columns(self.chart_columns.currentData())
+        )
+        k_buttons = Reflow(
+            [(None, b) for b in (self.use_best_button, self.use_one_se_button, self.use_selected_button)],
+            self,
+            max_columns=3,
+            stretch=False,
+        )
         chart = QWidget(self)
         chart_row = QHBoxLayout(chart)
         chart_row.setContentsMargins(0, 0, 0, 0)
@@ -210,9 +244,17 @@ class RecoveryPanel(QWidget):
         return Reflow([(None, k_buttons), (None, chart)], self)
 
     def _set_tab_order(self) -> None:
-        chain = [*self.settings_box.fields(), self.run_button, self.cancel_button, self.table,
-                 self.use_best_button, self.use_one_se_button, self.use_selected_button,
-                 self.chart_columns, self.save_button]
+        chain = [
+            *self.settings_box.fields(),
+            self.run_button,
+            self.cancel_button,
+            self.table,
+            self.use_best_button,
+            self.use_one_se_button,
+            self.use_selected_button,
+            self.chart_columns,
+            self.save_button,
+        ]
         for first, second in itertools.pairwise(chain):
             QWidget.setTabOrder(first, second)
 

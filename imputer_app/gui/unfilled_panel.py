@@ -74,13 +74,18 @@ class UnfilledPanel(QWidget):
 
     def _build(self) -> None:
         layout = QVBoxLayout(self)
-        self.count_label = text_label(self, "unfilledCount", "Number of cells left empty",
-                                      "How many cells the fill could not fill")
+        self.count_label = text_label(
+            self, "unfilledCount", "Number of cells left empty", "How many cells the fill could not fill"
+        )
         layout.addWidget(self.count_label)
 
         filter_row = QHBoxLayout()
-        self.reason_filter = named(QComboBox(self), "unfilledReasonFilter", "Show cells with this reason",
-                                   "Show every empty cell, or only those with one reason")
+        self.reason_filter = named(
+            QComboBox(self),
+            "unfilledReasonFilter",
+            "Show cells with this reason",
+            "Show every empty cell, or only those with one reason",
+        )
         self.reason_filter.currentIndexChanged.connect(self._apply_filter)
         filter_row.addWidget(buddy("Show:", self.reason_filter, self))
         filter_row.addWidget(self.reason_filter, 1)
@@ -93,7 +98,10 @@ class UnfilledPanel(QWidget):
         self.proxy.setFilterKeyColumn(REASON)
         self.proxy.setFilterRole(RAW_ROLE)
         self.table = RecordTable(
-            self, self.proxy, "unfilledTable", "Cells left empty and why",
+            self,
+            self.proxy,
+            "unfilledTable",
+            "Cells left empty and why",
             "Click an entry, or press Enter, to show the cell in the sheet. Click a column title to sort.",
         )
         self.table.setSortingEnabled(True)
@@ -111,10 +119,14 @@ class UnfilledPanel(QWidget):
         """Show the cells ``result`` (a FillResult, or None) left empty."""
         self._result = result
         unfilled = getattr(result, "unfilled", None) if result is not None else None
-        rows = [] if unfilled is None else [
-            [Cell(format_label(r), r), Cell(str(c), str(c)), Cell(str(why), str(why), str(why))]
-            for r, c, why in zip(unfilled["row"], unfilled["column"], unfilled["reason"], strict=True)
-        ]
+        rows = (
+            []
+            if unfilled is None
+            else [
+                [Cell(format_label(r), r), Cell(str(c), str(c)), Cell(str(why), str(why), str(why))]
+                for r, c, why in zip(unfilled["row"], unfilled["column"], unfilled["reason"], strict=True)
+            ]
+        )
         self.model.set_rows(rows)
         self.reason_filter.blockSignals(True)
         self.reason_filter.clear()

@@ -38,7 +38,12 @@ def test_what_is_not_a_table_nor_sheet_like_is_refused(data: object, named: str)
 
 def test_sheet_column_kinds_decide_roles() -> None:
     frame = pd.DataFrame(
-        {"id": ["a", "a", "b", "b"], "when": ["x", "y", "z", "u"], "v": [1.0, np.nan, 3, 4], "w": [1.0, 2, 3, 5]}
+        {
+            "id": ["a", "a", "b", "b"],
+            "when": ["x", "y", "z", "u"],
+            "v": [1.0, np.nan, 3, 4],
+            "w": [1.0, 2, 3, 5],
+        }
     )
     sheet = fake_sheet(frame, [])
     sheet.columns = [

@@ -158,8 +158,16 @@ def test_censored_cell_shows_its_original_text(panel):
     states = pd.DataFrame("observed", index=frame.index, columns=frame.columns)
     states.loc[4, "zinc"] = "censored"
     states = states.astype(pd.CategoricalDtype(["observed", "missing", "censored", "text_in_number"]))
-    notes = pd.DataFrame({"row": [4], "column": ["zinc"], "state": ["censored"], "text": ["<0.05"],
-                          "side": ["<"], "limit": [0.05]})
+    notes = pd.DataFrame(
+        {
+            "row": [4],
+            "column": ["zinc"],
+            "state": ["censored"],
+            "text": ["<0.05"],
+            "side": ["<"],
+            "limit": [0.05],
+        }
+    )
     sheet = SimpleNamespace(frame=frame, states=states, cell_notes=notes)
     result = impute(sheet, FillPlan(k=3))
     entry = result.log[(result.log["row"] == 4) & (result.log["column"] == "zinc")].iloc[0]
@@ -189,10 +197,18 @@ def test_enter_on_a_donor_asks_to_show_its_row(qtbot, panel, filled):
     [
         ("knn", True, FillPlan(), "mean of the nearest donors' values"),
         ("knn", True, FillPlan(numeric_rule="median"), "median of the nearest donors' values"),
-        ("knn", True, FillPlan(neighbour_weighting="inverse_distance"),
-         "distance-weighted mean of the nearest donors (nearer donors count more)"),
-        ("knn", False, FillPlan(),
-         "majority vote of the nearest donors (a tie goes to the nearest donor's class)"),
+        (
+            "knn",
+            True,
+            FillPlan(neighbour_weighting="inverse_distance"),
+            "distance-weighted mean of the nearest donors (nearer donors count more)",
+        ),
+        (
+            "knn",
+            False,
+            FillPlan(),
+            "majority vote of the nearest donors (a tie goes to the nearest donor's class)",
+        ),
         ("knn_capped", True, FillPlan(), "mean of the nearest donors' values, capped at the entry's limit"),
         ("column_mean", True, FillPlan(), "column average (no donor was available)"),
         ("limit_sqrt2", True, FillPlan(), "replaced by the limit divided by sqrt(2) (Hornung & Reed 1990)"),

@@ -25,8 +25,11 @@ from imputer_app.sheets import read_sheet
 
 pytestmark = pytest.mark.slow
 
-ALT, CTRL, SHIFT = (Qt.KeyboardModifier.AltModifier, Qt.KeyboardModifier.ControlModifier,
-                    Qt.KeyboardModifier.ShiftModifier)
+ALT, CTRL, SHIFT = (
+    Qt.KeyboardModifier.AltModifier,
+    Qt.KeyboardModifier.ControlModifier,
+    Qt.KeyboardModifier.ShiftModifier,
+)
 MENU_LETTERS = {"F", "E", "I", "V", "H"}
 
 
@@ -109,8 +112,9 @@ def test_the_whole_job_by_keyboard(window, qtbot, tmp_path):
     names = [c.name for c in setup.choices()]
     start = setup.table.currentIndex().row()
     press(qtbot, window, Qt.Key.Key_Down, times=names.index("Temperature") - start)
-    assert [c.name for c in setup.choices() if setup.table.selectionModel().isRowSelected(
-        names.index(c.name))] == ["Temperature"]
+    assert [
+        c.name for c in setup.choices() if setup.table.selectionModel().isRowSelected(names.index(c.name))
+    ] == ["Temperature"]
     press(qtbot, window, Qt.Key.Key_Tab)
     assert QApplication.focusWidget() is setup.role_combo
     press(qtbot, window, Qt.Key.Key_S)
@@ -171,7 +175,7 @@ def test_the_whole_job_by_keyboard(window, qtbot, tmp_path):
     assert [d.distance for d in story.donors] == pytest.approx(list(entry["distances"]))
 
     # one more arrow to another filled cell of the same column: the panel follows
-    below = int(np.argwhere(fill[r + 1:, c] > 0)[0][0]) + 1
+    below = int(np.argwhere(fill[r + 1 :, c] > 0)[0][0]) + 1
     press(qtbot, window, Qt.Key.Key_Down, times=below)
     moved = window.table_model.row_label(r + below)
     assert window.donor_panel.story.headline.startswith(f"Row {moved}, {column}")

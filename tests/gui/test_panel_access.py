@@ -24,11 +24,26 @@ from imputer_app.gui.unfilled_panel import UnfilledPanel
 CONTROLS = (QAbstractButton, QAbstractSpinBox, QComboBox, QAbstractItemView, QProgressBar)
 
 PANELS = [
-    (RecoveryPanel, "recoveryPanel", [
-        "recoveryHideFraction", "recoveryRepeats", "recoveryKFrom", "recoveryKTo", "recoveryMasking",
-        "recoverySeed", "recoveryRun", "recoveryCancel", "recoveryTable", "recoveryUseBest",
-        "recoveryUseOneSe", "recoveryUseSelected", "recoveryChartColumns", "recoverySaveChart",
-    ]),
+    (
+        RecoveryPanel,
+        "recoveryPanel",
+        [
+            "recoveryHideFraction",
+            "recoveryRepeats",
+            "recoveryKFrom",
+            "recoveryKTo",
+            "recoveryMasking",
+            "recoverySeed",
+            "recoveryRun",
+            "recoveryCancel",
+            "recoveryTable",
+            "recoveryUseBest",
+            "recoveryUseOneSe",
+            "recoveryUseSelected",
+            "recoveryChartColumns",
+            "recoverySaveChart",
+        ],
+    ),
     (DonorPanel, "donorPanel", ["donorTable"]),
     (UnfilledPanel, "unfilledPanel", ["unfilledReasonFilter", "unfilledTable"]),
 ]

@@ -55,8 +55,15 @@ def panel(qtbot):
     assert widget.shutdown(10_000), "a recovery worker thread outlived the test"
 
 
-def configure(panel: RecoveryPanel, frame: pd.DataFrame, plan: FillPlan, *, k_to: int = 8,
-              repeats: int = 2, fraction: float = 0.1) -> None:
+def configure(
+    panel: RecoveryPanel,
+    frame: pd.DataFrame,
+    plan: FillPlan,
+    *,
+    k_to: int = 8,
+    repeats: int = 2,
+    fraction: float = 0.1,
+) -> None:
     panel.set_source(frame, plan)
     panel.k_from.setValue(1)
     panel.k_to.setValue(k_to)
@@ -131,8 +138,9 @@ def test_panel_passes_its_settings_to_the_recovery_test(qtbot, panel):
     panel.masking.setCurrentIndex(panel.masking.findData("pattern"))
     report = run_to_report(qtbot, panel)
 
-    direct = validation.recovery_test(frame, plan, ks=range(1, 7), hide_fraction=0.2, repeats=3,
-                                      seed=11, masking="pattern")
+    direct = validation.recovery_test(
+        frame, plan, ks=range(1, 7), hide_fraction=0.2, repeats=3, seed=11, masking="pattern"
+    )
     pd.testing.assert_frame_equal(report.overall, direct.overall)
     assert report.settings["masking"] == "pattern"
     assert report.settings["seed"] == 11
@@ -214,8 +222,9 @@ def test_enter_in_a_setting_starts_the_test(qtbot, panel):
 def test_save_chart(qtbot, panel, tmp_path, monkeypatch, name, chosen_filter, written, magic):
     configure(panel, iris_with_gaps(), FillPlan(), k_to=5)
     run_to_report(qtbot, panel)
-    monkeypatch.setattr(QFileDialog, "getSaveFileName",
-                        staticmethod(lambda *a, **k: (str(tmp_path / name), chosen_filter)))
+    monkeypatch.setattr(
+        QFileDialog, "getSaveFileName", staticmethod(lambda *a, **k: (str(tmp_path / name), chosen_filter))
+    )
     panel.save_button.click()
     path = tmp_path / written
     data = path.read_bytes()
@@ -232,8 +241,11 @@ def test_chart_draws_the_chosen_columns(qtbot, panel):
     report = run_to_report(qtbot, panel)
 
     def column_lines() -> list[str]:
-        return sorted(str(line.get_gid())[7:] for line in panel.figure.axes[0].lines
-                      if str(line.get_gid()).startswith("column:"))
+        return sorted(
+            str(line.get_gid())[7:]
+            for line in panel.figure.axes[0].lines
+            if str(line.get_gid()).startswith("column:")
+        )
 
     choices = [panel.chart_columns.itemText(i) for i in range(panel.chart_columns.count())]
     assert choices == ["all columns", "overall only", *report.kinds]
@@ -271,8 +283,10 @@ def slow_test(started: threading.Event):
 def test_cancel_keeps_the_previous_report(qtbot, panel, monkeypatch):
     configure(panel, iris_with_gaps(), FillPlan(), k_to=5)
     first = run_to_report(qtbot, panel)
-    rows_before = [[panel.model.index(r, c).data() for c in range(panel.model.columnCount())]
-                   for r in range(panel.model.rowCount())]
+    rows_before = [
+        [panel.model.index(r, c).data() for c in range(panel.model.columnCount())]
+        for r in range(panel.model.rowCount())
+    ]
     summary_before = panel.summary.text()
 
     started = threading.Event()
@@ -290,8 +304,10 @@ def test_cancel_keeps_the_previous_report(qtbot, panel, monkeypatch):
     assert emitted == []
     assert panel.report is first
     assert panel.summary.text() == summary_before
-    assert [[panel.model.index(r, c).data() for c in range(panel.model.columnCount())]
-            for r in range(panel.model.rowCount())] == rows_before
+    assert [
+        [panel.model.index(r, c).data() for c in range(panel.model.columnCount())]
+        for r in range(panel.model.rowCount())
+    ] == rows_before
     assert panel.status.text() == "Stopped. The previous result is kept."
     assert panel.progress.format() == "stopped"
     assert panel.run_button.isEnabled() and not panel.cancel_button.isEnabled()
@@ -313,8 +329,10 @@ def test_cancel_a_real_test_on_a_bigger_sheet(qtbot, panel):
 @pytest.mark.parametrize(
     ("error", "shown"),
     [
-        (KinfillError("column 'nitrate' has no known cells to hide"),
-         "Recovery test failed: column 'nitrate' has no known cells to hide"),
+        (
+            KinfillError("column 'nitrate' has no known cells to hide"),
+            "Recovery test failed: column 'nitrate' has no known cells to hide",
+        ),
         (RuntimeError("boom"), "Recovery test failed: internal fault: boom"),
     ],
 )
@@ -404,11 +422,17 @@ def test_shutdown_during_a_run_stops_the_thread_promptly(qtbot, panel, monkeypat
 
 def test_chart_file_is_suggested_beside_the_sheet(qtbot, panel, tmp_path, monkeypatch):
     frame = iris_with_gaps()
-    states = frame.isna().replace({True: "missing", False: "observed"}).astype(
-        pd.CategoricalDtype(["observed", "missing", "censored", "text_in_number"]))
-    sheet = SimpleNamespace(frame=frame, states=states, cell_notes=pd.DataFrame(
-        columns=["row", "column", "state", "text", "side", "limit"]),
-        source=SimpleNamespace(path=tmp_path / "iris lab.xlsx"))
+    states = (
+        frame.isna()
+        .replace({True: "missing", False: "observed"})
+        .astype(pd.CategoricalDtype(["observed", "missing", "censored", "text_in_number"]))
+    )
+    sheet = SimpleNamespace(
+        frame=frame,
+        states=states,
+        cell_notes=pd.DataFrame(columns=["row", "column", "state", "text", "side", "limit"]),
+        source=SimpleNamespace(path=tmp_path / "iris lab.xlsx"),
+    )
     configure(panel, sheet, FillPlan(), k_to=3)
     run_to_report(qtbot, panel)
     asked: list[str] = []
