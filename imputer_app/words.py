@@ -46,7 +46,7 @@ STATE_WORDS = {
     "missing": "empty in the sheet",
     "censored": "a below- or above-limit entry",
     "text_in_number": "text in a number column (unreadable as a number)",
-    "formula_error": "a formula error in the sheet (such as #DIV/0!)",
+    "formula_error": "a formula without a result in the sheet (an error such as #DIV/0!, or none stored)",
 }
 
 

@@ -14,8 +14,9 @@ import numpy as np
 import pandas as pd
 
 #: Every state a cell can be in, as used in ``Sheet.states``.
-#: ``formula_error`` is a cell whose formula's cached result is an error (``#DIV/0!``):
-#: NaN in the frame like a gap, but not a gap to fill unless the user says so.
+#: ``formula_error`` is a formula cell without a usable result: its cached result is an
+#: error (``#DIV/0!``) or none was stored. NaN in the frame like a gap, but not a gap to
+#: fill unless the user says so.
 CELL_STATES = ("observed", "missing", "censored", "text_in_number", "formula_error")
 
 #: Column kinds detected on reading (a plan may force ``number`` or ``category``).

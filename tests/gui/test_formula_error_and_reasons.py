@@ -21,7 +21,9 @@ R = Qt.ItemDataRole
 
 
 def test_formula_error_cell_has_its_symbol_colour_and_words(qapp) -> None:
-    frame = pd.DataFrame({"pH": [7.5, np.nan, 7.25], "Ca": [1.0, 2.0, 3.0]}, index=pd.Index([2, 3, 4], name="row"))
+    frame = pd.DataFrame(
+        {"pH": [7.5, np.nan, 7.25], "Ca": [1.0, 2.0, 3.0]}, index=pd.Index([2, 3, 4], name="row")
+    )
     sheet = make_sheet(frame, {(3, "pH"): ("formula_error", "#DIV/0!")})
     model = SheetTableModel()
     model.set_sheet(sheet)
