@@ -377,7 +377,8 @@ def _check_markers(markers: Mapping[str, str]) -> dict[str, str]:
             raise PlanError(f"a marker must be the text found in cells; got {shown_value(text)}")
         if meaning not in MARKER_MEANINGS:
             raise PlanError(
-                f"marker {shown_value(text)} must mean one of {', '.join(MARKER_MEANINGS)}; got {shown_value(meaning)}"
+                f"marker {shown_value(text)} must mean one of {', '.join(MARKER_MEANINGS)}; "
+                f"got {shown_value(meaning)}"
             )
         out[text.strip()] = meaning
     return out

@@ -123,7 +123,7 @@ def _category_reason(series: pd.Series, forced: bool) -> str | None:
         return "constant (the same entry in every row)"
     if forced or not n:
         return None
-    text = values[values.map(type) == str]
+    text = values[values.map(lambda v: isinstance(v, str))]
     if len(text) and float(text.str.len().median()) > LONG_TEXT:
         return "free text (long entries)"
     if len(text) and 2 * n < len(series):
