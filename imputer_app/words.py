@@ -19,14 +19,14 @@ from dataclasses import dataclass
 #: Columns of ``FillResult.log``, in the order the engine builds them.
 LOG_COLUMNS = (
     "row", "column", "value", "original_state", "method", "k", "donors",
-    "distances", "donor_values", "spread", "support", "note",
+    "distances", "donor_values", "spread", "support", "note", "original_text",
 )  # fmt: skip
 
 #: Columns of the fill log as exported (xlsx sheet "Fill log" and the csv fill log):
 #: where and what first, then how the value was found.
 EXPORT_LOG_COLUMNS = (
     "row", "column", "original_state", "method", "value", "k",
-    "donors", "distances", "donor_values", "spread", "support", "note",
+    "donors", "distances", "donor_values", "spread", "support", "note", "original_text",
 )  # fmt: skip
 
 #: Columns of ``FillResult.unfilled``: cells left empty and why.

@@ -188,10 +188,11 @@ def build_survey(seed: int) -> Survey:
         if limit is not None:
             for row in np.flatnonzero(values[name] < limit):
                 text[name][row] = f"<{limit:g}"
-        # Written missing markers: most gaps stay blank, some say n.d. or NA.
+        # Written missing markers: most gaps stay blank, some say "lost" or NA ("n.d." would
+        # mean below the limit of detection, not a gap).
         kinds = rng.random(n)
         for row in np.flatnonzero(gaps[name]):
-            text[name][row] = "n.d." if kinds[row] < 0.1 else "NA" if kinds[row] < 0.17 else ""
+            text[name][row] = "lost" if kinds[row] < 0.1 else "NA" if kinds[row] < 0.17 else ""
     start = FIRST_ROUND
     dates = [start + dt.timedelta(days=int(d)) for d in true["day"]]
     return Survey(

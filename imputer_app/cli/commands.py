@@ -52,11 +52,13 @@ def run_fill(args: argparse.Namespace) -> int:
         with stop_on_ctrl_c(sys.stderr) as stop:
             sheet = read_input(source, args, plan, bar.stage("reading"), stop)
             result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop)
-            written = write_result(out, sheet, result, plan, progress=bar.stage("writing"), cancel=stop)
+            written = write_result(
+                out, sheet, result, plan, progress=bar.stage("writing"), cancel=stop, layout=args.layout
+            )
     finally:
         bar.done()
     print_notes(sheet.problems, result.warnings)
-    print(fill_summary(source, result, written, sheet))
+    print(fill_summary(source, result, written, sheet, layout=args.layout))
     remove_stale(old_sidecars, written, source)
     return EXIT_OK
 
@@ -168,6 +170,7 @@ def plan_for(args: argparse.Namespace) -> FillPlan:
         weights=args.weight,
         scaling=args.scaling,
         group=args.group,
+        markers=getattr(args, "marker", ()),
     )
 
 
@@ -182,6 +185,7 @@ def read_input(
         sheet=args.sheet,
         header_row=args.header_row,
         kinds=dict(plan.kinds) or None,
+        markers=dict(plan.markers) or None,
         progress=progress,
         cancel=stop,
     )

@@ -100,9 +100,14 @@ def _codes(series: pd.Series) -> tuple[NDArray[np.intp], NDArray[np.generic]]:
 
 
 def _read_columns(
-    inp: Input, used: list[str], kinds: Mapping[str, str], censored: str, hide: NDArray[np.bool_] | None
+    inp: Input, used: list[str], kinds: Mapping[str, str], plan: FillPlan, hide: NDArray[np.bool_] | None
 ) -> Columns:
-    """The ``used`` columns as arrays: censored entries substituted, hidden cells made gaps."""
+    """The ``used`` columns as arrays: censored entries substituted, hidden cells made gaps.
+
+    A below-limit cell whose limit the sheet does not give ("n.d.") takes the plan's
+    limit for its column (``plan.limits``) when there is one.
+    """
+    censored = plan.censored
     out = Columns({}, {}, {}, {})
     position = {name: j for j, name in enumerate(inp.names)}
     used = list(dict.fromkeys(used))
@@ -111,6 +116,8 @@ def _read_columns(
     marked = state_masks(inp, numbers, ("censored",))["censored"]
     for j in np.flatnonzero(marked.any(axis=0)).tolist():
         cen = out.censored[numbers[j]] = censored_cells(inp, numbers[j], marked[:, j])
+        if numbers[j] in plan.limits:
+            cen.limit[cen.mask & np.isnan(cen.limit) & (cen.side != ">")] = plan.limits[numbers[j]]
         block[:, j] = np.where(cen.mask, cen.substitute(censored), block[:, j])
     if hide is not None and numbers:
         block[hide[:, [position[c] for c in numbers]]] = np.nan
@@ -206,7 +213,7 @@ def prepare_input(
             raise PlanError(f"column {col!r} holds dates; it cannot be a similarity or fill column")
         if kinds_all[col] not in USABLE_KINDS:  # named explicitly: identifiers as categories
             kinds_all[col] = "category" if kinds_all[col] == "identifier" else "number"
-    cols = _read_columns(inp, [*sim, *(plan.fill_columns or ())], kinds_all, plan.censored, hide)
+    cols = _read_columns(inp, [*sim, *(plan.fill_columns or ())], kinds_all, plan, hide)
     if plan.fill_columns is None:
         gappy = cols.gap_columns()
         fill = tuple(c for c in sim if c != plan.group_column and c in gappy)

@@ -139,8 +139,29 @@ def _log_frame(inp: Input, log: LogTable, states: Mapping[str, NDArray[np.bool_]
     state = repeated("missing", len(pos))
     for word in ("text_in_number", "censored", "formula_error"):
         state[states[word][pos, colpos]] = word
-    columns: dict[str, Any] = {"row": inp.frame.index.to_numpy()[pos], "original_state": state, **log.fields}
+    rows = inp.frame.index.to_numpy()[pos]
+    columns: dict[str, Any] = {"row": rows, "original_state": state, **log.fields}
+    columns["original_text"] = _original_texts(inp, rows, np.asarray(inp.names, dtype=object)[colpos])
     return pd.DataFrame(columns, columns=list(LOG_COLUMNS))
+
+
+def _original_texts(inp: Input, rows: NDArray[Any], names: NDArray[np.object_]) -> NDArray[np.object_]:
+    """The text each logged cell held in the sheet ("n.d.", "NA", "<0.05"), "" for a blank cell."""
+    out = repeated("", len(rows))
+    notes = inp.notes
+    if (
+        notes is None
+        or not len(notes)
+        or not len(rows)
+        or not {"row", "column", "text"} <= set(notes.columns)
+    ):
+        return out
+    texts = pd.Series(notes["text"].fillna("").astype(str).to_numpy(), index=[notes["row"], notes["column"]])
+    texts = texts[~texts.index.duplicated()]
+    at = texts.index.get_indexer(pd.MultiIndex.from_arrays([rows, names]))
+    found = at >= 0
+    out[found] = texts.to_numpy()[at[found]]
+    return out
 
 
 def _write(original: pd.Series, pos: NDArray[np.intp], values: NDArray[np.object_], kind: str) -> pd.Series:

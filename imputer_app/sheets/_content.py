@@ -267,6 +267,12 @@ def log_table(log: pd.DataFrame) -> pd.DataFrame:
             "spread": pd.to_numeric(log["spread"], errors="coerce").astype(float),
             "support": log["support"].fillna("").astype(str).to_numpy(dtype=object),
             "note": log["note"].fillna("").astype(str).to_numpy(dtype=object),
+            # the cell's text in the sheet ("n.d.", "NA"); a log made by an older engine has none
+            "original_text": (
+                log["original_text"].fillna("").astype(str).to_numpy(dtype=object)
+                if "original_text" in log.columns
+                else np.full(n, "", dtype=object)
+            ),
         },
         index=pd.RangeIndex(n),
     )

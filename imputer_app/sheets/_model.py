@@ -64,6 +64,25 @@ class ColumnInfo:
 
 
 @dataclass(frozen=True)
+class MarkerFound:
+    """One marker text found in a sheet's cells.
+
+    Attributes
+    ----------
+    text : str
+        The text as written in the first cell found ("n.d.").
+    meaning : {"missing", "below-limit"}
+        A missing value (a gap), or an entry below the limit of detection (censored).
+    count : int
+        Cells holding it (compared trimmed and case-insensitively).
+    """
+
+    text: str
+    meaning: str
+    count: int
+
+
+@dataclass(frozen=True)
 class SourceInfo:
     """Where a sheet came from, enough to reproduce the read.
 
@@ -85,6 +104,9 @@ class SourceInfo:
         1-based row number of a units row, if one was found.
     line_end : str or None
         The line ending of a delimited file (LF, CR LF or CR).
+    limit_row : int or None
+        1-based row number of a row giving each column's limit of detection ("LOD"),
+        taken out of the data.
     """
 
     path: Path
@@ -97,6 +119,7 @@ class SourceInfo:
     encoding: str | None = None
     units_row: int | None = None
     line_end: str | None = None
+    limit_row: int | None = None
 
 
 @dataclass
@@ -127,6 +150,10 @@ class Sheet:
         For a delimited file, every cell's text exactly as in the file (spaces kept), so
         an export can write carried and observed cells back unchanged. The same string
         objects the parser made, so it costs one pointer a cell. None for workbooks.
+    markers : tuple of MarkerFound
+        The marker texts found ("n.d.", "NA", "<LOD") with their meaning and count,
+        most frequent first; ``read_sheet(..., markers={"n.d.": "missing"})`` changes
+        a meaning.
     """
 
     frame: pd.DataFrame
@@ -136,6 +163,7 @@ class Sheet:
     cell_notes: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=list(NOTE_COLUMNS)))
     problems: list[str] = field(default_factory=list)
     raw_text: np.ndarray | None = field(default=None, repr=False, compare=False)
+    markers: tuple[MarkerFound, ...] = ()
 
     def column(self, name: str) -> ColumnInfo:
         """Return the :class:`ColumnInfo` called ``name``."""

@@ -48,7 +48,7 @@ HEADER: list[Any] = [
 UNITS: list[Any] = [None, None, None, None, "mg/L", "mg/L", "µS/cm", "°C", None, None, None]
 DATA: list[list[Any]] = [
     ["S1", " north ", dt.date(2024, 3, 1), 7.2, 0.5, 0.05, 250, 12.5, 1, 7.1, True],
-    ["S2", "south", dt.date(2024, 3, 2), "n.d.", "<0.05", 0.05, "NA", 13.0, 2, 7.0, False],
+    ["S2", "south", dt.date(2024, 3, 2), "lost", "<0.05", 0.05, "NA", 13.0, 2, 7.0, False],
     [],
     ["S3", "north", dt.date(2024, 3, 3), 7.4, "< LOD", 0.04, "broken vial", -999, 3, "-", True],
     ["S4", "east", dt.date(2024, 3, 4), "?", ">2000", None, 260, None, 4, 6.9, False],
@@ -150,7 +150,7 @@ def test_cell_notes_and_problems(tmp_path: Path, writer: str) -> None:
     np.testing.assert_array_equal(censored["limit"].to_numpy(), [0.05, 0.04, 2000.0, NAN])
     bad = note(sheet, 8, "conductivity")
     assert (bad["state"], bad["text"]) == (T, "broken vial")
-    assert (note(sheet, 6, "pH")["state"], note(sheet, 6, "pH")["text"]) == (M, "n.d.")
+    assert (note(sheet, 6, "pH")["state"], note(sheet, 6, "pH")["text"]) == (M, "lost")
     text_problem = [p for p in sheet.problems if "broken vial" in p]
     assert text_problem == [
         "'conductivity' row 8 (cell G8): 'broken vial' is not a number; it is read as a gap "
@@ -343,7 +343,7 @@ def test_xls_written_by_hand(tmp_path: Path) -> None:
         (2, 0, "site"), (2, 1, "nitrate"), (2, 2, "pH"),
         (3, 1, "mg/L"),
         (4, 0, "north"), (4, 1, 0.5), (4, 2, 7.25),
-        (5, 0, "south"), (5, 1, "<0.05"), (5, 2, "n.d."),
+        (5, 0, "south"), (5, 1, "<0.05"), (5, 2, "lost"),
         (6, 0, "east"), (6, 1, 1.5), (6, 2, 6.75),
     ]  # fmt: skip
     path = tmp_path / "old.xls"
@@ -427,7 +427,7 @@ def test_random_table_every_cell(tmp_path: Path, seed: int, writer: str) -> None
             if k == "number"
             else None
             if k == "blank"
-            else "n.d."
+            else "lost"
             if k == "marker"
             else f"<{abs(v):.2f}"
             for v, k in zip(row, kinds, strict=True)
