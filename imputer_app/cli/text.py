@@ -36,6 +36,8 @@ def fill_summary(
         Files the export wrote.
     sheet : Sheet or None, default=None
         The sheet as read; its ``cell_notes`` tell censored entries with no limit written.
+    layout : {"workbook", "table"}, default="workbook"
+        The export's layout, to say what the xlsx holds (the workbook, or a flat table).
     """
     log = result.log
     filled = result.filled
