@@ -26,7 +26,7 @@ LOG_COLUMNS = (
 #: where and what first, then how the value was found.
 EXPORT_LOG_COLUMNS = (
     "row", "column", "original_state", "method", "value", "k",
-    "donors", "distances", "donor_values", "spread", "support", "note", "original_text",
+    "donors", "distances", "donor_values", "spread", "support", "note", "original_text", "sample_id",
 )  # fmt: skip
 
 #: Columns of ``FillResult.unfilled``: cells left empty and why.

@@ -35,6 +35,10 @@ def test_workbook_layout_is_the_default_and_names_the_data_sheet(lab: Path, caps
     # "n.d." is below an unknown limit of detection by default; the log keeps its text
     assert log.loc[(ND_ROW, "pH"), ["original_state", "original_text"]].tolist() == ["censored", "n.d."]
     assert not {"Notes", "Base sum", "Sample ID", "Sampled"} & set(log.index.get_level_values("column"))
+    # rows are named as the lab names them: the first carried identifier
+    assert log.loc[(ND_ROW, "pH"), "sample_id"] == f"S-{lab_fixture.ND_ROW + 1:03d}"
+    note = openpyxl.load_workbook(out_path)["Results"][f"C{ND_ROW}"].comment
+    assert note is not None and "(samples S-0" in note.text
 
 
 def test_table_layout_and_marker_meaning(lab: Path, capsys) -> None:
