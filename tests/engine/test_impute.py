@@ -83,7 +83,7 @@ def test_log_rows_explain_each_fill() -> None:
     log = result.log
     assert list(log.columns) == [
         "row", "column", "value", "original_state", "method", "k", "donors",
-        "distances", "donor_values", "spread", "support", "note",
+        "distances", "donor_values", "spread", "support", "note", "original_text",
     ]  # fmt: skip
     row = log[(log["row"] == 2) & (log["column"] == "ph")].iloc[0]
     # row 2 has only nitrate 1.1: nearest site-A rows with ph are 1 (1.2) then 0 (1.0), tied -> row order
