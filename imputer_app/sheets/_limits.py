@@ -92,8 +92,9 @@ def markers_found(cell_notes: pd.DataFrame, below: frozenset[str]) -> tuple[Mark
     if found.empty:
         return ()
     groups = found.groupby(["key", "meaning"], sort=False)
-    counted = groups.agg(text=("text", "first"), count=("text", "size")).reset_index()
-    counted = counted.sort_values(["count", "key"], ascending=[False, True], kind="stable")
+    counted = groups.agg(text=("text", "first"), cells=("text", "size")).reset_index()
+    counted = counted.sort_values(["cells", "key"], ascending=[False, True], kind="stable")
     return tuple(
-        MarkerFound(str(r.text), str(r.meaning), int(r.count)) for r in counted.itertuples(index=False)
+        MarkerFound(str(text), str(meaning), int(cells))
+        for text, meaning, cells in zip(counted["text"], counted["meaning"], counted["cells"], strict=True)
     )
