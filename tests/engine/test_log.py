@@ -19,7 +19,7 @@ from tests.engine.helpers import fake_sheet, random_frame
 LOG_DTYPES = {
     "row": "int64", "column": "str", "value": "object", "original_state": "str", "method": "str",
     "k": "int64", "donors": "object", "distances": "object", "donor_values": "object",
-    "spread": "float64", "support": "str", "note": "str",
+    "spread": "float64", "support": "str", "note": "str", "original_text": "str",
 }  # fmt: skip
 
 

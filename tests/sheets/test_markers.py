@@ -48,7 +48,7 @@ def test_a_users_meaning_changes_the_state(tmp_path: Path) -> None:
     sheet = read_sheet(path, markers={"n.d.": "missing", "-": "below-limit"})
     assert str(sheet.states.loc[3, "Cd"]) == "missing" and str(sheet.states.loc[5, "Cd"]) == "censored"
     assert str(sheet.states.loc[4, "Pb"]) == "censored"  # "ND" keeps its default meaning
-    with pytest.raises(SheetError, match="marker 'n.d.' must mean one of missing, below-limit"):
+    with pytest.raises(SheetError, match=r"marker 'n\.d\.' must mean one of missing, below-limit"):
         read_sheet(path, markers={"n.d.": "absent"})
 
 
@@ -67,7 +67,9 @@ def test_plan_limits_stand_for_unknown_ones(tmp_path: Path) -> None:
     plan = FillPlan(censored="half_limit", limits={"Pb": 0.5}, fill_columns=("Pb",))
     result = impute(sheet, plan)
     # half the plan's limit, for both "n.d." (row 2) and "ND" (row 4) of Pb
-    assert result.frame.loc[2, "Pb"] == pytest.approx(0.25) and result.frame.loc[4, "Pb"] == pytest.approx(0.25)
+    assert result.frame.loc[2, "Pb"] == pytest.approx(0.25) and result.frame.loc[4, "Pb"] == pytest.approx(
+        0.25
+    )
     unknown = impute(sheet, FillPlan(censored="half_limit", fill_columns=("Pb",)))
     assert not math.isclose(float(unknown.frame.loc[2, "Pb"]), 0.25)
     assert np.isfinite(unknown.frame.loc[2, "Pb"])

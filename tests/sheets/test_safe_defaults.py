@@ -43,9 +43,13 @@ def test_default_fill_leaves_carried_columns_and_formula_errors(lab: Path) -> No
     error_row = lab_fixture.FIRST_DATA_ROW + lab_fixture.ERROR_ROW
     assert sheet.states.loc[error_row, "Mg"] == "formula_error"
     assert np.isnan(result.frame.loc[error_row, "Mg"]) and not result.filled.loc[error_row, "Mg"]
-    # every gap of the measured columns (and the n.d. marker) is filled: 2 + 1 + 1 + 2 + 1
+    # every gap of the measured columns is filled (2 + 1 + 2 + 1), and the "n.d." pH,
+    # below an unknown limit, is filled by kNN and stays flagged as censored
     assert int(result.filled.to_numpy().sum()) == 7
-    assert set(result.log["original_state"]) == {"missing"}
+    nd_row = lab_fixture.FIRST_DATA_ROW + lab_fixture.ND_ROW
+    states = result.log.set_index(["row", "column"])["original_state"]
+    assert states.loc[(nd_row, "pH")] == "censored" and set(states.drop((nd_row, "pH"))) == {"missing"}
+    assert result.censored.loc[nd_row, "pH"]
 
 
 def test_formula_errors_are_filled_when_the_plan_says(lab: Path) -> None:
