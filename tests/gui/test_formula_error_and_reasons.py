@@ -47,3 +47,18 @@ def test_setup_table_shows_why_a_column_is_carried(qapp, tmp_path: Path) -> None
     row = [c.name for c in choices].index("Notes")
     tip = model.data(model.index(row, 1), R.ToolTipRole)
     assert "Carried by default: free text (mostly empty: 3 of 40 rows hold an entry)." in tip
+
+
+def test_cell_story_names_the_sample_and_its_donors_by_id(tmp_path: Path) -> None:
+    from imputer_app.engine import impute
+    from imputer_app.gui.cell_story import describe_cell
+    from imputer_app.plan import FillPlan
+
+    sheet = read_sheet(lab_fixture.build(tmp_path / "lab.xlsx"))
+    result = impute(sheet, FillPlan(k=3))
+    row = lab_fixture.FIRST_DATA_ROW + lab_fixture.GAP_ROWS["Ca"][0]
+    story = describe_cell(result, row, "Ca", sheet.cell_notes)
+    assert dict(story.facts)["Sample"] == f"S-{lab_fixture.GAP_ROWS['Ca'][0] + 1:03d}"
+    assert len(story.donors) == 3
+    for donor in story.donors:  # each donor named by its sample ID beside its row number
+        assert donor.sample_id == f"S-{donor.label - lab_fixture.FIRST_DATA_ROW + 1:03d}"
