@@ -21,7 +21,7 @@ def lab(tmp_path: Path) -> Path:
 
 
 def _log(path: Path) -> pd.DataFrame:
-    return pd.read_excel(path, sheet_name="Fill log")
+    return pd.read_excel(path, sheet_name="Fill log", engine="openpyxl")
 
 
 def test_workbook_layout_is_the_default_and_names_the_data_sheet(lab: Path, capsys) -> None:
