@@ -242,8 +242,9 @@ def write_survey_xlsx(survey: Survey, path: Path) -> None:
     number_fmts = {
         d: book.add_format({"num_format": "0" if d == 0 else "0." + "0" * d}) for _n, _u, d in MEASURES
     }
-    sheet.write_string(0, 0, TITLE, bold)
     headers = list(ID_COLUMNS) + [(m, u) for m, u, _d in MEASURES]
+    # the title merged across the table's width, as lab sheets often have it
+    sheet.merge_range(0, 0, 0, len(headers) - 1, TITLE, bold)
     for col, (header, unit) in enumerate(headers):
         sheet.write_string(1, col, header, bold)
         if unit:
@@ -263,6 +264,17 @@ def write_survey_xlsx(survey: Survey, path: Path) -> None:
                 sheet.write_number(r, col, float(survey.values[name][row]), number_fmts[decimals])
     sheet.set_column(0, 2, 12)
     sheet.set_column(3, len(headers) - 1, 11)
+    methods = book.add_worksheet("Methods")  # a second sheet the export must keep
+    methods.write_column(
+        0,
+        0,
+        [
+            "Methods (invented for the demo)",
+            "Nitrate and phosphate by ion chromatography; <0.1 and <0.02 are below the limit.",
+            "Gaps written 'lost' or NA are samples that were not measured.",
+        ],
+    )
+    methods.set_column(0, 0, 80)
     book.close()
 
 
