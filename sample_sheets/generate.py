@@ -264,17 +264,6 @@ def write_survey_xlsx(survey: Survey, path: Path) -> None:
                 sheet.write_number(r, col, float(survey.values[name][row]), number_fmts[decimals])
     sheet.set_column(0, 2, 12)
     sheet.set_column(3, len(headers) - 1, 11)
-    methods = book.add_worksheet("Methods")  # a second sheet the export must keep
-    methods.write_column(
-        0,
-        0,
-        [
-            "Methods (invented for the demo)",
-            "Nitrate and phosphate by ion chromatography; <0.1 and <0.02 are below the limit.",
-            "Gaps written 'lost' or NA are samples that were not measured.",
-        ],
-    )
-    methods.set_column(0, 0, 80)
     book.close()
 
 

@@ -55,7 +55,7 @@ def _assert_matches_openpyxl(path: Path, sheet_name: str, sheet: Sheet) -> None:
 
 def test_river_survey_workbook(samples_dir: Path) -> None:
     path = _sample(samples_dir, "river_survey.xlsx")
-    assert list_sheets(path) == ["Survey", "Methods"]  # the demo keeps a second sheet
+    assert list_sheets(path) == ["Survey"]
     # its title is merged across the table: a title, not part of the column names
     assert read_sheet(path).columns[3].name == "pH"
     sheet = read_sheet(path)
