@@ -56,6 +56,10 @@ CHOICES: dict[str, tuple[str, ...]] = {
 #: Column kinds a plan may force on a column (overriding detection).
 KINDS = ("number", "category")
 
+#: What a marker text in a cell ("n.d.", "NA") may mean: a missing value (a gap to
+#: fill) or an entry below the limit of detection (a censored cell).
+MARKER_MEANINGS = ("missing", "below-limit")
+
 MAX_WEIGHT = 1000.0
 
 #: Default level of the interval of every filled number, and its allowed range.
@@ -114,6 +118,18 @@ class FillPlan:
     interval_level : float or None, default=0.9
         Level of the interval given to every filled number (0.5-0.99), calibrated on
         hidden known cells of the sheet; ``None`` gives no intervals (TOML: ``"off"``).
+    fill_formula_errors : bool, default=False
+        Whether cells holding a formula's error result (``#DIV/0!``) are filled like
+        gaps; by default they are left alone.
+    markers : mapping of str to {"missing", "below-limit"}, default={}
+        The meaning of marker texts found in cells (``{"n.d.": "below-limit"}``);
+        markers not named keep their usual meaning (see README.md).
+    limits : mapping of str to float, default={}
+        Per column, the limit a below-limit marker stands under, when the sheet has
+        no limit row or column.
+    id_column : str or None, default=None
+        The column naming samples in the fill log and cell notes; default the first
+        carried identifier.
     """
 
     k: int = 5
@@ -132,6 +148,10 @@ class FillPlan:
     kinds: Mapping[str, str] = field(default_factory=dict)
     k_by_column: Mapping[str, int] = field(default_factory=dict)
     interval_level: float | None = DEFAULT_INTERVAL_LEVEL
+    fill_formula_errors: bool = False
+    markers: Mapping[str, str] = field(default_factory=dict)
+    limits: Mapping[str, float] = field(default_factory=dict)
+    id_column: str | None = None
 
     def __post_init__(self) -> None:
         _set = object.__setattr__
@@ -153,6 +173,14 @@ class FillPlan:
         _set(self, "kinds", _check_kinds(self.kinds))
         _set(self, "k_by_column", _check_k_by_column(self.k_by_column))
         _set(self, "interval_level", _check_level(self.interval_level))
+        if not isinstance(self.fill_formula_errors, bool):
+            raise PlanError(
+                f"fill_formula_errors must be true or false; got {shown_value(self.fill_formula_errors)}"
+            )
+        _set(self, "markers", _check_markers(self.markers))
+        _set(self, "limits", {str(c): _number("limit", c, v) for c, v in dict(self.limits).items()})
+        if self.id_column is not None and (not isinstance(self.id_column, str) or not self.id_column):
+            raise PlanError(f"id_column must be a column name or empty; got {shown_value(self.id_column)}")
         self._check_roles()
 
     # ------------------------------------------------------------------ queries
@@ -176,6 +204,8 @@ class FillPlan:
             self.decimals,
             self.kinds,
             self.k_by_column,
+            self.limits,
+            (self.id_column,) if self.id_column else (),
         )
         return list(dict.fromkeys(name for group in groups for name in group))
 
@@ -217,6 +247,11 @@ class FillPlan:
         data["kinds"] = dict(self.kinds)
         data["k_by_column"] = dict(self.k_by_column)
         data["interval_level"] = INTERVAL_OFF if self.interval_level is None else self.interval_level
+        data["fill_formula_errors"] = self.fill_formula_errors
+        if self.id_column is not None:
+            data["id_column"] = self.id_column
+        data["markers"] = dict(self.markers)
+        data["limits"] = dict(self.limits)
         return data
 
     @classmethod
@@ -397,6 +432,20 @@ def _check_decimals(decimals: Mapping[str, int]) -> dict[str, int]:
     return out
 
 
+def _check_markers(markers: Mapping[str, str]) -> dict[str, str]:
+    out: dict[str, str] = {}
+    for text, meaning in dict(markers).items():
+        if not isinstance(text, str) or not text.strip():
+            raise PlanError(f"a marker must be the text found in cells; got {shown_value(text)}")
+        if meaning not in MARKER_MEANINGS:
+            raise PlanError(
+                f"marker {shown_value(text)} must mean one of {', '.join(MARKER_MEANINGS)}; "
+                f"got {shown_value(meaning)}"
+            )
+        out[text.strip()] = meaning
+    return out
+
+
 def _check_kinds(kinds: Mapping[str, str]) -> dict[str, str]:
     out: dict[str, str] = {}
     for column, kind in dict(kinds).items():
@@ -419,9 +468,10 @@ _SCALAR_KEYS: dict[str, tuple[type, ...]] = {
     "censored": (str,),
     "no_donor": (str,),
     "group_column": (str,),
+    "id_column": (str,),
 }
 _LIST_KEYS = ("similarity_columns", "fill_columns", "carried_columns")
-_TABLE_KEYS = ("weights", "bounds", "decimals", "kinds", "k_by_column")
+_TABLE_KEYS = ("weights", "bounds", "decimals", "kinds", "k_by_column", "markers", "limits")
 
 
 def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | None) -> None:
@@ -441,7 +491,7 @@ def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | No
 
 
 def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -> FillPlan:
-    known = set(_SCALAR_KEYS) | set(_LIST_KEYS) | set(_TABLE_KEYS) | {"interval_level"}
+    known = set(_SCALAR_KEYS) | set(_LIST_KEYS) | set(_TABLE_KEYS) | {"interval_level", "fill_formula_errors"}
     for key in data:
         if key not in known:
             raise PlanError(f"{source}: unknown key {shown_value(key)}{line_of(text, key)}")
@@ -484,6 +534,13 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
                 f"{source}: interval_level must be a number or {INTERVAL_OFF!r}; got {shown}{where}"
             )
         kwargs["interval_level"] = level
+    kwargs["markers"] = dict(data.get("markers", {}))
+    kwargs["limits"] = dict(data.get("limits", {}))
+    if "fill_formula_errors" in data:
+        if not isinstance(data["fill_formula_errors"], bool):
+            where = line_of(text, "fill_formula_errors")
+            raise PlanError(f"{source}: fill_formula_errors must be true or false{where}")
+        kwargs["fill_formula_errors"] = data["fill_formula_errors"]
     bounds: dict[str, Bound] = {}
     for column, sides in dict(data.get("bounds", {})).items():
         if not isinstance(sides, Mapping) or set(sides) - {"lower", "upper"}:

@@ -19,14 +19,14 @@ from dataclasses import dataclass
 #: Columns of ``FillResult.log``, in the order the engine builds them.
 LOG_COLUMNS = (
     "row", "column", "value", "original_state", "method", "k", "donors",
-    "distances", "donor_values", "spread", "support", "note", "lower", "upper",
+    "distances", "donor_values", "spread", "support", "note", "lower", "upper", "original_text",
 )  # fmt: skip
 
 #: Columns of the fill log as exported (xlsx sheet "Fill log" and the csv fill log):
 #: where and what first, then how the value was found.
 EXPORT_LOG_COLUMNS = (
     "row", "column", "original_state", "method", "value", "lower", "upper", "k",
-    "donors", "distances", "donor_values", "spread", "support", "note",
+    "donors", "distances", "donor_values", "spread", "support", "note", "original_text", "sample_id",
 )  # fmt: skip
 
 #: Columns of ``FillResult.unfilled``: cells left empty and why.
@@ -47,7 +47,7 @@ STATE_WORDS = {
     "missing": "empty in the sheet",
     "censored": "a below- or above-limit entry",
     "text_in_number": "text in a number column (unreadable as a number)",
-    "formula_error": "a formula error in the sheet (such as #DIV/0!)",
+    "formula_error": "a formula without a result in the sheet (an error such as #DIV/0!, or none stored)",
 }
 
 

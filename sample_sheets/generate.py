@@ -188,10 +188,11 @@ def build_survey(seed: int) -> Survey:
         if limit is not None:
             for row in np.flatnonzero(values[name] < limit):
                 text[name][row] = f"<{limit:g}"
-        # Written missing markers: most gaps stay blank, some say n.d. or NA.
+        # Written missing markers: most gaps stay blank, some say "lost" or NA ("n.d." would
+        # mean below the limit of detection, not a gap).
         kinds = rng.random(n)
         for row in np.flatnonzero(gaps[name]):
-            text[name][row] = "n.d." if kinds[row] < 0.1 else "NA" if kinds[row] < 0.17 else ""
+            text[name][row] = "lost" if kinds[row] < 0.1 else "NA" if kinds[row] < 0.17 else ""
     start = FIRST_ROUND
     dates = [start + dt.timedelta(days=int(d)) for d in true["day"]]
     return Survey(
@@ -241,8 +242,9 @@ def write_survey_xlsx(survey: Survey, path: Path) -> None:
     number_fmts = {
         d: book.add_format({"num_format": "0" if d == 0 else "0." + "0" * d}) for _n, _u, d in MEASURES
     }
-    sheet.write_string(0, 0, TITLE, bold)
     headers = list(ID_COLUMNS) + [(m, u) for m, u, _d in MEASURES]
+    # the title merged across the table's width, as lab sheets often have it
+    sheet.merge_range(0, 0, 0, len(headers) - 1, TITLE, bold)
     for col, (header, unit) in enumerate(headers):
         sheet.write_string(1, col, header, bold)
         if unit:

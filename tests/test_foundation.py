@@ -59,8 +59,8 @@ def test_public_names_are_declared_sorted_and_resolve(package):
 # that follow; a new public name must be added to one of them.
 CHECKED = {
     "imputer_app.sheets": {
-        "CELL_STATES", "ColumnInfo", "RecoveryEvidence", "Sheet", "SourceInfo", "export_side_files",
-        "list_sheets", "read_export_plan", "read_sheet", "same_file", "write_result",
+        "CELL_STATES", "ColumnInfo", "MarkerFound", "RecoveryEvidence", "Sheet", "SourceInfo",
+        "export_side_files", "list_sheets", "read_export_plan", "read_sheet", "same_file", "write_result",
         # checked in tests/sheets/test_methods_text.py and tests/sheets/test_pictures.py
         "fill_pictures", "methods_paragraph", "picture_files", "scatter_partner", "write_picture_files",
     },
@@ -87,6 +87,7 @@ def test_a_fill_round_trips_through_the_public_names(tmp_path):
     from imputer_app.plan import FillPlan
     from imputer_app.sheets import (
         CELL_STATES,
+        MarkerFound,
         Sheet,
         export_side_files,
         read_export_plan,
@@ -113,6 +114,12 @@ def test_a_fill_round_trips_through_the_public_names(tmp_path):
     assert export_side_files(tmp_path / "tiny.filled.xlsx") == []
     assert read_sheet(out).frame["b"].tolist() == pytest.approx([10, 20, 30, 25, 90])
     assert read_export_plan(out) == plan
+    marked = tmp_path / "marked.csv"
+    marked.write_text("a,b\n1.0,n.d.\n2.0,20\n3.0,NA\n", encoding="utf-8")
+    assert read_sheet(marked).markers == (
+        MarkerFound("n.d.", "below-limit", 1),
+        MarkerFound("NA", "missing", 1),
+    )  # most frequent first, then by text
     assert same_file(tmp_path / "." / "tiny.csv", source) and not same_file(out, source)
 
 

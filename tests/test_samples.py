@@ -14,7 +14,7 @@ import openpyxl
 import pytest
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_sheets"
-GAP_MARKERS = ("", "n.d.", "NA")
+GAP_MARKERS = ("", "lost", "NA")
 
 
 def _load_generator() -> ModuleType:
@@ -94,7 +94,7 @@ def test_censored_entries_and_markers_exist(default_run: Path) -> None:
     assert 2 <= column["Nitrate"].count("<0,1") <= 15
     assert 2 <= column["Phosphate"].count("<0,02") <= 15
     flat = [cell for r in rows[1:] for cell in r]
-    assert flat.count("n.d.") >= 3 and flat.count("NA") >= 3
+    assert flat.count("lost") >= 3 and flat.count("NA") >= 3
 
 
 def test_correlations_are_realistic(default_run: Path) -> None:
@@ -123,7 +123,7 @@ def test_workbook_has_title_header_and_units_rows(default_run: Path) -> None:
     assert rows[2][4:] == ("µS/cm", "mg/L", "mg/L", "mg/L", "°C", "NTU")
     assert len(rows) == 3 + 304
     texts = {v for r in rows[3:] for v in r if isinstance(v, str)}
-    assert {"<0.02", "<0.1", "n.d.", "NA"} <= texts
+    assert {"<0.02", "<0.1", "lost", "NA"} <= texts
 
 
 def test_workbook_holds_the_same_numbers_as_the_csv(default_run: Path) -> None:

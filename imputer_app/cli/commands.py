@@ -67,7 +67,14 @@ def run_fill(args: argparse.Namespace) -> int:
             result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop)
             pictures = fill_picture_files(args.pictures, result, source, args.force)
             written = write_result(
-                out, sheet, result, plan, report=report, progress=bar.stage("writing"), cancel=stop
+                out,
+                sheet,
+                result,
+                plan,
+                report=report,
+                progress=bar.stage("writing"),
+                cancel=stop,
+                layout=args.layout,
             )
     finally:
         bar.done()
@@ -76,7 +83,7 @@ def run_fill(args: argparse.Namespace) -> int:
 
         written = [*written, *write_picture_files(pictures, source=source, force=args.force)]
     print_notes(sheet.problems, result.warnings)
-    show(fill_summary(source, result, written, sheet))
+    show(fill_summary(source, result, written, sheet, layout=args.layout))
     for line in (k_line(plan, report, args.k) if report else None, interval_line(result)):
         if line:
             show(line)
@@ -276,6 +283,7 @@ def plan_for(args: argparse.Namespace) -> FillPlan:
         weights=args.weight,
         scaling=args.scaling,
         group=args.group,
+        markers=getattr(args, "marker", ()),
     )
 
 
@@ -291,6 +299,7 @@ def read_input(
         header_row=args.header_row,
         kinds=dict(plan.kinds) or None,
         encoding=args.encoding,
+        markers=dict(plan.markers) or None,
         progress=progress,
         cancel=stop,
     )

@@ -15,7 +15,7 @@ from imputer_app.cli import commands
 from imputer_app.cli.evidence import k_option
 from imputer_app.cli.exit_codes import EXIT_USAGE
 from imputer_app.cli.progress import PROGRESS_MODES
-from imputer_app.plan import CHOICES, DEFAULT_KS, PLAN_SUFFIX, FillPlan
+from imputer_app.plan import CHOICES, DEFAULT_KS, MARKER_MEANINGS, PLAN_SUFFIX, FillPlan
 from imputer_app.words import CHOICE_WORDS, SETTING_TIPS
 
 
@@ -62,6 +62,19 @@ def column_weight(text: str) -> tuple[str, float]:
         raise argparse.ArgumentTypeError(
             f"weight for column {name.strip()!r} must be a number; got {value!r}"
         ) from None
+
+
+def marker_meaning(text: str) -> tuple[str, str]:
+    """Parse ``"n.d.=below-limit"`` into ``("n.d.", "below-limit")``; the marker may contain ``=``."""
+    marker, sep, meaning = text.rpartition("=")
+    meaning = meaning.strip().lower()
+    if not sep or not marker.strip():
+        raise argparse.ArgumentTypeError(f"expected TEXT=MEANING, e.g. n.d.=below-limit; got {text!r}")
+    if meaning not in MARKER_MEANINGS:
+        raise argparse.ArgumentTypeError(
+            f"marker {marker.strip()!r} must mean one of {', '.join(MARKER_MEANINGS)}; got {meaning!r}"
+        )
+    return marker.strip(), meaning
 
 
 def k_range(text: str) -> tuple[int, ...]:
@@ -217,6 +230,14 @@ def _add_plan_options(parser: argparse.ArgumentParser, *, with_k: bool) -> None:
         "--scaling", choices=CHOICES["scaling"], help=choice_help("scaling", default=FillPlan().scaling)
     )
     cols.add_argument("--group", metavar="COL", help="take donors only from rows of the same group")
+    cols.add_argument(
+        "--marker",
+        metavar="TEXT=MEANING",
+        type=marker_meaning,
+        action="append",
+        default=[],
+        help="what a marker in the cells means: missing or below-limit, e.g. 'n.d.=below-limit' (repeatable)",
+    )
 
 
 def _add_common(parser: argparse.ArgumentParser) -> None:
@@ -276,6 +297,13 @@ def build_parser() -> argparse.ArgumentParser:
         help="also write pictures of the fill (PNG and SVG) into this folder (made if missing)",
     )
     fill.add_argument("--force", action="store_true", help="replace existing output files")
+    fill.add_argument(
+        "--layout",
+        choices=("workbook", "table"),
+        default="workbook",
+        help="workbook: an xlsx/xlsm input comes back whole with the filled cells written in (default); "
+        "table: a flat cleaned table, for scripts",
+    )
     _add_common(fill)
     fill.set_defaults(run=commands.run_fill)
 

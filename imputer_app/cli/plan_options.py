@@ -25,6 +25,7 @@ def build_plan(
     weights: Sequence[tuple[str, float]] = (),
     scaling: str | None = None,
     group: str | None = None,
+    markers: Sequence[tuple[str, str]] = (),
 ) -> FillPlan:
     """Return ``base`` with the command line's options applied (validated again).
 
@@ -46,6 +47,8 @@ def build_plan(
         changes["group_column"] = group
     if weights:
         changes["weights"] = {**base.weights, **dict(weights)}
+    if markers:
+        changes["markers"] = {**base.markers, **dict(markers)}
     wanted = {*(similarity or ()), *(fill or ())}
     if carry is not None:
         changes["carried_columns"] = tuple(carry)

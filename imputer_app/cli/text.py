@@ -42,7 +42,11 @@ def terminal_safe(text: str) -> str:
 
 
 def fill_summary(
-    source: Path, result: FillResult, written: Sequence[Path], sheet: Sheet | None = None
+    source: Path,
+    result: FillResult,
+    written: Sequence[Path],
+    sheet: Sheet | None = None,
+    layout: str = "workbook",
 ) -> str:
     """Return the summary of ``kinfill fill``: cells filled, left empty, and files written.
 
@@ -56,6 +60,8 @@ def fill_summary(
         Files the export wrote.
     sheet : Sheet or None, default=None
         The sheet as read; its ``cell_notes`` tell censored entries with no limit written.
+    layout : {"workbook", "table"}, default="workbook"
+        The export's layout, to say what the xlsx holds (the workbook, or a flat table).
     """
     log = result.log
     filled = result.filled
@@ -80,7 +86,7 @@ def fill_summary(
                 lines.append(f"censored entries stood in by {words}: {count} (flagged as censored)")
     lines.extend(_unfilled_lines(result.unfilled))
     lines.append("wrote:")
-    lines.extend(f"  {path}{_what_it_holds(path)}" for path in written)
+    lines.extend(f"  {path}{_what_it_holds(path, sheet, layout)}" for path in written)
     lines.append("Filled values are estimates, not measurements (see the cautions in the export).")
     return "\n".join(lines)
 
@@ -129,11 +135,25 @@ def _censored_fill_lines(log: pd.DataFrame, no_limit: set[tuple[Any, str]]) -> l
     return lines
 
 
-def _what_it_holds(path: Path) -> str:
-    """Say where the cleaned table and its fill log are, so nobody has to guess."""
+def _what_it_holds(path: Path, sheet: Sheet | None = None, layout: str = "workbook") -> str:
+    """Say where the filled data and its fill log are, so nobody has to guess."""
     name = path.name
-    if name.endswith(".xlsx"):
-        return '  (cleaned sheet "Filled", fill log in sheet "Fill log", run record in "About this fill")'
+    if name.endswith((".xlsx", ".xlsm")):
+        fmt = sheet.source.file_format if sheet is not None else ""
+        if sheet is not None and layout == "workbook" and fmt in ("xlsx", "xlsm"):
+            return (
+                f'  (your workbook, every sheet kept; filled cells marked in sheet "{sheet.source.sheet}", '
+                'fill log in "Fill log", run record in "About this fill")'
+            )
+        lost = (
+            f"; from the .{fmt} input only the values of sheet {sheet.source.sheet!r} are kept "
+            "(its other sheets, formulas and formats are not)"
+            if sheet is not None and fmt in ("ods", "xls")
+            else ""
+        )
+        return (
+            f'  (cleaned sheet "Filled", fill log in sheet "Fill log", run record in "About this fill"{lost})'
+        )
     for suffix, words in (
         (".fill-log.csv", "fill log"),
         (".run.json", "run record"),

@@ -10,7 +10,7 @@ from imputer_app.engine._combine import combine
 from imputer_app.engine._conformal import Calibration, ColumnCalibration
 from imputer_app.engine._impute import calibrate_intervals, impute
 from imputer_app.engine._input import SheetLike
-from imputer_app.engine._prepare import default_roles, prepare
+from imputer_app.engine._prepare import default_role_reasons, default_roles, prepare
 from imputer_app.engine._result import FillResult
 from imputer_app.engine._search import ColumnDonors, nearest_donors
 from imputer_app.engine._table import PreparedTable
@@ -24,6 +24,7 @@ __all__ = [
     "SheetLike",
     "calibrate_intervals",
     "combine",
+    "default_role_reasons",
     "default_roles",
     "impute",
     "nearest_donors",

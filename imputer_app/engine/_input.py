@@ -9,7 +9,7 @@ that nothing after them looks at the sheet again.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any, Protocol, runtime_checkable
 
 import numpy as np
@@ -40,7 +40,8 @@ class SheetLike(Protocol):
     frame : DataFrame of shape (n_rows, n_columns)
         The values; NaN where a cell holds none.
     states : DataFrame of str, same shape and labels as ``frame``, or None
-        Per cell ``observed``, ``missing``, ``censored`` or ``text_in_number``.
+        Per cell ``observed``, ``missing``, ``censored``, ``text_in_number`` or
+        ``formula_error`` (a formula's error result: left alone unless the plan says).
     cell_notes : DataFrame or None
         One row per censored cell: ``row`` (label), ``column``, ``text``, ``side``
         (``"<"`` or ``">"``) and ``limit``.
@@ -84,6 +85,9 @@ class Input:
     labels : Index or None
         The input's own column labels when some were not text (integers, ...): the
         result gets them back. None when they were all text.
+    sheet_reasons : dict of str to str
+        Why the sheet says a column must be carried by default (a computed column,
+        free text), from its column facts' ``carry_reason``; empty for a DataFrame.
     """
 
     names: tuple[str, ...]
@@ -92,6 +96,7 @@ class Input:
     notes: pd.DataFrame | None
     sheet_kinds: dict[str, str] | None
     labels: pd.Index | None = None
+    sheet_reasons: dict[str, str] = field(default_factory=dict)
 
 
 def unpack(data: pd.DataFrame | SheetLike | NDArray[Any]) -> Input:
@@ -108,12 +113,14 @@ def unpack(data: pd.DataFrame | SheetLike | NDArray[Any]) -> Input:
                 f"cannot fill an array of {data.ndim} dimensions; give a 2-D array (rows x columns)"
             )
         data = pd.DataFrame(data)
+    reasons: dict[str, str] = {}
     if isinstance(data, pd.DataFrame):
         frame, states, notes = data, None, None
     elif isinstance(data, SheetLike):
         frame, states, notes = data.frame, data.states, data.cell_notes
         if isinstance(data, SheetWithKinds) and isinstance(data.columns, list | tuple) and data.columns:
             kinds = {c.name: c.kind for c in data.columns}
+            reasons = {c.name: why for c in data.columns if (why := getattr(c, "carry_reason", None))}
     else:
         raise PlanError(f"cannot fill a {type(data).__name__}; give a table (DataFrame) or a read sheet")
     if not isinstance(frame, pd.DataFrame):
@@ -124,7 +131,7 @@ def unpack(data: pd.DataFrame | SheetLike | NDArray[Any]) -> Input:
     labels = frame.columns
     names = tuple(str(c) for c in labels.tolist())
     if all(isinstance(c, str) for c in labels.tolist()):
-        return Input(names, frame, states, notes, kinds)
+        return Input(names, frame, states, notes, kinds, sheet_reasons=reasons)
     text = pd.Index(names)
     if text.has_duplicates:
         dup = text[text.duplicated()][0]
@@ -136,7 +143,7 @@ def unpack(data: pd.DataFrame | SheetLike | NDArray[Any]) -> Input:
         states.columns = pd.Index([str(c) for c in states.columns.tolist()])
     if notes is not None and "column" in notes.columns:
         notes = notes.assign(column=notes["column"].map(str))
-    return Input(names, frame, states, notes, kinds, labels)
+    return Input(names, frame, states, notes, kinds, labels, reasons)
 
 
 def state_masks(inp: Input, columns: list[str], words: tuple[str, ...]) -> dict[str, NDArray[np.bool_]]:

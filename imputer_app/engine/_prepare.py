@@ -21,6 +21,7 @@ from imputer_app.engine._input import Input, SheetLike, censored_cells, state_ma
 from imputer_app.engine._roles import (
     USABLE_KINDS,
     carried_columns,
+    carry_reasons,
     column_kinds,
     plain_number,
     similarity_columns,
@@ -57,6 +58,25 @@ def default_roles(data: pd.DataFrame | SheetLike) -> dict[str, str]:
     return roles
 
 
+def default_role_reasons(data: pd.DataFrame | SheetLike) -> dict[str, str]:
+    """Why each column the default plan carries is carried, in plain words.
+
+    Parameters
+    ----------
+    data : DataFrame or sheet-like
+        As for :func:`default_roles`.
+
+    Returns
+    -------
+    dict of str to str
+        Column name to reason ("an identifier ...", "computed by formulas in the
+        sheet", "free text ..."); columns the default plan uses are absent.
+    """
+    inp = unpack(data)
+    plan = FillPlan()
+    return carry_reasons(inp, plan, column_kinds(inp, plan))
+
+
 def _numbers(frame: pd.DataFrame, col: str) -> NDArray[np.float64]:
     """Column ``col`` as floats; a PlanError when it holds text that is not a number."""
     series = frame[col]
@@ -80,9 +100,14 @@ def _codes(series: pd.Series) -> tuple[NDArray[np.intp], NDArray[np.generic]]:
 
 
 def _read_columns(
-    inp: Input, used: list[str], kinds: Mapping[str, str], censored: str, hide: NDArray[np.bool_] | None
+    inp: Input, used: list[str], kinds: Mapping[str, str], plan: FillPlan, hide: NDArray[np.bool_] | None
 ) -> Columns:
-    """The ``used`` columns as arrays: censored entries substituted, hidden cells made gaps."""
+    """The ``used`` columns as arrays: censored entries substituted, hidden cells made gaps.
+
+    A below-limit cell whose limit the sheet does not give ("n.d.") takes the plan's
+    limit for its column (``plan.limits``) when there is one.
+    """
+    censored = plan.censored
     out = Columns({}, {}, {}, {})
     position = {name: j for j, name in enumerate(inp.names)}
     used = list(dict.fromkeys(used))
@@ -92,6 +117,8 @@ def _read_columns(
     rank = _label_rank(inp.frame.index) if censored == "ros" and marked.any() else None
     for j in np.flatnonzero(marked.any(axis=0)).tolist():
         cen = censored_cells(inp, numbers[j], marked[:, j])
+        if numbers[j] in plan.limits:  # the plan's limit stands in where the sheet gave none
+            cen.limit[cen.mask & np.isnan(cen.limit) & (cen.side != ">")] = plan.limits[numbers[j]]
         if rank is not None:  # fitted to the values left visible, so a hidden cell cannot help
             hidden = hide is not None and hide[:, position[numbers[j]]]
             seen = np.where(hidden, np.nan, block[:, j])
@@ -197,13 +224,14 @@ def prepare_input(
     names = list(inp.names)
     plan.check_columns(names)
     kinds_all = column_kinds(inp, plan)
-    sim = similarity_columns(names, plan, kinds_all)
+    reasons = carry_reasons(inp, plan, kinds_all)
+    sim = similarity_columns(names, plan, kinds_all, reasons)
     for col in (*sim, *(plan.fill_columns or ())):
         if kinds_all[col] == "date":
             raise PlanError(f"column {col!r} holds dates; it cannot be a similarity or fill column")
         if kinds_all[col] not in USABLE_KINDS:  # named explicitly: identifiers as categories
             kinds_all[col] = "category" if kinds_all[col] == "identifier" else "number"
-    cols = _read_columns(inp, [*sim, *(plan.fill_columns or ())], kinds_all, plan.censored, hide)
+    cols = _read_columns(inp, [*sim, *(plan.fill_columns or ())], kinds_all, plan, hide)
     if plan.fill_columns is None:
         gappy = cols.gap_columns()
         fill = tuple(c for c in sim if c != plan.group_column and c in gappy)
@@ -212,7 +240,7 @@ def prepare_input(
     resolved = plan.replace(
         similarity_columns=sim,
         fill_columns=fill,
-        carried_columns=carried_columns(names, plan, kinds_all, {*sim, *fill}),
+        carried_columns=carried_columns(names, plan, kinds_all, {*sim, *fill}, reasons),
     )
     kinds = {c: ("number" if kinds_all[c] == "number" else "category") for c in (*sim, *fill)}
     raise_if_cancelled(cancel)  # each step takes about a second on a sheet of ten million cells
@@ -247,6 +275,13 @@ def prepare_input(
             "no similarity column can compare rows: every one is constant, empty or weighted 0; "
             "choose other similarity columns or weights"
         )
+    # A formula's error result (#DIV/0!) is NaN like a gap, but it is the lab's formula
+    # that failed, not a missing measurement: not a gap unless the plan fills those.
+    left_alone: dict[str, NDArray[np.bool_]] = {}
+    if not resolved.fill_formula_errors and fill:
+        errors = state_masks(inp, list(fill), ("formula_error",))["formula_error"]
+        for j in np.flatnonzero(errors.any(axis=0)).tolist():
+            left_alone[fill[j]] = errors[:, j]
     groups, group_labels = _groups(inp, resolved, hide)
     return PreparedTable(
         n_rows=n,
@@ -267,4 +302,5 @@ def prepare_input(
         cap_lower=cap_lower,
         unknown_limit=unknown_limit,
         measured=has_values,
+        left_alone=left_alone,
     ), cols.censored

@@ -90,7 +90,7 @@ def build_result(
     raise_if_cancelled(cancel)  # the log's tuples take about half of this step
     filled = np.zeros(frame.shape, dtype=bool)
     filled[log.pos[log.filled], log.column[log.filled]] = True
-    states = state_masks(inp, list(inp.names), ("censored", "text_in_number"))
+    states = state_masks(inp, list(inp.names), ("censored", "text_in_number", "formula_error"))
     flags = states["censored"]  # every censored cell, whatever its column's role
     unfilled = pd.DataFrame(
         {
@@ -152,14 +152,36 @@ def _filled_frame(
 def _log_frame(inp: Input, log: LogTable, states: Mapping[str, NDArray[np.bool_]]) -> pd.DataFrame:
     """The fill log as a DataFrame (already ordered by row and then by column).
 
-    ``states`` holds the cells marked ``censored`` and ``text_in_number``; others were gaps.
+    ``states`` holds the cells marked ``censored``, ``text_in_number`` and
+    ``formula_error`` (filled only when the plan says); others were gaps.
     """
     pos, colpos = log.pos, log.column
     state = repeated("missing", len(pos))
-    for word in ("text_in_number", "censored"):
+    for word in ("text_in_number", "censored", "formula_error"):
         state[states[word][pos, colpos]] = word
-    columns: dict[str, Any] = {"row": inp.frame.index.to_numpy()[pos], "original_state": state, **log.fields}
+    rows = inp.frame.index.to_numpy()[pos]
+    columns: dict[str, Any] = {"row": rows, "original_state": state, **log.fields}
+    columns["original_text"] = _original_texts(inp, rows, np.asarray(inp.names, dtype=object)[colpos])
     return pd.DataFrame(columns, columns=list(LOG_COLUMNS))
+
+
+def _original_texts(inp: Input, rows: NDArray[Any], names: NDArray[np.object_]) -> NDArray[np.object_]:
+    """The text each logged cell held in the sheet ("n.d.", "NA", "<0.05"), "" for a blank cell."""
+    out = repeated("", len(rows))
+    notes = inp.notes
+    if (
+        notes is None
+        or not len(notes)
+        or not len(rows)
+        or not {"row", "column", "text"} <= set(notes.columns)
+    ):
+        return out
+    texts = pd.Series(notes["text"].fillna("").astype(str).to_numpy(), index=[notes["row"], notes["column"]])
+    texts = texts[~texts.index.duplicated()]
+    at = texts.index.get_indexer(pd.MultiIndex.from_arrays([rows, names]))
+    found = at >= 0
+    out[found] = texts.to_numpy()[at[found]]
+    return out
 
 
 def _write(original: pd.Series, pos: NDArray[np.intp], values: NDArray[np.object_], kind: str) -> pd.Series:

@@ -2,7 +2,13 @@
 
 A column's kind comes from the plan, else from the sheet, else from its values
 (:func:`kind_of_values`). Without roles in the plan, every number or category
-column measures similarity, and identifiers, dates and empty columns are carried.
+column measures similarity, except the columns a fill could damage, which are
+carried with a reason (:func:`carry_reasons`): identifiers, dates, empty and
+constant columns, computed columns (the sheet says so), and free text. A text
+column is free text when its entries are long, when it is mostly empty, or when it
+has too many levels for a category: a category is used only with at most
+max(10, sqrt(n)) levels for its n filled cells, each level seen at least twice on
+average (common practice, no source).
 """
 
 from __future__ import annotations
@@ -17,6 +23,19 @@ from imputer_app.plan import FillPlan
 
 #: Kinds that can measure similarity and be filled.
 USABLE_KINDS = ("number", "category")
+
+#: Most levels a category may have: max(MIN_LEVELS, sqrt(filled cells)); and each level
+#: must be seen at least LEVEL_REPEATS times on average.
+MIN_LEVELS, LEVEL_REPEATS = 10, 2
+#: A text entry longer than this (characters, median of the column) is free text.
+LONG_TEXT = 30
+
+#: Why a column of each kind that cannot be used is carried.
+KIND_REASONS = {
+    "identifier": "an identifier (a different value in every row)",
+    "date": "dates or times",
+    "empty": "holds no value",
+}
 
 
 def kind_of_values(series: pd.Series) -> str:
@@ -68,18 +87,70 @@ def column_kinds(inp: Input, plan: FillPlan) -> dict[str, str]:
     return kinds
 
 
-def similarity_columns(names: list[str], plan: FillPlan, kinds: Mapping[str, str]) -> tuple[str, ...]:
-    """The plan's similarity columns, or every usable column not carried nor the group."""
+def carry_reasons(inp: Input, plan: FillPlan, kinds: Mapping[str, str]) -> dict[str, str]:
+    """Why each column is carried by default (a column absent from the result is usable).
+
+    The sheet's own reasons (computed columns) come first; then the kind (identifier,
+    date, empty); then constant columns and free text (rules in the module docstring).
+    A kind the plan forces skips the free-text rules: the user said what it is.
+    """
+    frame = inp.frame
+    out: dict[str, str] = {}
+    for col in inp.names:
+        kind = kinds[col]
+        why = inp.sheet_reasons.get(col) or KIND_REASONS.get(kind)
+        if why is None and kind == "number":
+            why = _constant_number(frame[col])
+        elif why is None and kind == "category":
+            why = _category_reason(frame[col], forced=col in plan.kinds)
+        if why:
+            out[col] = why
+    return out
+
+
+def _constant_number(series: pd.Series) -> str | None:
+    values = pd.to_numeric(series, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
+    present = values[np.isfinite(values)]
+    if present.size >= 2 and present.min() == present.max():
+        return f"constant (every filled cell is {present[0]:g})"
+    return None
+
+
+def _category_reason(series: pd.Series, forced: bool) -> str | None:
+    values = series.dropna()
+    n, levels = len(values), int(values.nunique())
+    if n >= 2 and levels == 1 and n == len(series):
+        return "constant (the same entry in every row)"
+    if forced or not n:
+        return None
+    text = values[values.map(lambda v: isinstance(v, str))]
+    if len(text) and float(text.str.len().median()) > LONG_TEXT:
+        return "free text (long entries)"
+    if len(text) and 2 * n < len(series):
+        return f"free text (mostly empty: {n} of {len(series)} rows hold an entry)"
+    most = max(MIN_LEVELS, int(np.sqrt(n)))
+    if levels > most or n < LEVEL_REPEATS * levels:
+        return (
+            f"free text ({levels} different entries in {n} rows; a category is used with at most "
+            f"{most} levels, each seen twice on average)"
+        )
+    return None
+
+
+def similarity_columns(
+    names: list[str], plan: FillPlan, kinds: Mapping[str, str], reasons: Mapping[str, str]
+) -> tuple[str, ...]:
+    """The plan's similarity columns, or every usable column not carried (nor the group)."""
     if plan.similarity_columns is not None:
         return plan.similarity_columns
-    carried = set(plan.carried_columns)
+    carried = set(plan.carried_columns) | set(reasons)
     return tuple(c for c in names if kinds[c] in USABLE_KINDS and c not in carried and c != plan.group_column)
 
 
 def carried_columns(
-    names: list[str], plan: FillPlan, kinds: Mapping[str, str], used: set[str]
+    names: list[str], plan: FillPlan, kinds: Mapping[str, str], used: set[str], reasons: Mapping[str, str]
 ) -> tuple[str, ...]:
-    """The plan's carried columns plus every unused identifier, date or empty column."""
+    """The plan's carried columns plus every unused column that cannot be used or has a reason."""
     skip = used | set(plan.carried_columns) | {plan.group_column}
-    extra = [c for c in names if kinds[c] not in USABLE_KINDS and c not in skip]
+    extra = [c for c in names if (kinds[c] not in USABLE_KINDS or c in reasons) and c not in skip]
     return (*plan.carried_columns, *extra)

@@ -58,6 +58,9 @@ class PreparedTable:
     measured : ndarray of bool, shape (n_rows,), or None
         The row has a value in a weighted similarity column, constant columns (left
         out of the distance) included.
+    left_alone : dict of str to ndarray of bool, shape (n_rows,)
+        Per fill column: empty cells that are not gaps (a formula's error result,
+        unless the plan fills those); never targets, never donors.
     """
 
     n_rows: int
@@ -78,7 +81,12 @@ class PreparedTable:
     cap_lower: dict[str, NDArray[np.float64]] = field(default_factory=dict)
     unknown_limit: dict[str, NDArray[np.bool_]] = field(default_factory=dict)
     measured: NDArray[np.bool_] | None = None
+    left_alone: dict[str, NDArray[np.bool_]] = field(default_factory=dict)
 
     def targets(self) -> dict[str, NDArray[np.bool_]]:
-        """Default rows to fill per fill column: every cell that is not observed."""
-        return {col: ~self.observed[col] for col in self.fill_columns}
+        """Default rows to fill per fill column: every cell not observed nor left alone."""
+        out = {}
+        for col in self.fill_columns:
+            alone = self.left_alone.get(col)
+            out[col] = ~self.observed[col] if alone is None else ~self.observed[col] & ~alone
+        return out

@@ -36,11 +36,14 @@ class Donor:
         Its distance to the filled row (after scaling and weights).
     value : object
         Its value in the filled column.
+    sample_id : str
+        The donor's name in the sheet's identifier column ("" when there is none).
     """
 
     label: Any
     distance: float
     value: Any
+    sample_id: str = ""
 
 
 @dataclass(frozen=True)
@@ -202,14 +205,40 @@ def _censored_entry(notes: pd.DataFrame | None, row_label: Any, column: str) -> 
     return text
 
 
-def _donors(entry: pd.Series) -> tuple[Donor, ...]:
+def _donors(entry: pd.Series, ids: pd.Series | None = None) -> tuple[Donor, ...]:
     labels = tuple(entry.get("donors", ()) or ())
     distances = tuple(entry.get("distances", ()) or ())
     values = tuple(entry.get("donor_values", ()) or ())
     return tuple(
-        Donor(label, float(distance), value)
+        Donor(label, float(distance), value, _id_of(ids, label))
         for label, distance, value in zip(labels, distances, values, strict=False)
     )
+
+
+def sample_ids(result: FillResult) -> pd.Series | None:
+    """The sheet's names of its rows, or None when there is none.
+
+    The names are the plan's ``id_column``, else the first carried text column with a
+    different value in every row.
+    """
+    frame, plan = result.frame, getattr(result, "plan", None)
+    named = getattr(plan, "id_column", None)
+    candidates = [named] if named else list(getattr(plan, "carried_columns", ()) or ())
+    for name in candidates:
+        if name in frame.columns:
+            values = frame[name]
+            present = values.dropna()
+            texts = present.map(lambda v: isinstance(v, str)).all()
+            if named or (len(present) == len(values) and texts and present.is_unique):
+                return values
+    return None
+
+
+def _id_of(ids: pd.Series | None, label: Any) -> str:
+    if ids is None or label not in ids.index:
+        return ""
+    value = ids.loc[label]
+    return "" if pd.isna(value) else str(value)
 
 
 def _filled_story(result: FillResult, entry: pd.Series, where: str, notes: pd.DataFrame | None) -> CellStory:
@@ -217,14 +246,19 @@ def _filled_story(result: FillResult, entry: pd.Series, where: str, notes: pd.Da
     numeric = _is_number_column(result, column)
     method = str(entry.get("method", ""))
     value = format_value(entry.get("value"))
-    donors = _donors(entry)
+    ids = sample_ids(result)
+    donors = _donors(entry, ids)
     state = str(entry.get("original_state", "missing"))
     facts = [("Value", value), ("Method", method_words(method, getattr(result, "plan", None), numeric))]
+    if _id_of(ids, entry["row"]):
+        facts.insert(0, ("Sample", _id_of(ids, entry["row"])))
     if state == "censored":
         original = _censored_entry(notes, entry["row"], column) or "a censored entry (text not shown here)"
         facts.append(("Original entry", original))
     else:
         facts.append(("Before", STATE_WORDS.get(state, state)))
+        if state == "formula_error":  # the error text the formula gave (#DIV/0!), from the sheet's notes
+            facts.append(("Original entry", _censored_entry(notes, entry["row"], column) or "–"))
     if method in SUBSTITUTED:
         note = str(entry.get("note", "") or "")
         if note:

@@ -12,10 +12,18 @@ from dataclasses import dataclass
 
 from PySide6.QtGui import QColor, QGuiApplication, QPalette
 
+from imputer_app.words import STATE_WORDS
+
 # Cell codes shared by the table model and the gap map (int8 arrays).
-OBSERVED, MISSING, CENSORED, TEXT = 0, 1, 2, 3
+OBSERVED, MISSING, CENSORED, TEXT, FORMULA = 0, 1, 2, 3, 4
 #: Sheet cell state names to codes.
-STATE_CODES = {"observed": OBSERVED, "missing": MISSING, "censored": CENSORED, "text_in_number": TEXT}
+STATE_CODES = {
+    "observed": OBSERVED,
+    "missing": MISSING,
+    "censored": CENSORED,
+    "text_in_number": TEXT,
+    "formula_error": FORMULA,
+}
 
 # Fill layer codes (a second int8 array): not filled, filled, filled with weak support.
 NO_FILL, FILL, FILL_WEAK = 0, 1, 2
@@ -31,7 +39,7 @@ class Marker:
     Attributes
     ----------
     key : str
-        ``missing``, ``censored``, ``text``, ``preview`` or ``filled``.
+        ``missing``, ``censored``, ``text``, ``formula_error``, ``preview`` or ``filled``.
     symbol : str
         Shown before the cell's text.
     label : str
@@ -89,6 +97,17 @@ MARKERS: dict[str, Marker] = {
             "#e0a100",
         ),
         Marker(
+            "formula_error",
+            "✕",
+            "formula error",
+            STATE_WORDS["formula_error"][0].upper()
+            + STATE_WORDS["formula_error"][1:]
+            + "; not a gap, left alone unless the plan fills such cells.",
+            ("#e4e4e4", "#3a3a3a"),
+            ("#4a4a4a", "#eeeeee"),
+            "#7a7a7a",
+        ),
+        Marker(
             "preview",
             "◇",
             "proposed fill (preview)",
@@ -110,7 +129,7 @@ MARKERS: dict[str, Marker] = {
 }
 
 #: Marker key for each cell code (observed cells have none).
-CODE_MARKERS = {MISSING: "missing", CENSORED: "censored", TEXT: "text"}
+CODE_MARKERS = {MISSING: "missing", CENSORED: "censored", TEXT: "text", FORMULA: "formula_error"}
 
 
 def palette_is_dark(palette: QPalette | None = None) -> bool:

@@ -52,6 +52,11 @@ class ColumnChoice:
         Bounds for filled numbers.
     decimals : int or None
         Rounding of filled numbers.
+    reason : str
+        Why the default plan carries the column ("computed by formulas ...", "free
+        text ..."); "" for a column the default uses.
+    group_like : bool
+        A number column of a few whole values (block, plot): worth a category or group.
     """
 
     name: str
@@ -66,6 +71,8 @@ class ColumnChoice:
     lower: float | None = None
     upper: float | None = None
     decimals: int | None = None
+    reason: str = ""
+    group_like: bool = False
 
     @property
     def shown_kind(self) -> str:
@@ -79,7 +86,10 @@ class ColumnChoice:
 
 
 def choices_for_sheet(sheet: Sheet, roles: Mapping[str, str]) -> list[ColumnChoice]:
-    """One :class:`ColumnChoice` per sheet column with the engine's default ``roles``."""
+    """One :class:`ColumnChoice` per sheet column with the engine's default ``roles`` and reasons."""
+    from imputer_app.engine import default_role_reasons  # the engine loads on first use
+
+    reasons = default_role_reasons(sheet)
     states = sheet.states
     info = {c.name: c for c in sheet.columns}
     out = []
@@ -99,6 +109,8 @@ def choices_for_sheet(sheet: Sheet, roles: Mapping[str, str]) -> list[ColumnChoi
                 censored=censored,
                 rows=len(sheet.frame),
                 role=_FROM_DEFAULT.get(roles.get(name, "carried"), "carried"),
+                reason=reasons.get(name, ""),
+                group_like=bool(getattr(col, "group_like", False)),
             )
         )
     return out
@@ -216,6 +228,8 @@ class ColumnListModel(FlatTableModel):
                 f"{c.name}: {self.role_label(c)}. {role_tip}\n"
                 f"Kind {c.shown_kind}{forced}; weight {c.weight:g}; "
                 f"{c.gaps} gaps of {c.rows} rows; {c.censored} entries beyond a limit."
+                + (f"\nCarried by default: {c.reason}." if c.reason else "")
+                + ("\nA few whole values: can serve as a category or a group column." if c.group_like else "")
             )
         if role == Qt.ItemDataRole.TextAlignmentRole and index.column() in (2, 3, 4):
             return int(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)

@@ -21,6 +21,7 @@ from imputer_app.gui.markers import (
     CENSORED,
     CODE_MARKERS,
     FILL_WEAK,
+    FORMULA,
     MARKERS,
     MISSING,
     NO_FILL,
@@ -30,6 +31,7 @@ from imputer_app.gui.markers import (
     WEAK_SYMBOL,
     palette_is_dark,
 )
+from imputer_app.words import STATE_WORDS
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
@@ -40,6 +42,7 @@ _STATE_WORDS = {
     MISSING: "gap",
     CENSORED: "beyond a limit",
     TEXT: "text in a number column",
+    FORMULA: STATE_WORDS["formula_error"],
 }
 _MAX_DECIMALS = 6
 

@@ -246,7 +246,7 @@ def _formula_problems(column: Column, notes: pd.DataFrame, workbook: bool) -> li
     """One line each for cached formula errors and for formulas with no stored value."""
     problems: list[str] = []
     letter = column_letter(column.position)
-    errors = notes[notes["state"] == CELL_STATES[FORMULA_ERROR_STATE]]
+    errors = notes[(notes["state"] == CELL_STATES[FORMULA_ERROR_STATE]) & (notes["text"] != NO_VALUE_TEXT)]
     if len(errors):
         row, text = errors["row"].iloc[0], errors["text"].iloc[0]
         cell = f"cell {letter}{row}" if workbook else f"row {row}"
@@ -259,6 +259,6 @@ def _formula_problems(column: Column, notes: pd.DataFrame, workbook: bool) -> li
         row = empty["row"].iloc[0]
         problems.append(
             f"'{column.name}': {len(empty)} formula cell(s) such as cell {letter}{row} have no stored value "
-            "(the file was saved without calculating); they are read as gaps"
+            "(the file was saved without calculating); they are formulas, not gaps: marked formula_error"
         )
     return problems

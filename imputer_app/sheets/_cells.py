@@ -8,8 +8,12 @@ apart with one ``type`` call per cell only in columns that mix them.
 
 Missing markers
 ---------------
-:data:`DEFAULT_MARKERS` are always missing markers (compared trimmed and
-case-insensitively). A ``markers`` argument *extends* that set; it does not replace it.
+:data:`DEFAULT_MARKERS` are missing markers and :data:`DEFAULT_BELOW_MARKERS` mean
+"below the limit of detection" (compared trimmed and case-insensitively). A
+``markers`` argument *extends* the missing set; ``meanings`` gives any marker text
+either meaning ("missing" or "below-limit"), overriding the defaults. A below-limit
+marker is a censored cell ("<" side, its limit unknown until a limit row, a limit
+column or the plan gives it).
 A marker that reads as a number (``-999``, ``"-999"``, ``9999.0``) matches cells whose
 numeric value equals it, whether stored as a number or as text, so ``-999`` is a marker
 only when the user passes it.
@@ -19,7 +23,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -39,8 +43,14 @@ ERROR_TEXTS = frozenset(
 #: Classes that hold no value for kind detection.
 NOT_VALUES = (BLANK, MARKER, FORMULA_ERROR, NO_VALUE)
 
-#: Missing-value markers that always apply (trimmed, case-insensitive).
-DEFAULT_MARKERS: tuple[str, ...] = ("NA", "N/A", "n.d.", "nd", "-", "--", "?", "missing", "#N/A", "NaN")
+#: Missing-value markers that apply unless the user says otherwise (trimmed, case-insensitive).
+DEFAULT_MARKERS: tuple[str, ...] = ("NA", "N/A", "-", "--", "?", "missing", "lost", "#N/A", "NaN")
+#: Markers that mean "not detected": below the limit of detection, a censored cell
+#: (common practice in analytical labs, no source). "BDL", "<LOD" and "<LOQ" are read
+#: as censored entries by :data:`CENSORED_PATTERN` already.
+DEFAULT_BELOW_MARKERS: tuple[str, ...] = ("n.d.", "nd", "not detected")
+#: What a marker may mean.
+MARKER_MEANINGS = ("missing", "below-limit")
 
 #: Limit words a censored entry may give instead of a number, by family.
 LIMIT_FAMILIES: dict[str, str] = {
@@ -68,6 +78,7 @@ class Markers:
 
     texts: frozenset[str]
     numbers: frozenset[float]
+    below: frozenset[str] = frozenset()
 
     @property
     def number_array(self) -> np.ndarray:
@@ -75,26 +86,40 @@ class Markers:
         return np.array(sorted(self.numbers), dtype=float)
 
 
-def make_markers(extra: Iterable[str | float] | None = None) -> Markers:
-    """Build the marker set: :data:`DEFAULT_MARKERS` plus ``extra``.
+def make_markers(
+    extra: Iterable[str | float] | None = None, meanings: Mapping[str, str] | None = None
+) -> Markers:
+    """Build the marker sets: :data:`DEFAULT_MARKERS` plus ``extra``, with ``meanings`` applied.
 
     Parameters
     ----------
     extra : iterable of str or float, optional
-        More markers. Text is compared trimmed and case-insensitively; a marker that
-        reads as a finite number (``-999``, ``"-999"``) is compared by numeric value.
+        More missing markers. Text is compared trimmed and case-insensitively; a marker
+        that reads as a finite number (``-999``, ``"-999"``) is compared by numeric value.
+    meanings : mapping of str to {"missing", "below-limit"}, optional
+        The meaning of marker texts, overriding the defaults (``{"n.d.": "missing"}``).
     """
     if isinstance(extra, str | int | float):
         extra = [extra]
     texts: set[str] = set()
     numbers: set[float] = set()
+    below = {m.lower() for m in DEFAULT_BELOW_MARKERS}
     for marker in (*DEFAULT_MARKERS, *(extra or ())):
         value = _finite_number(marker)
         if value is not None:
             numbers.add(value)
         else:
             texts.add(str(marker).strip().lower())
-    return Markers(frozenset(texts), frozenset(numbers))
+    for marker, meaning in (meanings or {}).items():
+        key = str(marker).strip().lower()
+        value = _finite_number(marker)
+        if meaning == "missing":
+            below.discard(key)
+            (numbers.add(value) if value is not None else texts.add(key))
+        else:
+            texts.discard(key)
+            below.add(key)
+    return Markers(frozenset(texts - below), frozenset(numbers), frozenset(below))
 
 
 def _finite_number(marker: object) -> float | None:
@@ -256,7 +281,9 @@ def _take_strings(
 def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[str, np.ndarray]:
     """Class, number, side, limit and limit family of each (trimmed) text."""
     blank = (texts == "").to_numpy()
-    marker = texts.str.lower().isin(markers.texts).to_numpy() & ~blank
+    lowered = texts.str.lower()
+    below = lowered.isin(markers.below).to_numpy() & ~blank
+    marker = lowered.isin(markers.texts).to_numpy() & ~blank
     numbers = parse_numbers(texts, decimal)
     number = np.isfinite(numbers) & ~marker
     marker |= number & np.isin(numbers, markers.number_array)
@@ -272,6 +299,10 @@ def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[st
         "limit": np.full(len(texts), np.nan),
         "token": np.full(len(texts), "", dtype=object),
     }
+    # a "not detected" marker: below an unknown limit of detection
+    hits = below & ~marker
+    cls[hits] = CENSORED
+    found["side"][hits], found["token"][hits] = "<", "LOD"
     rest = np.flatnonzero(cls == TEXT)
     if rest.size:
         censored = _censored(texts.iloc[rest], decimal)

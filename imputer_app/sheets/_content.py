@@ -71,6 +71,8 @@ class ExportContent:
         Cells left empty, columns :data:`~imputer_app.words.UNFILLED_COLUMNS`.
     layout : Layout
         Row placement for a worksheet.
+    sample_ids : Series or None
+        Row label to the lab's sample ID (:func:`sample_ids`), None without one.
     """
 
     frame: pd.DataFrame
@@ -85,6 +87,7 @@ class ExportContent:
     log_table: pd.DataFrame
     unfilled: pd.DataFrame
     layout: Layout
+    sample_ids: pd.Series | None = None
 
     @property
     def has_units(self) -> bool:
@@ -130,6 +133,10 @@ def build_content(sheet: Sheet | None, result: FillResult) -> ExportContent:
             if blank[i, j]:
                 texts.setdefault(j, {})[i] = text
     log = result.log
+    ids = sample_ids(sheet, result)
+    unfilled = pd.DataFrame({c: result.unfilled[c] for c in UNFILLED_COLUMNS})
+    if ids is not None:
+        unfilled["sample_id"] = _ids_of(ids, unfilled["row"])
     return ExportContent(
         frame=frame,
         names=names,
@@ -140,9 +147,10 @@ def build_content(sheet: Sheet | None, result: FillResult) -> ExportContent:
         originals=originals,
         log=log,
         log_cells=_positions(frame, log),
-        log_table=log_table(log),
-        unfilled=pd.DataFrame({c: result.unfilled[c] for c in UNFILLED_COLUMNS}),
+        log_table=log_table(log, ids),
+        unfilled=unfilled,
         layout=_layout(sheet, frame, any(units)),
+        sample_ids=ids,
     )
 
 
@@ -243,11 +251,35 @@ def join_text(values: Iterable[Any] | None, fmt: Callable[[Any], str] = value_te
     return "; ".join(map(fmt, values))
 
 
-def log_table(log: pd.DataFrame) -> pd.DataFrame:
+def sample_ids(sheet: Sheet | None, result: FillResult) -> pd.Series | None:
+    """The lab's name of every row (row label to text), or None when the sheet has none.
+
+    The names come from the plan's ``id_column``, else the first carried identifier.
+    """
+    plan = result.plan
+    name = getattr(plan, "id_column", None)
+    if name is None and sheet is not None:
+        carried = set(plan.carried_columns)
+        name = next((c.name for c in sheet.columns if c.kind == "identifier" and c.name in carried), None)
+    if name is None or name not in result.frame.columns:
+        return None
+    values = result.frame[name]
+    return pd.Series([value_text(v) for v in values], index=values.index, dtype=object)
+
+
+def _ids_of(ids: pd.Series, rows: Iterable[Any]) -> list[str]:
+    """The sample ID of each row label ("" for a label the sheet does not have)."""
+    at = ids.index.get_indexer(pd.Index(list(rows)))
+    values = ids.to_numpy(dtype=object)
+    return [values[i] if i >= 0 else "" for i in at.tolist()]
+
+
+def log_table(log: pd.DataFrame, ids: pd.Series | None = None) -> pd.DataFrame:
     """Return ``FillResult.log`` as an export table (columns ``words.EXPORT_LOG_COLUMNS``).
 
     Tuples (donors, distances, donor values) become ``"; "``-joined text; the value
     keeps its type (number or text); ``spread`` stays a float (NaN when not applicable).
+    ``ids`` (row label to sample ID) fills ``sample_id``; without it the column is empty.
     """
     n = len(log)
     if n == 0:
@@ -269,6 +301,13 @@ def log_table(log: pd.DataFrame) -> pd.DataFrame:
             "spread": pd.to_numeric(log["spread"], errors="coerce").astype(float),
             "support": log["support"].fillna("").astype(str).to_numpy(dtype=object),
             "note": log["note"].fillna("").astype(str).to_numpy(dtype=object),
+            # the cell's text in the sheet ("n.d.", "NA"); a log made by an older engine has none
+            "original_text": (
+                log["original_text"].fillna("").astype(str).to_numpy(dtype=object)
+                if "original_text" in log.columns
+                else np.full(n, "", dtype=object)
+            ),
+            "sample_id": _ids_of(ids, log["row"]) if ids is not None else np.full(n, "", dtype=object),
         },
         index=pd.RangeIndex(n),
     )
@@ -293,7 +332,7 @@ def cell_comments(content: ExportContent) -> dict[tuple[int, int], str]:
     for (i, j), entry in zip(content.log_cells.tolist(), entries, strict=True):
         if i >= 0 and j >= 0:
             number = content.kinds[j] == "number"
-            comments[(i, j)] = _log_comment(entry, content.originals.get((i, j)), number)
+            comments[(i, j)] = _log_comment(entry, content.originals.get((i, j)), number, content.sample_ids)
     rows, cols = np.nonzero(content.marks == CENSORED)
     for i, j in zip(rows.tolist(), cols.tolist(), strict=True):
         if (i, j) not in comments:
@@ -303,7 +342,9 @@ def cell_comments(content: ExportContent) -> dict[tuple[int, int], str]:
     return comments
 
 
-def _log_comment(entry: Mapping[Any, Any], original: str | None, number: bool) -> str:
+def _log_comment(
+    entry: Mapping[Any, Any], original: str | None, number: bool, ids: pd.Series | None = None
+) -> str:
     method = str(entry["method"])
     value = value_text(entry["value"])
     censored = f'Censored entry "{original}"' if original else "Censored entry"
@@ -319,7 +360,7 @@ def _log_comment(entry: Mapping[Any, Any], original: str | None, number: bool) -
     interval = _interval_line(entry)
     if interval:
         lines.append(interval)
-    lines += _donor_lines(entry)
+    lines += _donor_lines(entry, ids)
     spread = entry["spread"]
     if spread is not None and not (isinstance(spread, float) and math.isnan(spread)):
         label = "Spread (SD of donor values)" if number else "Spread (vote share of the chosen class)"
@@ -342,14 +383,15 @@ def _interval_line(entry: Mapping[Any, Any]) -> str:
     return f"Interval (see the note for its level): {value_text(lower)} to {value_text(upper)}"
 
 
-def _donor_lines(entry: Mapping[Any, Any]) -> list[str]:
+def _donor_lines(entry: Mapping[Any, Any], ids: pd.Series | None = None) -> list[str]:
     donors = tuple(entry["donors"] or ())
     if not donors:
         return []
     shown = slice(0, COMMENT_DONORS)
     more = f" (+{len(donors) - COMMENT_DONORS} more in the Fill log)" if len(donors) > COMMENT_DONORS else ""
+    named = f" (samples {', '.join(_ids_of(ids, donors[shown]))})" if ids is not None else ""
     return [
-        f"Donor rows: {join_text(donors[shown], str)}{more}",
+        f"Donor rows: {join_text(donors[shown], str)}{named}{more}",
         f"Distances: {join_text(tuple(entry['distances'])[shown], distance_text)}",
         f"Donor values: {join_text(tuple(entry['donor_values'])[shown])}",
     ]

@@ -13,6 +13,7 @@ and a run record is read only up to the plan-file size limit.
 from __future__ import annotations
 
 import json
+import re
 from collections.abc import Mapping, Sequence
 from os import PathLike
 from pathlib import Path
@@ -28,7 +29,17 @@ from imputer_app.sheets._write_csv import side_files
 #: Label of the exact plan row an xlsx export may carry in "About this fill".
 PLAN_JSON_LABELS = ("plan (json)", "plan json")
 _LIST_KEYS = ("similarity_columns", "fill_columns", "carried_columns")
-_TABLE_TYPES: dict[str, type] = {"weights": float, "decimals": int, "kinds": str, "k_by_column": int}
+_TABLE_TYPES: dict[str, type] = {
+    "weights": float,
+    "decimals": int,
+    "kinds": str,
+    "markers": str,
+    "limits": float,
+    "k_by_column": int,
+}
+_BOOL_KEYS = ("fill_formula_errors",)
+#: "About this fill (2)": the name an export of an export gives its own record sheet.
+_ABOUT_AGAIN = re.compile(rf"^{re.escape(ABOUT_SHEET)} \((\d+)\)$")
 
 
 def read_export_plan(path: str | PathLike[str]) -> FillPlan:
@@ -112,11 +123,10 @@ def _plan_in_workbook(path: Path) -> Mapping[str, Any]:
     except Exception as exc:  # openpyxl raises many kinds for a damaged file
         raise PlanError(f"cannot open {path.name} to read its plan: {exc}") from None
     try:
-        if ABOUT_SHEET not in book.sheetnames:
+        about = newest_about_sheet(book.sheetnames)
+        if about is None:
             raise PlanError(f"{path.name} has no sheet {ABOUT_SHEET!r}; is it a Kinfill export?")
-        rows = [
-            (r[0], r[1] if len(r) > 1 else None) for r in book[ABOUT_SHEET].iter_rows(values_only=True) if r
-        ]
+        rows = [(r[0], r[1] if len(r) > 1 else None) for r in book[about].iter_rows(values_only=True) if r]
     finally:
         book.close()
     for key, value in rows:
@@ -128,6 +138,18 @@ def _plan_in_workbook(path: Path) -> Mapping[str, Any]:
             if isinstance(plan, dict):
                 return plan
     return plan_from_about_rows(rows, path.name)
+
+
+def newest_about_sheet(names: Sequence[str]) -> str | None:
+    """The record sheet of the latest fill: "About this fill (N)" with the highest N.
+
+    An export exported again keeps the first fill's "About this fill" and adds its own
+    under the next free name; the newest plan is the one to repeat.
+    """
+    numbered = [(int(m.group(1)), name) for name in names if (m := _ABOUT_AGAIN.match(name))]
+    if numbered:
+        return max(numbered)[1]
+    return ABOUT_SHEET if ABOUT_SHEET in names else None
 
 
 def plan_from_about_rows(rows: Sequence[tuple[Any, Any]], name: str) -> dict[str, Any]:
@@ -155,6 +177,8 @@ def plan_from_about_rows(rows: Sequence[tuple[Any, Any]], name: str) -> dict[str
             data[field] = [p for p in str(text).split("; ") if p] if text != "" else []
         elif field in _TABLE_TYPES:
             data[field] = {c: _TABLE_TYPES[field](v) for c, v in _pairs(str(text)).items()}
+        elif field in _BOOL_KEYS:
+            data[field] = text is True or str(text).strip().lower() == "true"
         elif field in ("k", "format"):
             data[field] = int(float(text))
         elif field == "interval_level":

@@ -48,6 +48,8 @@ _ERROR_VALUE = re.compile(rb"<v>([^<]*)</v>")
 _NO_VALUE = re.compile(
     rb'<c\b[^>]*?\sr="([A-Z]{1,4})(\d{1,10})"[^>]*>\s*<f\b(?:[^>]*/>|[^>]*>[^<]*</f>)\s*</c>'
 )
+# A cell whose first child is a formula (ECMA-376 Part 1, sec. 18.3.1.4: <f> comes before <v>).
+_FORMULA = re.compile(rb'<c\b[^>]*?\sr="([A-Z]{1,4})(\d{1,10})"[^>/]*>\s*<f\b')
 _TABLE = "urn:oasis:names:tc:opendocument:xmlns:table:1.0"
 
 
@@ -67,6 +69,8 @@ class Extent:
         that error text ("#DIV/0!").
     no_value : set of (int, int)
         0-based (row, column) of formula cells saved without a value.
+    formulas : dict of int to ndarray of int
+        Per 0-based column, the 0-based rows of its formula cells (computed columns).
     """
 
     rows: int = 0
@@ -75,6 +79,7 @@ class Extent:
     far_column: str = ""
     errors: dict[tuple[int, int], str] = field(default_factory=dict)
     no_value: set[tuple[int, int]] = field(default_factory=set)
+    formulas: dict[int, np.ndarray] = field(default_factory=dict)
 
     def see(self, row: int, column: int) -> None:
         """Take note of a used cell at 1-based ``row`` and ``column``."""
@@ -200,7 +205,19 @@ def _scan_xlsx(package: zipfile.ZipFile, part: str, extent: Extent, exact: bool 
         if b"<f" in chunk:
             for letters, row_text in _NO_VALUE.findall(chunk):
                 extent.no_value.add((int(row_text) - 1, column_number(letters) - 1))
+            _see_formulas(extent, _FORMULA.findall(chunk))
     return all_exact
+
+
+def _see_formulas(extent: Extent, found: list[tuple[bytes, bytes]]) -> None:
+    """Add the formula cells ``found`` ((letters, row) pairs) to ``extent.formulas``, by column."""
+    by_column: dict[int, list[int]] = {}
+    for letters, row_text in found:
+        by_column.setdefault(column_number(letters) - 1, []).append(int(row_text) - 1)
+    for column, rows in by_column.items():
+        old = extent.formulas.get(column)
+        new = np.asarray(rows, dtype=np.int64)
+        extent.formulas[column] = new if old is None else np.concatenate([old, new])
 
 
 def _bounds(chunk: bytes) -> tuple[int, int] | None:

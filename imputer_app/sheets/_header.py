@@ -13,7 +13,9 @@ the columns they cover. The rules:
 - the row right under the header is a units row when it holds no numbers and at least
   half of its filled cells look like units;
 - a header cell covered by a merged range takes the range's text; a merged range in the
-  row above the header spanning several columns is a group label ("Anions: Cl");
+  row above the header across the width of the table is a title (left out of the
+  names); one spanning a few columns is a group label ("Cations"), kept as a column
+  fact and added to the names only where they would otherwise repeat ("Soil: Ca");
 - otherwise a unit may come from the name: "nitrate [mg/L]" or "nitrate (mg/L)".
 """
 
@@ -81,6 +83,7 @@ class Layout:
     data_start: int
     names: tuple[str, ...]
     units_text: tuple[str | None, ...]
+    groups: tuple[str, ...] = ()
 
 
 def _zone_class(value: object, markers: Markers) -> int:
@@ -117,13 +120,13 @@ def find_layout(
         header, first = _find_header(classes)
     if header is None:
         return Layout(None, None, first, ("",) * grid.shape[1], (None,) * grid.shape[1])
-    names = _header_names(grid, header, merges)
+    names, groups = _header_names(grid, header, merges)
     units = header + 1 if header + 1 < zone_end and _is_units_row(grid, classes, header + 1) else None
     if units is not None:
         units_text = tuple(_unit_cell(value) for value in grid[units])
     else:
         units_text = tuple(unit_from_name(name) for name in names)
-    return Layout(header, units, (units if units is not None else header) + 1, names, units_text)
+    return Layout(header, units, (units if units is not None else header) + 1, names, units_text, groups)
 
 
 def _find_header(classes: np.ndarray) -> tuple[int | None, int]:
@@ -155,7 +158,16 @@ def _header_or_data(classes: np.ndarray, row: int) -> tuple[int | None, int]:
     return (row, row + 1) if (classes[row] == _TEXT).any() else (None, row)
 
 
-def _header_names(grid: np.ndarray, header: int, merges: tuple[Merge, ...]) -> tuple[str, ...]:
+def _header_names(
+    grid: np.ndarray, header: int, merges: tuple[Merge, ...]
+) -> tuple[tuple[str, ...], tuple[str, ...]]:
+    """The header's names and each column's group label ("" for none).
+
+    A range merged in the row above the header across the whole width of the named
+    columns is the sheet's title, not a group. A group label enters a name only where
+    names would otherwise repeat ("Soil: Ca" and "Water: Ca"); elsewhere it stays a
+    column fact.
+    """
     names = [cell_text(value) if is_filled(value) else "" for value in grid[header]]
     groups = [""] * len(names)
     for (top, left), (bottom, right) in merges:
@@ -166,14 +178,23 @@ def _header_names(grid: np.ndarray, header: int, merges: tuple[Merge, ...]) -> t
             # a header label merged across columns: every covered column shares it
             for column in range(left + 1, min(right + 1, len(names))):
                 names[column] = names[column] or names[left]
-        elif bottom == header - 1 and right > left:
-            label = cell_text(grid[top, left])
-            for column in range(left, min(right + 1, len(names))):
-                groups[column] = label
-    return tuple(
-        f"{group}: {name}" if group and name else name or group
+    named = [j for j, name in enumerate(names) if name]
+    for (top, left), (bottom, right) in merges:
+        if bottom != header - 1 or right <= left:
+            continue
+        if named and left <= named[0] and right >= named[-1] and len(named) > 1:
+            continue  # a title across the table's width
+        label = cell_text(grid[top, left])
+        for column in range(left, min(right + 1, len(names))):
+            groups[column] = label
+    counts: dict[str, int] = {}
+    for name in names:
+        counts[name] = counts.get(name, 0) + 1
+    full = tuple(
+        f"{group}: {name}" if group and name and counts[name] > 1 else name or group
         for group, name in zip(groups, names, strict=True)
     )
+    return full, tuple(groups)
 
 
 def _is_units_row(grid: np.ndarray, classes: np.ndarray, row: int) -> bool:

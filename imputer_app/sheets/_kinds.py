@@ -182,10 +182,11 @@ def build(parsed: ParsedColumn, detected: Detected) -> Built:
     number column are NaN with state censored; cells that cannot be read as the kind
     are NaN with state text_in_number; cached formula errors are NaN with state
     formula_error in every kind (not gaps: they are filled only when the user says so);
-    a formula saved without its result is a gap (state missing).
+    so is a formula saved without its result (a spreadsheet program computes it on
+    opening; writing a fill there would replace the lab's formula).
     """
     cls = parsed.cls
-    gaps = np.isin(cls, (BLANK, MARKER, NO_VALUE))
+    gaps = np.isin(cls, (BLANK, MARKER))
     states = np.full(cls.shape[0], OBSERVED, dtype=np.int8)
     states[gaps] = MISSING
     kind = detected.kind
@@ -201,7 +202,7 @@ def build(parsed: ParsedColumn, detected: Detected) -> Built:
         values = np.full(cls.shape[0], np.nan)
     else:
         values = category_text(parsed)
-    states[cls == FORMULA_ERROR] = FORMULA_ERROR_STATE
+    states[np.isin(cls, (FORMULA_ERROR, NO_VALUE))] = FORMULA_ERROR_STATE
     return Built(values, states)
 
 

@@ -14,8 +14,9 @@ import numpy as np
 import pandas as pd
 
 #: Every state a cell can be in, as used in ``Sheet.states``.
-#: ``formula_error`` is a cell whose formula's cached result is an error (``#DIV/0!``):
-#: NaN in the frame like a gap, but not a gap to fill unless the user says so.
+#: ``formula_error`` is a formula cell without a usable result: its cached result is an
+#: error (``#DIV/0!``) or none was stored. NaN in the frame like a gap, but not a gap to
+#: fill unless the user says so.
 CELL_STATES = ("observed", "missing", "censored", "text_in_number", "formula_error")
 
 #: Column kinds detected on reading (a plan may force ``number`` or ``category``).
@@ -41,6 +42,15 @@ class ColumnInfo:
         Plain-words remarks from detection ("renamed from a blank header", ...).
     original_name : str
         The header text as found in the file.
+    carry_reason : str or None
+        Why the default plan must carry this column untouched, when the sheet knows
+        (a computed column: most of its cells are formulas).
+    group_like : bool
+        A number column of a few distinct whole values (block, plot, replicate):
+        offered as a category and as a group column.
+    group_label : str
+        The label merged over this column and its neighbours above the header
+        ("Cations"); "" when none. It enters ``name`` only where names would repeat.
     """
 
     name: str
@@ -48,6 +58,28 @@ class ColumnInfo:
     unit: str | None = None
     notes: tuple[str, ...] = ()
     original_name: str = ""
+    carry_reason: str | None = None
+    group_like: bool = False
+    group_label: str = ""
+
+
+@dataclass(frozen=True)
+class MarkerFound:
+    """One marker text found in a sheet's cells.
+
+    Attributes
+    ----------
+    text : str
+        The text as written in the first cell found ("n.d.").
+    meaning : {"missing", "below-limit"}
+        A missing value (a gap), or an entry below the limit of detection (censored).
+    count : int
+        Cells holding it (compared trimmed and case-insensitively).
+    """
+
+    text: str
+    meaning: str
+    count: int
 
 
 @dataclass(frozen=True)
@@ -72,6 +104,9 @@ class SourceInfo:
         1-based row number of a units row, if one was found.
     line_end : str or None
         The line ending of a delimited file (LF, CR LF or CR).
+    limit_row : int or None
+        1-based row number of a row giving each column's limit of detection ("LOD"),
+        taken out of the data.
     """
 
     path: Path
@@ -84,6 +119,7 @@ class SourceInfo:
     encoding: str | None = None
     units_row: int | None = None
     line_end: str | None = None
+    limit_row: int | None = None
 
 
 @dataclass
@@ -114,6 +150,10 @@ class Sheet:
         For a delimited file, every cell's text exactly as in the file (spaces kept), so
         an export can write carried and observed cells back unchanged. The same string
         objects the parser made, so it costs one pointer a cell. None for workbooks.
+    markers : tuple of MarkerFound
+        The marker texts found ("n.d.", "NA", "<LOD") with their meaning and count,
+        most frequent first; ``read_sheet(..., markers={"n.d.": "missing"})`` changes
+        a meaning.
     """
 
     frame: pd.DataFrame
@@ -123,6 +163,7 @@ class Sheet:
     cell_notes: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=list(NOTE_COLUMNS)))
     problems: list[str] = field(default_factory=list)
     raw_text: np.ndarray | None = field(default=None, repr=False, compare=False)
+    markers: tuple[MarkerFound, ...] = ()
 
     def column(self, name: str) -> ColumnInfo:
         """Return the :class:`ColumnInfo` called ``name``."""

@@ -10,7 +10,7 @@ The source file is only ever opened for reading.
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from os import PathLike
 from pathlib import Path
 
@@ -22,13 +22,16 @@ from imputer_app.sheets._assemble import Column, assemble, resolve_kinds
 from imputer_app.sheets._cells import (
     BLANK,
     DEFAULT_MARKERS,
+    MARKER_MEANINGS,
     Markers,
     ParsedColumn,
     make_markers,
     parse_column,
 )
+from imputer_app.sheets._facts import COMPUTED_REASON, is_computed, is_group_like
 from imputer_app.sheets._grid import Merge
 from imputer_app.sheets._header import Layout, find_layout, unique_names
+from imputer_app.sheets._limits import markers_found, take_limit_row
 from imputer_app.sheets._model import ColumnInfo, Sheet, SourceInfo
 from imputer_app.sheets._workbook import list_workbook_sheets, read_workbook
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
@@ -52,6 +55,7 @@ class _Grid:
     delimiter: str | None = None
     encoding: str | None = None
     line_end: str | None = None
+    formulas: Mapping[int, np.ndarray] = field(default_factory=dict)
 
 
 def list_sheets(path: str | PathLike[str]) -> list[str]:
@@ -92,7 +96,7 @@ def read_sheet(
     path: str | PathLike[str],
     sheet: str | int | None = None,
     header_row: int | None = None,
-    markers: Iterable[str | float] | None = None,
+    markers: Iterable[str | float] | Mapping[str, str] | None = None,
     *,
     kinds: Mapping[str, str] | None = None,
     delimiter: str | None = None,
@@ -114,10 +118,13 @@ def read_sheet(
     header_row : int, optional
         1-based file row of the header; default detected (title, metadata and blank
         rows above it are skipped). ``0`` means the table has no header row.
-    markers : iterable of str or float, optional
-        Missing-value markers *added to* :data:`DEFAULT_MARKERS` (NA, N/A, n.d., nd, -,
-        --, ?, missing, #N/A, NaN; trimmed and case-insensitive). Numeric markers such
-        as ``-999`` match by value and apply only when given here.
+    markers : iterable of str or float, or mapping of str to str, optional
+        Missing-value markers *added to* :data:`DEFAULT_MARKERS` (NA, N/A, -, --, ?,
+        missing, lost, #N/A, NaN; trimmed and case-insensitive). Numeric markers such
+        as ``-999`` match by value and apply only when given here. A mapping gives
+        each marker its meaning, ``"missing"`` or ``"below-limit"``
+        (``{"n.d.": "missing", "-": "below-limit"}``); by default n.d., nd and "not
+        detected" are below the limit of detection, like "BDL", "<LOD" and "<LOQ".
     kinds : mapping of str to str, optional
         Force a column's kind: ``{"site": "category"}``; one of number, category, date,
         identifier. Keys are column names (or original header texts).
@@ -167,7 +174,7 @@ def read_sheet(
     where = f"sheet '{grid.sheet}' of '{source.name}'" if grid.sheet else f"'{source.name}'"
     if header_row is not None and header_row > grid.cells.shape[0]:
         raise SheetError(f"header_row {header_row} is beyond the last row ({grid.cells.shape[0]}) of {where}")
-    marker_set = make_markers(markers)
+    marker_set = _marker_set(markers)
     layout = find_layout(grid.cells, grid.merges, marker_set, header_row)
     if decimal is None:
         sample = grid.cells[layout.data_start : layout.data_start + _DECIMAL_SAMPLE_ROWS]
@@ -176,10 +183,18 @@ def read_sheet(
     columns, rows, row_problems = _parse_body(
         grid.cells, layout, marker_set, decimal, where, progress, cancel
     )
+    columns, rows, limits, limit_row = take_limit_row(columns, rows)
+    if limit_row is not None:
+        row_problems.append(
+            f"row {limit_row} gives limits of detection for {len(limits)} column(s); "
+            "taken as their limits, not as a sample"
+        )
     forced = resolve_kinds(columns, kinds, where)
     built = assemble(columns, rows, forced, workbook=grid.sheet is not None, cancel=cancel)
+    groups = layout.groups or ("",) * grid.cells.shape[1]
     infos = [
-        ColumnInfo(c.name, built.kinds[c.name], c.unit, built.notes[c.name], c.original) for c in columns
+        _info(c, built.kinds[c.name], built.notes[c.name], rows, grid.formulas, groups[c.position])
+        for c in columns
     ]
     info = SourceInfo(
         path=source.absolute(),
@@ -192,6 +207,7 @@ def read_sheet(
         encoding=grid.encoding,
         units_row=layout.units + 1 if layout.units is not None else None,
         line_end=grid.line_end,
+        limit_row=limit_row,
     )
     raw = np.stack([c.parsed.raw for c in columns], axis=1) if grid.sheet is None else None
     report(progress, PROGRESS_TOTAL, PROGRESS_TOTAL)
@@ -203,7 +219,42 @@ def read_sheet(
         cell_notes=built.cell_notes,
         problems=problems + row_problems + built.problems,
         raw_text=raw,
+        markers=markers_found(built.cell_notes, marker_set.below),
     )
+
+
+def _info(
+    column: Column,
+    kind: str,
+    notes: tuple[str, ...],
+    rows: np.ndarray,
+    formulas: Mapping[int, np.ndarray],
+    group: str,
+) -> ColumnInfo:
+    """The column's facts, with the reason to carry it when it is computed by formulas."""
+    computed = is_computed(column.parsed, column.position, rows, formulas)
+    return ColumnInfo(
+        column.name,
+        kind,
+        column.unit,
+        notes,
+        column.original,
+        carry_reason=COMPUTED_REASON if computed else None,
+        group_like=kind == "number" and is_group_like(column.parsed),
+        group_label=group,
+    )
+
+
+def _marker_set(markers: Iterable[str | float] | Mapping[str, str] | None) -> Markers:
+    """Markers from a list (more missing markers) or a mapping of marker to meaning."""
+    if not isinstance(markers, Mapping):
+        return make_markers(markers)
+    for text, meaning in markers.items():
+        if meaning not in MARKER_MEANINGS:
+            raise SheetError(
+                f"marker {text!r} must mean one of {', '.join(MARKER_MEANINGS)}; got {meaning!r}"
+            )
+    return make_markers(None, markers)
 
 
 def _check_decimal(decimal: str | None, path: Path) -> str | None:
@@ -225,7 +276,7 @@ def _load_grid(
         _guards.check_workbook_bytes(data, path, fmt)
         raise_if_cancelled(cancel)
         book = read_workbook(data, path, fmt, sheet)
-        return _Grid(book.cells, book.merges, book.sheet)
+        return _Grid(book.cells, book.merges, book.sheet, formulas=book.formulas)
     if sheet not in (None, 0, path.stem):
         raise SheetError(f"'{path.name}' is a text file with one table; there is no sheet {sheet!r}")
     utf16 = _text.is_utf16(data) or _text.is_wide_codec(encoding)

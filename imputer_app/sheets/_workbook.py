@@ -11,7 +11,7 @@ without a stored value are put back into the grid as :class:`FormulaError` and
 from __future__ import annotations
 
 import io
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -29,6 +29,7 @@ class WorkbookGrid:
     cells: np.ndarray
     sheet: str
     merges: tuple[Merge, ...]
+    formulas: dict[int, np.ndarray] = field(default_factory=dict)
 
 
 def _open(source: Path | bytes, path: Path, fmt: str) -> calamine.CalamineWorkbook:
@@ -131,7 +132,7 @@ def read_workbook(data: bytes, path: Path, fmt: str, sheet: str | int | None) ->
         workbook.close()
     cells = rows_to_grid(rows)
     _mark_formula_cells(cells, extent)
-    return WorkbookGrid(cells=cells, sheet=name, merges=merges)
+    return WorkbookGrid(cells=cells, sheet=name, merges=merges, formulas=extent.formulas)
 
 
 def _mark_formula_cells(cells: np.ndarray, extent: Extent) -> None:

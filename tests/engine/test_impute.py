@@ -83,7 +83,7 @@ def test_log_rows_explain_each_fill() -> None:
     log = result.log
     assert list(log.columns) == [
         "row", "column", "value", "original_state", "method", "k", "donors",
-        "distances", "donor_values", "spread", "support", "note", "lower", "upper",
+        "distances", "donor_values", "spread", "support", "note", "lower", "upper", "original_text",
     ]  # fmt: skip
     row = log[(log["row"] == 2) & (log["column"] == "ph")].iloc[0]
     # row 2 has only nitrate 1.1: nearest site-A rows with ph are 1 (1.2) and 0 (1.0), tied (in
@@ -158,7 +158,9 @@ def test_no_donor_column_mean_is_reported() -> None:
 
 def test_constant_column_is_left_out_with_a_warning() -> None:
     frame = random_frame(30, 3, 0.1, seed=2).assign(const=5.0)
-    result = impute(frame, FillPlan())
+    result = impute(frame, FillPlan())  # the default carries a constant column
+    assert "const" in result.plan.carried_columns and not result.warnings
+    result = impute(frame, FillPlan(similarity_columns=("c0", "c1", "c2", "const")))
     assert "column 'const' is constant; left out of the distance" in result.warnings
     assert not result.frame.isna().any().any()
     ref = impute(frame.drop(columns="const"), FillPlan())

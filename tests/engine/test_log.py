@@ -20,6 +20,7 @@ LOG_DTYPES = {
     "row": "int64", "column": "str", "value": "object", "original_state": "str", "method": "str",
     "k": "int64", "donors": "object", "distances": "object", "donor_values": "object",
     "spread": "float64", "support": "str", "note": "str", "lower": "float64", "upper": "float64",
+    "original_text": "str",
 }  # fmt: skip
 
 

@@ -38,7 +38,12 @@ def test_what_is_not_a_table_nor_sheet_like_is_refused(data: object, named: str)
 
 def test_sheet_column_kinds_decide_roles() -> None:
     frame = pd.DataFrame(
-        {"id": ["a", "a", "b"], "when": ["x", "y", "z"], "v": [1.0, np.nan, 3.0], "w": [1.0, 2, 3]}
+        {
+            "id": ["a", "a", "b", "b"],
+            "when": ["x", "y", "z", "u"],
+            "v": [1.0, np.nan, 3, 4],
+            "w": [1.0, 2, 3, 5],
+        }
     )
     sheet = fake_sheet(frame, [])
     sheet.columns = [
@@ -49,6 +54,8 @@ def test_sheet_column_kinds_decide_roles() -> None:
     ]
     assert default_roles(sheet) == {"id": "carried", "when": "carried", "v": "fill", "w": "similarity"}
     assert default_roles(frame)["id"] == "similarity"  # a DataFrame's repeated text is a category
+    # ... used only with few levels, each seen twice on average: three of four is free text
+    assert default_roles(frame.assign(id=["a", "b", "b", "c"]))["id"] == "carried"
 
 
 @pytest.mark.parametrize("scaling", ["zscore", "range", "robust", "none"])

@@ -45,7 +45,7 @@ def test_preview_shows_the_first_rows_with_markers(dialog, qtbot):
     assert sheet.source.sheet == "Spring" and list(sheet.frame.columns) == ["site", "pH", "NO3"]
     model = dialog.model
     assert model.rowCount() == 3
-    assert model.data(model.index(2, 2)).startswith(MARKERS["missing"].symbol)  # n.d.
+    assert model.data(model.index(2, 2)).startswith(MARKERS["censored"].symbol)  # n.d.: below the limit
     assert "3 rows × 3 columns" in dialog.status.text()
 
 

@@ -23,7 +23,6 @@ from imputer_app.sheets._cells import (
     CENSORED,
     DATE,
     DEFAULT_MARKERS,
-    MARKER,
     NUMBER,
     TEXT,
     make_markers,
@@ -46,13 +45,34 @@ def _one_cell(tmp_path: Path, cell: str, sep: str = ",", **options: Any) -> tupl
     return float(str(sheet.frame.loc[6, "x"])), str(sheet.states.loc[6, "x"]), notes
 
 
-@pytest.mark.parametrize(
-    "marker", [*DEFAULT_MARKERS, "na", "n/a", "N.D.", "ND", " NA ", "Missing", "#n/a", "nan"]
-)
+@pytest.mark.parametrize("marker", [*DEFAULT_MARKERS, "na", "n/a", " NA ", "Missing", "LOST", "#n/a", "nan"])
 def test_default_markers_are_missing(tmp_path: Path, marker: str) -> None:
     value, state, notes = _one_cell(tmp_path, marker)
     assert math.isnan(value) and state == "missing"
     assert notes[["state", "text", "side"]].values.tolist() == [["missing", marker.strip(), ""]]
+
+
+@pytest.mark.parametrize("marker", ["n.d.", "N.D.", "ND", "not detected", " nd "])
+def test_not_detected_markers_are_below_an_unknown_limit(tmp_path: Path, marker: str) -> None:
+    # common practice in analytical labs, no source: "n.d." is below the limit of detection
+    value, state, notes = _one_cell(tmp_path, marker)
+    assert math.isnan(value) and state == "censored"
+    assert notes[["state", "text", "side"]].values.tolist() == [["censored", marker.strip(), "<"]]
+    assert math.isnan(notes["limit"].iloc[0])
+
+
+@pytest.mark.parametrize(
+    ("cell", "meanings", "state"),
+    [
+        ("n.d.", {"n.d.": "missing"}, "missing"),
+        ("N.D.", {"n.d.": "missing"}, "missing"),
+        ("-", {"-": "below-limit"}, "censored"),
+        ("BDL", {"bdl": "missing"}, "missing"),
+        ("NA", {}, "missing"),
+    ],
+)
+def test_user_gives_a_marker_its_meaning(tmp_path: Path, cell: str, meanings: dict, state: str) -> None:
+    assert _one_cell(tmp_path, cell, markers=meanings)[1] == state
 
 
 def test_blank_cell_is_missing_without_a_note(tmp_path: Path) -> None:
@@ -69,7 +89,7 @@ def test_blank_cell_is_missing_without_a_note(tmp_path: Path) -> None:
         ("-999,0", ["-999"], "observed", math.nan),  # "," is not this file's decimal mark: text
         ("9999", ["-999"], "observed", 9999.0),
         ("ERR", ["err"], "missing", math.nan),
-        ("n.d.", ["-999"], "missing", math.nan),  # given markers extend the defaults
+        ("NA", ["-999"], "missing", math.nan),  # given markers extend the defaults
     ],
 )
 def test_user_markers_extend_defaults(
@@ -185,7 +205,7 @@ def test_number_spellings(tmp_path: Path, cell: str, expected: float) -> None:
         (["2024-03-01", "2024-03-02", "2024-03-03", "", "2024-03-05"], "date"),
         (["01.03.2024", "02.03.2024", "15.03.2024", "NA", "31.12.2024"], "date"),
         (["10:30", "11:45", "12:00", "13:15", "14:00"], "date"),
-        (["", "NA", "-", "", "n.d."], "empty"),
+        (["", "NA", "-", "", "lost"], "empty"),
         (["a", "1", "2", "a", "b"], "category"),  # 2 of 5 numbers: not a number column
         (["001", "002", "003", "010", "011"], "identifier"),  # zero-padded codes keep their text
         (["01", "02", "01", "02", ""], "category"),
@@ -262,7 +282,8 @@ def test_parse_column_mixed_python_types() -> None:
         [1.5, "", " 7,5 ", "n.d.", True, dt.datetime(2024, 1, 1), 3, "<2", "x", None], dtype=object
     )
     parsed = parse_column(raw, ",", make_markers())
-    assert parsed.cls.tolist() == [NUMBER, BLANK, NUMBER, MARKER, BOOL, DATE, NUMBER, CENSORED, TEXT, BLANK]
+    # "n.d." is below an unknown limit of detection: a censored cell
+    assert parsed.cls.tolist() == [NUMBER, BLANK, NUMBER, CENSORED, BOOL, DATE, NUMBER, CENSORED, TEXT, BLANK]
     np.testing.assert_array_equal(parsed.number, [1.5, NAN, 7.5, NAN, NAN, NAN, 3.0, NAN, NAN, NAN])
     assert parsed.limit[7] == 2.0 and parsed.side[7] == "<"
     assert parsed.text[8] == "x" and parsed.text[3] == "n.d."

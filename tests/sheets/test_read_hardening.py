@@ -63,12 +63,13 @@ def test_formula_errors_are_their_own_state(tmp_path: Path) -> None:
     )
     sheet = read_sheet(xlsx(tmp_path / "errors.xlsx", _HEAD + body))
     states = sheet.states["b"].astype(str).tolist()
-    assert states == ["formula_error", "observed", "formula_error", "missing", "observed"]
+    # a formula with no stored value is a formula too: left alone, not a gap
+    assert states == ["formula_error", "observed", "formula_error", "formula_error", "observed"]
     assert sheet.frame["b"].isna().tolist() == [True, False, True, True, False]
     assert sheet.column("b").kind == "number"
     notes = sheet.cell_notes.set_index("row")
     assert notes.loc[2, "text"] == "#DIV/0!" and notes.loc[4, "text"] == "#N/A"  # "#N/A" is no marker here
-    assert notes.loc[5, "text"] == "formula with no stored value" and notes.loc[5, "state"] == "missing"
+    assert notes.loc[5, "text"] == "formula with no stored value" and notes.loc[5, "state"] == "formula_error"
     assert any("2 cell(s) hold a formula error such as '#DIV/0!' (cell B2)" in p for p in sheet.problems)
     assert any("cell B5 have no stored value" in p for p in sheet.problems)
 

@@ -9,7 +9,7 @@ import pytest
 from imputer_app.sheets import read_sheet
 
 
-@pytest.mark.parametrize("cells", [["", "", ""], ["NA", "", "n.d."]])
+@pytest.mark.parametrize("cells", [["", "", ""], ["NA", "", "lost"]])
 def test_a_column_without_any_value_is_reported(tmp_path: Path, cells: list[str]) -> None:
     # Such a column becomes a carried column and stays empty; without a word about it
     # the summary said "left empty: none" while a whole column stayed blank.

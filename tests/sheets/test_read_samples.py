@@ -56,6 +56,8 @@ def _assert_matches_openpyxl(path: Path, sheet_name: str, sheet: Sheet) -> None:
 def test_river_survey_workbook(samples_dir: Path) -> None:
     path = _sample(samples_dir, "river_survey.xlsx")
     assert list_sheets(path) == ["Survey"]
+    # its title is merged across the table: a title, not part of the column names
+    assert read_sheet(path).columns[3].name == "pH"
     sheet = read_sheet(path)
     assert (sheet.source.header_row, sheet.source.units_row) == (2, 3)
     assert sheet.frame.shape == (304, 10)

@@ -84,7 +84,7 @@ def test_semicolon_decimal_comma_lab_export(tmp_path: Path) -> None:
     text = (
         "Probe;Leitfähigkeit;Nitrat;Phosphat\n"
         "P1;1.234,5;7,21;<0,05\n"
-        "P2;987,0;n.d.;0,120\n"
+        "P2;987,0;lost;0,120\n"
         "P3;2.001;< 0,1;-\n"
         "P4;15;>2000;1,5e-2\n"
     )
@@ -100,7 +100,7 @@ def test_semicolon_decimal_comma_lab_export(tmp_path: Path) -> None:
     assert note(sheet, 2, "Phosphat")["limit"] == 0.05
     assert (note(sheet, 4, "Nitrat")["side"], note(sheet, 4, "Nitrat")["limit"]) == ("<", 0.1)
     assert (note(sheet, 5, "Nitrat")["side"], note(sheet, 5, "Nitrat")["limit"]) == (">", 2000.0)
-    assert (note(sheet, 3, "Nitrat")["state"], note(sheet, 3, "Nitrat")["text"]) == (MISSING, "n.d.")
+    assert (note(sheet, 3, "Nitrat")["state"], note(sheet, 3, "Nitrat")["text"]) == (MISSING, "lost")
 
 
 @pytest.mark.parametrize(
@@ -199,7 +199,7 @@ def test_tsv_prefers_tab_when_it_fits(tmp_path: Path) -> None:
 
 
 _FLOATS = st.floats(min_value=-1e6, max_value=1e6, allow_nan=False).map(lambda v: round(v, 4))
-_CELLS = st.one_of(_FLOATS, st.sampled_from(["", "NA", "n.d.", "<0.05", "< 1.5"]))
+_CELLS = st.one_of(_FLOATS, st.sampled_from(["", "NA", "lost", "<0.05", "< 1.5"]))
 
 
 @settings(max_examples=25, deadline=None)

@@ -48,7 +48,7 @@ HEADER: list[Any] = [
 UNITS: list[Any] = [None, None, None, None, "mg/L", "mg/L", "µS/cm", "°C", None, None, None]
 DATA: list[list[Any]] = [
     ["S1", " north ", dt.date(2024, 3, 1), 7.2, 0.5, 0.05, 250, 12.5, 1, 7.1, True],
-    ["S2", "south", dt.date(2024, 3, 2), "n.d.", "<0.05", 0.05, "NA", 13.0, 2, 7.0, False],
+    ["S2", "south", dt.date(2024, 3, 2), "lost", "<0.05", 0.05, "NA", 13.0, 2, 7.0, False],
     [],
     ["S3", "north", dt.date(2024, 3, 3), 7.4, "< LOD", 0.04, "broken vial", -999, 3, "-", True],
     ["S4", "east", dt.date(2024, 3, 4), "?", ">2000", None, 260, None, 4, 6.9, False],
@@ -150,7 +150,7 @@ def test_cell_notes_and_problems(tmp_path: Path, writer: str) -> None:
     np.testing.assert_array_equal(censored["limit"].to_numpy(), [0.05, 0.04, 2000.0, NAN])
     bad = note(sheet, 8, "conductivity")
     assert (bad["state"], bad["text"]) == (T, "broken vial")
-    assert (note(sheet, 6, "pH")["state"], note(sheet, 6, "pH")["text"]) == (M, "n.d.")
+    assert (note(sheet, 6, "pH")["state"], note(sheet, 6, "pH")["text"]) == (M, "lost")
     text_problem = [p for p in sheet.problems if "broken vial" in p]
     assert text_problem == [
         "'conductivity' row 8 (cell G8): 'broken vial' is not a number; it is read as a gap "
@@ -239,6 +239,33 @@ def _merged_book(path: Path, writer: str) -> Path:
     return path
 
 
+def test_title_over_the_header_and_repeated_names_in_groups(tmp_path: Path) -> None:
+    path = tmp_path / "groups.xlsx"
+    book = xlsxwriter.Workbook(str(path))
+    xsheet = book.add_worksheet()
+    xsheet.merge_range("A1:E1", "Harvest panel (invented)")  # a title right above the group row
+    xsheet.write_row(1, 1, ["Soil", None, "Water"])
+    xsheet.merge_range("B2:C2", "Soil")
+    xsheet.merge_range("D2:E2", "Water")
+    xsheet.write_row(2, 0, ["Plot", "Ca", "Mg", "Ca", "pH"])
+    for r in range(3, 7):
+        xsheet.write_row(r, 0, [f"P{r}", 1.0 + r, 2.0 + r, 3.0 + r, 6.0 + r / 10])
+    book.close()
+    sheet = read_sheet(path)
+    assert [c.name for c in sheet.columns] == ["Plot", "Soil: Ca", "Mg", "Water: Ca", "pH"]
+    assert [c.group_label for c in sheet.columns] == ["", "Soil", "Soil", "Water", "Water"]
+
+    title = tmp_path / "title.xlsx"
+    book = xlsxwriter.Workbook(str(title))
+    xsheet = book.add_worksheet()
+    xsheet.merge_range("A1:C1", "Harvest panel (invented)")  # right above the header
+    xsheet.write_row(1, 0, ["Plot", "pH", "Ca"])
+    for r in range(2, 6):
+        xsheet.write_row(r, 0, [f"P{r}", 6.0 + r / 10, 1.0 + r])
+    book.close()
+    assert [c.name for c in read_sheet(title).columns] == ["Plot", "pH", "Ca"]
+
+
 def _value_at(rows: list[list[Any]], ref: str) -> Any:
     r, c = openpyxl.utils.cell.coordinate_to_tuple(ref)
     return rows[r - 1][c - 1]
@@ -248,13 +275,13 @@ def _value_at(rows: list[list[Any]], ref: str) -> Any:
 def test_merged_header_cells(tmp_path: Path, writer: str) -> None:
     sheet = read_sheet(_merged_book(tmp_path / "merged.xlsx", writer))
     assert (sheet.source.header_row, sheet.source.units_row) == (3, 4)
-    assert [c.name for c in sheet.columns] == [
-        "Site", "Anions: Cl", "Anions: NO3", "Anions: SO4", "Cations: Na", "Cations: K",
-    ]  # fmt: skip
-    assert sheet.units["Anions: NO3"] == "mg/L" and sheet.units["Site"] is None
+    # group labels are column facts; they enter names only where names would repeat
+    assert [c.name for c in sheet.columns] == ["Site", "Cl", "NO3", "SO4", "Na", "K"]
+    assert [c.group_label for c in sheet.columns] == ["", "Anions", "Anions", "Anions", "Cations", "Cations"]
+    assert sheet.units["NO3"] == "mg/L" and sheet.units["Site"] is None
     assert sheet.frame["Site"].tolist() == ["north", "north", "south"]  # merged data cell spread
     assert sheet.states["Site"].astype(str).tolist() == [OBS, OBS, OBS]
-    assert sheet.frame["Cations: K"].tolist() == [1.5, 1.6, 2.5]
+    assert sheet.frame["K"].tolist() == [1.5, 1.6, 2.5]
     assert any("merged cell range" in p for p in sheet.problems)
 
 
@@ -316,7 +343,7 @@ def test_xls_written_by_hand(tmp_path: Path) -> None:
         (2, 0, "site"), (2, 1, "nitrate"), (2, 2, "pH"),
         (3, 1, "mg/L"),
         (4, 0, "north"), (4, 1, 0.5), (4, 2, 7.25),
-        (5, 0, "south"), (5, 1, "<0.05"), (5, 2, "n.d."),
+        (5, 0, "south"), (5, 1, "<0.05"), (5, 2, "lost"),
         (6, 0, "east"), (6, 1, 1.5), (6, 2, 6.75),
     ]  # fmt: skip
     path = tmp_path / "old.xls"
@@ -400,7 +427,7 @@ def test_random_table_every_cell(tmp_path: Path, seed: int, writer: str) -> None
             if k == "number"
             else None
             if k == "blank"
-            else "n.d."
+            else "lost"
             if k == "marker"
             else f"<{abs(v):.2f}"
             for v, k in zip(row, kinds, strict=True)

@@ -104,7 +104,8 @@ def test_fill_log_csv_matches_the_log(lab_csv) -> None:
     _, result, files = lab_csv
     rows = read_rows(files[1])
     assert rows[0] == ["row", "column", "original_state", "method", "value", "lower", "upper", "k",
-                       "donors", "distances", "donor_values", "spread", "support", "note"]  # fmt: skip
+                       "donors", "distances", "donor_values", "spread", "support", "note",
+                       "original_text", "sample_id"]  # fmt: skip
     assert len(rows) == len(result.log) + 1
     for line, entry in zip(rows[1:], result.log.itertuples(index=False), strict=True):
         record = dict(zip(rows[0], line, strict=True))
