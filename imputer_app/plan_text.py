@@ -153,6 +153,12 @@ _KEY_NOTES = {
     "bounds": "column = { lower = number, upper = number }: filled values are kept inside",
     "decimals": "column = decimals a filled value is rounded to, a whole number from 0",
     "kinds": 'column = "number" or "category", overriding what was detected',
+    "k_by_column": "column = k for that fill column (a whole number from 1); k is used for the others",
+    "interval_level": 'level of every filled number\'s interval, from 0.5 to 0.99, or "off"',
+    "fill_formula_errors": "true fills cells holding a formula error (#DIV/0!) like gaps; false leaves them",
+    "markers": 'marker text = "missing" or "below-limit": what a marker in a cell stands for',
+    "limits": "column = the limit a below-limit marker stands under, where the sheet gives none",
+    "id_column": "a column name naming samples in the fill log; leave out for the first identifier",
 }
 
 
