@@ -58,7 +58,9 @@ def test_constant_column_is_left_out_with_a_warning_as_sklearn_without_it() -> N
     # Dixon factor (all columns / shared columns) of rows with gaps, so it is left out.
     frame = random_frame(50, 4, 0.15, seed=3)
     frame.insert(2, "flat", 7.0)
-    result = impute(frame, FillPlan(k=3, scaling="none", no_donor="column_mean"))
+    # Named as a similarity column (a constant column is carried by default).
+    plan = FillPlan(k=3, scaling="none", no_donor="column_mean", similarity_columns=tuple(frame.columns))
+    result = impute(frame, plan)
     assert "column 'flat' is constant; left out of the distance" in result.warnings
     ref = KNNImputer(n_neighbors=3).fit_transform(frame.drop(columns="flat").to_numpy())
     np.testing.assert_allclose(result.frame.drop(columns="flat").to_numpy(), ref, rtol=0, atol=1e-9)

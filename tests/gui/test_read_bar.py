@@ -42,7 +42,8 @@ def test_a_two_sheet_workbook_opens_at_once_with_its_choices_in_the_bar(qtbot, w
     assert not bar.isHidden() and not bar.sheet_combo.isHidden()
     assert [bar.sheet_combo.itemText(i) for i in range(bar.sheet_combo.count())] == ["Spring", "Autumn"]
     assert bar.header_spin.value() == 1
-    assert bar.found.text() == "Found: n.d. ×2 read as a gap; <0.5 ×1 read as beyond a limit"
+    # n.d. ("not detected") means below the limit by default, like <0.5 (README "What it does")
+    assert bar.found.text() == "Found: n.d. ×2, <0.5 ×1 read as beyond a limit"
 
     # another worksheet from the bar: read again, its header row found anew
     with qtbot.waitSignal(w.sheet_loaded, timeout=10_000):

@@ -42,6 +42,8 @@ def _record_numbers(value: Any) -> set[str]:
         pass
     elif isinstance(value, int | float):
         out |= {str(value), number_text(value)}
+        if 0 < value <= 1:  # a share (an interval level, a coverage) is printed as a percent
+            out.add(number_text(100 * value))
     elif isinstance(value, str) and value != CAUTIONS:
         out |= set(NUMBER.findall(value))
     return out
