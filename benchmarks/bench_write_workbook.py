@@ -13,7 +13,6 @@ comparison.
 from __future__ import annotations
 
 import tempfile
-import time
 from pathlib import Path
 from types import SimpleNamespace
 
@@ -21,8 +20,9 @@ import numpy as np
 import pandas as pd
 import xlsxwriter
 
+from benchmarks.bench_write import time_against_to_excel
 from imputer_app.plan import FillPlan
-from imputer_app.sheets import read_sheet, write_result
+from imputer_app.sheets import read_sheet
 
 N_ROWS, N_NUMBERS, N_CATEGORIES, GAP_SHARE, K = 100_000, 18, 2, 0.05, 5
 GOAL = 0.6
@@ -99,13 +99,7 @@ def main() -> None:
         sheet = read_sheet(source)
         result = fill_of(sheet.frame, full, gaps)
         print(f"   workbook {N_ROWS:,} x {full.shape[1]}, filled cells and fill-log rows {len(result.log):,}")
-        start = time.perf_counter()
-        write_result(Path(folder) / "ours.xlsx", sheet, result, result.plan, layout="workbook")
-        ours = time.perf_counter() - start
-        size = (Path(folder) / "ours.xlsx").stat().st_size
-        start = time.perf_counter()
-        result.frame.to_excel(Path(folder) / "reference.xlsx", index=False)
-        reference = time.perf_counter() - start
+        ours, size, reference = time_against_to_excel(Path(folder), sheet, result, layout="workbook")
     ratio = ours / reference
     print(f"   write_result (workbook layout, with fill log): {ours:6.2f} s  ({size / 1e6:.1f} MB)")
     print(f"   DataFrame.to_excel (openpyxl):                 {reference:6.2f} s")
