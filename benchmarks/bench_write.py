@@ -12,12 +12,17 @@ import tempfile
 import time
 from pathlib import Path
 from types import SimpleNamespace
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
 
 from imputer_app.plan import FillPlan
 from imputer_app.sheets import write_result
+
+if TYPE_CHECKING:
+    from imputer_app.engine import FillResult
+    from imputer_app.sheets import Sheet
 
 N_ROWS, N_NUMBERS, N_CATEGORIES, FILLED_SHARE, K = 100_000, 18, 2, 0.05, 5
 GOAL = 0.6
@@ -68,15 +73,15 @@ def synthetic_result(n_rows: int = N_ROWS, seed: int = 0) -> SimpleNamespace:
 
 
 def time_against_to_excel(
-    folder: Path, sheet: object, result: object, **options: object
+    folder: Path, sheet: Sheet | None, result: FillResult, **options: Any
 ) -> tuple[float, int, float]:
     """Seconds of ``write_result`` (and the file's size) and of ``DataFrame.to_excel``, side by side."""
     start = time.perf_counter()
-    write_result(folder / "ours.xlsx", sheet, result, result.plan, **options)  # type: ignore[attr-defined, arg-type]
+    write_result(folder / "ours.xlsx", sheet, result, result.plan, **options)
     ours = time.perf_counter() - start
     size = (folder / "ours.xlsx").stat().st_size
     start = time.perf_counter()
-    result.frame.to_excel(folder / "reference.xlsx", index=False)  # type: ignore[attr-defined]
+    result.frame.to_excel(folder / "reference.xlsx", index=False)
     return ours, size, time.perf_counter() - start
 
 
