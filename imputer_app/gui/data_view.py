@@ -1,25 +1,40 @@
-"""The middle of the window: legend, data table, gap map and remarks, with cell navigation."""
+"""The middle of the window: legend, data table, gap map and remarks, with cell navigation.
+
+The table shows the sheet's model through a :class:`~imputer_app.gui.row_filter.RowFilterModel`
+(all rows, only rows with fills, only weak fills); every position this view takes or
+gives (``select_position``, ``source_index``, the gap map's clicks) is a sheet row and
+column, whatever the filter hides.
+"""
 
 from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any
 
-from PySide6.QtCore import QItemSelectionModel, Qt, Signal
-from PySide6.QtWidgets import QAbstractItemView, QLabel, QSplitter, QTableView, QVBoxLayout, QWidget
+import numpy as np
+from PySide6.QtCore import QItemSelectionModel, QModelIndex, QPoint, Qt, Signal
+from PySide6.QtGui import QAction
+from PySide6.QtWidgets import QAbstractItemView, QLabel, QMenu, QSplitter, QTableView, QVBoxLayout, QWidget
 
+from imputer_app.gui.column_menu import role_menu
+from imputer_app.gui.fill_navigation import RowBar, filter_actions, next_cell, weak_fills
 from imputer_app.gui.gap_map import GapMap
 from imputer_app.gui.legend import Legend
 from imputer_app.gui.markers import CENSORED, MISSING, TEXT
 from imputer_app.gui.read_bar import ReadBar
+from imputer_app.gui.row_filter import RowFilterModel
 from imputer_app.gui.table_model import SheetTableModel
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
+    from imputer_app.gui.state import Session
     from imputer_app.sheets import Sheet
 
 
 class DataView(QWidget):
     """The sheet as a table with a fill layer, its legend, and the map of gaps.
+
+    With a ``session``, the gap map draws only the plan's similarity and fill columns,
+    and the column headers' menu sets a column's role in the session's plan.
 
     Signals
     -------
@@ -29,10 +44,11 @@ class DataView(QWidget):
 
     cell_not_found = Signal(str)
 
-    def __init__(self, parent: QWidget | None = None) -> None:
+    def __init__(self, parent: QWidget | None = None, session: Session | None = None) -> None:
         super().__init__(parent)
         self.setObjectName("dataArea")
         self.setAccessibleName("Data")
+        self.session = session
         layout = QVBoxLayout(self)
         layout.setContentsMargins(0, 0, 0, 0)
         self.read_bar = ReadBar(self)
@@ -48,12 +64,21 @@ class DataView(QWidget):
         )
         self.layer_note.hide()
         layout.addWidget(self.layer_note)
+        self.row_bar = RowBar(self)
+        self.row_bar.mode_chosen.connect(self.set_row_filter)
+        self.row_bar.step.connect(lambda back: self.next_weak_fill(backwards=back))
+        self.row_bar.hide()
+        layout.addWidget(self.row_bar)
         self.model = SheetTableModel(self)
+        self.rows = RowFilterModel(self.model, self)
         self.table = QTableView(self)
         self.table.setObjectName("dataTable")
         self.table.setAccessibleName("Data table")
-        self.table.setToolTip("The sheet with its gaps; select a filled cell to see its donors.")
-        self.table.setModel(self.model)
+        self.table.setToolTip(
+            "The sheet with its gaps; select a filled cell to see its donors. "
+            "Right-click a column's name to set its role."
+        )
+        self.table.setModel(self.rows)
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
         self.table.setTabKeyNavigation(False)
         self.table.setWordWrap(False)
@@ -61,6 +86,15 @@ class DataView(QWidget):
         self.table.verticalHeader().setDefaultSectionSize(self.fontMetrics().height() + 6)
         self.table.horizontalHeader().setDefaultSectionSize(96)
         self.table.verticalScrollBar().valueChanged.connect(lambda _v: self._update_viewport())
+        self.table.setContextMenuPolicy(Qt.ContextMenuPolicy.CustomContextMenu)
+        self.table.customContextMenuRequested.connect(self._table_menu)
+        header = self.table.horizontalHeader()
+        header.setContextMenuPolicy(Qt.ContextMenuPolicy.CustomContextMenu)
+        header.customContextMenuRequested.connect(self._header_menu)
+        self.filter_menu, self.filter_actions = filter_actions(self)
+        for action in self.filter_actions.values():
+            action.triggered.connect(lambda _c=False, a=action: self.set_row_filter(str(a.data())))
+        self._table_actions: list[QAction] = []
         self.gap_map = GapMap(self)
         self.gap_map.cell_activated.connect(self.select_position)
         self.splitter = QSplitter(Qt.Orientation.Horizontal, self)
@@ -76,6 +110,8 @@ class DataView(QWidget):
         self.notice.setWordWrap(True)
         layout.addWidget(self.notice)
         QWidget.setTabOrder(self.table, self.gap_map)
+        if session is not None:
+            session.subscribe(self._on_session)
 
     # ------------------------------------------------------------------ content
     def set_sheet(self, sheet: Sheet | None) -> None:
@@ -86,23 +122,75 @@ class DataView(QWidget):
     def set_layer(self, result: FillResult | None, kind: str) -> None:
         """Draw a fill over the sheet as ``"preview"`` or ``"applied"``; redraw the map."""
         self.model.set_layer(result, kind)
-        self.gap_map.set_cells(
-            self.model.codes, self.model.fill_codes, self.model.layer_kind, self.model.column_names()
-        )
+        if result is None and self.rows.mode != "all":
+            self.set_row_filter("all")  # no fill: a filter on fills would hide every row
+        self._draw_map()
         self.table.resizeColumnsToContents()
         self._update_viewport()
+        self._show_row_counts()
 
     def set_layer_note(self, text: str) -> None:
         """Say above the table which fill it shows ('' hides the line)."""
         self.layer_note.setText(text)
         self.layer_note.setVisible(bool(text))
 
+    def _on_session(self, event: str) -> None:
+        if event == "plan":
+            self._draw_map()
+
+    def map_columns(self) -> list[int]:
+        """Table positions of the columns the gap map draws: the plan's similarity and fill columns.
+
+        Without a session, or while the plan leaves its column lists to the defaults,
+        every column is drawn.
+        """
+        names = self.model.column_names()
+        plan = self.session.plan if self.session is not None else None
+        if plan is None or plan.similarity_columns is None or plan.fill_columns is None:
+            return list(range(len(names)))
+        used = set(plan.similarity_columns) | set(plan.fill_columns)
+        return [j for j, name in enumerate(names) if name in used]
+
+    def _draw_map(self) -> None:
+        model = self.model
+        self.gap_map.set_cells(
+            model.codes, model.fill_codes, model.layer_kind, model.column_names(), self.map_columns()
+        )
+
+    # ------------------------------------------------------------------ rows
+    def set_row_filter(self, mode: str) -> None:
+        """Show all rows (``"all"``), only rows with fills (``"fills"``) or with weak fills (``"weak"``)."""
+        current = self.current_position()
+        self.rows.set_mode(mode)
+        self.filter_actions[mode].setChecked(True)
+        self._show_row_counts()
+        if current is not None and self.rows.proxy_row(current[0]) >= 0:
+            self.select_position(*current)
+        self._update_viewport()
+
+    def _show_row_counts(self) -> None:
+        self.row_bar.setVisible(self.model.layer is not None)
+        self.row_bar.show_counts(
+            self.rows.mode, self.rows.rowCount(), self.model.rowCount(), self.model.fill_codes
+        )
+
+    def source_index(self, index: QModelIndex) -> QModelIndex:
+        """The sheet model's index of a table index (the table shows the filtered rows)."""
+        return self.rows.mapToSource(index) if index.isValid() else QModelIndex()
+
+    def current_position(self) -> tuple[int, int] | None:
+        """Sheet ``(row, column)`` of the table's current cell, or None."""
+        index = self.source_index(self.table.currentIndex())
+        return (index.row(), index.column()) if index.isValid() else None
+
     # --------------------------------------------------------------- navigation
     def select_position(self, row: int, column: int) -> None:
-        """Make a table cell current and scroll to it."""
-        index = self.model.index(row, column)
-        if not index.isValid():
+        """Make a sheet cell current and scroll to it (showing all rows if the filter hides it)."""
+        if not self.model.index(row, column).isValid():
             return
+        if self.rows.proxy_row(row) < 0:
+            self.set_row_filter("all")
+        index = self.rows.mapFromSource(self.model.index(row, column))
         self.table.selectionModel().setCurrentIndex(index, QItemSelectionModel.SelectionFlag.ClearAndSelect)
         self.table.scrollTo(index, QAbstractItemView.ScrollHint.PositionAtCenter)
         self.table.setFocus(Qt.FocusReason.OtherFocusReason)
@@ -118,18 +206,70 @@ class DataView(QWidget):
     def next_gap(self) -> None:
         """Go to the next gap, unreadable or censored cell after the current one (wraps around)."""
         codes = self.model.codes
-        if codes.size == 0:
-            return
-        current = self.table.currentIndex()
-        start = current.row() * codes.shape[1] + current.column() + 1 if current.isValid() else 0
-        flat = ((codes == MISSING) | (codes == TEXT) | (codes == CENSORED)).ravel()
-        hits = flat[start:].nonzero()[0]
-        hit = start + int(hits[0]) if hits.size else (int(flat.nonzero()[0][0]) if flat.any() else None)
-        if hit is not None:
-            self.select_position(*divmod(hit, codes.shape[1]))
+        shown = self.rows.shown_rows()
+        marked = (codes == MISSING) | (codes == TEXT) | (codes == CENSORED)
+        self._go_to_next(marked, shown, backwards=False)
+
+    def next_weak_fill(self, backwards: bool = False) -> None:
+        """Go to the next (or previous) cell filled with weak support, wrapping around."""
+        if not self._go_to_next(weak_fills(self.model.fill_codes), None, backwards):
+            self.row_bar.say("No weak fills in the fill shown.")
+
+    def previous_weak_fill(self) -> None:
+        """Go to the previous cell filled with weak support."""
+        self.next_weak_fill(backwards=True)
+
+    def _go_to_next(self, mask: np.ndarray, shown: np.ndarray | None, backwards: bool) -> bool:
+        if mask.size == 0:
+            return False
+        if shown is not None and shown.size < mask.shape[0]:
+            kept = np.zeros_like(mask)
+            kept[shown] = mask[shown]  # only the rows the filter shows
+            mask = kept
+        found = next_cell(mask, self.current_position(), backwards)
+        if found is None:
+            return False
+        self.select_position(*found)
+        return True
 
     def _update_viewport(self) -> None:
         first = self.table.rowAt(0)
         last = self.table.rowAt(self.table.viewport().height() - 1)
-        rows = self.model.rowCount()
-        self.gap_map.set_viewport(max(first, 0), last if last >= 0 else rows - 1)
+        shown = self.rows.rowCount()
+        if shown == 0:
+            self.gap_map.set_viewport(0, -1)
+            return
+        first, last = max(first, 0), last if last >= 0 else shown - 1
+        rows = self.rows.shown_rows()
+        self.gap_map.set_viewport(int(rows[first]), int(rows[last]))
+
+    # ------------------------------------------------------------------- menus
+    def add_table_actions(self, actions: list[QAction]) -> None:
+        """Put the window's navigation actions (next gap, weak fills) into the table's menu."""
+        self._table_actions = list(actions)
+
+    def table_menu(self) -> QMenu:
+        """The table's context menu: the navigation actions and the row filter."""
+        menu = QMenu(self.table)
+        menu.setObjectName("tableMenu")
+        menu.addActions(self._table_actions)
+        if self._table_actions:
+            menu.addSeparator()
+        menu.addMenu(self.filter_menu)
+        return menu
+
+    def _table_menu(self, point: QPoint) -> None:
+        self.table_menu().popup(self.table.viewport().mapToGlobal(point))
+
+    def header_menu(self, section: int) -> QMenu | None:
+        """The role menu of the column at header ``section`` (None without a session or sheet)."""
+        names = self.model.column_names()
+        if self.session is None or not self.session.has_sheet or not 0 <= section < len(names):
+            return None
+        return role_menu(self.table, self.session, names[section], names)
+
+    def _header_menu(self, point: QPoint) -> None:
+        header = self.table.horizontalHeader()
+        menu = self.header_menu(header.logicalIndexAt(point))
+        if menu is not None:
+            menu.popup(header.mapToGlobal(point))

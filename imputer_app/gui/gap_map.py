@@ -1,28 +1,46 @@
-"""A picture of where the gaps are: every row (downsampled) by every column.
+"""A picture of where the gaps are: every row by every similarity and fill column.
 
-The map is built as one RGB numpy array and shown as a :class:`QImage` scaled to the
-widget, so it costs the same for 300 or 300,000 rows. When several rows share one
-pixel row, the most notable state among them wins (gap > text > beyond a limit > fill),
-so a single gap is never hidden by downsampling.
+Only the columns the fill compares or fills are drawn (carried columns have gaps that
+nobody fills). The map is built as one RGB numpy array and shown as a :class:`QImage`
+scaled to the widget, so it costs the same for 300 or 300,000 rows. When rows
+outnumber the pixel rows, each pixel row covers several sheet rows and is shaded by
+density: its colour moves from "measured" towards the colours of the marked cells
+(gap, text, beyond a limit, fill) in proportion to their share of the cells it
+covers, with a floor so that a single gap among many rows stays visible.
 """
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 from PySide6.QtCore import QEvent, QPoint, QRect, QSize, Qt, Signal
-from PySide6.QtGui import QColor, QHelpEvent, QImage, QKeyEvent, QMouseEvent, QPainter, QPaintEvent, QPalette
+from PySide6.QtGui import (
+    QColor,
+    QHelpEvent,
+    QImage,
+    QKeyEvent,
+    QMouseEvent,
+    QPainter,
+    QPaintEvent,
+    QPalette,
+    QResizeEvent,
+)
 from PySide6.QtWidgets import QSizePolicy, QToolTip, QWidget
 
 from imputer_app.gui.markers import CENSORED, MARKERS, MISSING, NO_FILL, TEXT, palette_is_dark
 
-#: Most image rows drawn; more sheet rows are binned.
-MAX_BINS = 1000
-# Priority (higher wins in a bin) of each drawn class, and its marker key.
+# Class (index) of each drawn kind of cell, and its marker key; 0 is measured.
 _CLASSES = ((1, "filled"), (2, "preview"), (3, "censored"), (4, "text"), (5, "missing"))
+_N_CLASSES = 6
+#: Classes that are open gaps (not filled): unreadable text and empty cells.
+GAP_CLASSES = (4, 5)
+#: The least strength of a pixel that covers at least one marked cell (0-1).
+SHADE_FLOOR = 0.3
 
 
 def cell_classes(codes: np.ndarray, fill: np.ndarray, layer_kind: str) -> np.ndarray:
-    """Return int8 priority classes (n_rows, n_columns): 0 measured, 1..5 see ``_CLASSES``.
+    """Return int8 classes (n_rows, n_columns): 0 measured, 1..5 see ``_CLASSES``.
 
     Filled cells show as filled (or preview), not as the gap they were.
     """
@@ -35,24 +53,78 @@ def cell_classes(codes: np.ndarray, fill: np.ndarray, layer_kind: str) -> np.nda
     return out
 
 
-def bin_rows(classes: np.ndarray, max_bins: int = MAX_BINS) -> tuple[np.ndarray, np.ndarray]:
-    """Reduce rows to at most ``max_bins`` by taking the highest class in each bin.
+def bin_starts(n_rows: int, n_bins: int) -> np.ndarray:
+    """First sheet row of each of ``min(n_rows, n_bins)`` bins that tile the rows in order."""
+    if n_rows <= n_bins:
+        return np.arange(n_rows, dtype=np.intp)
+    return np.linspace(0, n_rows, n_bins + 1).astype(np.intp)[:-1]
+
+
+def bin_counts(classes: np.ndarray, n_bins: int) -> tuple[np.ndarray, np.ndarray]:
+    """Count the cells of each class in bins of consecutive rows.
+
+    Parameters
+    ----------
+    classes : ndarray of shape (n_rows, n_columns)
+        Classes from :func:`cell_classes`.
+    n_bins : int
+        Most bins (pixel rows); fewer rows give one bin per row.
 
     Returns
     -------
-    binned : ndarray (n_bins, n_columns)
-    starts : ndarray (n_bins,)
+    counts : ndarray of shape (n_bins, n_columns, 6)
+        Cells of each class in each bin and column.
+    starts : ndarray of shape (n_bins,)
         The first sheet row of every bin.
     """
-    n = classes.shape[0]
-    if n <= max_bins:
-        return classes, np.arange(n)
-    starts = np.linspace(0, n, max_bins + 1).astype(np.intp)[:-1]
-    return np.maximum.reduceat(classes, starts, axis=0), starts
+    n_rows, n_cols = classes.shape
+    starts = bin_starts(n_rows, max(1, n_bins))
+    counts = np.zeros((starts.size, n_cols, _N_CLASSES), dtype=np.int32)
+    if n_rows == 0 or n_cols == 0:
+        return counts, starts
+    for value in range(_N_CLASSES):
+        counts[:, :, value] = np.add.reduceat(
+            (classes == value).view(np.uint8), starts, axis=0, dtype=np.int32
+        )
+    return counts, starts
+
+
+def shade(counts: np.ndarray) -> np.ndarray:
+    """Strength (0-1) of each bin's marking: 0 all measured, else at least :data:`SHADE_FLOOR`.
+
+    Parameters
+    ----------
+    counts : ndarray of shape (n_bins, n_columns, 6)
+        From :func:`bin_counts`.
+
+    Returns
+    -------
+    ndarray of shape (n_bins, n_columns)
+        ``SHADE_FLOOR + (1 - SHADE_FLOOR) * share`` where ``share`` is the share of
+        marked (not measured) cells among the bin's cells; 0 where that share is 0.
+    """
+    totals = counts.sum(axis=2)
+    marked = totals - counts[:, :, 0]
+    share = marked / np.maximum(totals, 1)
+    return np.where(marked > 0, SHADE_FLOOR + (1.0 - SHADE_FLOOR) * share, 0.0)
+
+
+def shaded_rgb(counts: np.ndarray, colours: np.ndarray) -> np.ndarray:
+    """RGB image (n_bins, n_columns, 3) uint8: measured colour mixed with the marked cells' colours.
+
+    The hue of a pixel is the average colour of its marked cells; its distance from the
+    measured colour is :func:`shade`.
+    """
+    marked = counts[:, :, 1:].astype(float)
+    n_marked = marked.sum(axis=2, keepdims=True)
+    hue = (marked @ colours[1:].astype(float)) / np.maximum(n_marked, 1)
+    strength = shade(counts)[:, :, None]
+    rgb = colours[0].astype(float) * (1.0 - strength) + hue * strength
+    return np.ascontiguousarray(np.clip(np.rint(rgb), 0, 255).astype(np.uint8))
 
 
 class GapMap(QWidget):
-    """Rows x columns map of cell states; clicking (or Enter) jumps to a cell.
+    """Rows x (similarity and fill) columns map of cell states; clicking (or Enter) jumps to a cell.
 
     Signals
     -------
@@ -66,34 +138,62 @@ class GapMap(QWidget):
         super().__init__(parent)
         self.setObjectName("gapMap")
         self.setAccessibleName("Map of gaps")
-        self.setToolTip("Where the gaps are: one stripe per column, rows top to bottom. Click to go there.")
+        self.setToolTip(
+            "Where the gaps of the similarity and fill columns are: one stripe per column, "
+            "rows top to bottom; paler where few of the rows a pixel covers have gaps. "
+            "Click to go there."
+        )
         self.setMinimumSize(QSize(36, 120))
         self.setSizePolicy(QSizePolicy.Policy.Preferred, QSizePolicy.Policy.Expanding)
         self.setFocusPolicy(Qt.FocusPolicy.StrongFocus)
         self.setMouseTracking(True)
-        self._classes = np.zeros((0, 0), dtype=np.int8)
+        self._all = np.zeros((0, 0), dtype=np.int8)  # classes of every row, drawn columns only
+        self._counts = np.zeros((0, 0, _N_CLASSES), dtype=np.int32)
         self._starts = np.zeros(0, dtype=np.intp)
         self._rows = 0
         self._names: list[str] = []
+        self._columns: list[int] = []  # table position of each drawn column
         self._image: QImage | None = None
         self._viewport = (0, 0)
-        self._cursor = (0, 0)
+        self._cursor = (0, 0)  # (row, drawn column)
 
     def sizeHint(self) -> QSize:
         """Narrow: about 6 pixels per column."""
         return QSize(max(48, 6 * max(len(self._names), 1)), 300)
 
     # ------------------------------------------------------------------- data
-    def set_cells(self, codes: np.ndarray, fill: np.ndarray, layer_kind: str, names: list[str]) -> None:
-        """Redraw from the table's cell codes and fill layer."""
+    def set_cells(
+        self,
+        codes: np.ndarray,
+        fill: np.ndarray,
+        layer_kind: str,
+        names: list[str],
+        columns: Sequence[int] | None = None,
+    ) -> None:
+        """Redraw from the table's cell codes and fill layer.
+
+        Parameters
+        ----------
+        codes, fill : ndarray of shape (n_rows, n_columns)
+            The table's cell codes and fill codes.
+        layer_kind : {"preview", "applied", ""}
+            How the fill layer is drawn ("" without one).
+        names : list of str
+            The table's column names.
+        columns : sequence of int, optional
+            Table positions of the columns to draw (the similarity and fill columns);
+            all columns when omitted.
+        """
         self._rows = codes.shape[0]
-        self._names = list(names)
-        classes = cell_classes(codes, fill, layer_kind)
-        self._classes, self._starts = bin_rows(classes)
-        self._build_image()
-        open_gaps = int(np.count_nonzero(classes >= 4))
+        self._columns = list(range(len(names))) if columns is None else [int(c) for c in columns]
+        self._names = [names[c] for c in self._columns]
+        picked = np.asarray(self._columns, dtype=np.intp)
+        self._all = cell_classes(codes[:, picked], fill[:, picked], layer_kind)
+        self._cursor = (min(self._cursor[0], max(self._rows - 1, 0)), 0)
+        self._rebin()
+        open_gaps = int(np.count_nonzero(self._all >= min(GAP_CLASSES)))
         self.setAccessibleDescription(
-            f"{self._rows} rows by {len(names)} columns; {open_gaps} gaps not filled"
+            f"{self._rows} rows by {len(self._names)} columns; {open_gaps} gaps not filled"
             if self._rows
             else "no sheet"
         )
@@ -105,22 +205,33 @@ class GapMap(QWidget):
         self._viewport = (first_row, last_row)
         self.update()
 
+    def _rebin(self) -> None:
+        """Bin the rows to the plot's pixel rows and rebuild the image."""
+        self._counts, self._starts = bin_counts(self._all, max(1, self._plot_rect().height()))
+        self._build_image()
+
     def _build_image(self) -> None:
-        if self._classes.size == 0:
+        if self._counts.size == 0:
             self._image = None
             return
         dark = palette_is_dark(self.palette())
-        colours = np.zeros((6, 3), dtype=np.uint8)
+        colours = np.zeros((_N_CLASSES, 3), dtype=np.uint8)
         base = self.palette().color(QPalette.ColorRole.Base)
         measured = base.darker(112) if not dark else base.lighter(160)
         colours[0] = (measured.red(), measured.green(), measured.blue())
         for value, key in _CLASSES:
             pick = QColor(MARKERS[key].strong)
             colours[value] = (pick.red(), pick.green(), pick.blue())
-        rgb = np.ascontiguousarray(colours[self._classes])
-        h, w = self._classes.shape
+        rgb = shaded_rgb(self._counts, colours)
+        h, w = rgb.shape[:2]
         image = QImage(rgb.data, w, h, 3 * w, QImage.Format.Format_RGB888)
         self._image = image.copy()  # own the pixels; rgb is freed after this call
+
+    def resizeEvent(self, event: QResizeEvent) -> None:
+        """Bin again when the number of pixel rows changes."""
+        super().resizeEvent(event)
+        if self._rows and min(self._rows, max(1, self._plot_rect().height())) != self._starts.size:
+            self._rebin()
 
     # ---------------------------------------------------------------- drawing
     def _plot_rect(self) -> QRect:
@@ -131,7 +242,8 @@ class GapMap(QWidget):
         painter = QPainter(self)
         rect = self._plot_rect()
         if self._image is None:
-            painter.drawText(rect, Qt.AlignmentFlag.AlignCenter | Qt.TextFlag.TextWordWrap, "no sheet")
+            text = "no similarity or fill column" if self._rows else "no sheet"
+            painter.drawText(rect, Qt.AlignmentFlag.AlignCenter | Qt.TextFlag.TextWordWrap, text)
             return
         painter.drawImage(rect, self._image)
         pen_colour = self.palette().color(QPalette.ColorRole.Highlight)
@@ -149,27 +261,52 @@ class GapMap(QWidget):
         painter.end()
 
     # ---------------------------------------------------------------- picking
-    def position_at(self, point: QPoint) -> tuple[int, int] | None:
-        """Table ``(row, column)`` under a widget point, or None outside the map."""
+    def _bin_and_column_at(self, point: QPoint) -> tuple[int, int] | None:
         rect = self._plot_rect()
-        if not self._rows or not self._names or not rect.contains(point):
+        if not self._rows or not self._names or not self._starts.size or not rect.contains(point):
             return None
         col = min(len(self._names) - 1, int((point.x() - rect.left()) / rect.width() * len(self._names)))
         bin_ = min(len(self._starts) - 1, int((point.y() - rect.top()) / rect.height() * len(self._starts)))
-        return int(self._starts[bin_]), col
+        return bin_, col
+
+    def position_at(self, point: QPoint) -> tuple[int, int] | None:
+        """Table ``(row, column)`` under a widget point, or None outside the map."""
+        found = self._bin_and_column_at(point)
+        if found is None:
+            return None
+        bin_, col = found
+        return int(self._starts[bin_]), self._columns[col]
+
+    def describe_at(self, point: QPoint) -> str | None:
+        """Plain words about the rows and column under a point (the tooltip), or None."""
+        found = self._bin_and_column_at(point)
+        if found is None:
+            return None
+        bin_, col = found
+        first = int(self._starts[bin_])
+        last = int(self._starts[bin_ + 1]) - 1 if bin_ + 1 < self._starts.size else self._rows - 1
+        counts = self._counts[bin_, col]
+        rows = f"table row {first + 1}" if first == last else f"table rows {first + 1}-{last + 1}"
+        gaps = int(counts[list(GAP_CLASSES)].sum())
+        parts = [f"{gaps} gap{'s' if gaps != 1 else ''} not filled"]
+        if counts[1] or counts[2]:
+            parts.append(f"{int(counts[1] + counts[2])} filled")
+        if counts[3]:
+            parts.append(f"{int(counts[3])} beyond a limit")
+        return f"{self._names[col]}, {rows}: " + ", ".join(parts) + f" of {last - first + 1} cells"
 
     def mousePressEvent(self, event: QMouseEvent) -> None:
         """Jump to the cell under the click."""
-        pos = self.position_at(event.position().toPoint())
-        if pos is not None and event.button() == Qt.MouseButton.LeftButton:
-            self._cursor = pos
-            self.cell_activated.emit(*pos)
+        found = self._bin_and_column_at(event.position().toPoint())
+        if found is not None and event.button() == Qt.MouseButton.LeftButton:
+            self._cursor = (int(self._starts[found[0]]), found[1])
+            self.cell_activated.emit(self._cursor[0], self._columns[found[1]])
             self.update()
         super().mousePressEvent(event)
 
     def keyPressEvent(self, event: QKeyEvent) -> None:
         """Arrows move a cursor over the map (Page keys by a tenth); Enter jumps there."""
-        if not self._rows:
+        if not self._rows or not self._names:
             return super().keyPressEvent(event)
         row, col = self._cursor
         step = max(1, self._rows // 100)
@@ -190,23 +327,40 @@ class GapMap(QWidget):
             )
             self.update()
         elif key in (Qt.Key.Key_Return, Qt.Key.Key_Enter, Qt.Key.Key_Space):
-            self.cell_activated.emit(*self._cursor)
+            self.cell_activated.emit(row, self._columns[col])
         else:
             super().keyPressEvent(event)
 
     def event(self, event: QEvent) -> bool:
-        """Tooltips name the column and rows under the pointer; palette changes redraw."""
+        """Tooltips count the cells under the pointer; palette changes redraw."""
         if event.type() == QEvent.Type.ToolTip and isinstance(event, QHelpEvent):
-            pos = self.position_at(event.pos())
-            if pos is not None:
-                row, col = pos
-                QToolTip.showText(event.globalPos(), f"{self._names[col]}, near table row {row + 1}", self)
+            text = self.describe_at(event.pos())
+            if text is not None:
+                QToolTip.showText(event.globalPos(), text, self)
                 return True
         if event.type() in (QEvent.Type.PaletteChange, QEvent.Type.ApplicationPaletteChange):
             self._build_image()
             self.update()
         return super().event(event)
 
-    def classes(self) -> np.ndarray:
-        """The binned classes drawn (for tests)."""
-        return self._classes
+    # ------------------------------------------------------------------ tests
+    def drawn_columns(self) -> list[str]:
+        """Names of the columns drawn, left to right."""
+        return list(self._names)
+
+    def counts(self) -> np.ndarray:
+        """Cells of each class per pixel row and drawn column, shape (n_bins, n_columns, 6)."""
+        return self._counts
+
+    def gap_share(self) -> np.ndarray:
+        """Share of open gaps among the cells of each pixel row and drawn column."""
+        totals = np.maximum(self._counts.sum(axis=2), 1)
+        return self._counts[:, :, list(GAP_CLASSES)].sum(axis=2) / totals
+
+    def shading(self) -> np.ndarray:
+        """Strength (0-1) of each pixel's marking (see :func:`shade`)."""
+        return shade(self._counts)
+
+    def image(self) -> QImage | None:
+        """The picture drawn (one pixel per bin and column) before scaling."""
+        return self._image

@@ -81,7 +81,8 @@ class MainWindow(QMainWindow):
         self.setAcceptDrops(True)
         self._build()
         self.actions_ = build_actions(self, self._slots())
-        self.toolbar = build_menus(self, self.actions_, self.recent_menu)
+        self.toolbar = build_menus(self, self.actions_, self.recent_menu, self.data.filter_menu)
+        self.data.add_table_actions([self.actions_[k] for k in ("previous_weak", "next_weak", "next_gap")])
         self.session.subscribe(self._on_session)
         self._sizes_restored = window_layout.restore_layout(
             self, self.settings, self.splitter, self.table_split
@@ -94,7 +95,7 @@ class MainWindow(QMainWindow):
     def _build(self) -> None:
         self.setup = ColumnSetup(self, session=self.session)
 
-        self.data = DataView(self)
+        self.data = DataView(self, session=self.session)
         self.table, self.table_model, self.gap_map = self.data.table, self.data.model, self.data.gap_map
         self.table_split, self.notice = self.data.splitter, self.data.notice
         self.table.selectionModel().currentChanged.connect(self._on_current_cell)
@@ -161,6 +162,8 @@ class MainWindow(QMainWindow):
             "preview": self.preview_fill,
             "apply": self.apply_fill,
             "next_gap": self.next_gap,
+            "next_weak": self.data.next_weak_fill,
+            "previous_weak": self.data.previous_weak_fill,
             "focus_setup": lambda: self.setup.table.setFocus(focus),
             "focus_table": lambda: self.table.setFocus(focus),
             "focus_panels": lambda: self.tabs.setFocus(focus),
@@ -363,6 +366,7 @@ class MainWindow(QMainWindow):
 
     def _on_current_cell(self, current: QModelIndex, _previous: QModelIndex) -> None:
         result = self.shown_result()
+        current = self.data.source_index(current)  # the table may show only some rows
         if result is None or not current.isValid():
             self.donor_panel.clear()
             return

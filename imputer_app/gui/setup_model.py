@@ -169,6 +169,60 @@ def choices_from_plan(
     return out
 
 
+def role_in_plan(plan: FillPlan, name: str) -> str:
+    """The role ``plan`` gives column ``name``: a key of :data:`ROLES`, or ``"group"``.
+
+    The plan's column lists must be given (as the setup panel writes them).
+    """
+    if name == plan.group_column:
+        return GROUP_ROLE
+    in_sim, in_fill = name in (plan.similarity_columns or ()), name in (plan.fill_columns or ())
+    return {(True, True): "both", (True, False): "similarity", (False, True): "fill"}.get(
+        (in_sim, in_fill), "carried"
+    )
+
+
+def plan_with_role(plan: FillPlan, name: str, role: str, columns: Sequence[str]) -> FillPlan:
+    """A copy of ``plan`` in which column ``name`` has ``role`` (a key of :data:`ROLES`).
+
+    The column lists keep the sheet's order (``columns``); a group column given a role
+    stops being the group column.
+
+    Raises
+    ------
+    PlanError
+        When the result is not a valid plan.
+
+    Examples
+    --------
+    >>> p = FillPlan(similarity_columns=("a", "b"), fill_columns=("a", "b"))
+    >>> q = plan_with_role(p, "a", "carried", ["a", "b"])
+    >>> q.similarity_columns, q.fill_columns, q.carried_columns
+    (('b',), ('b',), ('a',))
+    """
+    if role not in ROLES:
+        raise ValueError(f"role must be one of {', '.join(ROLES)}; got {role!r}")
+    sim = set(plan.similarity_columns or ()) - {name}
+    fill = set(plan.fill_columns or ()) - {name}
+    carried = set(plan.carried_columns) - {name}
+    if role in ("both", "similarity"):
+        sim.add(name)
+    if role in ("both", "fill"):
+        fill.add(name)
+    if role == "carried":
+        carried.add(name)
+
+    def ordered(names: set[str]) -> tuple[str, ...]:
+        return tuple(c for c in columns if c in names)
+
+    return plan.replace(
+        similarity_columns=ordered(sim),
+        fill_columns=ordered(fill),
+        carried_columns=ordered(carried),
+        group_column=None if plan.group_column == name else plan.group_column,
+    )
+
+
 class ColumnListModel(FlatTableModel):
     """One row per sheet column: name, role, kind, weight, unit, % gaps, censored count."""
 

@@ -55,7 +55,8 @@ def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
     slots : mapping of str to callable
         What each action does, by key: ``open``, ``open_options``, ``open_plan``,
         ``save_plan``, ``export``, ``quit``, ``undo``, ``redo``, ``recovery``, ``preview``,
-        ``apply``, ``copy_methods``, ``next_gap``, ``focus_setup``, ``focus_table``, ``focus_panels``,
+        ``apply``, ``copy_methods``, ``next_gap``, ``next_weak``, ``previous_weak``,
+        ``focus_setup``, ``focus_table``, ``focus_panels``,
         ``guide``, ``about``.
     """
     std = QKeySequence.StandardKey
@@ -128,6 +129,14 @@ def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
             None,
         ),
         ("next_gap", "&Next gap", "Go to the next gap or marked cell in the table", "F3", None),
+        ("next_weak", "Next &weak fill", "Go to the next filled cell with weak support", "F4", None),
+        (
+            "previous_weak",
+            "Pre&vious weak fill",
+            "Go to the previous filled cell with weak support",
+            "Shift+F4",
+            None,
+        ),
         (
             "focus_setup",
             "Go to &setup",
@@ -155,8 +164,14 @@ def build_actions(w: QWidget, slots: Mapping[str, Slot]) -> dict[str, QAction]:
     return {key: _action(w, key, text, tip, slots[key], sc, icon) for key, text, tip, sc, icon in specs}
 
 
-def build_menus(w: QMainWindow, a: Mapping[str, QAction], recent_menu: QMenu) -> QToolBar:
-    """Fill the menu bar of ``w`` (with ``recent_menu`` under File) and add the toolbar it returns."""
+def build_menus(
+    w: QMainWindow, a: Mapping[str, QAction], recent_menu: QMenu, rows_menu: QMenu | None = None
+) -> QToolBar:
+    """Fill the menu bar of ``w`` and add the toolbar it returns.
+
+    ``recent_menu`` goes under File; ``rows_menu`` (which rows the table shows), when
+    given, under View.
+    """
     bar = w.menuBar()
     bar.setObjectName("menuBar")
     file_menu = bar.addMenu("&File")
@@ -178,7 +193,11 @@ def build_menus(w: QMainWindow, a: Mapping[str, QAction], recent_menu: QMenu) ->
     fill_menu.addActions([a["recovery"], a["preview"], a["apply"]])
     view_menu = bar.addMenu("&View")
     view_menu.setObjectName("menuView")
-    view_menu.addActions([a["next_gap"], a["focus_setup"], a["focus_table"], a["focus_panels"]])
+    view_menu.addActions([a["next_gap"], a["next_weak"], a["previous_weak"]])
+    if rows_menu is not None:
+        view_menu.addMenu(rows_menu)
+    view_menu.addSeparator()
+    view_menu.addActions([a["focus_setup"], a["focus_table"], a["focus_panels"]])
     help_menu = bar.addMenu("&Help")
     help_menu.setObjectName("menuHelp")
     help_menu.addActions([a["guide"], a["about"]])
@@ -233,6 +252,8 @@ def enabled_actions(session: Session, busy: bool) -> dict[str, bool]:
         "preview": has and not busy and session.plan_problem is None,
         "apply": session.can_apply and not busy,
         "next_gap": has,
+        "next_weak": session.preview is not None or session.applied is not None,
+        "previous_weak": session.preview is not None or session.applied is not None,
         "copy_methods": session.preview is not None or session.applied is not None,
     }
 

@@ -1,17 +1,19 @@
-"""The gap map: binning never hides a gap, and a click or Enter jumps to the cell.
+"""The gap map: density shading, only similarity and fill columns, and jumps to a cell.
 
-Expected values are worked out from the input and the documented rules (the most
-notable state wins a shared pixel row: gap > text > beyond a limit > fill; arrows
-step a hundredth of the rows), not copied from the code's output.
+Expected values are worked out from the input and the documented rules (a pixel row
+covering several sheet rows is shaded by the share of its marked cells, with a floor
+of 0.3 so that one gap stays visible; arrows step a hundredth of the rows), not copied
+from the code's output.
 """
 
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 import pytest
 from PySide6.QtCore import QPoint, Qt
 
-from imputer_app.gui.gap_map import MAX_BINS, GapMap, bin_rows, cell_classes
+from imputer_app.gui.gap_map import SHADE_FLOOR, GapMap, bin_counts, cell_classes, shade, shaded_rgb
 from imputer_app.gui.markers import CENSORED, FILL, MISSING, NO_FILL, OBSERVED, TEXT
 
 
@@ -44,31 +46,54 @@ def bin_ends(starts: np.ndarray, n_rows: int) -> list[int]:
     return [*map(int, starts[1:]), n_rows]
 
 
-@pytest.mark.parametrize("n_rows", [MAX_BINS, 10 * MAX_BINS + 7, 200_000])
-def test_binning_keeps_a_single_gap_visible(n_rows):
+@pytest.mark.parametrize(("n_rows", "n_bins"), [(300, 400), (10_007, 400), (200_000, 700)])
+def test_bins_tile_the_rows_and_count_every_cell(n_rows, n_bins):
     gap_row, gap_column = n_rows // 3, 1
     classes = np.zeros((n_rows, 3), dtype=np.int8)
     classes[gap_row, gap_column] = 5
-    binned, starts = bin_rows(classes)
-    n_bins = min(n_rows, MAX_BINS)
-    assert binned.shape == (n_bins, 3)
+    counts, starts = bin_counts(classes, n_bins)
+    shown = min(n_rows, n_bins)
+    assert counts.shape == (shown, 3, 6)
     ends = bin_ends(starts, n_rows)
     widths = np.subtract(ends, starts)
     # the bins tile the rows in order, each n_rows / n_bins rows wide (rounded down or up)
-    assert starts[0] == 0 and widths.min() >= n_rows // n_bins and widths.max() <= -(-n_rows // n_bins)
-    holder = next(b for b in range(n_bins) if starts[b] <= gap_row < ends[b])
-    assert np.argwhere(binned == 5).tolist() == [[holder, gap_column]]
+    assert starts[0] == 0 and widths.min() >= n_rows // shown and widths.max() <= -(-n_rows // shown)
+    assert (counts.sum(axis=2) == widths[:, None]).all()  # every cell counted once
+    holder = next(b for b in range(shown) if starts[b] <= gap_row < ends[b])
+    assert np.argwhere(counts[:, :, 5] > 0).tolist() == [[holder, gap_column]]
+    # a single gap among many rows is still visible: at least the floor
+    assert shade(counts)[holder, gap_column] >= SHADE_FLOOR
 
 
-def test_each_bin_shows_the_highest_class_of_its_rows():
+def test_each_bin_counts_the_classes_of_its_rows():
     rng = np.random.default_rng(3)
     classes = rng.integers(0, 6, size=(53, 4)).astype(np.int8)
-    binned, starts = bin_rows(classes, max_bins=7)
-    expected = [
-        [max(int(classes[r, c]) for r in range(s, e)) for c in range(4)]
-        for s, e in zip(starts, bin_ends(starts, 53), strict=True)
-    ]
-    assert binned.tolist() == expected
+    counts, starts = bin_counts(classes, 7)
+    for b, (s, e) in enumerate(zip(starts, bin_ends(starts, 53), strict=True)):
+        for c in range(4):
+            expected = [sum(int(classes[r, c]) == v for r in range(s, e)) for v in range(6)]
+            assert counts[b, c].tolist() == expected
+
+
+@pytest.mark.parametrize(
+    ("marked", "of", "expected"), [(0, 20, 0.0), (1, 20, 0.335), (10, 20, 0.65), (20, 20, 1.0)]
+)
+def test_shading_grows_with_the_share_of_marked_cells(marked, of, expected):
+    # strength = floor + (1 - floor) * share, 0 with no marked cell (floor 0.3)
+    counts = np.zeros((1, 1, 6), dtype=np.int32)
+    counts[0, 0, 0], counts[0, 0, 5] = of - marked, marked
+    assert shade(counts)[0, 0] == pytest.approx(expected)
+
+
+def test_a_pixel_is_the_measured_colour_moved_towards_its_marked_cells():
+    colours = np.array([[200, 200, 200], [0, 0, 200], [0, 0, 100], [100, 0, 100], [200, 100, 0], [250, 0, 0]])
+    counts = np.zeros((3, 1, 6), dtype=np.int32)
+    counts[0, 0] = (20, 0, 0, 0, 0, 0)  # all measured
+    counts[1, 0] = (0, 0, 0, 0, 0, 20)  # all gaps
+    counts[2, 0] = (10, 0, 0, 0, 0, 10)  # half gaps: strength 0.65
+    rgb = shaded_rgb(counts, colours.astype(np.uint8))
+    assert rgb[0, 0].tolist() == [200, 200, 200] and rgb[1, 0].tolist() == [250, 0, 0]
+    assert rgb[2, 0].tolist() == [round(200 * 0.35 + 250 * 0.65), round(200 * 0.35), round(200 * 0.35)]
 
 
 N_ROWS, NAMES, GAP = 800, ["a", "b", "c", "d"], (400, 2)
@@ -114,3 +139,74 @@ def test_keyboard_moves_a_cursor_and_enter_jumps(gap_map, qtbot, keys, expected)
     with qtbot.waitSignal(gap_map.cell_activated) as hit:
         qtbot.keyClick(gap_map, Qt.Key.Key_Return)
     assert tuple(hit.args) == expected
+
+
+def test_twenty_thousand_rows_are_shaded_by_density_not_drawn_solid(qtbot):
+    # 20,000 rows on 400 pixel rows: each pixel row covers exactly 50 sheet rows.
+    n_rows, height = 20_000, 400
+    codes = np.zeros((n_rows, 3), dtype=np.int8)
+    codes[::10, 1] = MISSING  # every tenth row: 5 gaps in each pixel row
+    codes[:1000, 2] = MISSING  # the first 1,000 rows: the first 20 pixel rows all gaps
+    widget = GapMap()
+    qtbot.addWidget(widget)
+    widget.resize(60 + 2 * MARGIN, height + 2 * MARGIN)
+    widget.set_cells(codes, np.zeros_like(codes), "", ["a", "b", "c"])
+    widget.show()
+    assert widget.counts().shape == (height, 3, 6)
+    assert (widget.counts()[:, 1, 5] == 5).all() and (widget.counts()[:, 1, 0] == 45).all()
+    share = widget.gap_share()
+    assert np.allclose(share[:, 0], 0.0) and np.allclose(share[:, 1], 0.1)
+    assert np.allclose(share[:20, 2], 1.0) and np.allclose(share[20:, 2], 0.0)
+    assert np.allclose(widget.shading()[:, 1], 0.3 + 0.7 * 0.1)  # pale, not a solid block
+    image = widget.image()
+    assert image is not None and (image.width(), image.height()) == (3, height)
+    pale, solid, measured = image.pixelColor(1, 200), image.pixelColor(2, 0), image.pixelColor(0, 200)
+    assert pale not in (solid, measured)
+
+
+def test_only_similarity_and_fill_columns_are_drawn_and_a_click_names_the_table_column(qtbot):
+    from imputer_app.gui.data_view import DataView
+    from imputer_app.gui.state import Session
+    from imputer_app.plan import FillPlan
+    from tests.gui._sheets import make_sheet
+
+    frame = pd.DataFrame(
+        {
+            "ID": [f"S{i}" for i in range(8)],
+            "a": [1.0, np.nan, 3.0, 4.0, 5.0, 6.0, np.nan, 8.0],
+            "notes": [None] * 8,
+            "b": [1.0, 2.0, 3.0, np.nan, 5.0, 6.0, 7.0, 8.0],
+        }
+    )
+    states = {(1, "a"): ("missing", ""), (6, "a"): ("missing", ""), (3, "b"): ("missing", "")}
+    states |= {(r, "notes"): ("missing", "") for r in range(8)}  # an empty notes column: all gaps
+    sheet = make_sheet(
+        frame, states, kinds={"ID": "identifier", "a": "number", "notes": "category", "b": "number"}
+    )
+    session = Session()
+    view = DataView(session=session)
+    qtbot.addWidget(view)
+    session.load(sheet)
+    session.set_plan(
+        FillPlan(similarity_columns=("a", "b"), fill_columns=("a", "b"), carried_columns=("ID", "notes"))
+    )
+    view.set_sheet(sheet)
+    gap_map = view.gap_map
+    assert gap_map.drawn_columns() == ["a", "b"]
+    assert gap_map.counts()[:, :, 5].sum(axis=0).tolist() == [2, 1]  # the notes' 8 gaps are not counted
+    assert gap_map.accessibleDescription() == "8 rows by 2 columns; 3 gaps not filled"
+    gap_map.resize(40 + 2 * MARGIN, 80 + 2 * MARGIN)
+    gap_map.show()
+    # the right half of the map is column b, which is the table's fourth column (position 3)
+    with qtbot.waitSignal(gap_map.cell_activated) as hit:
+        plot_w, plot_h = gap_map.width() - 2 * MARGIN, gap_map.height() - 2 * MARGIN
+        point = QPoint(MARGIN + int(0.75 * plot_w), MARGIN + int(3.5 * plot_h / 8))  # row 3 of 8
+        qtbot.mouseClick(gap_map, Qt.MouseButton.LeftButton, pos=point)
+    assert hit.args == [3, 3]
+    # the plan changes (b carried): the map follows the session
+    session.set_plan(
+        session.plan.replace(
+            similarity_columns=("a",), fill_columns=("a",), carried_columns=("ID", "notes", "b")
+        )
+    )
+    assert gap_map.drawn_columns() == ["a"]
