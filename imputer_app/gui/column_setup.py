@@ -31,11 +31,13 @@ from PySide6.QtWidgets import (
 
 from imputer_app.errors import KinfillError
 from imputer_app.gui.setup_model import (
+    GROUP_RULE,
     ROLES,
     ColumnChoice,
     ColumnListModel,
     choices_for_sheet,
     choices_from_plan,
+    detail_line,
     plan_from_choices,
 )
 from imputer_app.gui.state import Session
@@ -93,10 +95,25 @@ class ColumnSetup(QWidget):
         self.table.verticalHeader().hide()
         self.table.verticalHeader().setDefaultSectionSize(row_height(self))
         self.table.setTabKeyNavigation(False)
-        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
-        self.table.horizontalHeader().setStretchLastSection(True)
+        # Name, role, gaps and kind side by side without a sideways scroll: the short
+        # facts take what they need, the name the rest (elided, whole in its tooltip).
+        header = self.table.horizontalHeader()
+        header.setStretchLastSection(False)
+        header.setMinimumSectionSize(24)
+        header.setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        header.setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
+        self.table.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+        self.table.setTextElideMode(Qt.TextElideMode.ElideMiddle)
         self.table.selectionModel().selectionChanged.connect(self._show_selected)
         layout.addWidget(self.table, 3)
+        self.detail = text_label(
+            self,
+            "columnDetail",
+            "Selected column in full",
+            "Unit, role, kind, weight, gaps and entries beyond a limit of the selected column",
+            selectable=True,
+        )
+        layout.addWidget(self.detail)
         layout.addWidget(self._build_column_box())
         layout.addWidget(self._build_fill_box())
         self.message = text_label(
@@ -185,7 +202,7 @@ class ColumnSetup(QWidget):
         self.k_spin.valueChanged.connect(self._write)
         form.addRow(buddy("&k (donors per cell)", self.k_spin, box), self.k_spin)
         self.group_combo = _combo(
-            box, "groupCombo", "Group column", "Take donors only from rows of the same group."
+            box, "groupCombo", "Group column", f"Take donors only from rows of the same group. {GROUP_RULE}"
         )
         self.group_combo.activated.connect(self._on_group)
         form.addRow(buddy("&Group by", self.group_combo, box), self.group_combo)
@@ -341,7 +358,7 @@ class ColumnSetup(QWidget):
         self.group_combo.clear()
         self.group_combo.addItem("(no groups)", None)
         for c in self._choices:
-            if c.shown_kind in ("category", "identifier") or c.detected_kind == "category":
+            if c.groupable or c.name == self._group:  # a plan's group column stays on offer
                 self.group_combo.addItem(c.name, c.name)
         self.group_combo.setCurrentIndex(max(0, self.group_combo.findData(self._group)))
 
@@ -352,6 +369,8 @@ class ColumnSetup(QWidget):
         try:
             names = ", ".join(c.name for c in chosen[:3]) + (" …" if len(chosen) > 3 else "")
             self.column_box.setTitle(f"Selected: {names}" if chosen else "Selected column (pick one above)")
+            several = f"{len(chosen)} columns selected" if chosen else ""
+            self.detail.setText(detail_line(chosen[0], self._group) if len(chosen) == 1 else several)
             self.role_combo.setCurrentIndex(_common_index(self.role_combo, [c.role for c in chosen]))
             self.kind_combo.setCurrentIndex(_common_index(self.kind_combo, [c.kind for c in chosen]))
             weights = {c.weight for c in chosen}

@@ -11,6 +11,8 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, Any
 
+import numpy as np
+import pandas as pd
 from PySide6.QtCore import QObject, Qt
 
 from imputer_app.gui.flat_model import FlatTableModel, Index
@@ -30,7 +32,26 @@ ROLES: dict[str, tuple[str, str]] = {
 GROUP_ROLE = "group"
 #: How the engine's default roles map to ours ("fill" there means similarity + fill).
 _FROM_DEFAULT = {"similarity": "similarity", "fill": "both", "carried": "carried"}
-HEADERS = ("Column", "Role", "Weight", "% gaps", "Limits", "Kind", "Unit")
+#: The facts shown side by side; weight, unit and limits are in the tooltip and the detail line.
+HEADERS = ("Column", "Role", "Gaps", "Kind")
+#: Short role labels for the narrow column list (the editors show the full ones).
+SHORT_ROLES = {
+    "both": "sim + fill",
+    "similarity": "sim only",
+    "fill": "fill only",
+    "carried": "carried",
+    GROUP_ROLE: "group",
+}
+#: Short kind labels for the column list.
+SHORT_KINDS = {"number": "num", "category": "cat", "identifier": "ID", "date": "date", "empty": "empty"}
+#: The group-by rule: how many different values a group column may have, how many rows
+#: each value needs on average, and the share of rows that must have a value.
+GROUP_MAX_VALUES, GROUP_MIN_ROWS_PER_VALUE, GROUP_MIN_FILLED = 50, 3, 0.5
+GROUP_RULE = (
+    f"Offered: columns of text or whole numbers with 2 to {GROUP_MAX_VALUES} different values, "
+    f"each value in {GROUP_MIN_ROWS_PER_VALUE} rows or more on average, and a value in at least "
+    f"{GROUP_MIN_FILLED:.0%} of the rows (so not sample IDs, dates, measurements or notes)."
+)
 
 
 @dataclass(frozen=True)
@@ -57,6 +78,8 @@ class ColumnChoice:
         text ..."); "" for a column the default uses.
     group_like : bool
         A number column of a few whole values (block, plot): worth a category or group.
+    groupable : bool
+        The column's values make groups of donors (see :data:`GROUP_RULE`).
     """
 
     name: str
@@ -73,6 +96,7 @@ class ColumnChoice:
     decimals: int | None = None
     reason: str = ""
     group_like: bool = False
+    groupable: bool = False
 
     @property
     def shown_kind(self) -> str:
@@ -111,9 +135,42 @@ def choices_for_sheet(sheet: Sheet, roles: Mapping[str, str]) -> list[ColumnChoi
                 role=_FROM_DEFAULT.get(roles.get(name, "carried"), "carried"),
                 reason=reasons.get(name, ""),
                 group_like=bool(getattr(col, "group_like", False)),
+                groupable=makes_groups(sheet.frame[name], col.kind if col else "number"),
             )
         )
     return out
+
+
+def makes_groups(values: pd.Series, kind: str) -> bool:
+    """True when a column can group donors: few values, each repeated (see :data:`GROUP_RULE`).
+
+    Parameters
+    ----------
+    values : Series
+        The column as read (gaps are NaN or None).
+    kind : str
+        Its kind as read; dates never group.
+
+    Examples
+    --------
+    >>> makes_groups(pd.Series([1.0, 2.0, 1.0, 2.0, 1.0, 2.0]), "number")
+    True
+    >>> makes_groups(pd.Series(["S1", "S2", "S3", "S4"]), "identifier")
+    False
+    """
+    if kind in ("date", "empty"):
+        return False
+    present = values.dropna()
+    if len(present) < GROUP_MIN_FILLED * max(len(values), 1) or len(present) == 0:
+        return False
+    if pd.api.types.is_numeric_dtype(present):
+        numbers = present.to_numpy(dtype=float)
+        if not np.array_equal(numbers, np.round(numbers)):
+            return False
+    elif not (pd.api.types.is_string_dtype(present) or isinstance(present.dtype, pd.CategoricalDtype)):
+        return False  # datetimes, timedeltas
+    levels = present.astype(str).nunique()
+    return bool(2 <= levels <= GROUP_MAX_VALUES and len(present) >= GROUP_MIN_ROWS_PER_VALUE * levels)
 
 
 def plan_from_choices(choices: Sequence[ColumnChoice], base: FillPlan, group: str | None) -> FillPlan:
@@ -125,14 +182,16 @@ def plan_from_choices(choices: Sequence[ColumnChoice], base: FillPlan, group: st
         When the choices do not make a valid plan.
     """
     cols = [c for c in choices if c.name != group]
+    numbers = [c for c in cols if c.shown_kind == "number"]
     return base.replace(
         similarity_columns=tuple(c.name for c in cols if c.role in ("both", "similarity")),
         fill_columns=tuple(c.name for c in cols if c.role in ("both", "fill")),
         carried_columns=tuple(c.name for c in cols if c.role == "carried"),
         weights={c.name: c.weight for c in cols if c.weight != 1.0},
         group_column=group,
-        bounds={c.name: (c.lower, c.upper) for c in cols if c.lower is not None or c.upper is not None},
-        decimals={c.name: c.decimals for c in cols if c.decimals is not None},
+        # bounds and decimals mean nothing for a category column (its editors are disabled)
+        bounds={c.name: (c.lower, c.upper) for c in numbers if c.lower is not None or c.upper is not None},
+        decimals={c.name: c.decimals for c in numbers if c.decimals is not None},
         kinds={c.name: c.kind for c in choices if c.kind is not None},
     )
 
@@ -223,8 +282,41 @@ def plan_with_role(plan: FillPlan, name: str, role: str, columns: Sequence[str])
     )
 
 
+def short_role(choice: ColumnChoice, group: str | None) -> str:
+    """The role as the column list shows it, with the weight when it is not 1.
+
+    >>> short_role(ColumnChoice("pH", "number", role="both", weight=2.0), None)
+    'sim + fill ×2'
+    """
+    if choice.name == group:
+        return SHORT_ROLES[GROUP_ROLE]
+    text = SHORT_ROLES[choice.role]
+    weighs = choice.role in ("both", "similarity") and choice.weight != 1.0
+    return f"{text} ×{choice.weight:g}" if weighs else text
+
+
+def detail_line(choice: ColumnChoice, group: str | None) -> str:
+    """Everything about one column in a line: the facts the narrow list leaves out.
+
+    >>> detail_line(ColumnChoice("NO3", "number", "mg/L", gaps=3, censored=2, rows=60, role="fill"), None)
+    'NO3 (mg/L): fill only · number · weight 1 · 3 gaps of 60 rows (5.0%) · 2 beyond a limit'
+    """
+    role = "group column" if choice.name == group else ROLES[choice.role][0]
+    unit = f" ({choice.unit})" if choice.unit else ""
+    kind = choice.shown_kind + (" (set by you)" if choice.kind else "")
+    parts = [f"{choice.name}{unit}: {role}", kind, f"weight {choice.weight:g}"]
+    parts.append(f"{choice.gaps} gaps of {choice.rows} rows ({choice.percent_gaps:.1f}%)")
+    if choice.censored:
+        parts.append(f"{choice.censored} beyond a limit")
+    return " · ".join(parts)
+
+
 class ColumnListModel(FlatTableModel):
-    """One row per sheet column: name, role, kind, weight, unit, % gaps, censored count."""
+    """One row per sheet column: name, role (with a weight other than 1), % gaps and kind.
+
+    Unit, weight and entries beyond a limit are in each row's tooltip (and the setup
+    panel's detail line), so that the four essentials fit a narrow panel side by side.
+    """
 
     def __init__(self, parent: QObject | None = None) -> None:
         super().__init__(parent)
@@ -253,39 +345,32 @@ class ColumnListModel(FlatTableModel):
         return "group" if choice.name == self._group else ROLES[choice.role][0]
 
     def data(self, index: Index, role: int = Qt.ItemDataRole.DisplayRole) -> Any:
-        """Column facts as text; tooltips explain the role."""
+        """Column facts as short text; tooltips and screen readers get them in full."""
         if not index.isValid():
             return None
         c = self._choices[index.row()]
-        texts = (
-            c.name,
-            self.role_label(c),
-            f"{c.weight:g}",
-            f"{c.percent_gaps:.1f}",
-            str(c.censored) if c.censored else "",
-            c.shown_kind + ("*" if c.kind else ""),
-            c.unit,
-        )
-        if role in (Qt.ItemDataRole.DisplayRole, Qt.ItemDataRole.AccessibleTextRole):
-            text = texts[index.column()]
-            if role == Qt.ItemDataRole.AccessibleTextRole:
-                return f"{HEADERS[index.column()]}: {text or 'none'}"
-            return text
+        if role == Qt.ItemDataRole.DisplayRole:
+            return (
+                c.name,
+                short_role(c, self._group),
+                f"{c.percent_gaps:.1f}%",
+                SHORT_KINDS.get(c.shown_kind, c.shown_kind) + ("*" if c.kind else ""),
+            )[index.column()]
+        if role == Qt.ItemDataRole.AccessibleTextRole:
+            full = (c.name, self.role_label(c), f"{c.percent_gaps:.1f} percent", c.shown_kind)
+            return f"{HEADERS[index.column()]}: {full[index.column()]}"
         if role == Qt.ItemDataRole.ToolTipRole:
             role_tip = (
                 "Donors are taken only from rows with the same value here."
                 if c.name == self._group
                 else (ROLES[c.role][1])
             )
-            forced = " (set by you)" if c.kind else " (as read)"
             return (
-                f"{c.name}: {self.role_label(c)}. {role_tip}\n"
-                f"Kind {c.shown_kind}{forced}; weight {c.weight:g}; "
-                f"{c.gaps} gaps of {c.rows} rows; {c.censored} entries beyond a limit."
+                f"{detail_line(c, self._group)}\n{role_tip}"
                 + (f"\nCarried by default: {c.reason}." if c.reason else "")
                 + ("\nA few whole values: can serve as a category or a group column." if c.group_like else "")
             )
-        if role == Qt.ItemDataRole.TextAlignmentRole and index.column() in (2, 3, 4):
+        if role == Qt.ItemDataRole.TextAlignmentRole and index.column() == 2:
             return int(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
         return None
 
@@ -300,9 +385,10 @@ class ColumnListModel(FlatTableModel):
             return HEADERS[section]
         if orientation == Qt.Orientation.Horizontal and role == Qt.ItemDataRole.ToolTipRole:
             return {
-                "% gaps": "Share of rows with an empty or unreadable cell",
-                "Limits": "Entries beyond a limit of detection, such as <0.02",
-                "Weight": "How much the column counts towards similarity (0 leaves it out)",
-                "Kind": "* marks a kind you set",
+                "Column": "The sheet's column; its unit, weight and limits are in its tooltip",
+                "Role": "sim = similarity (defines similar samples), fill = its gaps are filled; "
+                "×2 = the column's weight when it is not 1",
+                "Gaps": "Share of rows with an empty or unreadable cell",
+                "Kind": "num = numbers, cat = categories, ID = identifiers; * marks a kind you set",
             }.get(HEADERS[section])
         return None
