@@ -24,6 +24,8 @@ ROW_FILTERS: dict[str, str] = {
     "fills": "Only rows with fills",
     "weak": "Only rows with weak fills",
 }
+#: Said in every column header's tooltip: the header's menu sets the column's role.
+HEADER_HINT = "Right-click to make it a similarity, fill or carried column."
 
 
 def rows_to_show(fill_codes: np.ndarray, mode: str) -> np.ndarray:
@@ -89,7 +91,11 @@ class RowFilterModel(QAbstractProxyModel):
             first = self.index(top_left.row(), top_left.column())
             self.dataChanged.emit(first, self.index(bottom_right.row(), bottom_right.column()))
             return
-        self.set_mode(self._mode)  # a new fill layer: the rows with fills have changed
+        rows = rows_to_show(self._source.fill_codes, self._mode)
+        if not np.array_equal(rows, self._rows):
+            self.set_mode(self._mode)  # another fill: other rows have fills
+        elif rows.size:  # the same rows (a preview applied, colours): keep the current cell
+            self.dataChanged.emit(self.index(0, 0), self.index(rows.size - 1, self.columnCount() - 1))
 
     def _on_header_changed(self, orientation: Qt.Orientation, first: int, last: int) -> None:
         if orientation == Qt.Orientation.Horizontal:
@@ -137,4 +143,7 @@ class RowFilterModel(QAbstractProxyModel):
             if not 0 <= section < self._rows.size:
                 return None
             return self._source.headerData(int(self._rows[section]), orientation, role)
-        return self._source.headerData(section, orientation, role)
+        value = self._source.headerData(section, orientation, role)
+        if role == Qt.ItemDataRole.ToolTipRole and value:
+            value = f"{value}\n{HEADER_HINT}"
+        return value

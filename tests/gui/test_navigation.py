@@ -141,8 +141,14 @@ def test_the_filter_ends_when_no_fill_is_shown(window, qtbot):
         window.preview_fill()
     window.data.set_row_filter("weak")
     assert window.table.model().rowCount() < window.table_model.rowCount()
-    window.apply_fill()  # the applied fill is shown: the filter stays
-    assert window.table.model().mode == "weak"
+    window.data.next_weak_fill()
+    before = current(window)
+    window.apply_fill()  # the applied fill is shown: the filter and the current cell stay
+    assert window.table.model().mode == "weak" and current(window) == before
+    section = window.table_model.column_names().index("pH")
+    assert "Right-click" in window.table.model().headerData(
+        section, Qt.Orientation.Horizontal, Qt.ItemDataRole.ToolTipRole
+    )
     window.undo()  # nothing shown: every row again, and the bar hides
     assert window.table.model().rowCount() == window.table_model.rowCount()
     assert not window.data.row_bar.isVisible()
