@@ -6,7 +6,8 @@ scaled to the widget, so it costs the same for 300 or 300,000 rows. When rows
 outnumber the pixel rows, each pixel row covers several sheet rows and is shaded by
 density: its colour moves from "measured" towards the colours of the marked cells
 (gap, text, beyond a limit, fill) in proportion to their share of the cells it
-covers, with a floor so that a single gap among many rows stays visible.
+covers, with a floor so that a single gap among many rows stays visible. Columns
+that outnumber the pixel columns are pooled the same way, so none drops out.
 """
 
 from __future__ import annotations
@@ -222,7 +223,11 @@ class GapMap(QWidget):
         for value, key in _CLASSES:
             pick = QColor(MARKERS[key].strong)
             colours[value] = (pick.red(), pick.green(), pick.blue())
-        rgb = shaded_rgb(self._counts, colours)
+        counts = self._counts
+        width = max(1, self._plot_rect().width())
+        if counts.shape[1] > width:  # more columns than pixels: a pixel column covers several
+            counts = np.add.reduceat(counts, bin_starts(counts.shape[1], width), axis=1)
+        rgb = shaded_rgb(counts, colours)
         h, w = rgb.shape[:2]
         image = QImage(rgb.data, w, h, 3 * w, QImage.Format.Format_RGB888)
         self._image = image.copy()  # own the pixels; rgb is freed after this call
@@ -230,8 +235,11 @@ class GapMap(QWidget):
     def resizeEvent(self, event: QResizeEvent) -> None:
         """Bin again when the number of pixel rows changes."""
         super().resizeEvent(event)
-        if self._rows and min(self._rows, max(1, self._plot_rect().height())) != self._starts.size:
+        rect = self._plot_rect()
+        if self._rows and min(self._rows, max(1, rect.height())) != self._starts.size:
             self._rebin()
+        elif self._image is not None and min(len(self._names), rect.width()) != self._image.width():
+            self._build_image()
 
     # ---------------------------------------------------------------- drawing
     def _plot_rect(self) -> QRect:
@@ -362,5 +370,5 @@ class GapMap(QWidget):
         return shade(self._counts)
 
     def image(self) -> QImage | None:
-        """The picture drawn (one pixel per bin and column) before scaling."""
+        """The picture drawn before scaling: one pixel per bin and column (or group of columns)."""
         return self._image

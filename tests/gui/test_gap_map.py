@@ -210,3 +210,19 @@ def test_only_similarity_and_fill_columns_are_drawn_and_a_click_names_the_table_
         )
     )
     assert gap_map.drawn_columns() == ["a"]
+
+
+def test_more_columns_than_pixels_are_pooled_and_no_gap_drops_out(qtbot):
+    # 60 columns on a 40-pixel-wide plot: each pixel column pools one or two sheet columns
+    codes = np.zeros((50, 60), dtype=np.int8)
+    codes[10, 59] = MISSING
+    widget = GapMap()
+    qtbot.addWidget(widget)
+    widget.resize(40 + 2 * MARGIN, 200 + 2 * MARGIN)
+    widget.set_cells(codes, np.zeros_like(codes), "", [f"c{i}" for i in range(60)])
+    widget.show()
+    image = widget.image()
+    assert image is not None and image.width() == 40
+    measured = image.pixelColor(0, 0)
+    marked = [(x, y) for x in range(40) for y in range(image.height()) if image.pixelColor(x, y) != measured]
+    assert marked == [(39, 10)]  # the last pixel column holds column 59; row 10 is its own pixel row
