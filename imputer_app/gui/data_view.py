@@ -169,7 +169,10 @@ class DataView(QWidget):
         self._update_viewport()
 
     def _show_row_counts(self) -> None:
-        self.row_bar.setVisible(self.model.layer is not None)
+        shown = self.model.layer is not None
+        self.row_bar.setVisible(shown)
+        for key, action in self.filter_actions.items():
+            action.setEnabled(shown or key == "all")  # without a fill, no row has one
         self.row_bar.show_counts(
             self.rows.mode, self.rows.rowCount(), self.model.rowCount(), self.model.fill_codes
         )

@@ -153,6 +153,7 @@ def test_the_filter_ends_when_no_fill_is_shown(window, qtbot):
     assert window.table.model().rowCount() == window.table_model.rowCount()
     assert not window.data.row_bar.isVisible()
     assert not window.actions_["next_weak"].isEnabled()
+    assert [a.isEnabled() for a in window.data.filter_actions.values()] == [True, False, False]
 
 
 def test_the_header_menu_sets_a_columns_role_through_the_session(window):
