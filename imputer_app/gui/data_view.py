@@ -57,7 +57,7 @@ class DataView(QWidget):
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
         self.table.setTabKeyNavigation(False)
         self.table.setWordWrap(False)
-        self.table.horizontalHeader().setResizeContentsPrecision(200)  # quick on 200,000 rows
+        self.table.horizontalHeader().setResizeContentsPrecision(50)  # widths from 50 rows: quick on any length
         self.table.verticalHeader().setDefaultSectionSize(self.fontMetrics().height() + 6)
         self.table.horizontalHeader().setDefaultSectionSize(96)
         self.table.verticalScrollBar().valueChanged.connect(lambda _v: self._update_viewport())
@@ -82,6 +82,9 @@ class DataView(QWidget):
         """Show a new sheet (no fill layer)."""
         self.model.set_sheet(sheet)
         self.set_layer(None, "applied")
+        # widths from the sheet's own cells, once: measuring on every fill layer cost
+        # a quarter second a time on a long sheet, on the window's thread
+        self.table.resizeColumnsToContents()
 
     def set_layer(self, result: FillResult | None, kind: str) -> None:
         """Draw a fill over the sheet as ``"preview"`` or ``"applied"``; redraw the map."""
@@ -89,7 +92,6 @@ class DataView(QWidget):
         self.gap_map.set_cells(
             self.model.codes, self.model.fill_codes, self.model.layer_kind, self.model.column_names()
         )
-        self.table.resizeColumnsToContents()
         self._update_viewport()
 
     def set_layer_note(self, text: str) -> None:
