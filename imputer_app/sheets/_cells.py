@@ -192,7 +192,11 @@ def parse_numbers(texts: pd.Series, decimal: str) -> np.ndarray:
     """
     values = np.full(len(texts), np.nan)
     # only texts made of digits, marks, signs and an exponent can be numbers
-    candidate = texts.str.fullmatch(_NUMBER_CHARS).to_numpy(dtype=bool, na_value=False)
+    # the cheap first-character test spares the pattern on long lists of names and codes
+    candidate = _first_char_in(texts, _NUMBER_STARTS)
+    if candidate.any():
+        matches = texts[candidate].str.fullmatch(_NUMBER_CHARS)
+        candidate[candidate] = matches.to_numpy(dtype=bool, na_value=False)
     if not candidate.any():
         return values
     t = texts[candidate].str.replace("\u2212", "-", regex=False)  # typographic minus sign
@@ -205,6 +209,19 @@ def parse_numbers(texts: pd.Series, decimal: str) -> np.ndarray:
     found = pd.to_numeric(t, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
     values[candidate] = np.where(np.isfinite(found), found, np.nan)
     return values
+
+
+#: First characters of texts that :data:`_NUMBER_CHARS`, :data:`CENSORED_PATTERN` (case-
+#: insensitive: sides, "less than", "under", bare BDL-type words) and the formula error
+#: texts can match.
+_NUMBER_STARTS = frozenset("+-\u22120123456789.,")
+_CENSORED_STARTS = frozenset("<>\u2264\u2265bBaAlLgGuUoO")
+_ERROR_STARTS = frozenset("#")
+
+
+def _first_char_in(texts: pd.Series, starts: frozenset[str]) -> np.ndarray:
+    """True where a text's first character is one of ``starts``."""
+    return np.array(texts.str[:1].isin(starts), dtype=bool)
 
 
 def _plain_numbers(values: np.ndarray, decimal: str) -> np.ndarray:
@@ -291,7 +308,8 @@ def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[st
     number &= ~marker
     cls = np.where(blank, BLANK, np.where(marker, MARKER, np.where(number, NUMBER, TEXT))).astype(np.int8)
     # a formula error saved as text (a csv written by a spreadsheet program)
-    cls[(cls == TEXT) & texts.str.upper().isin(ERROR_TEXTS).to_numpy()] = FORMULA_ERROR
+    error = np.flatnonzero((cls == TEXT) & _first_char_in(texts, _ERROR_STARTS))
+    cls[error[texts.iloc[error].str.upper().isin(ERROR_TEXTS).to_numpy()]] = FORMULA_ERROR
     found = {
         "cls": cls,
         "number": np.where(number, numbers, np.nan),
@@ -305,6 +323,8 @@ def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[st
     cls[hits] = CENSORED
     found["side"][hits], found["token"][hits] = "<", "LOD"
     rest = np.flatnonzero(cls == TEXT)
+    if rest.size:  # a censored entry starts with a side or a bare limit word: test only those
+        rest = rest[_first_char_in(texts.iloc[rest], _CENSORED_STARTS)]
     if rest.size:
         censored = _censored(texts.iloc[rest], decimal)
         hit = censored["side"].notna().to_numpy()

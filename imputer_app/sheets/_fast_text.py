@@ -10,7 +10,8 @@ it is known to agree with the exact path, and hands everything else back to it.
   (whose quote rules and padding are the reference).
 - :func:`plain_number_values` reads the texts made only of digits, one decimal mark,
   signs, an exponent and white space with Python's ``float`` (correctly rounded, as
-  ``pandas.to_numeric``), and leaves the rest to ``pandas.to_numeric`` itself.
+  ``pandas.to_numeric``) and leaves every other text (names, codes, markers, censored
+  entries) to the careful per-text pass of the caller.
 """
 
 from __future__ import annotations
@@ -90,8 +91,11 @@ def plain_number_values(values: np.ndarray, decimal: str) -> np.ndarray:
     Returns
     -------
     ndarray of float
-        Finite values where ``pandas.to_numeric`` reads the text (after ``,`` -> ``.``
-        for decimal ``,``), NaN elsewhere (including texts that overflow to infinity).
+        Finite values of the texts made of number characters (digits, the decimal mark,
+        signs, ``e``, white space) that ``pandas.to_numeric`` reads (after ``,`` -> ``.``
+        for decimal ``,``); NaN elsewhere, including texts that overflow to infinity.
+        Texts with other characters (``inf``, ``1_000``, ``1,234`` with decimal ``.``)
+        are not finite numbers to ``pandas.to_numeric`` either.
     """
     out = np.full(values.shape[0], np.nan)
     if not values.size:
@@ -105,8 +109,7 @@ def plain_number_values(values: np.ndarray, decimal: str) -> np.ndarray:
             out[plain] = chosen.astype(float)
         except ValueError:  # "1e", "+-5", "5..": pandas judges these texts
             out[plain] = to_numeric_values(values[plain], decimal)
-    if not plain.all():
-        out[~plain] = to_numeric_values(values[~plain], decimal)
+    # other texts (names, codes, markers, "<0.05") are left to the careful pass
     out[~np.isfinite(out)] = np.nan
     return out
 

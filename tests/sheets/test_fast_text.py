@@ -99,6 +99,18 @@ def test_plain_numbers_equal_to_numeric_on_edge_texts(decimal: str) -> None:
     np.testing.assert_array_equal(fast, expected)
 
 
+@pytest.mark.parametrize("decimal", [".", ","])
+def test_plain_numbers_equal_to_numeric_on_random_texts(decimal: str) -> None:
+    # reference: pandas.to_numeric, on short texts drawn from digits, marks, signs,
+    # letters of inf/nan/e/x, spaces, underscores and a non-ASCII digit
+    rng = np.random.default_rng(7)
+    alphabet = list("0123456789.,+-eEinfatyx _\t\u0661\u2212")
+    texts = ["".join(rng.choice(alphabet, rng.integers(1, 7))) for _ in range(30_000)]
+    values = np.array(texts, dtype=object)
+    expected = _to_numeric_reference(values, decimal)
+    np.testing.assert_array_equal(plain_number_values(values, decimal), expected)
+
+
 def test_plain_numbers_equal_to_numeric_on_many_values() -> None:
     # reference: pandas.to_numeric; repr, 17 significant digits and exponent forms
     rng = np.random.default_rng(1)
