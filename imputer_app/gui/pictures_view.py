@@ -16,6 +16,7 @@ import pandas as pd
 from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
 from matplotlib.figure import Figure
 from PySide6.QtCore import Qt, Signal
+from PySide6.QtGui import QShowEvent
 from PySide6.QtWidgets import QComboBox, QFormLayout, QSizePolicy, QVBoxLayout, QWidget
 
 from imputer_app.charts import ScatterPicture, plot_fill_distribution, plot_fill_scatter
@@ -63,6 +64,7 @@ class PicturesView(QWidget):
         self.session = session
         self.result: FillResult | None = None
         self.scatter: ScatterPicture | None = None
+        self._stale = False  # the session's fill changed while the view was hidden
         self._build()
         session.subscribe(self._on_session)
         self.show_result(None)
@@ -110,8 +112,21 @@ class PicturesView(QWidget):
     # ---------------------------------------------------------------- session
     def _on_session(self, event: str) -> None:
         if event in ("sheet", "preview", "applied"):
-            session = self.session
-            self.show_result(session.preview if session.preview is not None else session.applied)
+            if self.isVisible():
+                self._show_current()
+            else:  # drawn when the tab is opened: plotting a long sheet takes the window's time
+                self._stale = True
+
+    def _show_current(self) -> None:
+        self._stale = False
+        session = self.session
+        self.show_result(session.preview if session.preview is not None else session.applied)
+
+    def showEvent(self, event: QShowEvent) -> None:
+        """Draw the pictures of the current fill if it changed while the view was hidden."""
+        super().showEvent(event)
+        if self._stale:
+            self._show_current()
 
     def show_result(self, result: FillResult | None) -> None:
         """Show pictures of ``result`` (None: the idle text, no pictures)."""

@@ -1,8 +1,8 @@
 """Classify the cells of one column: blank, missing marker, number, censored, text, date.
 
 Work is vectorised per column: numbers that a workbook stores as numbers are taken as
-they are; text cells first go through one ``pandas.to_numeric`` pass that reads plain
-numbers, and only the rest (blanks, markers, censored entries, grouped thousands, text)
+they are; text cells first go through one vectorised pass that reads plain numbers,
+and only the rest (blanks, markers, censored entries, grouped thousands, text)
 goes through pandas string operations, once per distinct text. Python types are told
 apart with one ``type`` call per cell only in columns that mix them.
 
@@ -29,6 +29,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from imputer_app.sheets._fast_text import plain_number_values
 from imputer_app.sheets._grid import NO_VALUE as NO_VALUE_CELL
 from imputer_app.sheets._grid import FormulaError
 
@@ -84,6 +85,12 @@ class Markers:
     def number_array(self) -> np.ndarray:
         """Numeric markers as a float array (for :func:`numpy.isin`)."""
         return np.array(sorted(self.numbers), dtype=float)
+
+    def match_numbers(self, values: np.ndarray) -> np.ndarray:
+        """True where a value equals a numeric marker (none unless the user gave one)."""
+        if not self.numbers:
+            return np.zeros(values.shape, dtype=bool)
+        return np.isin(values, self.number_array)
 
 
 def make_markers(
@@ -185,7 +192,11 @@ def parse_numbers(texts: pd.Series, decimal: str) -> np.ndarray:
     """
     values = np.full(len(texts), np.nan)
     # only texts made of digits, marks, signs and an exponent can be numbers
-    candidate = texts.str.fullmatch(_NUMBER_CHARS).to_numpy(dtype=bool, na_value=False)
+    # the cheap first-character test spares the pattern on long lists of names and codes
+    candidate = _first_char_in(texts, _NUMBER_STARTS)
+    if candidate.any():
+        matches = texts[candidate].str.fullmatch(_NUMBER_CHARS)
+        candidate[candidate] = matches.to_numpy(dtype=bool, na_value=False)
     if not candidate.any():
         return values
     t = texts[candidate].str.replace("\u2212", "-", regex=False)  # typographic minus sign
@@ -200,21 +211,28 @@ def parse_numbers(texts: pd.Series, decimal: str) -> np.ndarray:
     return values
 
 
+#: First characters of texts that :data:`_NUMBER_CHARS`, :data:`CENSORED_PATTERN` (case-
+#: insensitive: sides, "less than", "under", bare BDL-type words) and the formula error
+#: texts can match.
+_NUMBER_STARTS = frozenset("+-\u22120123456789.,")
+_CENSORED_STARTS = frozenset("<>\u2264\u2265bBaAlLgGuUoO")
+_ERROR_STARTS = frozenset("#")
+
+
+def _first_char_in(texts: pd.Series, starts: frozenset[str]) -> np.ndarray:
+    """True where a text's first character is one of ``starts``."""
+    return np.array(texts.str[:1].isin(starts), dtype=bool)
+
+
 def _plain_numbers(values: np.ndarray, decimal: str) -> np.ndarray:
     """Fast first pass over text cells: plain numbers ("7.21", or "7,21" with decimal ",").
 
     NaN for everything else (grouped thousands, markers, censored entries, text); the
-    careful pass of :func:`parse_numbers` looks at those.
+    careful pass of :func:`parse_numbers` looks at those. See
+    :func:`~imputer_app.sheets._fast_text.plain_number_values`; a test checks that it
+    agrees with ``pandas.to_numeric``.
     """
-    texts = pd.Series(values, dtype=object)
-    grouped = None
-    if decimal == ",":
-        # a "." may group thousands ("1.234"): such texts are left to the careful pass
-        grouped = texts.str.contains(".", regex=False).to_numpy(dtype=bool)
-        texts = texts.str.replace(",", ".", regex=False)
-    found = pd.to_numeric(texts, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
-    plain = np.isfinite(found) if grouped is None else np.isfinite(found) & ~grouped
-    return np.where(plain, found, np.nan)
+    return plain_number_values(values, decimal)
 
 
 def parse_column(raw: np.ndarray, decimal: str, markers: Markers) -> ParsedColumn:
@@ -250,7 +268,7 @@ def parse_column(raw: np.ndarray, decimal: str, markers: Markers) -> ParsedColum
 def _take_numbers(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, markers: Markers) -> None:
     numbers = values.astype(float)
     finite = np.isfinite(numbers)
-    marker = np.isin(numbers, markers.number_array)
+    marker = markers.match_numbers(numbers)
     parsed.number[where[finite & ~marker]] = numbers[finite & ~marker]
     parsed.cls[where] = np.where(marker, MARKER, np.where(finite, NUMBER, BLANK))
 
@@ -264,7 +282,7 @@ def _take_strings(
     numbers = _plain_numbers(values, decimal)
     plain = np.isfinite(numbers)
     if plain.any():
-        marker = np.isin(numbers[plain], markers.number_array)
+        marker = markers.match_numbers(numbers[plain])
         cells = where[plain]
         parsed.cls[cells] = np.where(marker, MARKER, NUMBER)
         parsed.number[cells[~marker]] = numbers[plain][~marker]
@@ -286,11 +304,12 @@ def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[st
     marker = lowered.isin(markers.texts).to_numpy() & ~blank
     numbers = parse_numbers(texts, decimal)
     number = np.isfinite(numbers) & ~marker
-    marker |= number & np.isin(numbers, markers.number_array)
+    marker |= number & markers.match_numbers(numbers)
     number &= ~marker
     cls = np.where(blank, BLANK, np.where(marker, MARKER, np.where(number, NUMBER, TEXT))).astype(np.int8)
     # a formula error saved as text (a csv written by a spreadsheet program)
-    cls[(cls == TEXT) & texts.str.upper().isin(ERROR_TEXTS).to_numpy()] = FORMULA_ERROR
+    error = np.flatnonzero((cls == TEXT) & _first_char_in(texts, _ERROR_STARTS))
+    cls[error[texts.iloc[error].str.upper().isin(ERROR_TEXTS).to_numpy()]] = FORMULA_ERROR
     found = {
         "cls": cls,
         "number": np.where(number, numbers, np.nan),
@@ -304,6 +323,8 @@ def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[st
     cls[hits] = CENSORED
     found["side"][hits], found["token"][hits] = "<", "LOD"
     rest = np.flatnonzero(cls == TEXT)
+    if rest.size:  # a censored entry starts with a side or a bare limit word: test only those
+        rest = rest[_first_char_in(texts.iloc[rest], _CENSORED_STARTS)]
     if rest.size:
         censored = _censored(texts.iloc[rest], decimal)
         hit = censored["side"].notna().to_numpy()

@@ -347,7 +347,9 @@ def _data_rows(filled: np.ndarray, body: np.ndarray, data_start: int) -> tuple[n
             keep = keep[: gaps[-1] + 1]
             listed = ", ".join(str(r + data_start + 1) for r in tail)
             problems.append(f"row(s) {listed} below the table look like notes, not data; left out")
-    blank = np.setdiff1d(np.arange(keep[-1] + 1 if keep.size else 0), keep)
+    inside = np.ones(keep[-1] + 1 if keep.size else 0, dtype=bool)
+    inside[keep] = False  # rows up to the last kept one that are not kept are blank
+    blank = np.flatnonzero(inside)
     if blank.size:
         listed = ", ".join(str(r + data_start + 1) for r in blank[:10]) + (" ..." if blank.size > 10 else "")
         problems.append(f"{blank.size} blank row(s) inside the table skipped (row {listed})")

@@ -33,6 +33,7 @@ import numpy as np
 import pandas as pd
 
 from imputer_app.errors import SheetError
+from imputer_app.sheets._fast_text import split_plain_text
 from imputer_app.sheets._grid import rows_to_grid
 from imputer_app.work import CancelFlag, raise_if_cancelled
 
@@ -161,7 +162,15 @@ def detect_delimiter(text: str, fmt: str) -> str:
 
 
 def parse_grid(text: str, delimiter: str, path: Path, cancel: CancelFlag | None = None) -> np.ndarray:
-    """Split text into a 2-D object array of strings (short rows padded with "")."""
+    """Split text into a 2-D object array of strings (short rows padded with "").
+
+    Long quote-free text with rows of equal width goes through pandas' C parser
+    (:func:`~imputer_app.sheets._fast_text.split_plain_text`); everything else through
+    ``csv.reader``.
+    """
+    fast = split_plain_text(text, delimiter)
+    if fast is not None:
+        return fast
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, strict=False)
     rows: list[list[str]] = []
     starts: list[int] = []  # first line of each row, kept only when quotes can span lines
