@@ -282,6 +282,7 @@ def plan_for(args: argparse.Namespace) -> FillPlan:
         carry=args.carry,
         weights=args.weight,
         scaling=args.scaling,
+        rounding=getattr(args, "rounding", None),
         group=args.group,
         markers=getattr(args, "marker", ()),
     )

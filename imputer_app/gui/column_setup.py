@@ -196,6 +196,7 @@ class ColumnSetup(QWidget):
             "numeric_rule": "Numbers from",
             "censored": "Below &a limit",
             "no_donor": "No donor found",
+            "rounding": "Rounding",
         }
         for setting, labels in CHOICE_WORDS.items():
             combo = _combo(box, f"{setting}Combo", titles[setting].replace("&", ""), SETTING_TIPS[setting])
