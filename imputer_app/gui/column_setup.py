@@ -143,10 +143,13 @@ class ColumnSetup(QWidget):
             box, "upperEdit", "Upper bound", "Filled numbers never go above this (empty: no bound)."
         )
         self.decimals_spin = named(
-            QSpinBox(box), "decimalsSpin", "Decimals", "Round filled numbers to this many decimals."
+            QSpinBox(box),
+            "decimalsSpin",
+            "Decimals",
+            "Round filled numbers to this many decimals; 'by rounding' follows the Rounding setting.",
         )
         self.decimals_spin.setRange(-1, 15)
-        self.decimals_spin.setSpecialValueText("as computed")
+        self.decimals_spin.setSpecialValueText("by rounding")
         self.decimals_spin.setValue(-1)
         for label, widget in (
             ("Ro&le", self.role_combo),

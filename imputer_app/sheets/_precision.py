@@ -66,17 +66,21 @@ def text_decimals(texts: np.ndarray, decimal: str) -> int | None:
     """
     if not texts.size:
         return None
-    text = np.char.strip(np.asarray(texts, dtype=str))
-    exponent = np.char.find(np.char.lower(text), "e") >= 0
-    mark = np.char.rfind(text, decimal)
-    after = np.where(mark >= 0, np.char.str_len(text) - mark - 1, 0)[~exponent]
-    best = int(after.max()) if after.size else 0
+    text = np.asarray(texts, dtype=str)
+    # one row of character codes per text: the digits after the last decimal mark
+    codes = text.view(np.uint32).reshape(len(text), -1)
+    mark = codes == ord(decimal)
+    last = codes.shape[1] - 1 - np.argmax(mark[:, ::-1], axis=1)
+    digits = (codes >= ord("0")) & (codes <= ord("9")) & (np.arange(codes.shape[1]) > last[:, None])
+    after = np.where(mark.any(axis=1), np.count_nonzero(digits, axis=1), 0)
+    exponent = ((codes == ord("e")) | (codes == ord("E"))).any(axis=1)
+    best = int(after[~exponent].max(initial=0))
     for one in text[exponent].tolist():  # rare: 1.5e-3
-        mantissa, _, power = one.lower().partition("e")
+        mantissa, _, power = one.strip().lower().partition("e")
         at = mantissa.rfind(decimal)
-        digits = len(mantissa) - at - 1 if at >= 0 else 0
+        places = len(mantissa) - at - 1 if at >= 0 else 0
         try:
-            best = max(best, digits - int(power))
+            best = max(best, places - int(power))
         except ValueError:
             continue
     return min(max(best, 0), MAX_DECIMALS)
