@@ -29,6 +29,7 @@ import tomli_w
 
 from imputer_app.errors import PlanError
 from imputer_app.files import write_text_atomic
+from imputer_app.plan_rounding import DEFAULT_ROUNDING, ROUNDINGS
 from imputer_app.plan_text import (
     commented_toml,
     line_in_table,
@@ -51,6 +52,8 @@ CHOICES: dict[str, tuple[str, ...]] = {
     # (limit_sqrt2 follows Hornung & Reed 1990), or filled by kNN capped at its limit.
     "censored": ("ros", "limit", "half_limit", "limit_sqrt2", "fill_capped"),
     "no_donor": ("leave_empty", "column_mean"),
+    # Filled numbers to their column's measured precision, or unrounded (plan_rounding).
+    "rounding": ROUNDINGS,
 }
 
 #: Column kinds a plan may force on a column (overriding detection).
@@ -102,7 +105,8 @@ class FillPlan:
     bounds : mapping of str to (lower, upper), default={}
         Limits applied to filled numbers, either side may be None.
     decimals : mapping of str to int, default={}
-        Rounding of filled numbers per column; ``0`` keeps integers integers.
+        Rounding of filled numbers per column; ``0`` keeps integers integers. Wins
+        over ``rounding`` for the columns it names.
     censored : {"ros", "limit", "half_limit", "limit_sqrt2", "fill_capped"}, default="ros"
         What a below-limit entry stands for: a value below its limit estimated from the
         column's measured values by robust regression on order statistics (``ros``; a
@@ -130,6 +134,11 @@ class FillPlan:
     id_column : str or None, default=None
         The column naming samples in the fill log and cell notes; default the first
         carried identifier.
+    rounding : {"measured", "as_computed"}, default="measured"
+        Filled numbers of columns not in ``decimals`` are rounded to their column's
+        measured precision (the most decimals among its observed values), or left as
+        computed; interval bounds are rounded outward to the same decimals
+        (:mod:`imputer_app.plan_rounding`).
     """
 
     k: int = 5
@@ -152,6 +161,7 @@ class FillPlan:
     markers: Mapping[str, str] = field(default_factory=dict)
     limits: Mapping[str, float] = field(default_factory=dict)
     id_column: str | None = None
+    rounding: str = DEFAULT_ROUNDING
 
     def __post_init__(self) -> None:
         _set = object.__setattr__
@@ -467,6 +477,7 @@ _SCALAR_KEYS: dict[str, tuple[type, ...]] = {
     "numeric_rule": (str,),
     "censored": (str,),
     "no_donor": (str,),
+    "rounding": (str,),
     "group_column": (str,),
     "id_column": (str,),
 }

@@ -159,6 +159,7 @@ _KEY_NOTES = {
     "markers": 'marker text = "missing" or "below-limit": what a marker in a cell stands for',
     "limits": "column = the limit a below-limit marker stands under, where the sheet gives none",
     "id_column": "a column name naming samples in the fill log; leave out for the first identifier",
+    "rounding": "filled numbers to each column's measured precision, or as computed; decimals wins",
 }
 
 
@@ -192,6 +193,7 @@ def commented_toml(
     for key in plain + tables:
         if key in choices:
             note = "one of: " + ", ".join(f'"{value}"' for value in choices[key])
+            note = f"{_KEY_NOTES[key]}; {note}" if key in _KEY_NOTES else note
         else:
             note = _KEY_NOTES.get(key, "")
         block = dumps({key: data[key]})

@@ -103,6 +103,16 @@ CHOICE_WORDS: dict[str, dict[str, ChoiceWords]] = {
             "column mean", "The column's mean is written and flagged in the fill log."
         ),
     },
+    "rounding": {
+        "measured": ChoiceWords(
+            "measured precision",
+            "Each filled number gets as many decimals as the column's measured values show "
+            "(a 2-decimal pH gets 6.42); a column's own decimals setting wins.",
+        ),
+        "as_computed": ChoiceWords(
+            "as computed", "Filled numbers are written unrounded, as the donors give them."
+        ),
+    },
 }
 
 #: Per choice setting, one sentence on what the setting decides.
@@ -112,6 +122,7 @@ SETTING_TIPS = {
     "numeric_rule": "How the donors' numbers are combined (used when all donors count equally).",
     "censored": "What number a below-limit entry such as <0.02 stands for; it stays flagged either way.",
     "no_donor": "What happens to a cell for which no row can serve as donor.",
+    "rounding": "How many decimals a filled number gets when its column has no decimals setting.",
 }
 
 __all__ = [

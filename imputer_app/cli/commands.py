@@ -282,6 +282,7 @@ def plan_for(args: argparse.Namespace) -> FillPlan:
         carry=args.carry,
         weights=args.weight,
         scaling=args.scaling,
+        rounding=getattr(args, "rounding", None),
         group=args.group,
         markers=getattr(args, "marker", ()),
     )
@@ -290,14 +291,21 @@ def plan_for(args: argparse.Namespace) -> FillPlan:
 def read_input(
     source: Path, args: argparse.Namespace, plan: FillPlan, progress: Progress, stop: StopFlag
 ) -> Sheet:
-    """Read the input sheet as the options say, and check that it has the plan's columns."""
+    """Read the input sheet as the options say, and check that it has the plan's columns.
+
+    The sheet is read as the app reads it: a column the plan makes a category keeps
+    its cells as read (numbers stay numbers), and the fill treats it as a category,
+    so that the app and the command line write the same cells. Only the plan's
+    number columns are read as numbers (words in them become unreadable entries).
+    """
     from imputer_app.sheets import read_sheet
 
+    numbers = {column: kind for column, kind in plan.kinds.items() if kind == "number"}
     sheet = read_sheet(
         source,
         sheet=args.sheet,
         header_row=args.header_row,
-        kinds=dict(plan.kinds) or None,
+        kinds=numbers or None,
         encoding=args.encoding,
         markers=dict(plan.markers) or None,
         progress=progress,

@@ -229,6 +229,9 @@ def _add_plan_options(parser: argparse.ArgumentParser, *, with_k: bool) -> None:
     cols.add_argument(
         "--scaling", choices=CHOICES["scaling"], help=choice_help("scaling", default=FillPlan().scaling)
     )
+    cols.add_argument(
+        "--rounding", choices=CHOICES["rounding"], help=choice_help("rounding", default=FillPlan().rounding)
+    )
     cols.add_argument("--group", metavar="COL", help="take donors only from rows of the same group")
     cols.add_argument(
         "--marker",

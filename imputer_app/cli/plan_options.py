@@ -24,6 +24,7 @@ def build_plan(
     carry: Sequence[str] | None = None,
     weights: Sequence[tuple[str, float]] = (),
     scaling: str | None = None,
+    rounding: str | None = None,
     group: str | None = None,
     markers: Sequence[tuple[str, str]] = (),
 ) -> FillPlan:
@@ -43,6 +44,8 @@ def build_plan(
         changes["k"] = k
     if scaling is not None:
         changes["scaling"] = scaling
+    if rounding is not None:
+        changes["rounding"] = rounding
     if group is not None:
         changes["group_column"] = group
     if weights:

@@ -164,7 +164,8 @@ class Finish:
         bounds = [plan.bounds.get(c, (None, None)) for c in stack.columns]
         lower = np.array([np.nan if b[0] is None else b[0] for b in bounds], dtype=np.float64)[stack.col]
         upper = np.array([np.nan if b[1] is None else b[1] for b in bounds], dtype=np.float64)[stack.col]
-        decimals = np.array([plan.decimals.get(c, -1) for c in stack.columns], dtype=np.intp)[stack.col]
+        rounded = [table.decimals.get(c, plan.decimals.get(c, -1)) for c in stack.columns]
+        decimals = np.array(rounded, dtype=np.intp)[stack.col]
         cap_hi, cap_lo = np.full(len(stack.col), np.nan), np.full(len(stack.col), np.nan)
         for i, c in enumerate(stack.columns):
             if c not in table.cap_upper and c not in table.cap_lower:

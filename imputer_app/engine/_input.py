@@ -88,6 +88,9 @@ class Input:
     sheet_reasons : dict of str to str
         Why the sheet says a column must be carried by default (a computed column,
         free text), from its column facts' ``carry_reason``; empty for a DataFrame.
+    decimals : dict of str to int
+        The measured precision the sheet read for its number columns (column facts'
+        ``decimals``: from cell text or number formats); empty for a DataFrame.
     """
 
     names: tuple[str, ...]
@@ -97,6 +100,7 @@ class Input:
     sheet_kinds: dict[str, str] | None
     labels: pd.Index | None = None
     sheet_reasons: dict[str, str] = field(default_factory=dict)
+    decimals: dict[str, int] = field(default_factory=dict)
 
 
 def unpack(data: pd.DataFrame | SheetLike | NDArray[Any]) -> Input:
@@ -114,6 +118,7 @@ def unpack(data: pd.DataFrame | SheetLike | NDArray[Any]) -> Input:
             )
         data = pd.DataFrame(data)
     reasons: dict[str, str] = {}
+    decimals: dict[str, int] = {}
     if isinstance(data, pd.DataFrame):
         frame, states, notes = data, None, None
     elif isinstance(data, SheetLike):
@@ -121,6 +126,7 @@ def unpack(data: pd.DataFrame | SheetLike | NDArray[Any]) -> Input:
         if isinstance(data, SheetWithKinds) and isinstance(data.columns, list | tuple) and data.columns:
             kinds = {c.name: c.kind for c in data.columns}
             reasons = {c.name: why for c in data.columns if (why := getattr(c, "carry_reason", None))}
+            decimals = {c.name: d for c in data.columns if isinstance(d := getattr(c, "decimals", None), int)}
     else:
         raise PlanError(f"cannot fill a {type(data).__name__}; give a table (DataFrame) or a read sheet")
     if not isinstance(frame, pd.DataFrame):
@@ -131,7 +137,7 @@ def unpack(data: pd.DataFrame | SheetLike | NDArray[Any]) -> Input:
     labels = frame.columns
     names = tuple(str(c) for c in labels.tolist())
     if all(isinstance(c, str) for c in labels.tolist()):
-        return Input(names, frame, states, notes, kinds, sheet_reasons=reasons)
+        return Input(names, frame, states, notes, kinds, sheet_reasons=reasons, decimals=decimals)
     text = pd.Index(names)
     if text.has_duplicates:
         dup = text[text.duplicated()][0]
@@ -143,7 +149,7 @@ def unpack(data: pd.DataFrame | SheetLike | NDArray[Any]) -> Input:
         states.columns = pd.Index([str(c) for c in states.columns.tolist()])
     if notes is not None and "column" in notes.columns:
         notes = notes.assign(column=notes["column"].map(str))
-    return Input(names, frame, states, notes, kinds, labels, reasons)
+    return Input(names, frame, states, notes, kinds, labels, reasons, decimals)
 
 
 def state_masks(inp: Input, columns: list[str], words: tuple[str, ...]) -> dict[str, NDArray[np.bool_]]:

@@ -29,6 +29,7 @@ from imputer_app.engine._roles import (
 from imputer_app.engine._table import PreparedTable
 from imputer_app.errors import PlanError
 from imputer_app.plan import FillPlan
+from imputer_app.plan_rounding import column_decimals
 from imputer_app.work import CancelFlag, raise_if_cancelled
 
 
@@ -255,6 +256,7 @@ def prepare_input(
     cap_upper: dict[str, NDArray[np.float64]] = {}
     cap_lower: dict[str, NDArray[np.float64]] = {}
     unknown_limit: dict[str, NDArray[np.bool_]] = {}
+    decimals: dict[str, int] = {}
     finite = np.isfinite(cols.block)
     for col in fill:
         if kinds[col] == "number":
@@ -267,6 +269,9 @@ def prepare_input(
                 caps = censored_caps(cen, unknown_limit[col], measured, resolved.censored)
                 if caps is not None:
                     cap_upper[col], cap_lower[col] = caps
+            rounded = column_decimals(resolved.decimals, resolved.rounding, col, inp.decimals.get(col))
+            if rounded is not None:
+                decimals[col] = rounded
         else:
             values[col] = cols.codes[col]
             observed[col] = cols.codes[col] >= 0
@@ -303,4 +308,5 @@ def prepare_input(
         unknown_limit=unknown_limit,
         measured=has_values,
         left_alone=left_alone,
+        decimals=decimals,
     ), cols.censored

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import copy
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -21,6 +21,7 @@ from imputer_app.engine._input import Input, state_masks
 from imputer_app.engine._log import LogTable, Records, repeated
 from imputer_app.engine._table import PreparedTable
 from imputer_app.plan import FillPlan
+from imputer_app.plan_rounding import outward
 from imputer_app.words import LOG_COLUMNS, UNFILLED_COLUMNS
 from imputer_app.work import CancelFlag, raise_if_cancelled
 
@@ -52,6 +53,10 @@ class FillResult:
         nothing was filled).
     calibration : Calibration or None
         How the intervals were calibrated (None when ``plan.interval_level`` is None).
+    decimals : dict of str to int
+        Per numeric fill column that was rounded, the decimals of its filled numbers
+        (the plan's ``decimals``, else the sheet's measured precision under
+        ``plan.rounding``); interval bounds are rounded outward to the same decimals.
 
     Notes
     -----
@@ -69,6 +74,7 @@ class FillResult:
     warnings: tuple[str, ...]
     k_weak_threshold: float
     calibration: Calibration | None = None
+    decimals: Mapping[str, int] = field(default_factory=dict)
 
     @property
     def array(self) -> NDArray[Any]:
@@ -87,6 +93,7 @@ def build_result(
     frame = inp.frame
     labels = frame.index
     log = records.log_table(table.row_labels)
+    _round_intervals(log, table)
     raise_if_cancelled(cancel)  # the log's tuples take about half of this step
     filled = np.zeros(frame.shape, dtype=bool)
     filled[log.pos[log.filled], log.column[log.filled]] = True
@@ -113,7 +120,17 @@ def build_result(
         plan=table.plan,
         warnings=table.warnings,
         k_weak_threshold=threshold,
+        decimals=dict(table.decimals),
     )
+
+
+def _round_intervals(log: LogTable, table: PreparedTable) -> None:
+    """Round each interval outward to its column's decimals, as its filled value was rounded."""
+    if not table.decimals or "lower" not in log.fields or "upper" not in log.fields:
+        return
+    per_column = np.array([table.decimals.get(c, -1) for c in table.columns], dtype=np.intp)
+    lower, upper = (np.asarray(log.fields[side], dtype=np.float64) for side in ("lower", "upper"))
+    log.fields["lower"], log.fields["upper"] = outward(lower, upper, per_column[log.column])
 
 
 def _filled_frame(

@@ -61,6 +61,9 @@ class PreparedTable:
     left_alone : dict of str to ndarray of bool, shape (n_rows,)
         Per fill column: empty cells that are not gaps (a formula's error result,
         unless the plan fills those); never targets, never donors.
+    decimals : dict of str to int
+        Per numeric fill column that is rounded: the decimals its filled numbers get
+        (the plan's ``decimals``, else the measured precision under its ``rounding``).
     """
 
     n_rows: int
@@ -82,6 +85,7 @@ class PreparedTable:
     unknown_limit: dict[str, NDArray[np.bool_]] = field(default_factory=dict)
     measured: NDArray[np.bool_] | None = None
     left_alone: dict[str, NDArray[np.bool_]] = field(default_factory=dict)
+    decimals: dict[str, int] = field(default_factory=dict)
 
     def targets(self) -> dict[str, NDArray[np.bool_]]:
         """Default rows to fill per fill column: every cell not observed nor left alone."""

@@ -160,10 +160,13 @@ class ColumnSetup(QWidget):
             box, "upperEdit", "Upper bound", "Filled numbers never go above this (empty: no bound)."
         )
         self.decimals_spin = named(
-            QSpinBox(box), "decimalsSpin", "Decimals", "Round filled numbers to this many decimals."
+            QSpinBox(box),
+            "decimalsSpin",
+            "Decimals",
+            "Round filled numbers to this many decimals; 'by rounding' follows the Rounding setting.",
         )
         self.decimals_spin.setRange(-1, 15)
-        self.decimals_spin.setSpecialValueText("as computed")
+        self.decimals_spin.setSpecialValueText("by rounding")
         self.decimals_spin.setValue(-1)
         for label, widget in (
             ("Ro&le", self.role_combo),
@@ -213,6 +216,7 @@ class ColumnSetup(QWidget):
             "numeric_rule": "Numbers from",
             "censored": "Below &a limit",
             "no_donor": "No donor found",
+            "rounding": "Rounding",
         }
         for setting, labels in CHOICE_WORDS.items():
             combo = _combo(box, f"{setting}Combo", titles[setting].replace("&", ""), SETTING_TIPS[setting])

@@ -35,7 +35,7 @@ from imputer_app.gui.read_bar import read_job, worksheets
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
 from imputer_app.gui.start_view import StartView
-from imputer_app.gui.state import Session
+from imputer_app.gui.state import Session, export_fill
 from imputer_app.gui.status_text import fill_remarks, layer_note, plan_source, state_line
 from imputer_app.gui.unfilled_panel import UnfilledPanel
 from imputer_app.gui.window_actions import build_actions, build_menus, enabled_actions, fill_recent_menu
@@ -331,9 +331,7 @@ class MainWindow(QMainWindow):
             return False
 
         def job(progress: Progress, cancel: CancelFlag) -> list[Path]:
-            from imputer_app.sheets import write_result
-
-            return write_result(target, sheet, result, result.plan, report, progress=progress, cancel=cancel)
+            return export_fill(target, sheet, result, report, progress=progress, cancel=cancel)
 
         def done(paths: list[Path]) -> None:
             if self.session.applied is result:

@@ -30,6 +30,7 @@ if TYPE_CHECKING:
     from imputer_app.engine import FillResult
     from imputer_app.sheets import Sheet
     from imputer_app.validation import RecoveryReport
+    from imputer_app.work import CancelFlag, Progress
 
 #: Names of the changes a listener is told about.
 EVENTS = ("sheet", "plan", "report", "preview", "applied", "saved")
@@ -217,6 +218,25 @@ class Session:
     def _require_sheet(self) -> None:
         if self.sheet is None:
             raise SessionError("no sheet is loaded")
+
+
+def export_fill(
+    target: str | Path,
+    sheet: Sheet,
+    result: FillResult,
+    report: RecoveryReport | None,
+    progress: Progress | None = None,
+    cancel: CancelFlag | None = None,
+) -> list[Path]:
+    """The app's export of an applied fill: the same writer as ``kinfill fill``.
+
+    The app gives the plan as the fill used it (``result.plan``), so that a later
+    ``kinfill fill --plan-from`` of the export fills the same columns. Returns the
+    files written.
+    """
+    from imputer_app.sheets import write_result
+
+    return write_result(target, sheet, result, result.plan, report, progress=progress, cancel=cancel)
 
 
 def default_export_path(source: str | Path) -> Path:

@@ -73,6 +73,9 @@ class ExportContent:
         Row placement for a worksheet.
     sample_ids : Series or None
         Row label to the lab's sample ID (:func:`sample_ids`), None without one.
+    decimals : list of int or None
+        Per column, the decimals its filled numbers were rounded to
+        (``FillResult.decimals``); None where they were left as computed.
     """
 
     frame: pd.DataFrame
@@ -88,6 +91,7 @@ class ExportContent:
     unfilled: pd.DataFrame
     layout: Layout
     sample_ids: pd.Series | None = None
+    decimals: list[int | None] | None = None
 
     @property
     def has_units(self) -> bool:
@@ -151,6 +155,7 @@ def build_content(sheet: Sheet | None, result: FillResult) -> ExportContent:
         unfilled=unfilled,
         layout=_layout(sheet, frame, any(units)),
         sample_ids=ids,
+        decimals=[dict(getattr(result, "decimals", {})).get(n) for n in names],
     )
 
 

@@ -51,6 +51,11 @@ class ColumnInfo:
     group_label : str
         The label merged over this column and its neighbours above the header
         ("Cations"); "" when none. It enters ``name`` only where names would repeat.
+    decimals : int or None
+        The column's measured precision: the most decimals its number cells show, read
+        from the cell text (a delimited file) or the column's number format (a
+        workbook), else from the stored numbers; None when it holds no number.
+        Filled numbers are rounded to it by default.
     """
 
     name: str
@@ -61,6 +66,7 @@ class ColumnInfo:
     carry_reason: str | None = None
     group_like: bool = False
     group_label: str = ""
+    decimals: int | None = None
 
 
 @dataclass(frozen=True)

@@ -10,7 +10,7 @@ The source file is only ever opened for reading.
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from os import PathLike
 from pathlib import Path
 
@@ -33,12 +33,15 @@ from imputer_app.sheets._grid import Merge
 from imputer_app.sheets._header import Layout, find_layout, unique_names
 from imputer_app.sheets._limits import markers_found, take_limit_row
 from imputer_app.sheets._model import ColumnInfo, Sheet, SourceInfo
+from imputer_app.sheets._precision import column_decimals, workbook_formats
 from imputer_app.sheets._workbook import list_workbook_sheets, read_workbook
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
 #: Progress is reported as (done, PROGRESS_TOTAL); stages end at these marks.
 PROGRESS_TOTAL = 1000
 _READ_DONE, _GRID_DONE, _COLUMNS_DONE = 150, 400, 900
+#: Workbook formats whose number formats are read for each column's measured precision.
+_XLSX_FORMATS = ("xlsx", "xlsm")
 #: Rows sampled to detect the decimal mark.
 _DECIMAL_SAMPLE_ROWS = 2000
 
@@ -192,9 +195,18 @@ def read_sheet(
     forced = resolve_kinds(columns, kinds, where)
     built = assemble(columns, rows, forced, workbook=grid.sheet is not None, cancel=cancel)
     groups = layout.groups or ("",) * grid.cells.shape[1]
+    shown = (
+        workbook_formats(data, grid.sheet, rows, [c.position for c in columns])
+        if fmt in _XLSX_FORMATS and grid.sheet is not None
+        else {}
+    )
     infos = [
         _info(c, built.kinds[c.name], built.notes[c.name], rows, grid.formulas, groups[c.position])
         for c in columns
+    ]
+    infos = [
+        replace(info, decimals=column_decimals(c.parsed, grid.sheet is None, decimal, shown.get(c.position)))
+        for info, c in zip(infos, columns, strict=True)
     ]
     info = SourceInfo(
         path=source.absolute(),

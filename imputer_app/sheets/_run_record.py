@@ -22,6 +22,7 @@ import pandas as pd
 from imputer_app import CAUTIONS, __version__
 from imputer_app.charts import ErrorVsK
 from imputer_app.sheets._methods_text import methods_paragraph
+from imputer_app.words import CHOICE_WORDS
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
@@ -49,6 +50,7 @@ SECTIONS = {
     "plan": "Plan (as given)",
     "plan_resolved": "Plan (as used, columns resolved)",
     "units": "Units",
+    "rounding": "Rounding of filled numbers",
     "unfilled_reasons": "Cells left empty, by reason",
     "warnings": "Warnings",
     "recovery_test": "Recovery test",
@@ -140,6 +142,7 @@ def build_record(
         "plan": plan.to_dict(),
         "plan_resolved": result.plan.to_dict(),
         "units": {n: u for n, u in zip(content.names, content.units, strict=True) if u},
+        "rounding": _rounding(result),
         "unfilled_reasons": {str(k): int(v) for k, v in result.unfilled["reason"].value_counts().items()},
         "warnings": [str(w) for w in result.warnings] + (list(sheet.problems) if sheet is not None else []),
         "recovery_test": _recovery(report, result.plan.k),
@@ -149,6 +152,13 @@ def build_record(
         "methods_text": methods_paragraph(result, plan, report, sheet),
     }
     return jsonable(record)
+
+
+def _rounding(result: FillResult) -> dict[str, Any]:
+    """The rounding rule and the decimals each rounded column's filled numbers got."""
+    rule = CHOICE_WORDS["rounding"][result.plan.rounding]
+    decimals = dict(getattr(result, "decimals", {}))
+    return {"rule": f"{rule.label}: {rule.explanation}", "decimals": decimals}
 
 
 def _input(sheet: Sheet | None) -> dict[str, Any]:

@@ -30,6 +30,8 @@ MAX_CELL_TEXT = 32767
 # CR (which XML parsers turn into LF) and a literal "_xHHHH_" that readers would decode.
 _SPECIAL = re.compile("[&<>\x00-\x08\x0b\x0c\x0d\x0e-\x1f\ud800-\udfff\ufffe\uffff]|_x[0-9A-Fa-f]{4}_")
 _ENTITIES = {"&": "&amp;", "<": "&lt;", ">": "&gt;"}
+#: Whole numbers below this are written without ".0" (a float holds every whole number up to 2**53).
+_EXACT_WHOLE = 2.0**53
 _EXCEL_EPOCH = np.datetime64("1899-12-30T00:00:00", "ns")
 
 
@@ -113,6 +115,8 @@ def value_cell(ref: str, value: Any, style: str = "", date_style: str = "") -> s
         number = float(value)
         if math.isinf(number):
             return text_cell(ref, repr(number), style)
+        if number.is_integer() and abs(number) < _EXACT_WHOLE:  # 139, not 139.0
+            return f'<c r="{ref}"{style}><v>{int(number)}</v></c>'
         return f'<c r="{ref}"{style}><v>{number!r}</v></c>'
     if isinstance(value, datetime | date | np.datetime64):
         serial = excel_serial(np.array([value], dtype="datetime64[ns]"))[0]

@@ -7,9 +7,12 @@ decimal mark and line ends when the input was a delimited file (else CRLF).
 
 Cells leave as they came: every cell of a delimited input that was not filled (carried,
 observed, a marker left empty) is written as its original text from the file, spaces
-and digits unchanged (``'  lead'``, ``0,020``, ``157``). Filled cells are written in the
-input's decimal mark with 15 significant digits, which drops binary noise such as
-``6.732000000000001``.
+and digits unchanged (``'  lead'``, ``0,020``, ``157``), and a units row under the
+header stays there. Filled numbers are written in the input's decimal mark with the
+decimals they were rounded to (``FillResult.decimals``: ``6.40`` in a two-decimal
+column), else with 15 significant digits, which drops binary noise such as
+``6.732000000000001``; other numbers too are written with 15 significant digits, so a
+whole number stays whole (``139``, not ``139.0``).
 
 Formula injection: a text cell that begins with ``=``, ``+``, ``-``, ``@``, tab or
 carriage return is written with a leading single quote, as the OWASP "CSV Injection"
@@ -30,7 +33,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 import pandas as pd
 
-from imputer_app.sheets._content import PLAIN, ExportContent
+from imputer_app.sheets._content import FILLED, PLAIN, ExportContent
 from imputer_app.sheets._run_record import record_json
 from imputer_app.sheets._ticker import Ticker
 
@@ -57,6 +60,8 @@ class Dialect:
     line_end: str = "\r\n"
     #: The input's text of every cell (``Sheet.raw_text``), written back for cells not filled.
     originals: np.ndarray | None = field(default=None, repr=False, compare=False)
+    #: The input had a units row under its header: the table keeps one.
+    units_row: bool = False
 
 
 class _Verbatim(str):
@@ -82,7 +87,8 @@ def dialect_for(target: Path, sheet: Sheet | None) -> Dialect:
     plain = source is not None and (source.encoding or "").lower().replace("_", "-") in ("utf-8", "utf8")
     line_end = source.line_end if source is not None and source.line_end else "\r\n"
     originals = getattr(sheet, "raw_text", None)
-    return Dialect(delimiter, decimal, "utf-8" if plain else "utf-8-sig", line_end, originals)
+    units_row = source is not None and source.units_row is not None
+    return Dialect(delimiter, decimal, "utf-8" if plain else "utf-8-sig", line_end, originals, units_row)
 
 
 def side_files(target: Path, with_unfilled: bool) -> dict[str, Path]:
@@ -128,7 +134,9 @@ def write_csv(
     ticker : Ticker
         Progress and cancel.
     """
-    _write_table(temps["table"], _with_originals(_filled_table(content), content, dialect), dialect, ticker)
+    table = _rounded_numbers(_filled_table(content), content, dialect.decimal)
+    table = _with_originals(table, content, dialect)
+    _write_table(temps["table"], table, dialect, ticker, content.units if dialect.units_row else None)
     _write_table(temps["log"], content.log_table, dialect, ticker)
     if "unfilled" in temps:
         _write_table(temps["unfilled"], content.unfilled, dialect, ticker)
@@ -152,6 +160,29 @@ def _filled_table(content: ExportContent) -> pd.DataFrame:
     table = pd.DataFrame(columns, index=frame.index)
     table.columns = pd.Index(content.names, dtype=object)
     return table
+
+
+def _rounded_numbers(table: pd.DataFrame, content: ExportContent, decimal: str) -> pd.DataFrame:
+    """Write each filled number of a rounded column with its column's decimals (``6.40``)."""
+    decimals = content.decimals or [None] * table.shape[1]
+    if all(d is None for d in decimals):
+        return table
+    out: dict[int, Any] = {}
+    for j, places in enumerate(decimals):
+        filled = np.flatnonzero(content.marks[:, j] == FILLED)
+        if places is None or not filled.size:
+            out[j] = table.iloc[:, j]
+            continue
+        values = table.iloc[:, j].to_numpy(dtype=object, copy=True)
+        for i in filled.tolist():
+            value = values[i]
+            if isinstance(value, float | np.floating) and math.isfinite(value):
+                # + 0.0 turns a rounded -0.0 into 0.0
+                values[i] = _Verbatim(f"{float(value) + 0.0:.{places}f}".replace(".", decimal))
+        out[j] = values
+    kept = pd.DataFrame(out, index=table.index)
+    kept.columns = table.columns
+    return kept
 
 
 def _with_originals(table: pd.DataFrame, content: ExportContent, dialect: Dialect) -> pd.DataFrame:
@@ -202,8 +233,20 @@ def _csv_ready(table: pd.DataFrame, decimal: str) -> pd.DataFrame:
     return ready
 
 
-def _write_table(path: Path, table: pd.DataFrame, dialect: Dialect, ticker: Ticker) -> None:
+def _write_table(
+    path: Path, table: pd.DataFrame, dialect: Dialect, ticker: Ticker, units: list[str | None] | None = None
+) -> None:
+    """Write ``table`` in chunks; ``units`` is a units row written under the header."""
     with path.open("w", encoding=dialect.encoding, newline="") as handle:
+        if units is not None:
+            lines = csv.writer(
+                handle,
+                delimiter=dialect.delimiter,
+                lineterminator=dialect.line_end,
+                quoting=csv.QUOTE_MINIMAL,
+            )
+            lines.writerow([guard(str(c)) for c in table.columns])
+            lines.writerow([guard(u or "") for u in units])
         for start in range(0, max(len(table), 1), CHUNK_ROWS):
             part = _csv_ready(table.iloc[start : start + CHUNK_ROWS], dialect.decimal)
             part.to_csv(
@@ -211,9 +254,10 @@ def _write_table(path: Path, table: pd.DataFrame, dialect: Dialect, ticker: Tick
                 sep=dialect.delimiter,
                 decimal=dialect.decimal,
                 index=False,
-                header=start == 0,
+                header=start == 0 and units is None,
                 lineterminator=dialect.line_end,
                 quoting=csv.QUOTE_MINIMAL,
                 na_rep="",
+                float_format="%.15g",  # 139, not 139.0; no binary noise
             )
             ticker.step(len(part))

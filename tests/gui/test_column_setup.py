@@ -96,12 +96,14 @@ def test_fill_settings_reach_the_plan(setup):
     choose(setup.choice_combos["scaling"], "robust")
     choose(setup.choice_combos["censored"], "limit_sqrt2")
     choose(setup.choice_combos["no_donor"], "column_mean")
+    assert setup.plan().rounding == "measured"  # the default: each column's measured precision
+    choose(setup.choice_combos["rounding"], "as_computed")
     setup.set_k(9)
     setup.select_columns(["Phosphate"])
     setup.decimals_spin.setValue(3)
     plan = setup.plan()
     assert (plan.scaling, plan.censored, plan.no_donor, plan.k) == ("robust", "limit_sqrt2", "column_mean", 9)
-    assert plan.decimals == {"Phosphate": 3}
+    assert plan.decimals == {"Phosphate": 3} and plan.rounding == "as_computed"
 
 
 def test_a_plan_shows_and_comes_back_unchanged(setup):

@@ -48,9 +48,9 @@ def test_a_failure_mid_write_leaves_nothing(tmp_path, monkeypatch, suffix) -> No
         calls = []
         real_table = _write_csv._write_table
 
-        def second_file_fails(path, table, dialect, ticker):
+        def second_file_fails(path, table, dialect, ticker, *units):
             calls.append(path)
-            real_table(path, table, dialect, ticker)
+            real_table(path, table, dialect, ticker, *units)
             if len(calls) == 2:
                 disk_full()
 

@@ -59,7 +59,7 @@ def test_header_names_and_log_texts_are_guarded_too(tmp_path) -> None:
     result = fake_result(frame, {(1, "=bad"): 1.0})
     files = write_result(tmp_path / "out.csv", None, result, result.plan)
     assert read_rows(files[0])[0] == ["'=bad", "site"]
-    assert read_rows(files[0])[1:] == [["1.0", "'-east"], ["1.0", "'@west"]]
+    assert read_rows(files[0])[1:] == [["1", "'-east"], ["1", "'@west"]]  # whole numbers stay whole
     log = read_rows(files[1])
     assert log[1][1] == "'=bad"
 
@@ -83,9 +83,10 @@ def test_files_are_table_log_and_record(lab_csv, tmp_path) -> None:
 def test_table_holds_filled_values_and_original_texts(lab_csv) -> None:
     sheet, result, files = lab_csv
     rows = read_rows(files[0])
-    assert rows[0] == list(sheet.frame.columns)  # no units row in csv; units are in the run record
-    assert len(rows) == len(result.frame) + 1
-    for line, (label, values) in zip(rows[1:], result.frame.iterrows(), strict=True):
+    assert rows[0] == list(sheet.frame.columns)
+    assert rows[1] == [u or "" for u in sheet.units.values()]  # the input's units row stays
+    assert len(rows) == len(result.frame) + 2
+    for line, (label, values) in zip(rows[2:], result.frame.iterrows(), strict=True):
         for text, column in zip(line, result.frame.columns, strict=True):
             value = values[column]
             state = sheet.states.loc[label, column]
@@ -155,8 +156,9 @@ def test_a_delimited_input_keeps_its_delimiter_and_decimal_mark(
     files = write_result(tmp_path / f"out{suffix}", sheet, result, LAB_PLAN)
     mark = decimal or "."
     rows = read_rows(files[0], expected_sep, "utf-8-sig")
-    assert rows[1][2:5] == [f"1{mark}0", f"0{mark}8", f"7{mark}1"]
-    assert rows[4][4] == f"9{mark}0"  # pH ">9" at row 7, written as its limit
+    assert rows[1][2:4] == ["mg/L", "µg/L"]  # the units row
+    assert rows[2][2:5] == ["1", f"0{mark}8", f"7{mark}1"]  # a whole number stays whole
+    assert rows[5][4] == "9"  # pH ">9" at row 7, written as its limit
     assert files[0].read_bytes().startswith(b"\xef\xbb\xbf") is bom  # UTF-8 always; BOM unless input had none
     record = json.loads(files[2].read_text(encoding="utf-8"))
     assert record["output"]["delimiter"] == expected_sep and record["output"]["decimal"] == mark

@@ -357,7 +357,7 @@ def test_a_plain_table_may_repeat_a_column_name(tmp_path, suffix) -> None:
         cells = calamine_cells(files[0], "Filled")
         assert [cells[(1, j)] for j in (1, 2, 3)] == ["x", "y", "x"] and cells[(3, 3)] == 4.0
     else:
-        assert files[0].read_text(encoding="utf-8-sig").splitlines() == ["x,y,x", "1.0,a,2.0", ",b,4.0"]
+        assert files[0].read_text(encoding="utf-8-sig").splitlines() == ["x,y,x", "1,a,2", ",b,4"]
 
 
 ANY_TEXT = st.text(alphabet=st.characters(exclude_categories=("Cs",)), max_size=40)  # Cs: lone surrogates
