@@ -1,7 +1,7 @@
 """A recovery test's hidden cells, kept so that the interval calibration can reuse them (numpy only).
 
 A recovery test hides known cells and fills them for every k it tests. Kept here are,
-per fill column, the scores of its first repeat's hidden cells for every k (see
+per fill column, the scores of its hidden cells (each cell once) for every k (see
 :func:`~imputer_app.engine._conformal.score_cells`): a fill whose plan differs from the
 tested one only in k calibrates its intervals on them instead of hiding cells again.
 """

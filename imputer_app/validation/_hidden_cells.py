@@ -1,8 +1,9 @@
 """Keep a recovery test's hidden cells so that a fill can calibrate its intervals on them.
 
-The first repeat of a recovery test hides every hideable known cell once (over its
-folds) and fills it for every k tested. :class:`HiddenCellCollector` keeps, per fill
-column, the scores of up to :data:`KEEP_PER_COLUMN` of those cells for every k
+A recovery test hides known cells fold by fold, repeat by repeat, and fills them for
+every k tested. :class:`HiddenCellCollector` keeps, per fill column, the scores of up
+to :data:`KEEP_PER_COLUMN` of those cells for every k, each cell once (the first time
+it was hidden: a cell hidden again in a later repeat would count twice)
 (:func:`imputer_app.engine.score_cells`), within a memory budget; the report hands them
 to :func:`imputer_app.engine.impute` as ``hidden=report.hidden``.
 """
@@ -25,7 +26,7 @@ BUDGET = 8_000_000
 
 
 class HiddenCellCollector:
-    """Collects the hidden cells' scores fold by fold (first repeat only)."""
+    """Collects the hidden cells' scores fold by fold, each cell once."""
 
     def __init__(self, table: PreparedTable, ks: Sequence[int]) -> None:
         self.table = table
@@ -35,6 +36,7 @@ class HiddenCellCollector:
         self.scores: dict[str, list[np.ndarray]] = {}
         self.rows: dict[str, list[np.ndarray]] = {}
         self.kept: dict[str, int] = {}
+        self.seen = {c: np.zeros(table.n_rows, dtype=bool) for c in table.fill_columns}
 
     def add(self, hidden: PreparedTable, donors: Mapping[str, ColumnDonors]) -> None:
         """Score one fold's hidden cells for every k and keep them, up to the cap per column."""
@@ -43,9 +45,12 @@ class HiddenCellCollector:
         if not wanted:
             return
         for col, found in engine.score_cells(self.table, hidden, wanted, self.ks).items():
-            ok = np.flatnonzero(np.isfinite(found[:, 0, :]).all(axis=0))[: room[col]]
+            rows = np.asarray(wanted[col].rows, dtype=np.intp)
+            fresh = np.isfinite(found[:, 0, :]).all(axis=0) & ~self.seen[col][rows]
+            ok = np.flatnonzero(fresh)[: room[col]]
+            self.seen[col][rows[ok]] = True
             self.scores.setdefault(col, []).append(found[:, :, ok].astype(np.float32))
-            self.rows.setdefault(col, []).append(np.asarray(wanted[col].rows, dtype=np.intp)[ok])
+            self.rows.setdefault(col, []).append(rows[ok])
             self.kept[col] = self.kept.get(col, 0) + len(ok)
 
     def result(self, masking: str) -> HiddenCells:

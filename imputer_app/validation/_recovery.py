@@ -118,13 +118,12 @@ def recovery_test(
     steps = sum(len(folds) for folds in masks)
     total = steps * _STEPS
     step = 0
-    keep = HiddenCellCollector(base.table, tested)  # the first repeat's cells, for the intervals
+    keep = HiddenCellCollector(base.table, tested)  # the hidden cells, for the intervals
     for repeat, folds in enumerate(masks):
         for fold, mask in enumerate(folds):
             raise_if_cancelled(cancel)
             search_progress = _scaled(progress, step * _STEPS, _SEARCH_STEPS, total)
-            collect = keep.add if repeat == 0 else None
-            outcomes = fill_hidden(frame, base, mask, tested, search_progress, cancel, collect)
+            outcomes = fill_hidden(frame, base, mask, tested, search_progress, cancel, keep.add)
             knn_scores, baseline_scores = score_repeat(outcomes, tested, repeat, fold)
             score_parts.append(knn_scores)
             baseline_parts.append(baseline_scores)

@@ -63,7 +63,7 @@ class RecoveryReport:
     warnings : tuple of str
         Plain-words remarks (k values dropped, cells no donor reached, ...).
     hidden : HiddenCells or None
-        The first repeat's hidden cells scored for every k: pass them to
+        The hidden cells (each once) scored for every k: pass them to
         ``impute(data, plan, hidden=report.hidden)`` so that the fill's intervals are
         calibrated on them instead of on cells hidden again.
     """
