@@ -41,17 +41,23 @@ class HiddenCellCollector:
     def add(self, hidden: PreparedTable, donors: Mapping[str, ColumnDonors]) -> None:
         """Score one fold's hidden cells for every k and keep them, up to the cap per column."""
         room = {c: self.cap - self.kept.get(c, 0) for c in donors}
-        wanted = {c: d for c, d in donors.items() if room[c] > 0 and len(d.rows)}
+        wanted = {c: self._fresh(c, d, room[c]) for c, d in donors.items() if room[c] > 0}
+        wanted = {c: d for c, d in wanted.items() if len(d.rows)}
         if not wanted:
             return
         for col, found in engine.score_cells(self.table, hidden, wanted, self.ks).items():
             rows = np.asarray(wanted[col].rows, dtype=np.intp)
-            fresh = np.isfinite(found[:, 0, :]).all(axis=0) & ~self.seen[col][rows]
-            ok = np.flatnonzero(fresh)[: room[col]]
+            ok = np.flatnonzero(np.isfinite(found[:, 0, :]).all(axis=0))
             self.seen[col][rows[ok]] = True
             self.scores.setdefault(col, []).append(found[:, :, ok].astype(np.float32))
             self.rows.setdefault(col, []).append(rows[ok])
             self.kept[col] = self.kept.get(col, 0) + len(ok)
+
+    def _fresh(self, column: str, donors: ColumnDonors, room: int) -> ColumnDonors:
+        """The first ``room`` cells of ``donors`` not kept before (scoring the rest would be wasted)."""
+        rows = np.asarray(donors.rows, dtype=np.intp)
+        take = np.flatnonzero(~self.seen[column][rows])[:room]
+        return ColumnDonors(rows[take], donors.index[take], donors.distance[take], donors.count[take])
 
     def result(self, masking: str) -> HiddenCells:
         """The kept cells, with the tested plan and the hiding used."""
