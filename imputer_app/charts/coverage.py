@@ -16,6 +16,8 @@ from imputer_app.errors import KinfillError
 #: Columns :func:`plot_coverage` needs.
 COVERAGE_COLUMNS = ("level", "observed")
 DIAGONAL_LABEL = "intervals as claimed"
+#: Rows of a per-column coverage table that pool every column.
+ALL_ROWS = "(all)"
 
 
 def plot_coverage(table: pd.DataFrame, *, figure: Figure | None = None) -> Figure:
@@ -25,8 +27,10 @@ def plot_coverage(table: pd.DataFrame, *, figure: Figure | None = None) -> Figur
     ----------
     table : DataFrame
         Columns ``level`` (nominal coverage, 0-1) and ``observed`` (share of hidden
-        cells inside their interval, 0-1), one row per level; an optional ``n``
-        column (cells scored) is shown in the title.
+        cells inside their interval, 0-1), one row per level; an optional ``n`` or
+        ``n_cells`` column (cells scored) is shown in the title. A table with a
+        ``column`` column (``FillResult.coverage``) is drawn from its ``"(all)"`` rows,
+        which pool every fill column.
     figure : Figure or None, default=None
         Figure to draw on (cleared first); a new 5.2 x 5.0 inch figure when None.
 
@@ -43,6 +47,10 @@ def plot_coverage(table: pd.DataFrame, *, figure: Figure | None = None) -> Figur
     missing = [c for c in COVERAGE_COLUMNS if c not in table.columns]
     if missing:
         raise KinfillError(f"coverage table lacks column '{missing[0]}'")
+    if "column" in table.columns and (table["column"] == ALL_ROWS).any():
+        table = table[table["column"] == ALL_ROWS]
+    if "n" not in table.columns and "n_cells" in table.columns:
+        table = table.rename(columns={"n_cells": "n"})
     data = table.sort_values("level")
     level = data["level"].to_numpy(dtype=float)
     observed = data["observed"].to_numpy(dtype=float)

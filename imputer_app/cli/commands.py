@@ -64,7 +64,8 @@ def run_fill(args: argparse.Namespace) -> int:
             notes = k_notes(sheet, plan)  # said before the fill, which may take a while
             print_notes(notes, ())
             plan = capped_k(plan, len(sheet.frame), quiet=bool(notes))
-            result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop)
+            hidden = None if report is None else report.hidden  # calibrate on the test's cells
+            result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop, hidden=hidden)
             pictures = fill_picture_files(args.pictures, result, source, args.force)
             written = write_result(
                 out,
@@ -150,7 +151,7 @@ def run_score_k(args: argparse.Namespace) -> int:
         from imputer_app.engine import calibrate_intervals
 
         record = score_record(report, sheet)
-        calibration = calibrate_intervals(sheet, plan)
+        calibration = calibrate_intervals(sheet, plan, hidden=report.hidden)  # the test's cells
         record["intervals"] = None if calibration is None else calibration.to_dict()
         text = json.dumps(record, indent=2, ensure_ascii=False) + "\n"
         write_text(args.json, text, source=source, force=args.force)

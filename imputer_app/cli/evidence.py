@@ -71,9 +71,15 @@ def interval_line(result: FillResult) -> str | None:
         return None
     used = [c.n_hidden for c in calibration.columns.values() if c.usable]
     missing = [name for name, c in calibration.columns.items() if not c.usable]
-    line = f"intervals: {calibration.level:.0%}, calibrated on {sum(used)} hidden known cells"
+    where = " of the recovery test" if calibration.from_test else ""
+    line = f"intervals: {calibration.level:.0%}, calibrated on {sum(used)} hidden known cells{where}"
     if missing:
         line += f"; none for {', '.join(missing)} (too few hidden cells)"
+    observed, cells = calibration.checks.at(calibration.level) if calibration.checks else (float("nan"), 0)
+    if cells:
+        line += f"; {observed:.1%} of {cells} hidden cells fell inside intervals calibrated on others"
+    if calibration.remark:
+        line += f" ({calibration.remark})"
     return line
 
 

@@ -7,11 +7,12 @@ the fill log) is numpy only; reading a DataFrame or a :class:`SheetLike` sheet
 """
 
 from imputer_app.engine._combine import combine
-from imputer_app.engine._conformal import Calibration, ColumnCalibration
+from imputer_app.engine._conformal import Calibration, ColumnCalibration, score_cells
 from imputer_app.engine._impute import calibrate_intervals, impute
 from imputer_app.engine._input import SheetLike
 from imputer_app.engine._prepare import default_role_reasons, default_roles, prepare
 from imputer_app.engine._result import FillResult
+from imputer_app.engine._reuse import HiddenCells
 from imputer_app.engine._search import ColumnDonors, nearest_donors
 from imputer_app.engine._table import PreparedTable
 
@@ -20,6 +21,7 @@ __all__ = [
     "ColumnCalibration",
     "ColumnDonors",
     "FillResult",
+    "HiddenCells",
     "PreparedTable",
     "SheetLike",
     "calibrate_intervals",
@@ -29,4 +31,5 @@ __all__ = [
     "impute",
     "nearest_donors",
     "prepare",
+    "score_cells",
 ]

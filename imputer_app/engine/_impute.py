@@ -24,6 +24,7 @@ from imputer_app.engine._intervals import add_intervals, calibrate
 from imputer_app.engine._log import Records
 from imputer_app.engine._prepare import prepare_input
 from imputer_app.engine._result import FillResult, build_result
+from imputer_app.engine._reuse import HiddenCells
 from imputer_app.engine._search import search_cells
 from imputer_app.engine._stack import Stack
 from imputer_app.engine._support import weak_threshold
@@ -36,6 +37,8 @@ def impute(
     plan: FillPlan,
     progress: Progress | None = None,
     cancel: CancelFlag | None = None,
+    *,
+    hidden: HiddenCells | None = None,
 ) -> FillResult:
     """Fill the gaps of ``data`` by k-nearest-neighbour imputation.
 
@@ -61,6 +64,11 @@ def impute(
     cancel : Event-like or callable, optional
         Checked while preparing, once per chunk of the search and while building the
         log; raises :class:`~imputer_app.errors.Cancelled` and returns nothing.
+    hidden : HiddenCells, optional
+        A recovery test's hidden cells (``RecoveryReport.hidden``): the intervals are
+        calibrated on them instead of on cells hidden again, when the test's plan is
+        the fill's but for k and it tried each column's k (``FillResult.calibration``
+        says which cells were used).
 
     Returns
     -------
@@ -110,7 +118,7 @@ def impute(
     censored_records(censored, table.fill_columns, table.plan.censored, records)
     raise_if_cancelled(cancel)
     gaps = inp.frame.isna().to_numpy() if plan_used.interval_level is not None else None
-    calibration = None if gaps is None else calibrate(inp, table, _masks(censored), gaps, cancel)
+    calibration = None if gaps is None else calibrate(inp, table, _masks(censored), gaps, cancel, hidden)
     if calibration is not None:
         add_intervals(records, table, calibration)
     result = build_result(inp, table, records, threshold, cancel)
@@ -123,7 +131,11 @@ def _masks(censored: Mapping[str, Censored]) -> dict[str, NDArray[np.bool_]]:
 
 
 def calibrate_intervals(
-    data: pd.DataFrame | SheetLike, plan: FillPlan, cancel: CancelFlag | None = None
+    data: pd.DataFrame | SheetLike,
+    plan: FillPlan,
+    cancel: CancelFlag | None = None,
+    *,
+    hidden: HiddenCells | None = None,
 ) -> Calibration | None:
     """Calibrate the plan's intervals on ``data`` without filling (None when they are off).
 
@@ -138,9 +150,11 @@ def calibrate_intervals(
         Its ``interval_level`` and k settings are used.
     cancel : Event-like or callable, optional
         Checked between the steps.
+    hidden : HiddenCells, optional
+        A recovery test's hidden cells, as for :func:`impute`.
     """
     inp = unpack(data)
     table, censored = prepare_input(inp, plan, cancel=cancel)
     if plan.interval_level is None:
         return None
-    return calibrate(inp, table, _masks(censored), inp.frame.isna().to_numpy(), cancel)
+    return calibrate(inp, table, _masks(censored), inp.frame.isna().to_numpy(), cancel, hidden)

@@ -57,6 +57,8 @@ class FillResult:
         Per numeric fill column that was rounded, the decimals of its filled numbers
         (the plan's ``decimals``, else the sheet's measured precision under
         ``plan.rounding``); interval bounds are rounded outward to the same decimals.
+    coverage : DataFrame or None
+        Nominal against observed coverage of the intervals (see :attr:`coverage`).
 
     Notes
     -----
@@ -75,6 +77,34 @@ class FillResult:
     k_weak_threshold: float
     calibration: Calibration | None = None
     decimals: Mapping[str, int] = field(default_factory=dict)
+
+    @property
+    def coverage(self) -> pd.DataFrame | None:
+        """Nominal against observed coverage of the intervals, measured on hidden known cells.
+
+        Columns ``column``, ``level``, ``observed``, ``n_cells``: per fill column and
+        nominal level, the share of its hidden cells inside an interval whose quantile
+        was computed from *other* hidden cells (cross-fitting), and how many cells
+        were scored; rows with column ``"(all)"`` pool every fill column. None when
+        intervals are off or too few cells were hidden for any level.
+        """
+        checks = None if self.calibration is None else self.calibration.checks
+        if checks is None:
+            return None
+        scored = checks.scored.sum(axis=0)
+        names = ["(all)"] * len(checks.levels) + [c for c in checks.columns for _ in checks.levels]
+        n_cells = np.concatenate([scored, checks.scored.ravel()])
+        inside = np.concatenate([checks.inside.sum(axis=0), checks.inside.ravel()])
+        table = pd.DataFrame(
+            {
+                "column": names,
+                "level": np.tile(np.asarray(checks.levels, dtype=np.float64), len(checks.columns) + 1),
+                "observed": np.where(n_cells > 0, inside / np.maximum(n_cells, 1), np.nan),
+                "n_cells": n_cells.astype(np.int64),
+            }
+        )
+        table = table[table["n_cells"] > 0].reset_index(drop=True)
+        return table if len(table) else None
 
     @property
     def array(self) -> NDArray[Any]:

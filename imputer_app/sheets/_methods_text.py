@@ -35,11 +35,17 @@ REFERENCES = {
     "microarrays. Bioinformatics 17(6), 520-525.",
     "esl": "Hastie, T., Tibshirani, R. & Friedman, J. (2009). The Elements of Statistical "
     "Learning, 2nd ed., sec. 7.10. Springer.",
+    "lei": "Lei, J., G'Sell, M., Rinaldo, A., Tibshirani, R. J. & Wasserman, L. (2018). "
+    "Distribution-free predictive inference for regression. Journal of the American Statistical "
+    "Association 113(523), 1094-1111.",
     "hornung": "Hornung, R. W. & Reed, L. D. (1990). Estimation of average concentration in the "
     "presence of nondetectable values. Applied Occupational and Environmental Hygiene 5(1), 46-51.",
     "helsel": "Helsel, D. R. & Cohn, T. A. (1988). Estimation of descriptive statistics for "
     "multiply censored water quality data. Water Resources Research 24(12), 1997-2004.",
 }
+
+#: The coverage table's rows pooling every fill column.
+ALL_COLUMNS = "(all)"
 
 #: Marker between the paragraph's statements and its works cited.
 REFERENCES_HEADING = "References:"
@@ -95,7 +101,7 @@ def methods_paragraph(
     parts.append(_donor_sentence(used.numeric_rule, used.neighbour_weighting, used.k, categories))
     parts.append(_k_sentence(used.k, report, cites))
     parts.extend(_censored_sentences(result.log, cites))
-    parts.extend(_interval_sentences(result))
+    parts.extend(_interval_sentences(result, cites))
     parts.append(f"The fill was made with Kinfill {__version__}.")
     parts.append(CAUTIONS)
     works = " ".join(REFERENCES[key] for key in dict.fromkeys(cites))
@@ -239,19 +245,32 @@ def _censored_sentences(log: pd.DataFrame, cites: list[str]) -> list[str]:
     ]
 
 
-def _interval_sentences(result: FillResult) -> list[str]:
-    """The interval level and its measured coverage, only when the result holds them."""
+def _interval_sentences(result: FillResult, cites: list[str]) -> list[str]:
+    """The interval level, the cells it was calibrated on and its measured coverage, when present."""
     level = getattr(result.plan, "interval_level", None)
     if level is None:
         return []
     percent = number_text(100 * float(level))
     text = f"Each filled number carries a prediction interval at the {percent} % level"
+    calibration = getattr(result, "calibration", None)
+    if calibration is not None and calibration.n_hidden:
+        where = " hidden by the recovery test" if calibration.from_test else ""
+        text += (
+            f", calibrated by split conformal prediction (Lei et al. 2018) on {calibration.n_hidden} "
+            f"known cells{where}"
+        )
+        cites.append("lei")
     coverage = getattr(result, "coverage", None)
     if isinstance(coverage, pd.DataFrame) and {"level", "observed"} <= set(coverage.columns):
         rows = coverage[np.isclose(coverage["level"].astype(float), float(level))]
+        if "column" in rows.columns and (rows["column"] == ALL_COLUMNS).any():
+            rows = rows[rows["column"] == ALL_COLUMNS]
         if len(rows):
             observed = float(rows["observed"].iloc[0])
-            text += f"; on hidden known cells {number_text(100 * observed)} % fell inside their interval"
+            text += f"; {number_text(100 * observed)} % of "
+            if "n_cells" in rows.columns:
+                text += f"{int(rows['n_cells'].iloc[0])} "
+            text += "hidden known cells fell inside an interval calibrated on the other hidden cells"
     return [text + "."]
 
 

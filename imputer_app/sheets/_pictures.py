@@ -59,6 +59,15 @@ class FilledTable:
     frame: pd.DataFrame
     filled: pd.DataFrame
     censored: pd.DataFrame
+    coverage: pd.DataFrame | None = None
+
+
+def record_coverage(record: Mapping[str, Any]) -> pd.DataFrame | None:
+    """The pooled ``(all)`` coverage rows of a run record, as a table for :func:`plot_coverage`."""
+    pooled = ((record.get("intervals") or {}).get("coverage") or {}).get("(all)")
+    if not pooled:
+        return None
+    return pd.DataFrame({"level": pooled["level"], "observed": pooled["observed"], "n": pooled["n_cells"]})
 
 
 def scatter_partner(result: Any, column: str, similarity: Sequence[str] | None = None) -> str | None:

@@ -67,6 +67,8 @@ LABELS = {
     "best_k_1se": "k by the one-standard-error rule",
     "ks": "k values tested",
     "baseline_score": "baseline score (column average)",
+    "coverage": "coverage on hidden cells (nominal level, observed share, cells)",
+    "n_hidden": "hidden known cells used",
 }
 
 

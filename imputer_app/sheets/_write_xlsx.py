@@ -27,7 +27,7 @@ from xlsxwriter.worksheet import Worksheet
 
 from imputer_app.errors import ExportError
 from imputer_app.sheets._content import CENSORED, FILLED, ExportContent, cell_comments
-from imputer_app.sheets._pictures import PICTURES_SHEET, FilledTable, add_pictures_sheet
+from imputer_app.sheets._pictures import PICTURES_SHEET, FilledTable, add_pictures_sheet, record_coverage
 from imputer_app.sheets._run_record import ABOUT_SHEET, RecoveryEvidence, about_rows, recovery_table
 from imputer_app.sheets._sheetxml import ColumnCells, column_letter, excel_serial, render_line, render_rows
 from imputer_app.sheets._ticker import Ticker
@@ -203,6 +203,7 @@ def _add_pictures(
         frame=frame,
         filled=pd.DataFrame(content.marks == FILLED, index=frame.index, columns=frame.columns),
         censored=pd.DataFrame(content.marks == CENSORED, index=frame.index, columns=frame.columns),
+        coverage=record_coverage(record),
     )
     similarity = (record.get("plan_resolved") or {}).get("similarity_columns")
     sheets_before = len(book.worksheets())

@@ -13,18 +13,20 @@ sums, so testing thirty values of k costs about as much as testing one.
 
 from __future__ import annotations
 
+import dataclasses
 import numbers
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
 
 from imputer_app import engine
-from imputer_app.engine import PreparedTable, SheetLike
+from imputer_app.engine import ColumnDonors, PreparedTable, SheetLike
 from imputer_app.errors import KinfillError
 from imputer_app.plan import DEFAULT_KS, FillPlan
 from imputer_app.validation._baseline import baseline_values
+from imputer_app.validation._hidden_cells import HiddenCellCollector
 from imputer_app.validation._masking import MASKINGS, CellLayout, fold_count, hide_folds, resolve_masking
 from imputer_app.validation._report import RecoveryReport, build_report
 from imputer_app.validation._scoring import ColumnOutcome, score_repeat
@@ -116,11 +118,12 @@ def recovery_test(
     steps = sum(len(folds) for folds in masks)
     total = steps * _STEPS
     step = 0
+    keep = HiddenCellCollector(base.table, tested)  # the hidden cells, for the intervals
     for repeat, folds in enumerate(masks):
         for fold, mask in enumerate(folds):
             raise_if_cancelled(cancel)
             search_progress = _scaled(progress, step * _STEPS, _SEARCH_STEPS, total)
-            outcomes = fill_hidden(frame, base, mask, tested, search_progress, cancel)
+            outcomes = fill_hidden(frame, base, mask, tested, search_progress, cancel, keep.add)
             knn_scores, baseline_scores = score_repeat(outcomes, tested, repeat, fold)
             score_parts.append(knn_scores)
             baseline_parts.append(baseline_scores)
@@ -138,7 +141,7 @@ def recovery_test(
     }
     table = base.table
     kinds = {c: "category" if table.kinds[c] == "category" else "number" for c in table.fill_columns}
-    return build_report(
+    tested_report = build_report(
         pd.concat(score_parts, ignore_index=True),
         pd.concat(baseline_parts, ignore_index=True),
         kinds,
@@ -146,6 +149,7 @@ def recovery_test(
         settings,
         (*table.warnings, *notes),
     )
+    return dataclasses.replace(tested_report, hidden=keep.result(used))
 
 
 # ---------------------------------------------------------------- set-up
@@ -323,6 +327,7 @@ def fill_hidden(
     ks: Sequence[int],
     progress: Progress | None = None,
     cancel: CancelFlag | None = None,
+    collect: Callable[[PreparedTable, Mapping[str, ColumnDonors]], None] | None = None,
 ) -> list[ColumnOutcome]:
     """Fill one repeat's hidden cells for every k with one neighbour search.
 
@@ -338,6 +343,9 @@ def fill_hidden(
         k values to fill with.
     progress, cancel
         Passed to the neighbour search.
+    collect : callable(hidden, donors), optional
+        Given the table with the cells hidden and their donors (to keep the cells for
+        the interval calibration).
 
     Returns
     -------
@@ -350,6 +358,8 @@ def fill_hidden(
     targets = {column: mask[:, j] for column, j in columns if mask[:, j].any()}
     raise_if_cancelled(cancel)
     donors = engine.nearest_donors(hidden, kmax=max(ks), targets=targets, progress=progress, cancel=cancel)
+    if collect is not None:
+        collect(hidden, donors)
     values = engine.combine(hidden, donors, ks)
     return [
         _outcome(hidden, base, column, donors[column].rows, [values[k][column] for k in ks])

@@ -9,6 +9,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from imputer_app.engine import HiddenCells
 from imputer_app.errors import KinfillError
 from imputer_app.validation._per_column_k import k_by_column
 from imputer_app.validation._scoring import (
@@ -61,6 +62,10 @@ class RecoveryReport:
         as a dict), enough to repeat the test exactly.
     warnings : tuple of str
         Plain-words remarks (k values dropped, cells no donor reached, ...).
+    hidden : HiddenCells or None
+        The hidden cells (each once) scored for every k: pass them to
+        ``impute(data, plan, hidden=report.hidden)`` so that the fill's intervals are
+        calibrated on them instead of on cells hidden again.
     """
 
     scores: pd.DataFrame
@@ -74,6 +79,7 @@ class RecoveryReport:
     kinds: dict[str, str]
     settings: dict[str, Any]
     warnings: tuple[str, ...] = field(default=())
+    hidden: HiddenCells | None = field(default=None, repr=False, compare=False)
 
     @property
     def masking(self) -> str:

@@ -42,6 +42,15 @@ def test_fill_with_k_chosen_by_the_recovery_test_records_the_test(
         assert "k per column" in stdout
     assert record["intervals"]["level"] == 0.9
     assert "intervals: 90%" in stdout
+    # the intervals were calibrated on the recovery test's hidden cells, and say so
+    assert record["intervals"]["source"] == "hidden by the recovery test"
+    n = record["intervals"]["n_hidden"]
+    assert n == sum(c["n_hidden"] for c in record["intervals"]["columns"].values()) > 0
+    assert "hidden known cells of the recovery test" in stdout
+    log = pd.read_csv(out.with_name("out.fill-log.csv"), sep=None, engine="python")
+    assert (
+        log.loc[log["method"] == "knn", "note"].str.contains("hidden known cells of the recovery test").all()
+    )
 
 
 def test_fill_log_export_has_the_interval_of_every_filled_number(

@@ -11,7 +11,7 @@ from sklearn.datasets import load_diabetes, load_wine
 
 from imputer_app.engine import impute
 from imputer_app.engine._conformal import conformal_quantile, needed_cells
-from imputer_app.engine._intervals import FEW_SHARED, WIDE_SDS
+from imputer_app.engine._intervals import FAR, FEW_SHARED, WIDE_RANGE
 from imputer_app.plan import FillPlan
 from tests.engine.helpers import random_frame
 
@@ -117,15 +117,52 @@ def test_categories_get_a_class_set_in_the_note() -> None:
 
 
 def test_weak_support_is_absolute() -> None:
-    """README "How the numbers are made": wide interval or few shared similarity columns."""
+    """README "How the numbers are made": wide interval, far donors or few shared similarity columns."""
     frame = random_frame(200, 4, 0.15, seed=7)
     result = impute(frame, FillPlan(k=5))
     log = result.log
-    sd = frame.std()
-    wide = (log["upper"] - log["lower"]) > WIDE_SDS * log["column"].map(sd)
-    # pure noise columns: the interval is about as wide as the column's spread, so weak
+    span = frame.quantile(0.95) - frame.quantile(0.05)
+    wide = (log["upper"] - log["lower"]) > WIDE_RANGE * log["column"].map(span)
     assert (log.loc[wide, "support"] == "weak").all()
-    assert 0 < FEW_SHARED < 1
+    assert 0 < FEW_SHARED < 1 and FAR > 1
+
+
+def _far_rows_sheet(seed: int = 0) -> tuple[pd.DataFrame, np.ndarray]:
+    """Two correlated clusters of rows, plus 12 rows far from every other row.
+
+    The far rows sit 8 SDs from both clusters on the similarity columns a, b, c; each
+    has its value of d removed, as have 30 ordinary rows.
+    """
+    rng = np.random.default_rng(seed)
+    centre = np.where(rng.random(300) < 0.5, -2.0, 2.0)
+    base = centre[:, None] + 0.5 * rng.normal(size=(300, 3))
+    d = base.mean(axis=1) + 0.3 * rng.normal(size=300)
+    far = np.arange(288, 300)
+    base[far] = 10.0 + 0.5 * rng.normal(size=(12, 3))
+    frame = pd.DataFrame(np.column_stack([base, d]), columns=["a", "b", "c", "d"])
+    ordinary = rng.choice(288, size=30, replace=False)
+    frame.loc[np.concatenate([ordinary, far]), "d"] = np.nan
+    return frame, far
+
+
+def test_weak_support_singles_out_rows_far_from_every_donor() -> None:
+    frame, far = _far_rows_sheet()
+    log = impute(frame, FillPlan(k=5)).log
+    weak = set(log.loc[log["support"] == "weak", "row"])
+    assert weak == set(far.tolist())
+
+
+def test_demo_sheet_has_few_weak_fills() -> None:
+    """The demo sheet of README: weak support is the exception, not the rule."""
+    from pathlib import Path
+
+    from imputer_app.sheets import read_sheet
+
+    sheet = read_sheet(Path(__file__).resolve().parents[2] / "sample_sheets" / "river_survey.xlsx")
+    log = impute(sheet, FillPlan()).log
+    knn = log[log["method"].isin(["knn", "knn_capped"])]
+    share = float((knn["support"] == "weak").mean())
+    assert 0 < share < 0.3
 
 
 def test_each_column_uses_its_own_k_from_one_search() -> None:

@@ -44,9 +44,12 @@ def test_scatter_partner_is_the_most_correlated_similarity_column(
 
 
 def test_pictures_per_fill_column_and_coverage_only_when_present(small: pd.DataFrame) -> None:
-    result = impute(small, FillPlan(k=3))
+    result = impute(small, FillPlan(k=3, interval_level=None))
     stems = [p.stem for p in fill_pictures(result)]
     assert stems == ["a.distribution", "a.scatter"]
+    with_intervals = impute(small, FillPlan(k=3))
+    assert with_intervals.coverage is not None
+    assert [p.stem for p in fill_pictures(with_intervals)] == [*stems, "coverage"]
     coverage = pd.DataFrame({"level": [0.8, 0.9], "observed": [0.78, 0.91]})
     with_coverage = SimpleNamespace(
         frame=result.frame, filled=result.filled, plan=result.plan, coverage=coverage
@@ -55,7 +58,7 @@ def test_pictures_per_fill_column_and_coverage_only_when_present(small: pd.DataF
 
 
 def test_files_are_png_and_svg_written_all_or_none(small: pd.DataFrame, tmp_path: Path) -> None:
-    result = impute(small, FillPlan(k=3))
+    result = impute(small, FillPlan(k=3, interval_level=None))
     files = picture_files(tmp_path, result)
     assert sorted(p.name for p in files) == [
         "a.distribution.png",
@@ -99,8 +102,9 @@ def test_xlsx_export_has_a_pictures_sheet_with_every_picture(tmp_path: Path) -> 
     book = openpyxl.load_workbook(target)
     assert book.sheetnames.index("Pictures") == book.sheetnames.index("About this fill") - 1
     n = len(fill_pictures(result))
-    # The demo sheet fills all seven number columns: a distribution and a scatter each.
-    assert n == 14
+    # The demo sheet fills all seven number columns: a distribution and a scatter each,
+    # and the intervals' coverage picture.
+    assert n == 15
     assert len(book["Pictures"]._images) == n
     about = {r[0]: r[1] for r in book["About this fill"].iter_rows(values_only=True) if r and r[0]}
     assert about["pictures"] == f"{n} pictures on the Pictures sheet"
