@@ -10,6 +10,7 @@ from imputer_app.engine._combine import combine
 from imputer_app.engine._conformal import Calibration, ColumnCalibration, score_cells
 from imputer_app.engine._impute import calibrate_intervals, impute
 from imputer_app.engine._input import SheetLike
+from imputer_app.engine._intervals import FAR, WIDE_RANGE
 from imputer_app.engine._prepare import default_role_reasons, default_roles, prepare
 from imputer_app.engine._result import FillResult
 from imputer_app.engine._reuse import HiddenCells
@@ -17,6 +18,8 @@ from imputer_app.engine._search import ColumnDonors, nearest_donors
 from imputer_app.engine._table import PreparedTable
 
 __all__ = [
+    "FAR",
+    "WIDE_RANGE",
     "Calibration",
     "ColumnCalibration",
     "ColumnDonors",

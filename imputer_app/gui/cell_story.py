@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING, Any
 
 import pandas as pd
 
+from imputer_app.engine import FAR, WIDE_RANGE
 from imputer_app.gui.formatting import format_label, format_value
 from imputer_app.words import STATE_WORDS, SUBSTITUTION_PHRASES
 
@@ -129,7 +130,13 @@ def _spread_words(spread: Any, numeric: bool) -> str:
     return f"{float(spread):.0%} of the donors chose this value"
 
 
-def support_words(support: str, nearest: float, threshold: float, width_sds: float | None = None) -> str:
+def support_words(
+    support: str,
+    nearest: float,
+    threshold: float,
+    width_share: float | None = None,
+    far_share: float = math.nan,
+) -> str:
     """Explain the support flag of a filled cell in plain words.
 
     Parameters
@@ -141,13 +148,16 @@ def support_words(support: str, nearest: float, threshold: float, width_sds: flo
     threshold : float
         ``FillResult.k_weak_threshold``: the 95th percentile of the nearest-donor
         distances of the cells filled in this sheet.
-    width_sds : float or None
-        The cell's interval width in standard deviations of its column, when it has an
-        interval; support is then judged by the rule in README.md ("How the numbers
-        are made") instead of the distance.
+    width_share : float or None
+        The cell's interval width as a share of its column's 5-95 % range, when it has
+        an interval; support is then judged by the rule in README.md ("How the numbers
+        are made") instead of the distance to the sheet's threshold.
+    far_share : float, default=NaN
+        The nearest donor's distance as a multiple of the column's typical one (the
+        median over the hidden cells of the interval calibration).
     """
-    if width_sds is not None and math.isfinite(width_sds) and support in ("weak", "ok"):
-        return _interval_support_words(support, width_sds)
+    if width_share is not None and math.isfinite(width_share) and support in ("weak", "ok"):
+        return _interval_support_words(support, width_share, far_share)
     near = format_value(nearest, 3)
     limit = format_value(threshold, 3)
     if support == "weak":
@@ -164,30 +174,45 @@ def support_words(support: str, nearest: float, threshold: float, width_sds: flo
     return "Not applicable: this value was not taken from donors."
 
 
-def _interval_support_words(support: str, width_sds: float) -> str:
-    wide = f"{width_sds:.1f} standard deviations of the column"
+def _interval_support_words(support: str, width_share: float, far_share: float) -> str:
+    wide = f"{width_share:.1f} times the width of the column's 5-95 % range"
+    far = (
+        f"; the nearest donor is {far_share:.1f} times as far as is typical for this column"
+        if math.isfinite(far_share)
+        else ""
+    )
     if support == "weak":
         return (
-            f"Weak support: the interval is {wide} wide (more than 2), or the donors share few "
-            "similarity columns with this row. Treat the value with extra care."
+            f"Weak support: the interval is {wide} (weak above {WIDE_RANGE:g}){far} (weak above "
+            f"{FAR:g}), or the donors share few similarity columns with this row. Treat the "
+            "value with extra care."
         )
     return (
-        f"Ordinary support: the interval is {wide} wide (2 or less) and the donors share most "
-        "similarity columns with this row."
+        f"Ordinary support: the interval is {wide} (at most {WIDE_RANGE:g}){far} (at most "
+        f"{FAR:g}), and the donors share most similarity columns with this row."
     )
 
 
-def _interval(result: FillResult, entry: pd.Series, column: str) -> tuple[str, float | None]:
-    """The interval fact ("6.21 to 6.63 (90 %)") and its width in column SDs, if it has one."""
+def _interval(
+    result: FillResult, entry: pd.Series, column: str, nearest: float
+) -> tuple[str, float | None, float]:
+    """The interval fact, its width against the range and the donor's distance against the typical.
+
+    The width is a share of the column's 5-95 % range and the nearest donor's distance a
+    multiple of the column's typical one: the weak-support yardsticks (README "How the
+    numbers are made").
+    """
     lower, upper = entry.get("lower", math.nan), entry.get("upper", math.nan)
     calibration = getattr(result, "calibration", None)
     if calibration is None or pd.isna(lower) or pd.isna(upper):
-        return "", None
+        return "", None, math.nan
     rule = calibration.columns.get(column)
-    sd = rule.column_sd if rule is not None else math.nan
-    width = (float(upper) - float(lower)) / sd if sd and math.isfinite(sd) and sd > 0 else math.nan
+    span = rule.column_range if rule is not None else math.nan
+    width = (float(upper) - float(lower)) / span if math.isfinite(span) and span > 0 else math.nan
+    typical = rule.typical_distance if rule is not None else math.nan
+    far = nearest / typical if math.isfinite(typical) and typical > 0 else math.nan
     text = f"{format_value(lower)} to {format_value(upper)} ({calibration.level:.0%} interval)"
-    return text, width
+    return text, width, far
 
 
 def _censored_entry(notes: pd.DataFrame | None, row_label: Any, column: str) -> str:
@@ -274,9 +299,9 @@ def _filled_story(result: FillResult, entry: pd.Series, where: str, notes: pd.Da
     facts.append(("Spread", _spread_words(entry.get("spread"), numeric)))
     support = str(entry.get("support", "") or "")
     nearest = donors[0].distance if donors else math.nan
-    interval, width = _interval(result, entry, column)
+    interval, width, far = _interval(result, entry, column, nearest)
     threshold = getattr(result, "k_weak_threshold", math.nan)
-    support_text = support_words(support, nearest, threshold, width)
+    support_text = support_words(support, nearest, threshold, width, far)
     if interval:
         facts.insert(1, ("Interval", interval))
     facts.append(("Support", "weak" if support == "weak" else ("ok" if support == "ok" else "–")))

@@ -229,20 +229,27 @@ def test_words_without_a_result():
 
 def test_interval_is_shown_and_support_follows_its_width(qtbot):
     """With intervals on (README "How the numbers are made"): the interval is a fact and in
-    the headline, and support is judged by its width in column SDs."""
+    the headline, and support is told by the interval's width against the column's 5-95 %
+    range and the nearest donor's distance against the column's typical one."""
     rng = np.random.default_rng(3)
     frame = pd.DataFrame(rng.normal(size=(200, 3)), columns=["a", "b", "c"])
     frame.iloc[::5, 2] = np.nan
     result = impute(frame, FillPlan(k=5))
-    entry = result.log[result.log["column"] == "c"].iloc[0]
+    rule = result.calibration.columns["c"]
+    known = frame["c"].dropna()
+    assert rule.column_range == pytest.approx(known.quantile(0.95) - known.quantile(0.05), rel=0.02)
     panel = DonorPanel()
     qtbot.addWidget(panel)
-    panel.show_cell(result, entry["row"], "c")
-    told = facts(panel)
-    interval = f"{format_value(entry['lower'])} to {format_value(entry['upper'])} (90% interval)"
-    assert told["Interval"] == interval
-    assert panel.headline.text().endswith(f", {interval}")
-    width = (entry["upper"] - entry["lower"]) / frame["c"].std()
-    assert f"{width:.1f} standard deviations of the column" in panel.support_text.text()
-    # pure noise columns: the interval is wider than 2 column SDs, so support is weak
-    assert entry["support"] == "weak" and panel.support_text.text().startswith("Weak support")
+    for flag, words in (("ok", "Ordinary support"), ("weak", "Weak support")):
+        shown = result.log[(result.log["column"] == "c") & (result.log["support"] == flag)]
+        assert len(shown) == 20  # half of the 40 fills of c each way on this seed
+        entry = shown.iloc[0]
+        panel.show_cell(result, entry["row"], "c")
+        told = facts(panel)
+        interval = f"{format_value(entry['lower'])} to {format_value(entry['upper'])} (90% interval)"
+        assert told["Interval"] == interval
+        assert panel.headline.text().endswith(f", {interval}")
+        share = (entry["upper"] - entry["lower"]) / rule.column_range
+        text = panel.support_text.text()
+        assert f"{share:.1f} times the width of the column's 5-95 % range" in text
+        assert text.startswith(words) and "times as far as is typical" in text
