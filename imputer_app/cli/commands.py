@@ -29,7 +29,7 @@ from imputer_app.cli.outputs import (
 )
 from imputer_app.cli.plan_options import build_plan, check_plan_columns, spell_out_roles
 from imputer_app.cli.progress import StopFlag, TextProgress, default_signals, stop_on_ctrl_c
-from imputer_app.cli.text import fill_summary, k_notes, recovery_table, terminal_safe
+from imputer_app.cli.text import fill_summary, recovery_table, terminal_safe
 from imputer_app.plan import PLAN_SUFFIX, FillPlan
 from imputer_app.work import Progress
 
@@ -61,9 +61,7 @@ def run_fill(args: argparse.Namespace) -> int:
             report = None
             if isinstance(args.k, str):  # --k best | best-per-column: the recovery test chooses
                 plan, report = chosen_by_test(sheet, plan, args.k, bar.stage("testing"), stop)
-            notes = k_notes(sheet, plan)  # said before the fill, which may take a while
-            print_notes(notes, ())
-            plan = capped_k(plan, len(sheet.frame), quiet=bool(notes))
+            plan = k_in_effect(sheet, plan)  # said before the fill, which may take a while
             hidden = None if report is None else report.hidden  # calibrate on the test's cells
             result = impute(sheet, plan, progress=bar.stage("filling"), cancel=stop, hidden=hidden)
             pictures = fill_picture_files(args.pictures, result, source, args.force)
@@ -328,6 +326,21 @@ def score_record(report: RecoveryReport, sheet: Sheet) -> dict[str, Any]:
         "header_row": source.header_row,
     }
     return {"input": given, **report.to_dict(), "cautions": CAUTIONS}
+
+
+def k_in_effect(sheet: Sheet, plan: FillPlan) -> FillPlan:
+    """Return ``plan`` with the k the fill will use, said in a note when it is not the k asked for.
+
+    A k beyond the donors any gap can have averages every donor there is: the plan
+    takes that number, so the note, the summary and the run record name the same k.
+    """
+    from imputer_app.validation import check_k
+
+    check = check_k(sheet, plan)
+    if check.too_large:
+        print_notes((check.message(),), ())
+        plan = plan.replace(k=check.used)
+    return capped_k(plan, len(sheet.frame))
 
 
 def capped_k(plan: FillPlan, n_rows: int, *, quiet: bool = False) -> FillPlan:

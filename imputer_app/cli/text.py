@@ -18,7 +18,6 @@ if TYPE_CHECKING:
     import pandas as pd
 
     from imputer_app.engine import FillResult
-    from imputer_app.plan import FillPlan
     from imputer_app.sheets import Sheet
     from imputer_app.validation import RecoveryReport
 
@@ -89,14 +88,6 @@ def fill_summary(
     lines.extend(f"  {path}{_what_it_holds(path, sheet, layout)}" for path in written)
     lines.append("Filled values are estimates, not measurements (see the cautions in the export).")
     return "\n".join(lines)
-
-
-def k_notes(sheet: Sheet, plan: FillPlan) -> list[str]:
-    """Before a fill: a note when the plan's k exceeds the donors any gap can have ([] otherwise)."""
-    from imputer_app.validation import check_k
-
-    message = check_k(sheet, plan).message()
-    return [message] if message else []
 
 
 def _no_limit_cells(sheet: Sheet | None) -> set[tuple[Any, str]]:

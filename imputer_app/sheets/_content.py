@@ -58,7 +58,9 @@ class ExportContent:
         :data:`PLAIN`, :data:`FILLED` or :data:`CENSORED` (censored wins).
     texts : dict of int to dict of int to str
         Per column position, per row position: original text written in place of a
-        blank (a censored entry or a word in a number column that was not filled).
+        blank (a censored entry or a word in a number column that was not filled), or
+        in place of the trimmed text the fill used (a text cell not filled whose file
+        text has spaces around it: ``'  lead'`` leaves as ``'  lead'``).
     originals : dict of (int, int) to str
         Original text of every censored or text-in-number cell, for comments.
     log : DataFrame
@@ -136,6 +138,8 @@ def build_content(sheet: Sheet | None, result: FillResult) -> ExportContent:
         for (i, j), text in originals.items():
             if blank[i, j]:
                 texts.setdefault(j, {})[i] = text
+    for j, untrimmed in _untrimmed_texts(sheet, frame, marks).items():
+        texts.setdefault(j, {}).update(untrimmed)
     log = result.log
     ids = sample_ids(sheet, result)
     unfilled = pd.DataFrame({c: result.unfilled[c] for c in UNFILLED_COLUMNS})
@@ -200,6 +204,34 @@ def _original_texts(sheet: Sheet | None, frame: pd.DataFrame) -> dict[tuple[int,
         for i, j, text in zip(rows, cols, notes["text"], strict=True)
         if i >= 0 and j >= 0 and isinstance(text, str)
     }
+
+
+def _untrimmed_texts(
+    sheet: Sheet | None, frame: pd.DataFrame, marks: np.ndarray
+) -> dict[int, dict[int, str]]:
+    """Text cells not filled whose text in the file differs from the (trimmed) text in ``frame``.
+
+    Category matching uses the trimmed text; the export gives each such cell back as
+    the file had it, spaces, tabs and non-breaking spaces included.
+    """
+    raw = getattr(sheet, "raw_text", None)
+    if raw is None or raw.shape != frame.shape:
+        return {}
+    found: dict[int, dict[int, str]] = {}
+    for j in [j for j, dtype in enumerate(frame.dtypes) if pd.api.types.is_object_dtype(dtype)]:
+        values = frame.iloc[:, j].to_numpy(dtype=object)
+        originals = raw[:, j]
+        rows = np.flatnonzero((marks[:, j] == PLAIN) & pd.notna(values) & (values != originals))
+        texts = {
+            i: text
+            for i, text, value in zip(
+                rows.tolist(), originals[rows].tolist(), values[rows].tolist(), strict=True
+            )
+            if type(text) is str and type(value) is str
+        }
+        if texts:
+            found[j] = texts
+    return found
 
 
 def _positions(frame: pd.DataFrame, log: pd.DataFrame) -> np.ndarray:

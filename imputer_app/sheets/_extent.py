@@ -51,6 +51,10 @@ _NO_VALUE = re.compile(
 # A cell whose first child is a formula (ECMA-376 Part 1, sec. 18.3.1.4: <f> comes before <v>).
 _FORMULA = re.compile(rb'<c\b[^>]*?\sr="([A-Z]{1,4})(\d{1,10})"[^>/]*>\s*<f\b')
 _TABLE = "urn:oasis:names:tc:opendocument:xmlns:table:1.0"
+# LibreOffice's own attribute for a cell's value type ("error" for a cached formula error).
+_CALC_TYPE = "{urn:org:documentfoundation:names:experimental:calc:xmlns:calcext:1.0}value-type"
+#: Formula error cells of one .ods table put back into the grid; further ones read as blank.
+MAX_ERROR_CELLS = 1_000_000
 
 
 @dataclass
@@ -107,7 +111,8 @@ def check_extent(data: bytes | Path, path: Path, fmt: str, sheet: str | None) ->
     path : Path
         The file, for messages.
     fmt : {"xlsx", "xlsm", "ods", "xls"}
-        Its format; ``.xls`` is left to the parser (a BIFF8 sheet is at most 65,536 x 256).
+        Its format; an ``.xls`` file is measured by
+        :func:`~imputer_app.sheets._xls_extent.xls_extents` instead.
     sheet : str or None
         The worksheet's name; None for every table of an ``.ods`` file (the parser
         loads all of them when it opens the file).
@@ -265,14 +270,32 @@ def _repeat(element: ElementTree.Element, name: str) -> int:
     return int(value) if value.isdigit() else 1
 
 
-def _scan_ods(package: zipfile.ZipFile, sheet: str | None, path: Path) -> None:
+def ods_extents(data: bytes | Path, path: Path) -> dict[str, Extent]:
+    """Measure every table of the ``.ods`` file ``data``; refuse one too large (see :func:`check_extent`).
+
+    Returns each table's extent with its cached formula errors, by table name; empty
+    when content.xml cannot be read (the parser then gives its own message).
+    """
+    try:
+        with zipfile.ZipFile(io.BytesIO(data) if isinstance(data, bytes) else data) as package:
+            return _scan_ods(package, None, path)
+    except SheetError:
+        raise
+    except (zipfile.BadZipFile, KeyError, ElementTree.ParseError, EOFError, OSError, ValueError):
+        return {}
+
+
+def _scan_ods(package: zipfile.ZipFile, sheet: str | None, path: Path) -> dict[str, Extent]:
     """Measure table ``sheet`` (every table when None) of content.xml, counting repeats.
 
     Each table is refused as soon as it is found too large; rows are cleared once
-    measured, so memory stays small however long the table.
+    measured, so memory stays small however long the table. A cell LibreOffice marks
+    ``calcext:value-type="error"`` holds a cached formula error (its text is the error,
+    "#DIV/0!"); the parser reads it as an empty cell.
     """
     table, row_tag = f"{{{_TABLE}}}table", f"{{{_TABLE}}}table-row"
     extent, name, row = Extent(), "", 0
+    found: dict[str, Extent] = {}
     with package.open("content.xml") as stream:
         for event, element in ElementTree.iterparse(stream, events=("start", "end")):
             if element.tag == table:
@@ -280,24 +303,35 @@ def _scan_ods(package: zipfile.ZipFile, sheet: str | None, path: Path) -> None:
                     extent, name, row = Extent(), element.get(f"{{{_TABLE}}}name", ""), 0
                 elif sheet is None or name == sheet:
                     refuse_if_too_large(extent, path, name)
+                    found[name] = extent
                     element.clear()
                 continue
             if event != "end" or element.tag != row_tag:
                 continue
             repeat = _repeat(element, "number-rows-repeated")
-            last = _last_used_column(element)
+            last = _last_used_column(element, extent, row, repeat)
             if last:
                 extent.see(row + repeat, last)
             row += repeat
             element.clear()
+    return found
 
 
-def _last_used_column(row: ElementTree.Element) -> int:
-    """1-based last column of ``row`` holding a value or text (0 when none does)."""
+def _last_used_column(row: ElementTree.Element, extent: Extent, first_row: int, n_rows: int) -> int:
+    """1-based last column of ``row`` holding a value or text (0 when none does).
+
+    Its error cells go into ``extent.errors`` (0-based positions; the row may stand for
+    ``n_rows`` repeated rows), up to :data:`MAX_ERROR_CELLS` per table.
+    """
     column, last = 0, 0
     for cell in row:
         repeat = _repeat(cell, "number-columns-repeated")
-        column += repeat
         if len(cell) or any(key.endswith("value-type") for key in cell.attrib):
-            last = column
+            last = column + repeat
+            if cell.get(_CALC_TYPE) == "error" and len(extent.errors) + n_rows * repeat <= MAX_ERROR_CELLS:
+                text = "".join(cell.itertext()).strip() or "#ERROR"
+                block = range(column, column + repeat)
+                for r in range(first_row, first_row + n_rows):
+                    extent.errors.update(dict.fromkeys(((r, c) for c in block), text))
+        column += repeat
     return last

@@ -153,9 +153,11 @@ class Sheet:
     problems : list of str
         Plain-words remarks for the user (renamed headers, text in number columns...).
     raw_text : ndarray of object of shape (n_rows, n_columns), or None
-        For a delimited file, every cell's text exactly as in the file (spaces kept), so
-        an export can write carried and observed cells back unchanged. The same string
-        objects the parser made, so it costs one pointer a cell. None for workbooks.
+        Every cell as read, so an export can write carried and observed cells back
+        unchanged: for a delimited file each cell's text exactly as in the file (spaces
+        kept); for a workbook each text cell's text untrimmed and other cells as the
+        parser gave them (numbers, dates). The same objects the parser made, so it costs
+        one pointer a cell. None for a sheet not read from a file.
     markers : tuple of MarkerFound
         The marker texts found ("n.d.", "NA", "<LOD") with their meaning and count,
         most frequent first; ``read_sheet(..., markers={"n.d.": "missing"})`` changes

@@ -221,7 +221,8 @@ def read_sheet(
         line_end=grid.line_end,
         limit_row=limit_row,
     )
-    raw = np.stack([c.parsed.raw for c in columns], axis=1) if grid.sheet is None else None
+    # every cell as read (text untrimmed), so an export writes unfilled text cells unchanged
+    raw = np.stack([c.parsed.raw for c in columns], axis=1)
     report(progress, PROGRESS_TOTAL, PROGRESS_TOTAL)
     return Sheet(
         frame=built.frame,

@@ -2,10 +2,11 @@
 
 calamine returns cached formula values (never recomputes), numbers as float, dates as
 ``datetime``/``date``/``time`` objects and empty or error cells as ``""``. Before calamine
-builds its grid, :func:`~imputer_app.sheets._extent.check_extent` measures the sheet (and
-refuses one too large to hold); the cells it finds holding a formula error or a formula
-without a stored value are put back into the grid as :class:`FormulaError` and
-:data:`NO_VALUE`, so that they are not taken for blank cells.
+builds its grid, :mod:`~imputer_app.sheets._extent` (``.xlsx``, ``.ods``) or
+:mod:`~imputer_app.sheets._xls_extent` (``.xls``) measures the sheet (and refuses one too
+large to hold); the cells it finds holding a formula error or a formula without a stored
+value are put back into the grid as :class:`FormulaError` and :data:`NO_VALUE`, so that
+they are not taken for blank cells.
 """
 
 from __future__ import annotations
@@ -18,8 +19,9 @@ import numpy as np
 import python_calamine as calamine
 
 from imputer_app.errors import SheetError
-from imputer_app.sheets._extent import MAX_CELLS, Extent, check_extent
+from imputer_app.sheets._extent import MAX_CELLS, Extent, check_extent, ods_extents
 from imputer_app.sheets._grid import NO_VALUE, FormulaError, Merge, rows_to_grid
+from imputer_app.sheets._xls_extent import xls_extents
 
 
 @dataclass(frozen=True)
@@ -65,8 +67,7 @@ def worksheet_names(workbook: calamine.CalamineWorkbook) -> list[str]:
 
 def list_workbook_sheets(path: Path, fmt: str) -> list[str]:
     """Worksheet names of the workbook at ``path`` without loading any sheet."""
-    if fmt == "ods":
-        check_extent(path, path, fmt, None)  # the parser loads every table of an .ods on opening
+    _every_sheet(path, path, fmt)  # the parser loads every sheet of an .ods or .xls on opening
     workbook = _open(path, path, fmt)
     try:
         return worksheet_names(workbook)
@@ -109,12 +110,11 @@ def choose_sheet(workbook: calamine.CalamineWorkbook, sheet: str | int | None, p
 
 def read_workbook(data: bytes, path: Path, fmt: str, sheet: str | int | None) -> WorkbookGrid:
     """Return the chosen worksheet's cells as a 2-D object array starting at cell A1."""
-    if fmt == "ods":
-        check_extent(data, path, fmt, None)  # the parser loads every table of an .ods on opening
+    extents = _every_sheet(data, path, fmt)
     workbook = _open(data, path, fmt)
     try:
         name = choose_sheet(workbook, sheet, path)
-        extent = check_extent(data, path, fmt, name) if fmt != "ods" else Extent()
+        extent = extents.get(name, Extent()) if fmt in _EVERY_SHEET else check_extent(data, path, fmt, name)
         try:
             worksheet = workbook.get_sheet_by_name(name)
             if worksheet.height * worksheet.width > MAX_CELLS:
@@ -133,6 +133,19 @@ def read_workbook(data: bytes, path: Path, fmt: str, sheet: str | int | None) ->
     cells = rows_to_grid(rows)
     _mark_formula_cells(cells, extent)
     return WorkbookGrid(cells=cells, sheet=name, merges=merges, formulas=extent.formulas)
+
+
+#: Formats whose parser loads every sheet when it opens the file: all are measured first.
+_EVERY_SHEET = ("ods", "xls")
+
+
+def _every_sheet(data: bytes | Path, path: Path, fmt: str) -> dict[str, Extent]:
+    """Measure every sheet of an .ods or .xls file before the parser opens it ({} for others)."""
+    if fmt == "ods":
+        return ods_extents(data, path)
+    if fmt == "xls":
+        return xls_extents(data if isinstance(data, bytes) else data.read_bytes(), path)
+    return {}
 
 
 def _mark_formula_cells(cells: np.ndarray, extent: Extent) -> None:

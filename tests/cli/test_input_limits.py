@@ -54,11 +54,14 @@ def test_a_huge_k_uses_every_donor_fast(
     assert code == 0, err
     assert time.perf_counter() - start < 5 and peak < 200 * 1024**2
     # Said before the fill: at most 16 donors for any gap of this sheet (the largest
-    # number of rows observed in a column that has a gap); the fill uses every one.
+    # number of rows observed in a column that has a gap); the fill uses every one, and
+    # the note, the summary and the run record name that one k.
     assert "note: k = 1000000 is more than the 16 donors any gap can have" in err
-    assert "small.csv: 20 rows; k = 19" in stdout
+    assert "so k = 16 is in effect" in err
+    assert "small.csv: 20 rows; k = 16" in stdout
     record = json.loads(out.with_name("o.run.json").read_text(encoding="utf-8"))
-    assert record["plan"]["k"] == 19
+    assert record["plan"]["k"] == 16
+    assert "k = 19" not in stdout + err
 
 
 def test_a_huge_k_in_a_plan_file_is_capped_too(
@@ -67,7 +70,7 @@ def test_a_huge_k_in_a_plan_file_is_capped_too(
     plan = FillPlan(k=1_000_000_000).save(tmp_path / "big.plan.toml")
     code, stdout, err = run(["fill", small, "--plan", plan, "--out", tmp_path / "o.csv"], capsys)
     assert code == 0, err
-    assert "k = 1000000000 is more than the 16 donors any gap can have" in err and "k = 19" in stdout
+    assert "k = 1000000000 is more than the 16 donors any gap can have" in err and "k = 16" in stdout
 
 
 def test_a_k_range_beyond_the_donors_is_capped(small: Path, capsys: pytest.CaptureFixture[str]) -> None:
