@@ -192,7 +192,7 @@ def export_limits(sheet: Sheet | None, path: str | PathLike[str], layout: str = 
     Examples
     --------
     >>> export_limits(ods_sheet, "june.filled.xlsx")  # doctest: +SKIP
-    'from the .ods input: every sheet and its values kept in an .xlsx workbook, ...'
+    "from the .ods input: an .xlsx copy with every sheet's values, number formats and ..."
     """
     if sheet is None or layout != "workbook" or FORMATS.get(Path(path).suffix.lower()) != "xlsx":
         return ""

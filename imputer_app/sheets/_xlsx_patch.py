@@ -13,7 +13,9 @@ part and only these parts change:
   entries for our styles, notes and sheets ("Fill log", "Not filled", "Recovery
   test", "About this fill", renamed when the workbook already has such a sheet).
 
-Every other part is copied byte for byte.
+Every other part is copied byte for byte. An .ods or .xls input is first copied into a
+new .xlsx package (:mod:`imputer_app.sheets._workbook_copy`), which is then written into
+the same way.
 """
 
 from __future__ import annotations

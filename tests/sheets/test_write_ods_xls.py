@@ -17,6 +17,7 @@ import pytest
 
 from imputer_app.cli.entry import main
 from imputer_app.engine import impute
+from imputer_app.errors import ExportError
 from imputer_app.plan import FillPlan
 from imputer_app.sheets import export_limits, read_sheet, write_result
 from tests.sheets import office_fixture as office
@@ -137,3 +138,14 @@ def test_table_layout_and_csv_say_nothing_about_the_copy(sources, tmp_path) -> N
     out = tmp_path / "flat.xlsx"
     write_result(out, sheet, impute(sheet, PLAN), PLAN, layout="table")
     assert openpyxl.load_workbook(out).sheetnames[0] == "Filled"
+
+
+def test_a_workbook_changed_since_reading_is_refused(sources, tmp_path) -> None:
+    changed = tmp_path / "lab.ods"
+    changed.write_bytes(sources["ods"].read_bytes())
+    sheet = read_sheet(changed)
+    result = impute(sheet, PLAN)
+    changed.write_bytes(sources["ods"].read_bytes() + b"\0")
+    with pytest.raises(ExportError, match="changed since it was read"):
+        write_result(tmp_path / "out.xlsx", sheet, result, PLAN)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["lab.ods"]
