@@ -6,8 +6,9 @@ Usage::
 
 Writes into ``DIR`` (default: this folder):
 
-- ``river_survey.xlsx``: the river campaign as a lab workbook (title row, header row,
-  units row, then data);
+- ``river_survey.xlsx``: the river campaign as a lab workbook: sheet "Survey" (title row,
+  header row, units row, then data, with a formula column and a free-text notes column)
+  and sheet "Methods" (a few lines on how the samples were taken);
 - ``river_survey.csv``: the same data as a European lab system exports it (``;``
   separator, decimal comma, UTF-8, one header row);
 - ``river_survey_wide.xlsx``: a wide trace-element panel (150 specimens x 60 numbers).
@@ -31,6 +32,8 @@ from pathlib import Path
 
 import numpy as np
 import xlsxwriter
+from xlsxwriter.format import Format
+from xlsxwriter.worksheet import Worksheet
 
 DEFAULT_SEED = 20261201
 HERE = Path(__file__).resolve().parent
@@ -73,6 +76,37 @@ GAP_RATES = {
 #: Chance that a sample in the top quarter of conductivity has no nitrate value.
 PATTERN_GAP_RATE = 0.8
 
+#: The workbook's computed column: oxygen saturation from oxygen and temperature, written
+#: as a formula in every row (blank where either input is missing).
+SATURATION = ("Oxygen saturation", "%")
+
+#: The workbook's free-text column: the field crew's remarks, on a few samples only.
+NOTES_HEADER = "Notes"
+NOTE_SHARE = 0.1
+FIELD_NOTES = (
+    "bottle cracked in transport, resampled",
+    "duplicate taken",
+    "brown water after rain",
+    "probe recalibrated on site",
+    "sampled from the bridge (high flow)",
+    "ice along the bank",
+    "algae on the intake screen",
+    "sample held overnight before analysis",
+)
+
+#: The second sheet of the workbook: how the samples were taken (invented).
+METHODS_SHEET = "Methods"
+METHODS_LINES = (
+    "Methods of the Vessany river survey (invented demo text)",
+    "",
+    "Grab samples were taken mid-stream at 0.3 m depth into rinsed 1 L bottles.",
+    "pH, dissolved oxygen and temperature were measured on site with a field meter.",
+    "Conductivity, nitrate, phosphate and turbidity were measured in the authority's lab",
+    "within 24 hours; nitrate and phosphate results below the reporting limit are written <limit.",
+    "Oxygen saturation is computed in the Survey sheet from dissolved oxygen and temperature.",
+    "Cells left blank, 'lost' or 'NA': no result (bottle lost, instrument fault or rejected in QC).",
+)
+
 
 @dataclass
 class Survey:
@@ -84,6 +118,7 @@ class Survey:
     values: dict[str, np.ndarray]  # measured numbers, rounded
     text: dict[str, list[str]]  # "" = plain value (see values), else what the cell says
     empty: dict[str, np.ndarray]  # bool: cell left blank
+    notes: list[str]  # the field crew's remarks ("" for most samples)
 
 
 # ---------------------------------------------------------------- simulation
@@ -202,7 +237,35 @@ def build_survey(seed: int) -> Survey:
         values=values,
         text=text,
         empty={name: gaps[name] & (np.array(text[name]) == "") for name, _u, _d in MEASURES},
+        notes=field_notes(seed, n),
     )
+
+
+def field_notes(seed: int, n: int) -> list[str]:
+    """Return the notes column: a remark on about :data:`NOTE_SHARE` of the samples.
+
+    The draws come from their own generator, so every other cell stays as it was.
+    """
+    rng = np.random.default_rng(seed + 3)
+    chosen = rng.random(n) < NOTE_SHARE
+    picks = rng.integers(0, len(FIELD_NOTES), n)
+    return [FIELD_NOTES[picks[i]] if chosen[i] else "" for i in range(n)]
+
+
+def saturation_formula(row: int, oxygen: str, temperature: str) -> str:
+    """The Excel formula of the oxygen saturation (%) in 1-based sheet ``row``.
+
+    The solubility curve is the simulation's (common practice, no source); the result
+    is blank unless both inputs are numbers.
+    """
+    o, t = f"{oxygen}{row}", f"{temperature}{row}"
+    return f'=IF(COUNT({o},{t})=2,ROUND(100*{o}/(14.6-0.394*{t}+0.0077*{t}^2),0),"")'
+
+
+def saturation_value(oxygen: float, temperature: float) -> float:
+    """The formula's result (ROUND rounds halves away from zero, as spreadsheets do)."""
+    percent = 100 * oxygen / (14.6 - 0.394 * temperature + 0.0077 * temperature**2)
+    return float(np.floor(percent + 0.5))
 
 
 # ------------------------------------------------------------------- writing
@@ -234,7 +297,8 @@ def _workbook(path: Path, title: str) -> xlsxwriter.Workbook:
 
 
 def write_survey_xlsx(survey: Survey, path: Path) -> None:
-    """Write the workbook: title row, header row, units row, then one row per sample."""
+    """Write the workbook: sheet "Survey" (title row, header row, units row, then one row
+    per sample, with the saturation formula and the notes) and sheet "Methods"."""
     book = _workbook(path, TITLE)
     sheet = book.add_worksheet("Survey")
     bold = book.add_format({"bold": True})
@@ -242,7 +306,7 @@ def write_survey_xlsx(survey: Survey, path: Path) -> None:
     number_fmts = {
         d: book.add_format({"num_format": "0" if d == 0 else "0." + "0" * d}) for _n, _u, d in MEASURES
     }
-    headers = list(ID_COLUMNS) + [(m, u) for m, u, _d in MEASURES]
+    headers = list(ID_COLUMNS) + [(m, u) for m, u, _d in MEASURES] + [SATURATION, (NOTES_HEADER, "")]
     # the title merged across the table's width, as lab sheets often have it
     sheet.merge_range(0, 0, 0, len(headers) - 1, TITLE, bold)
     for col, (header, unit) in enumerate(headers):
@@ -262,9 +326,44 @@ def write_survey_xlsx(survey: Survey, path: Path) -> None:
                 sheet.write_string(r, col, survey.text[name][row])
             else:
                 sheet.write_number(r, col, float(survey.values[name][row]), number_fmts[decimals])
+        _write_saturation(sheet, survey, row, number_fmts[0])
+        if survey.notes[row]:
+            sheet.write_string(r, len(headers) - 1, survey.notes[row])
     sheet.set_column(0, 2, 12)
-    sheet.set_column(3, len(headers) - 1, 11)
+    sheet.set_column(3, len(headers) - 2, 11)
+    sheet.set_column(len(headers) - 1, len(headers) - 1, 34)
+    methods = book.add_worksheet(METHODS_SHEET)
+    methods.set_column(0, 0, 90)
+    for row, line in enumerate(METHODS_LINES):
+        if line:
+            methods.write_string(row, 0, line, bold if row == 0 else None)
     book.close()
+
+
+def _write_saturation(sheet: Worksheet, survey: Survey, row: int, fmt: Format) -> None:
+    """The formula cell with its stored result (what a spreadsheet program would save)."""
+    names = [m for m, _u, _d in MEASURES]
+    col = len(ID_COLUMNS) + len(MEASURES)
+    oxygen = len(ID_COLUMNS) + names.index("Dissolved oxygen")
+    temperature = len(ID_COLUMNS) + names.index("Temperature")
+    formula = saturation_formula(row + 4, _letter(oxygen), _letter(temperature))
+    oxygen_value = _number(survey, "Dissolved oxygen", row)
+    temperature_value = _number(survey, "Temperature", row)
+    result: float | str = ""
+    if oxygen_value is not None and temperature_value is not None:
+        result = saturation_value(oxygen_value, temperature_value)
+    sheet.write_formula(row + 3, col, formula, fmt, result)
+
+
+def _number(survey: Survey, name: str, row: int) -> float | None:
+    """The cell's number, or None when it is blank or text (a marker or a censored entry)."""
+    if survey.empty[name][row] or survey.text[name][row]:
+        return None
+    return float(survey.values[name][row])
+
+
+def _letter(col: int) -> str:
+    return chr(ord("A") + col)  # the survey has fewer than 26 columns
 
 
 # --------------------------------------------------------------- wide panel

@@ -63,6 +63,8 @@ CHECKED = {
         "export_side_files", "list_sheets", "read_export_plan", "read_sheet", "same_file", "write_result",
         # checked in tests/sheets/test_methods_text.py and tests/sheets/test_pictures.py
         "fill_pictures", "methods_paragraph", "picture_files", "scatter_partner", "write_picture_files",
+        # checked in tests/sheets/test_write_ods_xls.py
+        "export_limits",
     },
     "imputer_app.charts": {
         "ErrorVsK", "ScatterPicture", "fill_distributions", "plot_coverage", "plot_error_vs_k",

@@ -120,7 +120,8 @@ def test_workbook_has_title_header_and_units_rows(default_run: Path) -> None:
     rows = list(sheet.iter_rows(values_only=True))
     assert "invented" in rows[0][0]
     assert rows[1][:4] == ("Sample ID", "Station", "Sample date", "pH")
-    assert rows[2][4:] == ("µS/cm", "mg/L", "mg/L", "mg/L", "°C", "NTU")
+    assert rows[1][-2:] == ("Oxygen saturation", "Notes")
+    assert rows[2][4:] == ("µS/cm", "mg/L", "mg/L", "mg/L", "°C", "NTU", "%", None)
     assert len(rows) == 3 + 304
     texts = {v for r in rows[3:] for v in r if isinstance(v, str)}
     assert {"<0.02", "<0.1", "lost", "NA"} <= texts
@@ -132,11 +133,37 @@ def test_workbook_holds_the_same_numbers_as_the_csv(default_run: Path) -> None:
     csv_rows = _csv_rows(default_run / "river_survey.csv")[1:]
     for book_row, csv_row in zip(book_rows, csv_rows, strict=True):
         assert book_row[0] == csv_row[0]
-        for value, text in zip(book_row[3:], csv_row[3:], strict=True):
+        for value, text in zip(book_row[3:-2], csv_row[3:], strict=True):  # not the formula and notes
             if isinstance(value, float | int):
                 assert float(text.replace(",", ".")) == pytest.approx(value)
             else:
                 assert (value or "") == text.replace(",", ".")
+
+
+def test_workbook_has_a_formula_column_notes_and_a_methods_sheet(default_run: Path) -> None:
+    path = default_run / "river_survey.xlsx"
+    book = openpyxl.load_workbook(path)
+    assert book.sheetnames == ["Survey", "Methods"]
+    assert "invented" in book["Methods"]["A1"].value and book["Methods"].max_row >= 5
+    formulas = [row[0].value for row in book["Survey"].iter_rows(min_row=4, min_col=11, max_col=11)]
+    assert formulas[0] == '=IF(COUNT(H4,I4)=2,ROUND(100*H4/(14.6-0.394*I4+0.0077*I4^2),0),"")'
+    assert formulas == [gen.saturation_formula(row, "H", "I") for row in range(4, 4 + 304)]
+    results = openpyxl.load_workbook(path, data_only=True)["Survey"]
+    stored = list(results.iter_rows(min_row=4, values_only=True))
+    computed = 0
+    for row in stored:
+        oxygen, temperature, saturation, note = row[7], row[8], row[10], row[11]
+        if isinstance(oxygen, int | float) and isinstance(temperature, int | float):
+            # the stored result is the formula's (ROUND halves away from zero, as spreadsheets do)
+            expected = np.floor(100 * oxygen / (14.6 - 0.394 * temperature + 0.0077 * temperature**2) + 0.5)
+            assert saturation == expected
+            computed += 1
+        else:
+            assert saturation in ("", None)
+        assert note is None or note in gen.FIELD_NOTES
+    assert 200 < computed < 304
+    notes = [row[11] for row in stored if row[11]]
+    assert 0.05 < len(notes) / 304 < 0.15 and len(set(notes)) > 4  # free text, mostly empty
 
 
 def test_wide_sheet_shape_and_gaps(default_run: Path) -> None:

@@ -136,15 +136,15 @@ def _what_it_holds(path: Path, sheet: Sheet | None = None, layout: str = "workbo
                 f'  (your workbook, every sheet kept; filled cells marked in sheet "{sheet.source.sheet}", '
                 'fill log in "Fill log", run record in "About this fill")'
             )
-        lost = (
-            f"; from the .{fmt} input only the values of sheet {sheet.source.sheet!r} are kept "
-            "(its other sheets, formulas and formats are not)"
-            if sheet is not None and fmt in ("ods", "xls")
-            else ""
-        )
-        return (
-            f'  (cleaned sheet "Filled", fill log in sheet "Fill log", run record in "About this fill"{lost})'
-        )
+        from imputer_app.sheets import export_limits
+
+        limits = export_limits(sheet, path, layout)
+        if sheet is not None and limits:
+            return (
+                f'  (a copy of your workbook; filled cells marked in sheet "{sheet.source.sheet}", '
+                f'fill log in "Fill log", run record in "About this fill"; {limits})'
+            )
+        return '  (cleaned sheet "Filled", fill log in sheet "Fill log", run record in "About this fill")'
     for suffix, words in (
         (".fill-log.csv", "fill log"),
         (".run.json", "run record"),
@@ -196,7 +196,7 @@ def recovery_table(report: RecoveryReport) -> str:
         advice(report),
         f"recovery test: {settings.get('hide_fraction', 0):.0%} of known cells hidden, "
         f"{settings.get('repeats', '?')} repeats, seed {settings.get('seed', '?')}, "
-        f"{settings.get('masking', '?')} hiding"
+        f"{settings.get('masking', '?')} hiding",
     ]
     show_numbers = _any_finite(overall.get("score"))
     show_categories = _any_finite(overall.get("category_error"))

@@ -3,7 +3,9 @@
 The words come from :func:`imputer_app.gui.cell_story.describe_cell` (Qt-free); this
 widget lays them out: a headline, a short list of facts (value, method, k used,
 spread, support, note), a plain-words account of the support and the donors,
-nearest first.
+nearest first, each named by its sheet row and, where the sheet has an identifier
+column, by the sample ID the lab uses. A double-click (or Enter) on a donor shows
+its row in the table.
 """
 
 from __future__ import annotations
@@ -25,12 +27,15 @@ if TYPE_CHECKING:
 
 EMPTY_TEXT = "Select a cell in the table to see where its value came from."
 
-DONOR_HEADERS = ("Donor row", "Distance", "Donor value")
+DONOR_HEADERS = ("Donor row", "Sample ID", "Distance", "Donor value")
 DONOR_TIPS = (
     "Row of the sheet that lent its value",
+    "The donor's name in the sheet's identifier column",
     "Distance to the filled row over the similarity columns (after scaling and weights); smaller is closer",
     "The donor's value in this column",
 )
+#: Position of the sample ID in the donor table (hidden when the sheet names no rows).
+SAMPLE_COLUMN = DONOR_HEADERS.index("Sample ID")
 
 
 class DonorPanel(QWidget):
@@ -156,6 +161,8 @@ class DonorPanel(QWidget):
         self.donors_title.setVisible(has_donors)
         self.table.setVisible(has_donors)
         self.model.set_rows(donor_rows(story.donors))
+        # the sample ID column only where the sheet names its rows
+        self.table.setColumnHidden(SAMPLE_COLUMN, not any(d.sample_id for d in story.donors))
 
     def _choose(self, row: int) -> None:
         if 0 <= row < self.model.rowCount() and self._column:
@@ -167,7 +174,7 @@ class DonorPanel(QWidget):
 
 
 def donor_rows(donors: Sequence[Any]) -> list[list[Cell]]:
-    """The donor table's rows: label, distance and value, each column with one count of decimals.
+    """The donor table's rows: label, sample ID, distance and value.
 
     Distances get 4 significant digits of the largest; numeric donor values the decimals
     the most precise of them needs, so ``7.10`` and ``7.17`` line up. The raw numbers
@@ -178,6 +185,7 @@ def donor_rows(donors: Sequence[Any]) -> list[list[Cell]]:
     return [
         [
             Cell(format_label(d.label), d.label, "Row label in the sheet"),
+            Cell(d.sample_id, d.sample_id, "Sample ID in the sheet's identifier column"),
             fixed_cell(d.distance, distance_decimals),
             fixed_cell(d.value, value_decimals),
         ]

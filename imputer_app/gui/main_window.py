@@ -336,8 +336,14 @@ class MainWindow(QMainWindow):
         def done(paths: list[Path]) -> None:
             if self.session.applied is result:
                 self.session.mark_exported()
+            from imputer_app.sheets import export_limits
+
             names = ", ".join(Path(p).name for p in paths)
-            self.statusBar().showMessage(f"Exported {names} to {Path(target).parent}.", 10000)
+            limits = export_limits(sheet, target)  # an .ods/.xls workbook comes back as an .xlsx copy
+            more = f" Note: {limits}." if limits else ""
+            self.statusBar().showMessage(
+                f"Exported {names} to {Path(target).parent}.{more}", 30000 if more else 10000
+            )
             self.exported.emit(list(paths))
             then, self._after_export = self._after_export, None
             if then is not None:

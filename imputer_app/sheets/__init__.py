@@ -11,7 +11,7 @@ from imputer_app.sheets._model import CELL_STATES, ColumnInfo, MarkerFound, Shee
 from imputer_app.sheets._pictures import fill_pictures, picture_files, scatter_partner, write_picture_files
 from imputer_app.sheets._read import list_sheets, read_sheet
 from imputer_app.sheets._run_record import RecoveryEvidence
-from imputer_app.sheets._write import export_side_files, write_result
+from imputer_app.sheets._write import export_limits, export_side_files, write_result
 
 __all__ = [
     "CELL_STATES",
@@ -20,6 +20,7 @@ __all__ = [
     "RecoveryEvidence",
     "Sheet",
     "SourceInfo",
+    "export_limits",
     "export_side_files",
     "fill_pictures",
     "list_sheets",

@@ -7,7 +7,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from imputer_app.errors import ExportError
-from imputer_app.sheets import _write_xlsx, _xlsx_patch
+from imputer_app.sheets import _workbook_copy, _write_xlsx, _xlsx_patch
 from imputer_app.sheets._atomic import atomic_outputs
 from imputer_app.sheets._content import ExportContent, Layout, build_content
 from imputer_app.sheets._run_record import RecoveryEvidence, build_record
@@ -46,8 +46,13 @@ def write_result(
     in (each in its column's number format with a pale blue fill and a note), formula
     results left for the spreadsheet program to recompute on opening, and the sheets
     "Fill log", "Not filled", "Recovery test" and "About this fill" added (renamed
-    " (2)" when the name is taken). Macros stay only in an ``.xlsm`` export. Any other
-    input, or ``layout="table"``, gives the flat export below.
+    " (2)" when the name is taken). Macros stay only in an ``.xlsm`` export. A sheet
+    read from an ``.ods`` or ``.xls`` workbook gives an ``.xlsx`` copy of that workbook
+    (every sheet in order with its name and values, number formats where the file gives
+    them, merged ranges) with the fill written in the same way; formulas become their
+    values and the rest is not kept, as the run record's ``not_kept`` line says (see
+    :func:`export_limits`). Any other input, or ``layout="table"``, gives the flat
+    export below.
 
     ``.xlsx`` gives one workbook: sheet "Filled" (the table in its original row and
     column order, header and units rows, filled cells in a pale blue fill with
@@ -174,7 +179,25 @@ def _export_xlsx(
 
 
 def _keeps_workbook(sheet: Sheet | None) -> bool:
-    return sheet is not None and sheet.source.file_format in _xlsx_patch.PACKAGE_FORMATS
+    formats = _xlsx_patch.PACKAGE_FORMATS + _workbook_copy.COPIED_FORMATS
+    return sheet is not None and sheet.source.file_format in formats
+
+
+def export_limits(sheet: Sheet | None, path: str | PathLike[str], layout: str = "workbook") -> str:
+    """Say in one line what an export of ``sheet`` to ``path`` cannot keep ("" when it keeps all).
+
+    An .ods or .xls workbook comes back as an .xlsx copy: formulas become their values,
+    and charts, images and styles other than number formats are not kept.
+
+    Examples
+    --------
+    >>> export_limits(ods_sheet, "june.filled.xlsx")  # doctest: +SKIP
+    "from the .ods input: an .xlsx copy with every sheet's values, number formats and ..."
+    """
+    if sheet is None or layout != "workbook" or FORMATS.get(Path(path).suffix.lower()) != "xlsx":
+        return ""
+    fmt = sheet.source.file_format
+    return _workbook_copy.not_kept(fmt) if fmt in _workbook_copy.COPIED_FORMATS else ""
 
 
 def _export_workbook(
@@ -188,7 +211,10 @@ def _export_workbook(
 ) -> list[Path]:
     _write_xlsx.check_fits(content)
     with atomic_outputs([target], source=sheet.source.path) as temps:  # refuses the input file first
-        where = _xlsx_patch.plan_export(sheet, target, content, report is not None)
+        copied = sheet.source.file_format in _workbook_copy.COPIED_FORMATS
+        package = _workbook_copy.copy_to_xlsx(sheet) if copied else None
+        ticker.step()
+        where = _xlsx_patch.plan_export(sheet, target, content, report is not None, package)
         chart, chart_note = _write_xlsx.chart_png(report) if report is not None else (None, "")
         record = _workbook_record(target, sheet, result, plan, report, content, where, chart_note)
         with_comments = content.n_marked <= _write_xlsx.MAX_COMMENTS
@@ -223,6 +249,14 @@ def _workbook_record(
         "added_sheets": list(where.names.values()),
         "cell_comments": _comments_note(content.n_marked, with_comments),
     }
+    limits = export_limits(sheet, target)
+    if limits:
+        output["layout"] = (
+            "an .xlsx copy of the input workbook with the filled cells written into sheet "
+            f"{sheet.source.sheet}"
+        )
+        output["formulas"] = "kept as their values (an .xlsx copy of an .ods/.xls workbook holds no formulas)"
+        output["not_kept"] = limits
     if where.drop_macros:
         output["macros"] = "left out: an .xlsx file cannot hold macros; export to .xlsm to keep them"
     if report is not None:

@@ -13,7 +13,9 @@ part and only these parts change:
   entries for our styles, notes and sheets ("Fill log", "Not filled", "Recovery
   test", "About this fill", renamed when the workbook already has such a sheet).
 
-Every other part is copied byte for byte.
+Every other part is copied byte for byte. An .ods or .xls input is first copied into a
+new .xlsx package (:mod:`imputer_app.sheets._workbook_copy`), which is then written into
+the same way.
 """
 
 from __future__ import annotations
@@ -60,16 +62,23 @@ class Plan:
     names: dict[str, str]
     drop_macros: bool
     to_xlsm: bool
+    copy: bytes | None = None  # the .xlsx copy of an .ods/.xls input, written into instead of it
 
 
-def plan_export(sheet: Sheet, target: Path, content: ExportContent, with_report: bool) -> Plan:
-    """Check that ``sheet``'s workbook can take the fill and choose our sheets' names."""
+def plan_export(
+    sheet: Sheet, target: Path, content: ExportContent, with_report: bool, package: bytes | None = None
+) -> Plan:
+    """Check that ``sheet``'s workbook can take the fill and choose our sheets' names.
+
+    ``package`` is the workbook to write into when it is not the input file itself (the
+    .xlsx copy of an .ods/.xls input).
+    """
     source = sheet.source
     try:
-        with zipfile.ZipFile(source.path) as package:
-            parts = sheet_parts(package)
-            workbook = package.read("xl/workbook.xml").decode("utf-8")
-            has_macros = any(n.lower().endswith("vbaproject.bin") for n in package.namelist())
+        with zipfile.ZipFile(io.BytesIO(package) if package is not None else source.path) as zipped:
+            parts = sheet_parts(zipped)
+            workbook = zipped.read("xl/workbook.xml").decode("utf-8")
+            has_macros = any(n.lower().endswith("vbaproject.bin") for n in zipped.namelist())
     except (OSError, KeyError, zipfile.BadZipFile, ElementTree.ParseError) as error:
         raise ExportError(
             f"{source.path.name} cannot be opened as a workbook any more ({error}); read it again, "
@@ -89,10 +98,10 @@ def plan_export(sheet: Sheet, target: Path, content: ExportContent, with_report:
         names[role] = pkg.free_name(role, taken)
         taken.append(names[role])
     drop = has_macros and target.suffix.lower() != ".xlsm"
-    return Plan(parts[str(source.sheet)], names, drop, target.suffix.lower() == ".xlsm")
+    return Plan(parts[str(source.sheet)], names, drop, target.suffix.lower() == ".xlsm", package)
 
 
-def file_columns(sheet: Sheet, data: bytes, xml: str) -> list[int]:
+def file_columns(sheet: Sheet, data: bytes, xml: str, fmt: str | None = None) -> list[int]:
     """Return the 0-based file column of each column of ``sheet.frame``.
 
     The reader keeps a column when it has a header text or a value in a data row.
@@ -105,7 +114,7 @@ def file_columns(sheet: Sheet, data: bytes, xml: str) -> list[int]:
     quick = cells.value_columns(xml, first)
     if len(quick) == n_columns:
         return quick
-    grid = read_workbook(data, sheet.source.path, sheet.source.file_format, sheet.source.sheet).cells
+    grid = read_workbook(data, sheet.source.path, fmt or sheet.source.file_format, sheet.source.sheet).cells
     rows = sheet.frame.index.to_numpy(dtype=np.int64) - 1
     header = sheet.source.header_row - 1
     kept = []
@@ -138,8 +147,8 @@ def write_workbook(
     Returns counts for the summary: cells written, notes added.
     """
     report, chart, with_notes = extras
-    data = sheet.source.path.read_bytes()
-    if hashlib.sha256(data).hexdigest() != sheet.source.sha256:
+    data = plan.copy if plan.copy is not None else sheet.source.path.read_bytes()
+    if plan.copy is None and hashlib.sha256(data).hexdigest() != sheet.source.sha256:
         raise ExportError(
             f"{sheet.source.path.name} changed since it was read; read it again before exporting"
         )
@@ -197,7 +206,7 @@ def _patch(
             f"sheet '{sheet.source.sheet}' of {sheet.source.path.name} is written in a form Kinfill cannot "
             "edit in place; export with the table layout"
         )
-    columns = file_columns(sheet, data, xml)
+    columns = file_columns(sheet, data, xml, "xlsx" if plan.copy is not None else None)
     rows = content.layout.data_rows
     # Filled cells, and censored entries the plan replaced by a value (half the limit...).
     written = (content.marks != 0) & content.frame.notna().to_numpy()

@@ -124,6 +124,8 @@ def test_a_plan_shows_and_comes_back_unchanged(setup):
     assert shown.to_dict() == plan.to_dict() | {
         "similarity_columns": ["pH", "Conductivity", "Nitrate"],
         "fill_columns": ["Nitrate", "Phosphate"],
+        # the demo's formula and notes columns, which the plan does not name, stay carried
+        "carried_columns": [*plan.carried_columns, "Oxygen saturation", "Notes"],
     }
     roles = {c.name: c.role for c in setup.choices()}
     assert (roles["pH"], roles["Nitrate"], roles["Phosphate"]) == ("similarity", "both", "fill")

@@ -16,7 +16,7 @@ from sklearn.datasets import load_iris
 
 from imputer_app.engine import impute
 from imputer_app.gui.cell_story import describe_cell, method_words, support_words
-from imputer_app.gui.donor_panel import DonorPanel
+from imputer_app.gui.donor_panel import SAMPLE_COLUMN, DonorPanel
 from imputer_app.gui.formatting import format_value
 from imputer_app.gui.records_model import RAW_ROLE
 from imputer_app.plan import FillPlan
@@ -60,13 +60,14 @@ def test_donors_in_order_with_the_logs_distances(panel, filled, which):
     model = panel.model
     assert model.rowCount() == len(entry["donors"]) == entry["k"]
     shown_labels = [model.index(r, 0).data(RAW_ROLE) for r in range(model.rowCount())]
-    shown_distances = [model.index(r, 1).data(RAW_ROLE) for r in range(model.rowCount())]
-    shown_values = [model.index(r, 2).data(RAW_ROLE) for r in range(model.rowCount())]
+    shown_distances = [model.index(r, 2).data(RAW_ROLE) for r in range(model.rowCount())]
+    shown_values = [model.index(r, 3).data(RAW_ROLE) for r in range(model.rowCount())]
     assert shown_labels == list(entry["donors"])
     assert shown_distances == [float(d) for d in entry["distances"]]  # exact, not rounded
     assert shown_values == pytest.approx([float(v) for v in entry["donor_values"]])
     assert shown_distances == sorted(shown_distances)  # nearest first
     assert panel.table.isVisibleTo(panel)
+    assert panel.table.isColumnHidden(SAMPLE_COLUMN)  # iris names no rows: no sample ID column
 
     told = facts(panel)
     assert told["Value"] == format_value(entry["value"])
@@ -99,7 +100,7 @@ def test_category_cell_shows_the_vote(panel):
     share = list(entry["donor_values"]).count(entry["value"]) / len(entry["donor_values"])
     assert entry["spread"] == pytest.approx(share)  # the log's spread is the winning vote share
     assert told["Spread"] == f"{share:.0%} of the donors chose this value"
-    shown = [panel.model.index(r, 2).data() for r in range(panel.model.rowCount())]
+    shown = [panel.model.index(r, 3).data() for r in range(panel.model.rowCount())]
     assert shown == list(entry["donor_values"])
 
 
@@ -253,3 +254,35 @@ def test_interval_is_shown_and_support_follows_its_width(qtbot):
         text = panel.support_text.text()
         assert f"{share:.1f} times the width of the column's 5-95 % range" in text
         assert text.startswith(words) and "times as far as is typical" in text
+
+
+def test_donor_table_names_rows_by_sample_id_and_a_double_click_shows_the_row(qtbot, window):
+    """The demo's Sample ID column names each donor beside its row; a double-click jumps there."""
+    from PySide6.QtTest import QTest
+
+    with qtbot.waitSignal(window.preview_ready, timeout=30_000):
+        window.actions_["preview"].trigger()
+    preview = window.session.preview
+    r, c = (int(v) for v in np.argwhere(window.table_model.fill_codes > 0)[0])
+    window.select_position(r, c)
+    panel = window.donor_panel
+    entry = preview.log[
+        (preview.log["row"] == window.table_model.row_label(r))
+        & (preview.log["column"] == window.table_model.column_names()[c])
+    ].iloc[0]
+    ids = preview.frame["Sample ID"]
+    model = panel.model
+    rows = range(model.rowCount())
+    shown = [(model.index(i, 0).data(RAW_ROLE), model.index(i, SAMPLE_COLUMN).data()) for i in rows]
+    assert shown == [(label, ids.loc[label]) for label in entry["donors"]]
+    assert dict(panel.story.facts)["Sample"] == ids.loc[entry["row"]]  # the filled row too
+    assert not panel.table.isColumnHidden(SAMPLE_COLUMN)
+
+    far = model.rowCount() - 1
+    assert panel.table.isVisible()
+    target = panel.table.visualRect(model.index(far, SAMPLE_COLUMN)).center()
+    QTest.mouseClick(panel.table.viewport(), Qt.MouseButton.LeftButton, pos=target)  # a press comes first
+    QTest.mouseDClick(panel.table.viewport(), Qt.MouseButton.LeftButton, pos=target)
+    current = window.table.currentIndex()
+    assert window.table_model.row_label(current.row()) == entry["donors"][far]
+    assert window.table_model.column_names()[current.column()] == entry["column"]

@@ -206,15 +206,15 @@ def test_common_decimals(values, digits, decimals):
 
 def test_donor_rows_line_up_and_keep_exact_values():
     donors = [
-        SimpleNamespace(label=212, distance=0.21714, value=7.17),
-        SimpleNamespace(label=12, distance=1.016, value=7.1),
-        SimpleNamespace(label=40, distance=1.2, value=math.nan),
+        SimpleNamespace(label=212, sample_id="VR-24-0210", distance=0.21714, value=7.17),
+        SimpleNamespace(label=12, sample_id="VR-24-0010", distance=1.016, value=7.1),
+        SimpleNamespace(label=40, sample_id="", distance=1.2, value=math.nan),
     ]
     rows = donor_rows(donors)
     assert [[c.text for c in row] for row in rows] == [
-        ["212", "0.217", "7.17"],
-        ["12", "1.016", "7.10"],
-        ["40", "1.200", NOT_AVAILABLE],
+        ["212", "VR-24-0210", "0.217", "7.17"],
+        ["12", "VR-24-0010", "1.016", "7.10"],
+        ["40", "", "1.200", NOT_AVAILABLE],
     ]
-    assert [row[1].value for row in rows] == [0.21714, 1.016, 1.2]  # exact, for sorting and tests
+    assert [row[2].value for row in rows] == [0.21714, 1.016, 1.2]  # exact, for sorting and tests
     assert fixed_cell("ST-03", 2).text == "ST-03"

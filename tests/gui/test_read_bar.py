@@ -77,3 +77,18 @@ def test_ctrl_q_closes_the_window_from_the_first_moment(qtbot, workbook):
     assert QApplication.activeModalWidget() is None and w.actions_["quit"].isEnabled()
     w.actions_["quit"].trigger()
     qtbot.waitUntil(lambda: not w.isVisible(), timeout=10_000)
+
+
+def test_the_demo_workbook_opens_on_its_data_sheet_without_a_dialog(qtbot, demo, monkeypatch):
+    """The demo has a second sheet ("Methods", text only); a double-click opens "Survey"."""
+    monkeypatch.setattr(OpenDialog, "exec", lambda self: pytest.fail("no dialog on a double-click"))
+    w = new_window(qtbot)
+    with qtbot.waitSignal(w.sheet_loaded, timeout=30_000):
+        w.open_path(demo)  # as make run and kinfill-gui FILE do
+    bar = w.data.read_bar
+    sheet = w.session.sheet
+    assert sheet.source.sheet == "Survey" and sheet.source.header_row == 2 and len(sheet.frame) == 304
+    assert [bar.sheet_combo.itemText(i) for i in range(bar.sheet_combo.count())] == ["Survey", "Methods"]
+    assert {"Oxygen saturation", "Notes"} <= set(w.session.plan.carried_columns)  # never filled by default
+    assert not {"Oxygen saturation", "Notes"} & set(w.session.plan.fill_columns)
+    w.close()
