@@ -53,6 +53,7 @@ _FORMULA = re.compile(rb'<c\b[^>]*?\sr="([A-Z]{1,4})(\d{1,10})"[^>/]*>\s*<f\b')
 _TABLE = "urn:oasis:names:tc:opendocument:xmlns:table:1.0"
 # LibreOffice's own attribute for a cell's value type ("error" for a cached formula error).
 _CALC_TYPE = "{urn:org:documentfoundation:names:experimental:calc:xmlns:calcext:1.0}value-type"
+_ODS_FORMULA = f"{{{_TABLE}}}formula"
 #: Formula error cells of one .ods table put back into the grid; further ones read as blank.
 MAX_ERROR_CELLS = 1_000_000
 
@@ -295,21 +296,27 @@ def _scan_ods(package: zipfile.ZipFile, sheet: str | None, path: Path) -> dict[s
     """
     table, row_tag = f"{{{_TABLE}}}table", f"{{{_TABLE}}}table-row"
     extent, name, row = Extent(), "", 0
+    formula_rows: dict[int, list[range]] = {}
     found: dict[str, Extent] = {}
     with package.open("content.xml") as stream:
         for event, element in ElementTree.iterparse(stream, events=("start", "end")):
             if element.tag == table:
                 if event == "start":
                     extent, name, row = Extent(), element.get(f"{{{_TABLE}}}name", ""), 0
+                    formula_rows = {}
                 elif sheet is None or name == sheet:
                     refuse_if_too_large(extent, path, name)
+                    extent.formulas = {
+                        column: np.concatenate([np.arange(r.start, r.stop) for r in runs])
+                        for column, runs in formula_rows.items()
+                    }
                     found[name] = extent
                     element.clear()
                 continue
             if event != "end" or element.tag != row_tag:
                 continue
             repeat = _repeat(element, "number-rows-repeated")
-            last = _last_used_column(element, extent, row, repeat)
+            last = _last_used_column(element, extent, row, repeat, formula_rows)
             if last:
                 extent.see(row + repeat, last)
             row += repeat
@@ -317,15 +324,26 @@ def _scan_ods(package: zipfile.ZipFile, sheet: str | None, path: Path) -> dict[s
     return found
 
 
-def _last_used_column(row: ElementTree.Element, extent: Extent, first_row: int, n_rows: int) -> int:
+def _last_used_column(
+    row: ElementTree.Element,
+    extent: Extent,
+    first_row: int,
+    n_rows: int,
+    formula_rows: dict[int, list[range]],
+) -> int:
     """1-based last column of ``row`` holding a value or text (0 when none does).
 
     Its error cells go into ``extent.errors`` (0-based positions; the row may stand for
-    ``n_rows`` repeated rows), up to :data:`MAX_ERROR_CELLS` per table.
+    ``n_rows`` repeated rows), up to :data:`MAX_ERROR_CELLS` per table; its formula
+    cells (``table:formula``) into ``formula_rows`` as runs of rows per column, so that
+    a computed column of an .ods is carried like one of an .xlsx.
     """
     column, last = 0, 0
     for cell in row:
         repeat = _repeat(cell, "number-columns-repeated")
+        if cell.get(_ODS_FORMULA) is not None:
+            for c in range(column, column + repeat):
+                formula_rows.setdefault(c, []).append(range(first_row, first_row + n_rows))
         if len(cell) or any(key.endswith("value-type") for key in cell.attrib):
             last = column + repeat
             if cell.get(_CALC_TYPE) == "error" and len(extent.errors) + n_rows * repeat <= MAX_ERROR_CELLS:

@@ -12,6 +12,7 @@ from imputer_app.engine import default_role_reasons, default_roles, impute
 from imputer_app.plan import FillPlan
 from imputer_app.sheets import read_sheet
 from tests.sheets import lab_fixture
+from tests.sheets.libreoffice_support import convert, needs_soffice
 
 
 @pytest.fixture(scope="module")
@@ -74,3 +75,18 @@ def test_category_rule(values: list[str | None], carried: bool) -> None:
     frame = pd.DataFrame({"t": values, "x": np.arange(20.0), "y": np.r_[np.nan, np.arange(19.0)]})
     assert (default_roles(frame)["t"] == "carried") is carried
     assert ("t" in default_role_reasons(frame)) is carried
+
+
+@needs_soffice
+@pytest.mark.slow
+@pytest.mark.parametrize("fmt", ["ods", "xls"])
+def test_formula_column_of_ods_and_xls_is_carried(lab: Path, tmp_path: Path, fmt: str) -> None:
+    # the lab workbook as LibreOffice writes it (an independent writer): its formula
+    # column is found as computed there too, so a default fill leaves it alone
+    converted = convert(lab, fmt, tmp_path)
+    sheet = read_sheet(converted)
+    reasons = default_role_reasons(sheet)
+    assert reasons["Base sum"].startswith("computed by formulas")
+    assert default_roles(sheet)["Base sum"] == "carried"
+    result = impute(sheet, FillPlan())
+    assert not result.filled["Base sum"].any()
