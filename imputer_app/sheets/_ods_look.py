@@ -6,8 +6,9 @@ read here from ``content.xml``: each cell's style (its own, else its column's de
 names a data style (``number:number-style``, ``percentage-style``, ``date-style``,
 ``time-style``), written again as the spreadsheet number format that shows the value
 the same way (``0.00``, ``0.0%``, ``yyyy-mm-dd``); a cell spanning several columns or
-rows gives a merged range. Only cells holding a value are looked at, so the empty
-rows an .ods repeats to the sheet's end cost nothing.
+rows gives a merged range; a formula is kept when it translates to .xlsx syntax. Only
+cells holding a value are looked at, so the empty rows an .ods repeats to the sheet's
+end cost nothing.
 """
 
 from __future__ import annotations
@@ -17,6 +18,8 @@ import zipfile
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 from xml.etree import ElementTree
+
+from imputer_app.sheets._ods_formula import excel_formula
 
 _NS = {
     "table": "urn:oasis:names:tc:opendocument:xmlns:table:1.0",
@@ -43,10 +46,15 @@ _DATE_PARTS = {
 
 @dataclass
 class SheetLook:
-    """Number formats by (0-based row, column) of the cells holding a value, and merged ranges."""
+    """What one table shows beyond its values.
+
+    Number formats by (0-based row, column) of the cells holding a value, merged ranges,
+    and the formulas that translate to .xlsx syntax (:func:`excel_formula`).
+    """
 
     formats: dict[tuple[int, int], str] = field(default_factory=dict)
     merges: list[tuple[int, int, int, int]] = field(default_factory=list)
+    formulas: dict[tuple[int, int], str] = field(default_factory=dict)
 
 
 def ods_look(data: bytes) -> dict[str, SheetLook]:
@@ -154,6 +162,8 @@ def _tables(content: bytes, cell_codes: dict[str, str]) -> Iterator[tuple[str, S
             if _has_value(row_element):
                 for offset in range(min(repeat, _MAX_REPEAT)):
                     _see_row(row_element, row + offset, defaults, cell_codes, look)
+                if repeat == 1:  # a repeated formula would point at the first row's cells
+                    _see_formulas(row_element, row, look)
             row += repeat
         name = table.get(f"{_T}name", "")
         table.clear()  # the next table is read without this one in memory
@@ -190,6 +200,21 @@ def _see_row(
         tall = int(cell.get(f"{_T}number-rows-spanned", "1") or 1)
         if wide > 1 or tall > 1:
             look.merges.append((row, column, row + tall - 1, column + wide - 1))
+        column += repeat
+
+
+def _see_formulas(row_element: ElementTree.Element, row: int, look: SheetLook) -> None:
+    """Keep the translated formula of each cell of the row that is not repeated."""
+    column = 0
+    for cell in row_element:
+        if cell.tag not in (f"{_T}table-cell", f"{_T}covered-table-cell"):
+            continue
+        repeat = _repeat(cell, "columns")
+        formula = cell.get(f"{_T}formula")
+        if formula is not None and repeat == 1:
+            translated = excel_formula(formula)
+            if translated is not None:
+                look.formulas[(row, column)] = translated
         column += repeat
 
 

@@ -61,12 +61,16 @@ def not_kept(file_format: str) -> str:
     """
     if file_format == "ods":
         kept, lost = "every sheet's values, number formats and merged cells", ""
+        formulas = (
+            "formulas in the common forms (cell and range references, ';' between arguments) are "
+            "kept as formulas, others as their values"
+        )
     else:
         kept, lost = "every sheet's values and merged cells", "number formats (dates show as yyyy-mm-dd), "
+        formulas = "formulas are kept as their values (they no longer recompute)"
     return (
-        f"from the .{file_format} input: an .xlsx copy with {kept}; formulas are kept as their values "
-        f"(they no longer recompute); {lost}charts, images, comments, fonts, colours and column widths "
-        "are not kept"
+        f"from the .{file_format} input: an .xlsx copy with {kept}; {formulas}; {lost}charts, images, "
+        "comments, fonts, colours and column widths are not kept"
     )
 
 
@@ -144,13 +148,22 @@ def _write_cells(
     look: SheetLook,
     formats: dict[str, Format],
 ) -> None:
-    """Write each cell with its own type; text is always text, never a formula."""
-    codes = look.formats
+    """Write each cell with its own type; text is always text, never a formula.
+
+    A formula of an .ods that translates to .xlsx syntax is written as a formula with
+    its stored value (the export drops stored results, so it recomputes on opening).
+    """
+    codes, formulas = look.formats, look.formulas
     for i, row in enumerate(rows):
         for j, value in enumerate(row):
+            code = codes.get((i, j))
+            formula = formulas.get((i, j))
+            if formula is not None:
+                style = _style(book, formats, code) if code else None
+                sheet.write_formula(i, j, formula, style, value if value is not None else "")
+                continue
             if value is None or value == "":
                 continue
-            code = codes.get((i, j))
             if isinstance(value, bool):
                 sheet.write_boolean(i, j, value)
             elif isinstance(value, int | float):

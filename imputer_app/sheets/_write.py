@@ -255,7 +255,12 @@ def _workbook_record(
             "an .xlsx copy of the input workbook with the filled cells written into sheet "
             f"{sheet.source.sheet}"
         )
-        output["formulas"] = "kept as their values (an .xlsx copy of an .ods/.xls workbook holds no formulas)"
+        output["formulas"] = (
+            "kept as formulas where written in the common forms, stored results removed and "
+            "recalculated when the file is opened; others kept as their values"
+            if sheet.source.file_format == "ods"
+            else "kept as their values (an .xlsx copy of an .xls workbook holds no formulas)"
+        )
         output["not_kept"] = limits
     if where.drop_macros:
         output["macros"] = "left out: an .xlsx file cannot hold macros; export to .xlsm to keep them"

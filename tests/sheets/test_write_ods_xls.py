@@ -64,8 +64,11 @@ def test_every_sheet_comes_back_in_order_with_our_sheets_added(exported) -> None
 
 
 def test_values_stay_and_only_the_gaps_change(exported) -> None:
-    _, source, sheet, result, out = exported
+    fmt, source, sheet, result, out = exported
     before, after = calamine_cells(source, "Results"), calamine_cells(out, "Results")
+    if fmt == "ods":  # the formula column stays formulas, stored results dropped (recomputed on opening)
+        before = {k: v for k, v in before.items() if k[1] != 6 or k[0] < FIRST}
+        after = {k: v for k, v in after.items() if k[1] != 6 or k[0] < FIRST}
     filled = result.filled.to_numpy()
     written = {}
     for i, j in zip(*np.nonzero(filled), strict=True):
@@ -97,14 +100,17 @@ def test_filled_cells_are_marked_with_their_columns_format_and_a_note(exported) 
     assert set(fills) == refs  # no other cell is marked
 
 
-def test_formulas_become_their_values_and_dates_stay_dates(exported) -> None:
+def test_formulas_stay_formulas_from_ods_values_from_xls_and_dates_stay_dates(exported) -> None:
     fmt, _, _, _, out = exported
     results = openpyxl.load_workbook(out)["Results"]
     stored = results.cell(FIRST, 6)
-    assert stored.data_type == "n" and isinstance(stored.value, float)  # a value, no formula
-    assert stored.value == pytest.approx(
-        round(float(office.values_of()["Ca"][0] + office.values_of()["Mg"][0]), 3)
-    )
+    if fmt == "ods":  # LibreOffice's of:=SUM([.D3:.E3]) written again as an .xlsx formula
+        assert stored.data_type == "f" and stored.value == f"=SUM(D{FIRST}:E{FIRST})"
+    else:
+        assert stored.data_type == "n" and isinstance(stored.value, float)  # a value, no formula
+        assert stored.value == pytest.approx(
+            round(float(office.values_of()["Ca"][0] + office.values_of()["Mg"][0]), 3)
+        )
     date = results.cell(FIRST + 2, 2)
     assert date.value == dt.datetime(2025, 4, 3) and date.number_format == "yyyy-mm-dd"
     if fmt == "ods":
@@ -115,11 +121,12 @@ def test_the_limits_are_said_in_about_this_fill(exported) -> None:
     fmt, _, sheet, _, out = exported
     limits = export_limits(sheet, out)
     assert limits.startswith(f"from the .{fmt} input: an .xlsx copy")
-    assert "formulas are kept as their values" in limits and "charts, images" in limits
+    assert ("formulas are kept as their values" in limits) == (fmt == "xls") and "charts, images" in limits
+    assert ("kept as formulas, others as their values" in limits) == (fmt == "ods")
     assert ("number formats (dates show as yyyy-mm-dd)" in limits) == (fmt == "xls")
     output = about(out)["This export"]
     assert output["not kept"] == limits
-    assert output["formulas"].startswith("kept as their values")
+    assert output["formulas"].startswith("kept as their values" if fmt == "xls" else "kept as formulas")
 
 
 def test_the_command_line_summary_says_what_was_not_kept(sources, tmp_path, capsys) -> None:
@@ -149,3 +156,18 @@ def test_a_workbook_changed_since_reading_is_refused(sources, tmp_path) -> None:
     with pytest.raises(ExportError, match="changed since it was read"):
         write_result(tmp_path / "out.xlsx", sheet, result, PLAN)
     assert sorted(p.name for p in tmp_path.iterdir()) == ["lab.ods"]
+
+
+def test_libreoffice_recomputes_the_ods_formula_column_from_the_filled_inputs(sources, tmp_path) -> None:
+    # LibreOffice computes a formula cell that has no stored result: the sums of the rows
+    # whose Ca was a gap now add the filled Ca
+    sheet = read_sheet(sources["ods"])
+    result = impute(sheet, PLAN)
+    out = tmp_path / "lab.filled.xlsx"
+    write_result(out, sheet, result, PLAN)
+    lines = office.convert(out, "csv", tmp_path / "csv").read_text().splitlines()
+    for row in sheet.frame.index:
+        cells = lines[int(row) - 1].split(",")
+        ca, mg = (float(result.frame.loc[row, name]) for name in ("Ca", "Mg"))
+        assert float(cells[5]) == pytest.approx(ca + mg, abs=1e-9), row
+    assert result.filled["Ca"].sum() == len(GAPS["Ca"])
