@@ -102,6 +102,7 @@ def methods_paragraph(
     parts.append(_k_sentence(used.k, report, cites))
     parts.extend(_censored_sentences(result.log, cites))
     parts.extend(_interval_sentences(result, cites))
+    parts.append(_rounding_sentence(result))
     parts.append(f"The fill was made with Kinfill {__version__}.")
     parts.append(CAUTIONS)
     works = " ".join(REFERENCES[key] for key in dict.fromkeys(cites))
@@ -272,6 +273,18 @@ def _interval_sentences(result: FillResult, cites: list[str]) -> list[str]:
                 text += f"{int(rows['n_cells'].iloc[0])} "
             text += "hidden known cells fell inside an interval calibrated on the other hidden cells"
     return [text + "."]
+
+
+def _rounding_sentence(result: FillResult) -> str:
+    """How filled numbers were rounded, when any was ('' when none was)."""
+    if not getattr(result, "decimals", None):
+        return ""
+    if getattr(result.plan, "rounding", "") == "measured":
+        return (
+            "Filled numbers were rounded to the precision measured in their column (the most "
+            "decimals among its measured values), interval bounds outward to the same decimals."
+        )
+    return "Filled numbers were rounded to the decimals the plan names for their column."
 
 
 def _listing(items: Sequence[str]) -> str:

@@ -95,6 +95,8 @@ def test_every_number_in_the_paragraph_is_in_the_run_record(
     assert [n for n in found if n not in allowed] == []
     assert f"Kinfill {__version__}" in text
     assert CAUTIONS in text
+    # the demo's numbers are rounded to each column's measured precision by default
+    assert ("rounded to the precision measured in their column" in text) == (plan.rounding == "measured")
 
 
 def test_counts_per_column_are_the_filled_cells(demo: Any) -> None:
