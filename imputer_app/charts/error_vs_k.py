@@ -37,7 +37,7 @@ COLUMN_COLOURS = tuple(
     for name in ("blue", "orange", "sky_blue", "vermillion", "bluish_green", "reddish_purple", "yellow")
 )
 #: One marker shape per fill column, so lines of like colour (or in grey print) still differ.
-COLUMN_MARKERS = ("o", "s", "^", "v", "D", "P", "X", "<", ">", "h")
+COLUMN_MARKERS = ("o", "s", "^", "v", "p", "P", "X", "<", ">", "h")  # no "D" or "*": the k marks
 #: Tick steps tried when thinning the k axis: the first that fits is used.
 TICK_STEPS = (1, 2, 5, 10, 20, 25, 50, 100)
 

@@ -102,13 +102,18 @@ def per_column_plan(plan: FillPlan, report: RecoveryReport) -> FillPlan:
 def per_column_text(plan: FillPlan, report: RecoveryReport) -> str:
     """The status line after "Use each column's best k"."""
     settings = report.settings
-    shown = ", ".join(f"{column} {k}" for column, k in plan.k_by_column.items())
-    return (
-        f"k per column set: {shown} (k = {plan.k} for any other column), each column's choice "
-        f"of the recovery test ({settings.get('repeats')} repeats, "
-        f"{_share(settings.get('hide_fraction'))} hidden, seed {settings.get('seed')}); "
-        "the export records that test."
+    test = (
+        f"the recovery test ({settings.get('repeats')} repeats, "
+        f"{_share(settings.get('hide_fraction'))} hidden, seed {settings.get('seed')})"
     )
+    own = plan.k_by_column
+    other = {column: k for column, k in own.items() if k != plan.k}
+    if not other:
+        return (
+            f"Each column's own k from {test} is the sheet's best k, {plan.k}; the export records the test."
+        )
+    shown = ", ".join(f"{column} {k}" for column, k in other.items())
+    return f"Own k from {test}: {shown}; k = {plan.k} for the other columns. The export records the test."
 
 
 def one_k_text(plan: FillPlan, dropped: dict[str, int]) -> str:

@@ -22,7 +22,7 @@ from imputer_app.gui.widgets import named
 if TYPE_CHECKING:
     from imputer_app.validation import RecoveryReport
 
-CHART_MIN_HEIGHT = 150
+CHART_MIN_HEIGHT = 200
 MAX_CHART_COLUMNS = 10  # more fill columns: the chart starts with the overall error only
 NARROW_CHART = 760  # pixels; below this the legend goes under the chart
 IDLE_TEXT = "Run the recovery test to see how well each k recovers known values."
@@ -31,6 +31,10 @@ NRMSE_HELP = (
     "NRMSE: how far filled values fell from the hidden true values, as a share of the "
     "column's spread (RMSE / SD). 0 = exact; about 1 = no better than the column average. "
     "Lower is better."
+)
+#: The same in one short line, under the chart in the narrow panel.
+NRMSE_SHORT = (
+    "NRMSE: error as a share of the column's spread; 0 = exact, about 1 = no better than the average."
 )
 
 

@@ -1,8 +1,8 @@
-"""The recovery panel's row of choices: "use this k" buttons and the chart's controls.
+"""The recovery panel's choices: "use this k" buttons, and the chart's controls.
 
 :class:`ChoiceBar` holds the buttons that put the test's best k, its one-SE k or a
-table row's k into the plan, the "Chart shows" choice of column lines, and the buttons
-that enlarge and save the chart; it wraps onto more rows when narrow.
+table row's k into the plan; :class:`ChartControls` the choice of column lines drawn
+and the buttons that enlarge and save the chart. Both wrap onto more rows when narrow.
 :func:`save_chart_dialog` asks for a file name and saves the chart.
 """
 
@@ -23,7 +23,7 @@ CHART_FILTERS = "PNG image (*.png);;SVG drawing (*.svg)"
 
 
 class ChoiceBar(Reflow):
-    """The k buttons, then the chart's controls; the panel connects them."""
+    """The buttons that put a k of the test into the plan; the panel connects them."""
 
     def __init__(self, parent: QWidget) -> None:
         self.use_best_button = button(
@@ -40,15 +40,27 @@ class ChoiceBar(Reflow):
             parent,
             "recoveryUseSelected",
             "Use selected k",
-            "Set k to the k of the selected table row (or press Enter on the row)",
+            "Set k to the k of the selected row of the per-k table (or press Enter on the row)",
         )
+        buttons = (self.use_best_button, self.use_one_se_button, self.use_selected_button)
+        super().__init__([(None, b) for b in buttons], parent, max_columns=3, stretch=False)
+
+    def focus_chain(self) -> list[QWidget]:
+        """The bar's controls in tab order."""
+        return [self.use_best_button, self.use_one_se_button, self.use_selected_button]
+
+
+class ChartControls(Reflow):
+    """Under the chart: which column lines it draws, and buttons to enlarge and save it."""
+
+    def __init__(self, parent: QWidget) -> None:
         self.save_button = button(
-            parent, "recoverySaveChart", "Save chart…", "Save the chart as a PNG image or an SVG drawing"
+            parent, "recoverySaveChart", "Save…", "Save the chart as a PNG image or an SVG drawing"
         )
         self.enlarge_button = button(
             parent,
             "recoveryEnlargeChart",
-            "&Enlarge chart…",
+            "&Enlarge…",
             "Open the chart in a window of its own that can be made as large as the screen",
         )
         self.chart_columns = compact(
@@ -59,24 +71,13 @@ class ChoiceBar(Reflow):
                 "Draw every fill column's own line, none, or one column beside the overall error",
             )
         )
-        k_buttons = Reflow(
-            [(None, b) for b in (self.use_best_button, self.use_one_se_button, self.use_selected_button)],
-            parent,
-            max_columns=3,
-            stretch=False,
-        )
-        chart = QWidget(parent)
-        chart_row = QHBoxLayout(chart)
-        chart_row.setContentsMargins(0, 0, 0, 0)
-        chart_row.addWidget(buddy("Chart shows:", self.chart_columns, chart))
-        chart_row.addWidget(self.chart_columns, 1)
         files = QWidget(parent)
         files_row = QHBoxLayout(files)
         files_row.setContentsMargins(0, 0, 0, 0)
         files_row.addWidget(self.enlarge_button)
         files_row.addWidget(self.save_button)
-        files_row.addStretch(1)
-        super().__init__([(None, k_buttons), (None, chart), (None, files)], parent, max_columns=2)
+        label = buddy("S&how:", self.chart_columns, parent)
+        super().__init__([(label, self.chart_columns), (None, files)], parent, max_columns=2)
 
     def fill_chart_columns(self, report: RecoveryReport) -> None:
         """Offer "all columns", "overall only" and each column of the report's score kind."""
@@ -93,15 +94,8 @@ class ChoiceBar(Reflow):
         self.chart_columns.blockSignals(False)
 
     def focus_chain(self) -> list[QWidget]:
-        """The bar's controls in tab order."""
-        return [
-            self.use_best_button,
-            self.use_one_se_button,
-            self.use_selected_button,
-            self.chart_columns,
-            self.enlarge_button,
-            self.save_button,
-        ]
+        """The controls in tab order."""
+        return [self.chart_columns, self.enlarge_button, self.save_button]
 
 
 def chart_name(data: object) -> str:

@@ -187,11 +187,13 @@ class RecoveryPanel(QWidget):
         return area
 
     def _build_choices(self) -> ChoiceBar:
-        """The "use this k" buttons and the chart's controls; they wrap onto more rows when narrow."""
+        """The "use this k" buttons (the chart's own controls sit under the chart)."""
         bar = ChoiceBar(self)
         self.use_best_button, self.use_one_se_button = bar.use_best_button, bar.use_one_se_button
-        self.use_selected_button, self.save_button = bar.use_selected_button, bar.save_button
-        self.enlarge_button, self.chart_columns = bar.enlarge_button, bar.chart_columns
+        self.use_selected_button = bar.use_selected_button
+        controls = self.results.chart_controls
+        self.save_button, self.enlarge_button = controls.save_button, controls.enlarge_button
+        self.chart_columns = controls.chart_columns
         self.use_best_button.clicked.connect(lambda: self._use_report_k(one_se=False))
         self.use_one_se_button.clicked.connect(lambda: self._use_report_k(one_se=True))
         self.use_selected_button.clicked.connect(lambda: self._use_row(self.table.currentIndex().row()))
@@ -357,7 +359,7 @@ class RecoveryPanel(QWidget):
             headers, tips = report_headers(report)
             self.model.set_rows(report_rows(report), headers, tips)
             self._summary = summary_text(report)
-            self._choices.fill_chart_columns(report)
+            self.results.chart_controls.fill_chart_columns(report)
             self.chart.show_report(report, self.chart_columns.currentData())
             best_row = list(report.overall.index).index(report.best_k)
             self.table.setCurrentIndex(self.model.index(best_row, 0))
