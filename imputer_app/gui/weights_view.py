@@ -84,6 +84,7 @@ class WeightsView(QWidget):
         self._suggestion: WeightSuggestion | None = None
         self._made_for: dict[str, Any] | None = None
         self._pending: dict[str, Any] | None = None
+        self._busy = False  # from start until the runner reports the end (its thread may linger)
         self.runner = TaskRunner(self)
         self.runner.progressed.connect(self._on_progress)
         self.runner.finished.connect(self._on_finished)
@@ -165,7 +166,7 @@ class WeightsView(QWidget):
     def run(self) -> None:
         """Start the weight search on the current sheet and plan (nothing when busy or no sheet)."""
         data, plan = self._data(), self.session.plan
-        if data is None or self.runner.is_running():
+        if data is None or self._busy:
             return
         self._pending = _without_weights(plan)
         self._set_running(True)
@@ -210,6 +211,7 @@ class WeightsView(QWidget):
             )
 
     def _set_running(self, running: bool) -> None:
+        self._busy = running
         if running:
             self.progress.setRange(0, 0)
             self.progress.setFormat("%p%")
@@ -229,14 +231,14 @@ class WeightsView(QWidget):
         else:
             self.model.set_rows(weight_rows(suggestion))
             self.note.setText(weights_summary(suggestion))
-        self._set_running(self.runner.is_running())
+        self._set_running(self._busy)
 
     def _stale(self) -> bool:
         return self._made_for is not None and self._made_for != _without_weights(self.session.plan)
 
     def _update_apply(self) -> None:
         s = self._suggestion
-        usable = s is not None and not self.runner.is_running() and not self._stale()
+        usable = s is not None and not self._busy and not self._stale()
         self.apply_button.setEnabled(bool(usable) and s is not None and _weights_differ(self.session.plan, s))
 
     def _on_session(self, event: str) -> None:
@@ -250,7 +252,7 @@ class WeightsView(QWidget):
                     weights_summary(self._suggestion)
                     + "\n(Made with other settings; suggest again before applying.)"
                 )
-            self._set_running(self.runner.is_running())
+            self._set_running(self._busy)
 
     def apply(self) -> None:
         """Put the suggested weights into the session's plan (only on the user's request)."""
