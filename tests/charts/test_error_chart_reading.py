@@ -35,7 +35,7 @@ def _report(columns: int, ks: range):
 
 
 def test_column_colours_are_okabe_ito_and_distinct():
-    assert OKABE_ITO_HEX == {v.lower() for v in OKABE_ITO.values()}
+    assert {v.lower() for v in OKABE_ITO.values()} == OKABE_ITO_HEX
     assert {c.lower() for c in COLUMN_COLOURS} <= OKABE_ITO_HEX - {"#000000"}  # black is the overall line
     assert len(set(COLUMN_COLOURS)) == len(COLUMN_COLOURS) == 7
 
