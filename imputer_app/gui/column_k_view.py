@@ -121,8 +121,8 @@ class ColumnKView(QWidget):
             headers, tips = column_headers(report)
             self.model.set_rows(column_rows(report, plan), headers, tips)
             self.note.setText(
-                "Own k: of the k within one standard error of the column's lowest error, the one "
-                "nearest the sheet's best k. Bold: beats the column average."
+                f"Own k: the k nearest {report.best_k} within one SE of the column's lowest error. "
+                "Errors: NRMSE (numbers) or share wrong (categories); bold beats the average."
             )
         target = per_column_plan(plan, report) if report is not None else None
         self.use_each_button.setEnabled(target is not None and target != plan)

@@ -27,7 +27,7 @@ def column_headers(report: RecoveryReport) -> tuple[list[str], list[str]]:
     """Titles and tooltips of the per-column table."""
     best = report.best_k
     return (
-        ["Column", "Own k", "Error at own k", f"Error at k = {best}", "Column average", "k in plan"],
+        ["Column", "Own k", "Error", f"At k = {best}", "Average", "Plan k"],
         [
             "Fill column (errors are NRMSE for numbers, the share of wrong classes for categories)",
             "The column's own k: of the k within one standard error of the column's lowest error, "

@@ -23,7 +23,7 @@ SCREENSHOT_TIMEOUT_MS = 60_000
 #: Exit codes of ``--screenshot``: reading (or testing, filling) failed, picture not saved, too slow.
 EXIT_READ_FAILED, EXIT_NOT_SAVED, EXIT_TIMEOUT = 1, 3, 4
 #: What ``--screenshot-state`` can show.
-SCREENSHOT_STATES = ("sheet", "recovery", "per-column", "preview")
+SCREENSHOT_STATES = ("sheet", "recovery", "per-column", "weights", "preview")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -43,7 +43,7 @@ def build_parser() -> argparse.ArgumentParser:
         choices=SCREENSHOT_STATES,
         default="sheet",
         help="with --screenshot: the sheet as read (default), the recovery test's result, "
-        "that with each column's own k in use (per-column view), "
+        "that with each column's own k in use (per-column view), suggested weights (not applied), "
         "or a fill preview with the first filled cell's donors",
     )
     parser.add_argument("--version", action="version", version=f"kinfill-gui {__version__}")
@@ -82,7 +82,8 @@ def drive_to(window: object, state: str, done: Callable[[], None]) -> None:
 
     ``"sheet"``: as it is. ``"recovery"``: run the recovery test with the panel's
     settings and use its best k. ``"per-column"``: that, then use each column's own k
-    with the per-column view in front. ``"preview"``: the recovery state, then preview
+    with the per-column view in front. ``"weights"``: the recovery state, then suggested
+    weights shown (not applied). ``"preview"``: the recovery state, then preview
     the fill and select the first filled cell, so the donor panel shows where its value
     came from.
     """
@@ -97,7 +98,11 @@ def drive_to(window: object, state: str, done: Callable[[], None]) -> None:
         if state == "per-column":
             panel.views.setCurrentWidget(panel.columns_view)
             panel.columns_view.use_each_button.click()
-        if state in ("recovery", "per-column"):
+        if state == "weights":
+            panel.views.setCurrentWidget(panel.weights_view)
+            panel.weights_view.runner.finished.connect(lambda _s: done())
+            panel.weights_view.run()
+        elif state in ("recovery", "per-column"):
             done()
         else:
             window.preview_ready.connect(previewed)

@@ -44,6 +44,7 @@ class SortedTable(RecordTable):
         )
         self.sort_by.currentIndexChanged.connect(self._sort_from_combo)
         self.horizontalHeader().sortIndicatorChanged.connect(self._combo_from_header)
+        self.horizontalHeader().setSortIndicator(-1, Qt.SortOrder.AscendingOrder)  # as listed
         self.horizontalHeader().setSortIndicatorShown(True)
         self.horizontalHeader().setSectionsClickable(True)
         model.modelReset.connect(self._fill_combo)

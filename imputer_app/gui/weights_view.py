@@ -240,6 +240,11 @@ class WeightsView(QWidget):
         s = self._suggestion
         usable = s is not None and not self._busy and not self._stale()
         self.apply_button.setEnabled(bool(usable) and s is not None and _weights_differ(self.session.plan, s))
+        # A suggestion that did no better on the judging cells can still be applied, but not by mistake.
+        gain = s is not None and s.score_after < s.score_before
+        self.apply_button.setText(
+            "&Apply suggested weights" if gain or s is None else "&Apply anyway (no gain)"
+        )
 
     def _on_session(self, event: str) -> None:
         if event == "sheet":

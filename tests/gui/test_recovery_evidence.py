@@ -62,7 +62,7 @@ def test_per_column_table_shows_the_reports_numbers(qtbot, panel):
         assert baseline == report.baseline.loc[column, "score"]
         assert in_plan == 3  # the plan's k: nothing chosen yet
     header = [view.model.headerData(c, Qt.Orientation.Horizontal) for c in range(view.model.columnCount())]
-    assert header[3] == f"Error at k = {report.best_k}"
+    assert header[3] == f"At k = {report.best_k}"
     # shown text is the same number, rounded
     shown = view.table.model().index(0, 2).data()
     assert math.isclose(float(shown), rows[0][2], rel_tol=5e-3)
@@ -105,7 +105,7 @@ def test_per_column_table_sorts_by_numbers_from_the_keyboard(qtbot, panel):
     table = panel.columns_view.table
     panel.views.setCurrentWidget(panel.columns_view)
     table.sort_by.setFocus()
-    table.sort_by.setCurrentIndex(table.sort_by.findText("Error at own k"))
+    table.sort_by.setCurrentIndex(table.sort_by.findText("Error"))
     shown = [table.model().index(r, 2).data(RAW_ROLE) for r in range(table.model().rowCount())]
     assert shown == sorted(shown)
     assert {table.model().index(r, 0).data() for r in range(len(shown))} == set(report.kinds)
@@ -190,7 +190,7 @@ def test_a_suggestion_for_other_settings_cannot_be_applied(qtbot, panel, monkeyp
     with qtbot.waitSignal(view.runner.finished, timeout=10_000):
         view.run()
     qtbot.waitUntil(lambda: not view.runner.is_running(), timeout=10_000)
-    assert view.apply_button.isEnabled()
+    assert view.apply_button.isEnabled() and view.apply_button.text() == "&Apply suggested weights"
     assert "18% lower" in view.note.text()
     panel.session.set_plan(FillPlan(k=3, scaling="range"))  # another setting than weights
     assert not view.apply_button.isEnabled() and "suggest again" in view.note.text()
@@ -261,3 +261,19 @@ def test_panel_chart_labels_do_not_overlap_and_it_opens_large(qtbot, panel):
     panel.chart_columns.setCurrentIndex(1)  # "overall only": the large chart follows
     assert window.chart.columns == ()
     window.close()
+
+
+def test_a_suggestion_without_gain_says_so_on_its_button(qtbot, panel, monkeypatch):
+    table = pd.DataFrame(
+        {"weight_before": [1.0], "weight_after": [4.0], "score_before": [0.5], "score_after": [0.52]},
+        index=["sepal length"],
+    )
+    fake = SimpleNamespace(weights={"sepal length": 4.0}, score_before=0.5, score_after=0.52, table=table)
+    monkeypatch.setattr(validation, "suggest_weights", lambda *a, **k: fake)
+    panel.set_source(iris_with_gaps(), FillPlan(k=3))
+    view = panel.weights_view
+    with qtbot.waitSignal(view.runner.finished, timeout=10_000):
+        view.run()
+    assert view.apply_button.text() == "&Apply anyway (no gain)"
+    assert "keeping the plan's weights is as good" in view.note.text()
+    assert panel.session.plan.weights == {}
