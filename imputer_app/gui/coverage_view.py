@@ -17,7 +17,7 @@ import pandas as pd
 from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
 from matplotlib.figure import Figure
 from PySide6.QtCore import Qt
-from PySide6.QtWidgets import QHBoxLayout, QSizePolicy, QWidget
+from PySide6.QtWidgets import QSizePolicy, QVBoxLayout, QWidget
 
 from imputer_app.charts import plot_coverage
 from imputer_app.errors import KinfillError
@@ -73,14 +73,14 @@ def coverage_sentence(rows: pd.DataFrame, level: Any) -> str:
 
 
 class CoverageView(QWidget):
-    """A small chart of nominal against observed coverage, beside the level, for the latest fill."""
+    """The level and the share inside in words, above a small chart of nominal against observed coverage."""
 
     def __init__(self, session: Session, parent: QWidget | None = None) -> None:
         super().__init__(parent)
         self.setObjectName("recoveryCoverageView")
         self.session = session
         self.rows: pd.DataFrame | None = None
-        self.figure = Figure(figsize=(2.6, 2.6), layout="constrained")
+        self.figure = Figure(figsize=(3.0, 3.0), layout="constrained")
         self.canvas = named(
             FigureCanvasQTAgg(self.figure),
             "recoveryCoverageChart",
@@ -94,10 +94,11 @@ class CoverageView(QWidget):
         self.note = text_label(
             self, "recoveryCoverageNote", "Interval coverage", "How often the intervals held", selectable=True
         )
-        layout = QHBoxLayout(self)
+        # The level and the share in words first, then the chart: a side panel is narrow.
+        layout = QVBoxLayout(self)
         layout.setContentsMargins(0, 0, 0, 0)
+        layout.addWidget(self.note)
         layout.addWidget(self.canvas, 1)
-        layout.addWidget(self.note, 1)
         session.subscribe(self._on_session)
         self.refresh()
 
@@ -128,6 +129,7 @@ class CoverageView(QWidget):
                     legend.remove()
                 ax.set_xlabel("level asked for", fontsize="small")
                 ax.set_ylabel("observed", fontsize="small")
-                ax.set_title(ax.get_title(), fontsize="small")
+                # "Interval coverage (120 cells)" -> "Coverage (120 cells)": fits a small chart
+                ax.set_title(ax.get_title().replace("Interval coverage", "Coverage"), fontsize="small")
                 ax.tick_params(labelsize="x-small")
         self.canvas.draw_idle()

@@ -101,12 +101,15 @@ class ErrorChart(QStackedWidget):
         """The columns drawn as their own lines (None: all)."""
         return self._columns
 
-    def _refit_ticks(self) -> None:
-        """After a resize: thin or widen the k ticks for the new width."""
-        if self._report is not None and self.figure.axes:
-            with palette_style(self.palette()):
-                fit_k_ticks(self.figure, self._report.ks)
-            self.canvas.draw_idle()
+    def _after_resize(self) -> None:
+        """Move the legend when the width crossed :data:`NARROW_CHART`, else only re-fit the k ticks."""
+        if self._report is None or not self.figure.axes:
+            return
+        if (self.canvas.width() < NARROW_CHART) != self._narrow:
+            self.redraw()
+            return
+        fit_k_ticks(self.figure, self._report.ks)
+        self.canvas.draw_idle()
 
     def save(self, path: Path) -> None:
         """Save the chart in light, print-ready colours (PNG or SVG by suffix).
@@ -119,12 +122,10 @@ class ErrorChart(QStackedWidget):
         save_figure(draw_chart(self._report, figure, self._columns), path)
 
     def eventFilter(self, watched: QObject, event: QEvent) -> bool:
-        """Move the legend below or beside the axes when the canvas's width crosses the limit."""
+        """After the canvas resizes: move the legend or re-fit the k ticks (see :meth:`_after_resize`)."""
         if watched is self.canvas and event.type() == QEvent.Type.Resize and self._report is not None:
-            if (self.canvas.width() < NARROW_CHART) != self._narrow:
-                self.redraw()
-            else:  # after the canvas has resized its figure
-                QTimer.singleShot(0, self._refit_ticks)
+            # Deferred: the canvas resizes its figure only after this filter has run.
+            QTimer.singleShot(0, self._after_resize)
         return super().eventFilter(watched, event)
 
 

@@ -224,7 +224,7 @@ def test_coverage_chart_draws_the_sheet_rows_beside_the_level(qtbot):
     assert not view.canvas.isHidden()
     observed = next(line for line in view.figure.axes[0].lines if line.get_gid() == "observed")
     assert list(observed.get_xdata()) == [0.8, 0.9] and list(observed.get_ydata()) == [0.78, 0.87]
-    assert "120 cells" in view.figure.axes[0].get_title()
+    assert view.figure.axes[0].get_title() == "Coverage (120 cells)"
     assert view.note.text().startswith("Level asked for: 90%. Inside their interval: 87% of 120")
     session.set_preview(SimpleNamespace(plan=FillPlan()))  # a fill without coverage: the note again
     assert view.canvas.isHidden() and "preview a fill" in view.note.text()
