@@ -120,10 +120,13 @@ class ColumnKView(QWidget):
         else:
             headers, tips = column_headers(report)
             self.model.set_rows(column_rows(report, plan), headers, tips)
-            self.note.setText(
+            note = (
                 f"Own k: the k nearest {report.best_k} within one SE of the column's lowest error. "
                 "Errors: NRMSE (numbers) or share wrong (categories); bold beats the average."
             )
+            if plan.k_by_column and dict(plan.k_by_column) != report.k_by_column_1se:
+                note += " The plan's own k came from elsewhere (another test or a plan file)."
+            self.note.setText(note)
         target = per_column_plan(plan, report) if report is not None else None
         self.use_each_button.setEnabled(target is not None and target != plan)
         self.one_k_button.setEnabled(bool(plan.k_by_column))

@@ -277,3 +277,12 @@ def test_a_suggestion_without_gain_says_so_on_its_button(qtbot, panel, monkeypat
     assert view.apply_button.text() == "&Apply anyway (no gain)"
     assert "keeping the plan's weights is as good" in view.note.text()
     assert panel.session.plan.weights == {}
+
+
+def test_own_k_from_elsewhere_are_pointed_out(qtbot, panel):
+    report = report_of(qtbot, panel)
+    first = next(iter(report.kinds))
+    panel.session.set_plan(panel.session.plan.replace(k_by_column={first: 1 if report.best_k != 1 else 2}))
+    assert "came from elsewhere" in panel.columns_view.note.text()
+    panel.columns_view.use_each()
+    assert "came from elsewhere" not in panel.columns_view.note.text()
