@@ -100,20 +100,17 @@ def per_column_plan(plan: FillPlan, report: RecoveryReport) -> FillPlan:
 
 
 def per_column_text(plan: FillPlan, report: RecoveryReport) -> str:
-    """The status line after "Use each column's best k"."""
+    """The status line after "Use each column's best k" (short: the panel is narrow)."""
     settings = report.settings
     test = (
-        f"the recovery test ({settings.get('repeats')} repeats, "
-        f"{_share(settings.get('hide_fraction'))} hidden, seed {settings.get('seed')})"
+        f"recovery test ({settings.get('repeats')} repeats, "
+        f"{_share(settings.get('hide_fraction'))} hidden, seed {settings.get('seed')}; in the export)"
     )
-    own = plan.k_by_column
-    other = {column: k for column, k in own.items() if k != plan.k}
+    other = {column: k for column, k in plan.k_by_column.items() if k != plan.k}
     if not other:
-        return (
-            f"Each column's own k from {test} is the sheet's best k, {plan.k}; the export records the test."
-        )
+        return f"Own k per column from the {test}: all {plan.k}, the best k."
     shown = ", ".join(f"{column} {k}" for column, k in other.items())
-    return f"Own k from {test}: {shown}; k = {plan.k} for the other columns. The export records the test."
+    return f"Own k per column from the {test}: {shown}; {plan.k} for the others."
 
 
 def one_k_text(plan: FillPlan, dropped: dict[str, int]) -> str:

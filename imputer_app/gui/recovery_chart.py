@@ -22,7 +22,7 @@ from imputer_app.gui.widgets import named
 if TYPE_CHECKING:
     from imputer_app.validation import RecoveryReport
 
-CHART_MIN_HEIGHT = 170
+CHART_MIN_HEIGHT = 150
 MAX_CHART_COLUMNS = 10  # more fill columns: the chart starts with the overall error only
 NARROW_CHART = 760  # pixels; below this the legend goes under the chart
 IDLE_TEXT = "Run the recovery test to see how well each k recovers known values."

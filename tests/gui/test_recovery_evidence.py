@@ -80,7 +80,7 @@ def test_use_each_columns_k_changes_the_plan_only_when_pressed(qtbot, panel):
         before, report, "best-per-column"
     )  # as kinfill fill --k best-per-column
     assert dict(plan.k_by_column) == report.k_by_column_1se and plan.k == report.best_k
-    assert said and "recovery test (2 repeats, 10% hidden, seed 0)" in said[0]
+    assert said and "recovery test (2 repeats, 10% hidden, seed 0; in the export)" in said[0]
     assert panel.status.text() == said[0]
     assert [r[5] for r in raw_rows(panel.columns_view.model)] == [plan.k_for(c) for c in report.kinds]
     assert not panel.columns_view.use_each_button.isEnabled()  # already in use
