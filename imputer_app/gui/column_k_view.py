@@ -51,7 +51,11 @@ class ColumnKView(QWidget):
         self.session = session
         self._report: RecoveryReport | None = None
         self.note = text_label(
-            self, "recoveryColumnNote", "Per-column note", "What the per-column table shows", selectable=True
+            self,
+            "recoveryColumnNote",
+            "Per-column note",
+            "Errors are NRMSE for number columns and the share of wrong classes for category columns",
+            selectable=True,
         )
         self.note.setText(IDLE_TEXT)
         self.model = RecordsModel(parent=self)
@@ -121,8 +125,8 @@ class ColumnKView(QWidget):
             headers, tips = column_headers(report)
             self.model.set_rows(column_rows(report, plan), headers, tips)
             note = (
-                f"Own k: the k nearest {report.best_k} within one SE of the column's lowest error. "
-                "Errors: NRMSE (numbers) or share wrong (categories); bold beats the average."
+                f"Own k: nearest {report.best_k} within one SE of the column's lowest error. "
+                "Bold: beats the average."
             )
             if plan.k_by_column and dict(plan.k_by_column) != report.k_by_column_1se:
                 note += " The plan's own k came from elsewhere (another test or a plan file)."

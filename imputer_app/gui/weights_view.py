@@ -42,10 +42,7 @@ if TYPE_CHECKING:
 
 log = logging.getLogger(__name__)
 
-IDLE_TEXT = (
-    "Suggest weights learns how much each similarity column should count, from the sheet's own "
-    "known values. Nothing is applied until you press Apply."
-)
+IDLE_TEXT = "Learns each similarity column's weight from known values; nothing changes until Apply."
 
 
 def _without_weights(plan: FillPlan) -> dict[str, Any]:
