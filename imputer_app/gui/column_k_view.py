@@ -70,7 +70,7 @@ class ColumnKView(QWidget):
         self.use_each_button = button(
             self,
             "recoveryUseEachK",
-            "Use each column's best &k",
+            "Use each column's best k",
             "Give every fill column its own k from this test (the sheet's best k for the others); "
             "the export records the test",
         )
@@ -78,7 +78,7 @@ class ColumnKView(QWidget):
         self.one_k_button = button(
             self,
             "recoveryOneK",
-            "Use one k for a&ll",
+            "Use one k for all",
             "Drop the per-column k: every column uses the plan's k",
         )
         self.one_k_button.clicked.connect(self.use_one)

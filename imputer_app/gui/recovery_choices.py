@@ -60,7 +60,7 @@ class ChartControls(Reflow):
         self.enlarge_button = button(
             parent,
             "recoveryEnlargeChart",
-            "&Enlarge…",
+            "Enlarge…",
             "Open the chart in a window of its own that can be made as large as the screen",
         )
         self.chart_columns = compact(
@@ -76,7 +76,7 @@ class ChartControls(Reflow):
         files_row.setContentsMargins(0, 0, 0, 0)
         files_row.addWidget(self.enlarge_button)
         files_row.addWidget(self.save_button)
-        label = buddy("S&how:", self.chart_columns, parent)
+        label = buddy("Show:", self.chart_columns, parent)
         super().__init__([(label, self.chart_columns), (None, files)], parent, max_columns=2)
 
     def fill_chart_columns(self, report: RecoveryReport) -> None:

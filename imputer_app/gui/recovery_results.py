@@ -31,13 +31,14 @@ if TYPE_CHECKING:
 
     from imputer_app.sheets import Sheet
 
-#: The result tabs: attribute, title, tooltip.
+#: The result tabs: attribute, title, tooltip. No Alt letters: the window already uses
+#: nearly every one; Tab reaches the tab bar and the arrow keys change tabs.
 TABS = (
-    ("chart_box", "C&hart", "Error against k: overall, per column, the column average and the chosen k"),
-    ("table", "Per &k", "Error of every k tested, overall and per column"),
-    ("columns_view", "Col&umns", "Each fill column's own best k, its error and the baseline"),
-    ("weights_view", "&Weights", "Suggested weights for the similarity columns, applied on request"),
-    ("coverage_view", "Co&verage", "How often hidden known values fell inside their interval"),
+    ("chart_box", "Chart", "Error against k: overall, per column, the column average and the chosen k"),
+    ("table", "Per k", "Error of every k tested, overall and per column"),
+    ("columns_view", "Columns", "Each fill column's own best k, its error and the baseline"),
+    ("weights_view", "Weights", "Suggested weights for the similarity columns, applied on request"),
+    ("coverage_view", "Coverage", "How often hidden known values fell inside their interval"),
 )
 
 

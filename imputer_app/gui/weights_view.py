@@ -95,7 +95,7 @@ class WeightsView(QWidget):
         self.suggest_button = button(
             self,
             "recoverySuggestWeights",
-            "&Suggest weights",
+            "Suggest weights",
             "Learn a weight for every similarity column from hidden known cells (may take a while)",
         )
         self.suggest_button.clicked.connect(self.run)
@@ -126,7 +126,7 @@ class WeightsView(QWidget):
         self.apply_button = button(
             self,
             "recoveryApplyWeights",
-            "&Apply suggested weights",
+            "Apply suggested weights",
             "Put the suggested weights into the plan (the recovery test then needs a new run)",
         )
         self.apply_button.clicked.connect(self.apply)
@@ -240,7 +240,7 @@ class WeightsView(QWidget):
         # A suggestion that did no better on the judging cells can still be applied, but not by mistake.
         gain = s is not None and s.score_after < s.score_before
         self.apply_button.setText(
-            "&Apply suggested weights" if gain or s is None else "&Apply anyway (no gain)"
+            "Apply suggested weights" if gain or s is None else "Apply anyway (no gain)"
         )
 
     def _on_session(self, event: str) -> None:

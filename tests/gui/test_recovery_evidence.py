@@ -190,7 +190,7 @@ def test_a_suggestion_for_other_settings_cannot_be_applied(qtbot, panel, monkeyp
     with qtbot.waitSignal(view.runner.finished, timeout=10_000):
         view.run()
     qtbot.waitUntil(lambda: not view.runner.is_running(), timeout=10_000)
-    assert view.apply_button.isEnabled() and view.apply_button.text() == "&Apply suggested weights"
+    assert view.apply_button.isEnabled() and view.apply_button.text() == "Apply suggested weights"
     assert "18% lower" in view.note.text()
     panel.session.set_plan(FillPlan(k=3, scaling="range"))  # another setting than weights
     assert not view.apply_button.isEnabled() and "suggest again" in view.note.text()
@@ -274,7 +274,7 @@ def test_a_suggestion_without_gain_says_so_on_its_button(qtbot, panel, monkeypat
     view = panel.weights_view
     with qtbot.waitSignal(view.runner.finished, timeout=10_000):
         view.run()
-    assert view.apply_button.text() == "&Apply anyway (no gain)"
+    assert view.apply_button.text() == "Apply anyway (no gain)"
     assert "keeping the plan's weights is as good" in view.note.text()
     assert panel.session.plan.weights == {}
 
