@@ -19,15 +19,27 @@ import pandas as pd
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
+from imputer_app.charts import _palette as pal
 from imputer_app.errors import ExportError
 from imputer_app.files import atomic_target
 
-#: Kinfill's own plain colours.
-INK = "#22313f"  # overall score
-BASELINE = "#8c8c8c"  # column-mean fill
-BEST = "#b8432f"  # best k
-ONE_SE = "#2e7d5b"  # one-SE k
-COLUMN_COLOURS = ("#5b7fa6", "#c08a3e", "#7a5c99", "#4f9a94", "#a65b73", "#8a8f3c", "#6b6b9e", "#b0704f")
+#: The overall score and the baseline in neutral ink, so the column lines keep the colours.
+INK = pal.OKABE_ITO["black"]  # overall score
+BASELINE = pal.REFERENCE_COLOUR  # column-mean fill
+BEST = pal.OKABE_ITO["vermillion"]  # best k (a star, so it differs from a column line by shape too)
+ONE_SE = pal.OKABE_ITO["bluish_green"]  # one-SE k (a diamond)
+#: One colour per fill column: the Okabe-Ito palette without black (kept for the overall
+#: line), which readers with the common forms of colour blindness can tell apart (Okabe &
+#: Ito 2008, "Color Universal Design"; hex values quoted from memory). Yellow comes last:
+#: it is the faintest on a white page.
+COLUMN_COLOURS = tuple(
+    pal.OKABE_ITO[name]
+    for name in ("blue", "orange", "sky_blue", "vermillion", "bluish_green", "reddish_purple", "yellow")
+)
+#: One marker shape per fill column, so lines of like colour (or in grey print) still differ.
+COLUMN_MARKERS = ("o", "s", "^", "v", "p", "P", "X", "<", ">", "h")  # no "D" or "*": the k marks
+#: Tick steps tried when thinning the k axis: the first that fits is used.
+TICK_STEPS = (1, 2, 5, 10, 20, 25, 50, 100)
 
 #: Labels of the fixed artists (tests and the app find them by label).
 OVERALL_LABEL = "all fill columns"
@@ -58,7 +70,11 @@ class ErrorVsK(Protocol):
 
 
 def plot_error_vs_k(
-    report: ErrorVsK, figure: Figure | None = None, columns: Sequence[str] | None = None
+    report: ErrorVsK,
+    figure: Figure | None = None,
+    columns: Sequence[str] | None = None,
+    *,
+    max_ticks: int = 15,
 ) -> Figure:
     """Draw the recovery test's error against k.
 
@@ -76,6 +92,9 @@ def plot_error_vs_k(
     columns : sequence of str or None, default=None
         Fill columns to draw as their own lines; None draws every column of the same
         kind as the overall score. Unknown names are ignored.
+    max_ticks : int, default=15
+        Most tick labels on the k axis; a narrow chart passes fewer so that the labels
+        never overlap (see :func:`k_ticks`).
 
     Returns
     -------
@@ -102,7 +121,7 @@ def plot_error_vs_k(
     ax.set_xlabel("k (number of donors averaged)")
     ax.set_ylabel(f"{metric} on hidden cells")
     ax.set_title("Recovery test: error against k (lower is better)")
-    ax.set_xticks(_ticks(report.ks))
+    ax.set_xticks(k_ticks(report.ks, max_ticks))
     ax.grid(True, color="#e3e3e3", linewidth=0.8)
     ax.set_axisbelow(True)
     # Outside the axes, so many fill columns never hide the curves.
@@ -111,18 +130,34 @@ def plot_error_vs_k(
 
 
 def _column_lines(ax: Axes, summary: pd.DataFrame, columns: Sequence[str]) -> None:
+    ks = summary.index.to_numpy()
+    # A marker on every k would bury a long curve; about eight per line keep the shape legible.
+    every = max(1, len(ks) // 8)
     for i, column in enumerate(columns):
         if (column, "mean") not in summary.columns:
             continue
+        colour, marker = column_style(i)
         ax.plot(
-            summary.index.to_numpy(),
+            ks,
             summary[(column, "mean")].to_numpy(dtype=float),
-            color=COLUMN_COLOURS[i % len(COLUMN_COLOURS)],
-            linewidth=1.0,
-            alpha=0.8,
+            color=colour,
+            marker=marker,
+            markevery=(i % every, every),  # staggered, so markers of close lines do not stack
+            markersize=5,
+            markerfacecolor="none" if i >= len(COLUMN_COLOURS) else colour,
+            linewidth=1.3,
             label=column,
             gid=f"column:{column}",
         )
+
+
+def column_style(position: int) -> tuple[str, str]:
+    """Colour and marker of the ``position``-th column line (colour and shape both cycle).
+
+    Shapes cycle over more entries than colours, so two lines share both only after
+    ``lcm(7, 10) = 70`` columns; beyond the seventh, markers are drawn hollow as well.
+    """
+    return COLUMN_COLOURS[position % len(COLUMN_COLOURS)], COLUMN_MARKERS[position % len(COLUMN_MARKERS)]
 
 
 def _overall_line(ax: Axes, overall: pd.DataFrame, score: str, se: str) -> None:
@@ -173,11 +208,54 @@ def _mark_choices(ax: Axes, scores: pd.Series, best: int, one_se: int) -> None:
         )
 
 
-def _ticks(ks: Sequence[int]) -> list[int]:
-    """At most about 15 readable integer ticks."""
-    values = sorted(int(k) for k in ks)
-    step = max(1, int(np.ceil(len(values) / 15)))
-    return values[::step]
+def k_ticks(ks: Sequence[int], max_ticks: int = 15, min_step: float = 1.0) -> list[int]:
+    """At most ``max_ticks`` tested k values, at a round step (1, 2, 5, 10, ...) of at least ``min_step``.
+
+    Ticks fall on multiples of the step (1, 5, 10, 15 ... rather than 1, 6, 11 ...),
+    plus the smallest k when it is at least 0.8 steps from the next, so a reader finds
+    k = 10 where they expect it.
+
+    >>> k_ticks(range(1, 31), 7)
+    [1, 5, 10, 15, 20, 25, 30]
+    >>> k_ticks([2, 4, 6], 15)
+    [2, 4, 6]
+    """
+    values = sorted({int(k) for k in ks})
+    if len(values) <= max(1, max_ticks) and min_step <= 1:
+        return values
+    for step in TICK_STEPS:
+        if step < min_step:
+            continue
+        ticks = [k for k in values if k % step == 0]
+        if values and values[0] not in ticks and (not ticks or ticks[0] - values[0] >= 0.8 * step):
+            ticks.insert(0, values[0])
+        if len(ticks) <= max_ticks:
+            return ticks
+    return values[:: int(np.ceil(len(values) / max(1, max_ticks)))]
+
+
+def fit_k_ticks(figure: Figure, ks: Sequence[int]) -> list[int]:
+    """Thin the k axis of a drawn error chart until its labels, as rendered, do not touch.
+
+    The figure is laid out once (no picture is made); the widest tick label plus one
+    character's room sets the smallest distance between ticks at the axes' width.
+
+    Returns
+    -------
+    list of int
+        The ticks kept.
+    """
+    ax = figure.axes[0]
+    figure.draw_without_rendering()
+    left, right = ax.get_xlim()
+    per_k = ax.get_window_extent().width / max(abs(right - left), 1e-9)
+    labels = [t for t in ax.get_xticklabels() if t.get_text()]
+    widest = max((t.get_window_extent().width for t in labels), default=0.0)
+    # One character's width of air (about the font size in points, as pixels).
+    room = widest + (float(labels[0].get_fontsize()) * figure.dpi / 72 if labels else 0.0)
+    ticks = k_ticks(ks, max_ticks=len(ks), min_step=room / max(per_k, 1e-9) / 0.8)
+    ax.set_xticks(ticks)
+    return ticks
 
 
 def save_figure(

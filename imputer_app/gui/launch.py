@@ -23,7 +23,7 @@ SCREENSHOT_TIMEOUT_MS = 60_000
 #: Exit codes of ``--screenshot``: reading (or testing, filling) failed, picture not saved, too slow.
 EXIT_READ_FAILED, EXIT_NOT_SAVED, EXIT_TIMEOUT = 1, 3, 4
 #: What ``--screenshot-state`` can show.
-SCREENSHOT_STATES = ("sheet", "recovery", "preview")
+SCREENSHOT_STATES = ("sheet", "recovery", "per-column", "weights", "preview")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -43,6 +43,7 @@ def build_parser() -> argparse.ArgumentParser:
         choices=SCREENSHOT_STATES,
         default="sheet",
         help="with --screenshot: the sheet as read (default), the recovery test's result, "
+        "that with each column's own k in use (per-column view), suggested weights (not applied), "
         "or a fill preview with the first filled cell's donors",
     )
     parser.add_argument("--version", action="version", version=f"kinfill-gui {__version__}")
@@ -80,8 +81,11 @@ def drive_to(window: object, state: str, done: Callable[[], None]) -> None:
     """Bring a window whose sheet is shown to ``state``, then call ``done``.
 
     ``"sheet"``: as it is. ``"recovery"``: run the recovery test with the panel's
-    settings and use its best k. ``"preview"``: that, then preview the fill and select
-    the first filled cell, so the donor panel shows where its value came from.
+    settings and use its best k. ``"per-column"``: that, then use each column's own k
+    with the per-column view in front. ``"weights"``: the recovery state, then suggested
+    weights shown (not applied). ``"preview"``: the recovery state, then preview
+    the fill and select the first filled cell, so the donor panel shows where its value
+    came from.
     """
     from imputer_app.gui.main_window import MainWindow
 
@@ -91,7 +95,14 @@ def drive_to(window: object, state: str, done: Callable[[], None]) -> None:
     def tested(report: object) -> None:
         panel.report_ready.disconnect(tested)
         panel.use_best_button.click()
-        if state == "recovery":
+        if state == "per-column":
+            panel.views.setCurrentWidget(panel.columns_view)
+            panel.columns_view.use_each_button.click()
+        if state == "weights":
+            panel.views.setCurrentWidget(panel.weights_view)
+            panel.weights_view.runner.finished.connect(lambda _s: done())
+            panel.weights_view.run()
+        elif state in ("recovery", "per-column"):
             done()
         else:
             window.preview_ready.connect(previewed)

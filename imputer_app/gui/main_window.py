@@ -123,6 +123,7 @@ class MainWindow(QMainWindow):
             ]
         )
         self.recovery_panel.use_k.connect(self._use_k)
+        self.recovery_panel.said.connect(lambda text: self.statusBar().showMessage(text, 8000))
         self.recovery_panel.report_ready.connect(self.session.set_report)
         self.recovery_panel.report_ready.connect(
             lambda _r: self.tabs.fit_panel(self.recovery_panel, self.splitter)

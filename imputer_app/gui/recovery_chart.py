@@ -12,10 +12,10 @@ from typing import TYPE_CHECKING
 
 from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
 from matplotlib.figure import Figure
-from PySide6.QtCore import QEvent, QObject, Qt
-from PySide6.QtWidgets import QLabel, QSizePolicy, QStackedWidget, QWidget
+from PySide6.QtCore import QEvent, QObject, Qt, QTimer
+from PySide6.QtWidgets import QLabel, QSizePolicy, QStackedWidget, QVBoxLayout, QWidget
 
-from imputer_app.charts.error_vs_k import save_figure
+from imputer_app.charts.error_vs_k import fit_k_ticks, save_figure
 from imputer_app.gui.chart_view import draw_chart, fit_for_screen, palette_style
 from imputer_app.gui.widgets import named
 
@@ -26,6 +26,16 @@ CHART_MIN_HEIGHT = 150
 MAX_CHART_COLUMNS = 10  # more fill columns: the chart starts with the overall error only
 NARROW_CHART = 760  # pixels; below this the legend goes under the chart
 IDLE_TEXT = "Run the recovery test to see how well each k recovers known values."
+#: What the chart's y axis means, in plain words (shown under the chart and on hover).
+NRMSE_HELP = (
+    "NRMSE: how far filled values fell from the hidden true values, as a share of the "
+    "column's spread (RMSE / SD). 0 = exact; about 1 = no better than the column average. "
+    "Lower is better."
+)
+#: The same in one short line, under the chart in the narrow panel.
+NRMSE_SHORT = (
+    "NRMSE: error as a share of the column's spread; 0 = exact, about 1 = no better than the average."
+)
 
 
 class ErrorChart(QStackedWidget):
@@ -44,7 +54,7 @@ class ErrorChart(QStackedWidget):
             "Chart of error against k",
             "Error against k: overall and per column, with standard-error bars; "
             "the column average as a line; best k and one-SE k marked. Numbers are "
-            "scored by NRMSE (RMSE / column SD), categories by the share of wrong classes",
+            "scored by NRMSE (RMSE / column SD), categories by the share of wrong classes. " + NRMSE_HELP,
         )
         self.canvas.setFocusPolicy(Qt.FocusPolicy.NoFocus)
         self.canvas.installEventFilter(self)
@@ -78,6 +88,27 @@ class ErrorChart(QStackedWidget):
         with palette_style(self.palette()):
             figure = draw_chart(self._report, self.figure, self._columns)
             fit_for_screen(figure, narrow=self._narrow, unlisted=unlisted)
+            fit_k_ticks(figure, self._report.ks)
+        self.canvas.draw_idle()
+
+    @property
+    def report(self) -> RecoveryReport | None:
+        """The report drawn (None: the placeholder shows)."""
+        return self._report
+
+    @property
+    def columns(self) -> tuple[str, ...] | None:
+        """The columns drawn as their own lines (None: all)."""
+        return self._columns
+
+    def _after_resize(self) -> None:
+        """Move the legend when the width crossed :data:`NARROW_CHART`, else only re-fit the k ticks."""
+        if self._report is None or not self.figure.axes:
+            return
+        if (self.canvas.width() < NARROW_CHART) != self._narrow:
+            self.redraw()
+            return
+        fit_k_ticks(self.figure, self._report.ks)
         self.canvas.draw_idle()
 
     def save(self, path: Path) -> None:
@@ -91,12 +122,30 @@ class ErrorChart(QStackedWidget):
         save_figure(draw_chart(self._report, figure, self._columns), path)
 
     def eventFilter(self, watched: QObject, event: QEvent) -> bool:
-        """Move the legend below or beside the axes when the canvas's width crosses the limit."""
-        if (
-            watched is self.canvas
-            and event.type() == QEvent.Type.Resize
-            and self._report is not None
-            and (self.canvas.width() < NARROW_CHART) != self._narrow
-        ):
-            self.redraw()
+        """After the canvas resizes: move the legend or re-fit the k ticks (see :meth:`_after_resize`)."""
+        if watched is self.canvas and event.type() == QEvent.Type.Resize and self._report is not None:
+            # Deferred: the canvas resizes its figure only after this filter has run.
+            QTimer.singleShot(0, self._after_resize)
         return super().eventFilter(watched, event)
+
+
+class ChartWindow(QWidget):
+    """The error chart in a window of its own, to read it large (resizable, not modal)."""
+
+    def __init__(self, parent: QWidget | None = None) -> None:
+        super().__init__(parent, Qt.WindowType.Window)
+        self.setObjectName("recoveryChartWindow")
+        self.setWindowTitle("Recovery test: error against k")
+        self.setAccessibleName("Error against k, large")
+        self.chart = ErrorChart(self)
+        self.chart.canvas.setObjectName("recoveryChartLarge")
+        help_line = named(QLabel(NRMSE_HELP, self), "recoveryChartLargeHelp", "What NRMSE means", NRMSE_HELP)
+        help_line.setWordWrap(True)
+        layout = QVBoxLayout(self)
+        layout.addWidget(self.chart, 1)
+        layout.addWidget(help_line)
+        self.resize(1000, 640)
+
+    def show_report(self, report: RecoveryReport | None, columns: tuple[str, ...] | None) -> None:
+        """Draw the same report and columns as the panel's chart."""
+        self.chart.show_report(report, columns)

@@ -8,6 +8,13 @@ the numbers per k in a table, and one summary sentence. Buttons write the chosen
 into the session's plan (every view redraws from there) and then emit
 :attr:`RecoveryPanel.use_k`.
 
+Beside the per-k table, tabs show each fill column's own k
+(:mod:`~imputer_app.gui.column_k_view`), suggested weights
+(:mod:`~imputer_app.gui.weights_view`) and the interval coverage of the latest fill
+(:mod:`~imputer_app.gui.coverage_view`); each changes the plan only when the user
+presses its button, and :attr:`RecoveryPanel.said` carries the sentence saying what
+changed.
+
 Words and numbers come from :mod:`imputer_app.gui.recovery_logic` (Qt-free).
 """
 
@@ -22,10 +29,7 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QKeyEvent
 from PySide6.QtWidgets import (
     QAbstractItemView,
-    QComboBox,
-    QFileDialog,
     QHBoxLayout,
-    QHeaderView,
     QLabel,
     QProgressBar,
     QStyle,
@@ -34,8 +38,9 @@ from PySide6.QtWidgets import (
 )
 
 from imputer_app.gui.formatting import format_value
-from imputer_app.gui.records_model import RAW_ROLE, RecordsModel
-from imputer_app.gui.recovery_chart import IDLE_TEXT, MAX_CHART_COLUMNS, ErrorChart
+from imputer_app.gui.records_model import RAW_ROLE
+from imputer_app.gui.recovery_chart import IDLE_TEXT, MAX_CHART_COLUMNS, ChartWindow
+from imputer_app.gui.recovery_choices import ChoiceBar, chart_name, save_chart_dialog
 from imputer_app.gui.recovery_logic import (
     RecoveryRequest,
     k_ceiling,
@@ -43,18 +48,10 @@ from imputer_app.gui.recovery_logic import (
     report_rows,
     summary_text,
 )
+from imputer_app.gui.recovery_results import ResultsArea
 from imputer_app.gui.recovery_settings import RecoverySettings
 from imputer_app.gui.state import Session
-from imputer_app.gui.widgets import (
-    CompactSplitter,
-    RecordTable,
-    Reflow,
-    buddy,
-    button,
-    compact,
-    named,
-    text_label,
-)
+from imputer_app.gui.widgets import button, named, text_label
 from imputer_app.gui.workers import TaskRunner
 from imputer_app.plan import FillPlan
 
@@ -66,7 +63,7 @@ if TYPE_CHECKING:
 
 log = logging.getLogger(__name__)
 
-CHART_FILTERS = "PNG image (*.png);;SVG drawing (*.svg)"
+__all__ = ["MAX_CHART_COLUMNS", "RecoveryPanel"]
 
 
 class RecoveryPanel(QWidget):
@@ -79,10 +76,14 @@ class RecoveryPanel(QWidget):
         session's plan.
     report_ready(RecoveryReport)
         A test finished; the report is also in :attr:`report`.
+    said(str)
+        The plan changed by one of the panel's actions (per-column k, weights); the
+        sentence says how.
     """
 
     use_k = Signal(int)
     report_ready = Signal(object)
+    said = Signal(str)
 
     def __init__(self, parent: QWidget | None = None, session: Session | None = None) -> None:
         super().__init__(parent)
@@ -96,6 +97,7 @@ class RecoveryPanel(QWidget):
         self._run_source: tuple[object, dict[str, Any] | None] = (None, None)
         self._summary = IDLE_TEXT
         self._busy = False
+        self.chart_window: ChartWindow | None = None
         self.runner = TaskRunner(self)
         self.runner.progressed.connect(self._on_progress)
         self.runner.finished.connect(self._on_finished)
@@ -168,92 +170,46 @@ class RecoveryPanel(QWidget):
         row.addWidget(self.progress, 1)
         return row
 
-    def _build_results(self) -> CompactSplitter:
-        splitter = CompactSplitter(Qt.Orientation.Vertical, self)
-        splitter.setObjectName("recoverySplitter")
-        self.chart = self.chart_stack = ErrorChart(splitter)
-        self.placeholder, self.figure = self.chart.placeholder, self.chart.figure
-        self.canvas = self.chart.canvas
-        self.model = RecordsModel(parent=self)
-        self.table = RecordTable(
-            splitter,
-            self.model,
-            "recoveryTable",
-            "Errors per k",
-            "Error for every k and the column-average baseline; Enter or double-click uses that k",
-        )
-        self.table.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+    def _build_results(self) -> ResultsArea:
+        area = ResultsArea(self.session, lambda: self._data, self)
+        self.results = area
+        self.chart = self.chart_stack = area.chart
+        self.placeholder = area.chart.placeholder
+        self.figure, self.canvas = area.chart.figure, area.chart.canvas
+        self.chart_help, self.views = area.chart_help, area.views
+        self.model, self.table = area.model, area.table
+        self.columns_view, self.weights_view = area.columns_view, area.weights_view
+        self.coverage_view = area.coverage_view
         self.table.chosen.connect(lambda index: self._use_row(index.row()))
         self.table.selectionModel().currentRowChanged.connect(lambda *_: self._update_choice_buttons())
-        splitter.addWidget(self.chart_stack)
-        splitter.addWidget(self.table)
-        splitter.setStretchFactor(0, 2)  # the chart, with its legend, needs the height more
-        splitter.setStretchFactor(1, 1)
-        splitter.setChildrenCollapsible(False)
-        return splitter
+        for view in (self.columns_view, self.weights_view):
+            view.said.connect(self._say)
+        return area
 
-    def _build_choices(self) -> Reflow:
-        """The "use this k" buttons and the chart's controls; they wrap onto more rows when narrow."""
-        self.use_best_button = button(
-            self, "recoveryUseBest", "Use &best k", "Set k to the value with the lowest error"
-        )
+    def _build_choices(self) -> ChoiceBar:
+        """The "use this k" buttons (the chart's own controls sit under the chart)."""
+        bar = ChoiceBar(self)
+        self.use_best_button, self.use_one_se_button = bar.use_best_button, bar.use_one_se_button
+        self.use_selected_button = bar.use_selected_button
+        controls = self.results.chart_controls
+        self.save_button, self.enlarge_button = controls.save_button, controls.enlarge_button
+        self.chart_columns = controls.chart_columns
         self.use_best_button.clicked.connect(lambda: self._use_report_k(one_se=False))
-        self.use_one_se_button = button(
-            self,
-            "recoveryUseOneSe",
-            "Use &one-SE k",
-            "Set k to the largest k whose error is within one standard error of the best "
-            "(a smoother fill that does about as well)",
-        )
         self.use_one_se_button.clicked.connect(lambda: self._use_report_k(one_se=True))
-        self.use_selected_button = button(
-            self,
-            "recoveryUseSelected",
-            "Use selected k",
-            "Set k to the k of the selected table row (or press Enter on the row)",
-        )
         self.use_selected_button.clicked.connect(lambda: self._use_row(self.table.currentIndex().row()))
-        self.save_button = button(
-            self, "recoverySaveChart", "Save chart…", "Save the chart as a PNG image or an SVG drawing"
-        )
         self.save_button.clicked.connect(self.save_chart)
-        self.chart_columns = compact(
-            named(
-                QComboBox(self),
-                "recoveryChartColumns",
-                "Columns drawn in the chart",
-                "Draw every fill column's own line, none, or one column beside the overall error",
-            )
-        )
-        self.chart_columns.currentIndexChanged.connect(
-            lambda _i: self.chart.set_columns(self.chart_columns.currentData())
-        )
-        k_buttons = Reflow(
-            [(None, b) for b in (self.use_best_button, self.use_one_se_button, self.use_selected_button)],
-            self,
-            max_columns=3,
-            stretch=False,
-        )
-        chart = QWidget(self)
-        chart_row = QHBoxLayout(chart)
-        chart_row.setContentsMargins(0, 0, 0, 0)
-        chart_row.addStretch(1)
-        chart_row.addWidget(buddy("Chart shows:", self.chart_columns, chart))
-        chart_row.addWidget(self.chart_columns)
-        chart_row.addWidget(self.save_button)
-        return Reflow([(None, k_buttons), (None, chart)], self)
+        self.enlarge_button.clicked.connect(self.enlarge_chart)
+        self.chart_columns.currentIndexChanged.connect(lambda _i: self._set_chart_columns())
+        self._choices = bar
+        return bar
 
     def _set_tab_order(self) -> None:
         chain = [
             *self.settings_box.fields(),
             self.run_button,
             self.cancel_button,
-            self.table,
-            self.use_best_button,
-            self.use_one_se_button,
-            self.use_selected_button,
-            self.chart_columns,
-            self.save_button,
+            *self.results.focus_chain(),
+            *self._choices.focus_chain(),
         ]
         for first, second in itertools.pairwise(chain):
             QWidget.setTabOrder(first, second)
@@ -313,34 +269,35 @@ class RecoveryPanel(QWidget):
         self.runner.cancel()
 
     def shutdown(self, msecs: int = 10_000) -> bool:
-        """Cancel a running test and wait for its thread (call before the window closes)."""
-        return self.runner.wait(msecs)
+        """Cancel a running test or weight search and wait for its thread (call before the window closes)."""
+        weights = self.weights_view.shutdown(msecs)
+        return self.runner.wait(msecs) and weights
 
     def save_chart(self) -> Path | None:
         """Ask for a file name and save the chart as PNG or SVG; return the path written."""
         if self._report is None:
             return None
-        name, chosen = QFileDialog.getSaveFileName(self, "Save chart", self._chart_name(), CHART_FILTERS)
-        if not name:
-            return None
-        path = Path(name)
-        if path.suffix.lower() not in (".png", ".svg"):
-            path = path.with_suffix(".svg" if "svg" in (chosen or "").lower() else ".png")
-        try:
-            self.chart.save(path)
-        except (OSError, ValueError) as exc:
-            self._show_status(f"Could not save the chart to {path}: {exc}", problem=True)
-            return None
-        self._show_status(f"Chart saved to {path}.", problem=False)
+        path, message = save_chart_dialog(self, self.chart, chart_name(self._data))
+        if message:
+            self._show_status(message, problem=path is None)
         return path
 
-    def _chart_name(self) -> str:
-        """Suggested file: beside the sheet, named after it (never the sheet itself)."""
-        source = getattr(getattr(self._data, "source", None), "path", None)
-        if source is None:
-            return "error_vs_k.png"
-        source = Path(source)
-        return str(source.with_name(f"{source.stem}.error_vs_k.png"))
+    def enlarge_chart(self) -> ChartWindow | None:
+        """Open (or raise) the chart in a resizable window of its own, showing the same lines."""
+        if self._report is None:
+            return None
+        if self.chart_window is None:
+            self.chart_window = ChartWindow(self)
+        self.chart_window.show_report(self._report, self.chart.columns)
+        self.chart_window.show()
+        self.chart_window.raise_()
+        return self.chart_window
+
+    def _set_chart_columns(self) -> None:
+        columns = self.chart_columns.currentData()
+        self.chart.set_columns(columns)
+        if self.chart_window is not None and self.chart_window.isVisible():
+            self.chart_window.show_report(self._report, columns)
 
     # ------------------------------------------------------------------ runner
     def _on_progress(self, done: int, total: int) -> None:
@@ -402,7 +359,7 @@ class RecoveryPanel(QWidget):
             headers, tips = report_headers(report)
             self.model.set_rows(report_rows(report), headers, tips)
             self._summary = summary_text(report)
-            self._fill_chart_columns(report)
+            self.results.chart_controls.fill_chart_columns(report)
             self.chart.show_report(report, self.chart_columns.currentData())
             best_row = list(report.overall.index).index(report.best_k)
             self.table.setCurrentIndex(self.model.index(best_row, 0))
@@ -410,22 +367,12 @@ class RecoveryPanel(QWidget):
             self.table.scrollTo(self.model.index(best_row, 0), QAbstractItemView.ScrollHint.PositionAtCenter)
             warnings = getattr(report, "warnings", ())
             self._show_status("Note: " + "; ".join(warnings) if warnings else "", problem=False)
+        self.columns_view.show_report(report)
+        if self.chart_window is not None and self.chart_window.isVisible():
+            self.chart_window.show_report(report, self.chart.columns)
         self.canvas.setAccessibleDescription(self._summary)
         self._update_stale_note()
         self._update_choice_buttons()
-
-    def _fill_chart_columns(self, report: RecoveryReport) -> None:
-        kind = "number" if report.score_name == "score" else "category"
-        columns = [c for c, k in report.kinds.items() if k == kind]
-        self.chart_columns.blockSignals(True)
-        self.chart_columns.clear()
-        self.chart_columns.addItem("all columns", None)
-        self.chart_columns.addItem("overall only", ())
-        for column in columns:
-            self.chart_columns.addItem(column, (column,))
-        # Dozens of lines are a tangle on a small chart: start with the overall error then.
-        self.chart_columns.setCurrentIndex(1 if len(columns) > MAX_CHART_COLUMNS else 0)
-        self.chart_columns.blockSignals(False)
 
     def _update_stale_note(self) -> None:
         data, settings = self._report_source
@@ -452,6 +399,7 @@ class RecoveryPanel(QWidget):
         self.use_one_se_button.setEnabled(have)
         self.use_selected_button.setEnabled(have and self._selected_k() is not None)
         self.save_button.setEnabled(have)
+        self.enlarge_button.setEnabled(have)
         self.chart_columns.setEnabled(have)
 
     def _selected_k(self, row: int | None = None) -> int | None:
@@ -471,9 +419,16 @@ class RecoveryPanel(QWidget):
             self._emit_k(self._report.best_k_1se if one_se else self._report.best_k)
 
     def _emit_k(self, k: int) -> None:
-        self._show_status(f"k set to {format_value(k)}.", problem=False)
+        own = self.session.plan.k_by_column
+        kept = f' (columns with their own k keep it: {", ".join(own)}; "Use one k for all" drops them)'
+        self._show_status(f"k set to {format_value(k)}{kept if own else ''}.", problem=False)
         self.session.set_k(k)
         self.use_k.emit(int(k))
+
+    def _say(self, text: str) -> None:
+        """A view changed the plan: say so in the panel's status line and to the window."""
+        self._show_status(text, problem=False)
+        self.said.emit(text)
 
     def keyPressEvent(self, event: QKeyEvent) -> None:
         """Enter in a settings field (spin boxes and combos pass it on) starts the test."""
@@ -484,5 +439,8 @@ class RecoveryPanel(QWidget):
 
 
 def _settings_key(plan: FillPlan) -> dict[str, Any]:
-    """The plan's settings other than k, as plain data (a report stays current when only k changes)."""
-    return plan.replace(k=1).to_dict()
+    """The plan's settings other than k, as plain data (a report stays current when only k changes).
+
+    Per-column k are k as well: using each column's best k leaves the test current.
+    """
+    return plan.replace(k=1, k_by_column={}).to_dict()

@@ -57,3 +57,31 @@ def test_app_export_and_cli_fill_with_the_saved_plan_write_the_same_data(
     # the xlsx export is the demo workbook with the fill written into its sheet "Survey"
     assert sheet_xml(cli_xlsx, "Survey") == sheet_xml(app_xlsx, "Survey")
     assert (tmp_path / "cli.fill-log.csv").read_bytes() == (tmp_path / "app.fill-log.csv").read_bytes()
+
+
+def test_each_columns_k_from_the_app_matches_k_best_per_column(window, qtbot, tmp_path, samples_dir):
+    """App: recovery test (default settings), "Use each column's best k", fill, export. CLI:
+    ``kinfill fill --k best-per-column``. Same data, same k per column, same test recorded."""
+    import json
+
+    panel = window.recovery_panel
+    with qtbot.waitSignal(panel.report_ready, timeout=120_000):
+        window.run_recovery_test()
+    qtbot.waitUntil(lambda: not panel.runner.is_running(), timeout=10_000)
+    panel.columns_view.use_each_button.click()
+    assert window.session.plan.k_by_column == window.session.report.k_by_column_1se
+    with qtbot.waitSignal(window.preview_ready, timeout=30_000):
+        window.actions_["preview"].trigger()
+    window.actions_["apply"].trigger()
+    app_csv, cli_csv = tmp_path / "app.csv", tmp_path / "cli.csv"
+    with qtbot.waitSignal(window.exported, timeout=30_000):
+        window.export(app_csv)
+    demo = str(samples_dir / "river_survey.xlsx")
+    assert kinfill(["fill", demo, "--k", "best-per-column", "--out", str(cli_csv)]) == 0
+
+    assert cli_csv.read_bytes() == app_csv.read_bytes()
+    app_run = json.loads((tmp_path / "app.run.json").read_text(encoding="utf-8"))
+    cli_run = json.loads((tmp_path / "cli.run.json").read_text(encoding="utf-8"))
+    assert app_run["plan_resolved"]["k_by_column"] == cli_run["plan_resolved"]["k_by_column"]
+    assert app_run["recovery_test"] == cli_run["recovery_test"]
+    assert app_run["recovery_test"]["k_by_column_1se"] == app_run["plan_resolved"]["k_by_column"]

@@ -73,7 +73,17 @@ def test_screenshot_states_bring_the_window_there(qtbot, samples_dir, state):
         return
     assert window.session.plan.k == report.best_k
     if state == "recovery":
-        assert preview is None
+        assert preview is None and not window.session.plan.k_by_column
+        return
+    if state == "per-column":
+        panel = window.recovery_panel
+        assert preview is None and window.session.plan.k_by_column == report.k_by_column_1se
+        assert panel.views.currentWidget() is panel.columns_view
+        return
+    if state == "weights":
+        panel = window.recovery_panel
+        assert preview is None and panel.weights_view.suggestion is not None
+        assert window.session.plan.weights == {}  # shown, not applied
         return
     first = np.argwhere(window.table_model.fill_codes > 0)[0]
     current = window.table.currentIndex()
