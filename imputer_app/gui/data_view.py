@@ -30,6 +30,9 @@ if TYPE_CHECKING:
     from imputer_app.sheets import Sheet
 
 
+#: Text as wide as the marks in front of a filled value (fill symbol, weak support).
+FILL_MARK_ROOM = "\u25c7 ? "
+
 class DataView(QWidget):
     """The sheet as a table with a fill layer, its legend, and the map of gaps.
 
@@ -119,9 +122,13 @@ class DataView(QWidget):
         """Show a new sheet (no fill layer)."""
         self.model.set_sheet(sheet)
         self.set_layer(None, "applied")
-        # widths from the sheet's own cells, once: measuring on every fill layer cost
-        # a quarter second a time on a long sheet, on the window's thread
+        # widths from the sheet's own cells, once (measuring on every fill layer cost a
+        # quarter second a time on a long sheet, on the window's thread), with room for
+        # the mark a filled value carries in front ("◇ ?")
         self.table.resizeColumnsToContents()
+        room = self.table.fontMetrics().horizontalAdvance(FILL_MARK_ROOM)
+        for column in range(self.model.columnCount()):
+            self.table.setColumnWidth(column, self.table.columnWidth(column) + room)
 
     def set_layer(self, result: FillResult | None, kind: str) -> None:
         """Draw a fill over the sheet as ``"preview"`` or ``"applied"``; redraw the map."""

@@ -69,6 +69,7 @@ class SheetTableModel(FlatTableModel):
         self._base_values: list[np.ndarray] = []
         self._values: list[np.ndarray] = []
         self._decimals: list[int] = []
+        self._fill_decimals: list[int] = []
         self._codes = np.zeros((0, 0), dtype=np.int8)
         self._fill = np.zeros((0, 0), dtype=np.int8)
         self._notes: dict[tuple[int, int], str] = {}
@@ -96,6 +97,7 @@ class SheetTableModel(FlatTableModel):
         ]
         self._values = list(self._base_values)
         self._decimals = [_decimals_of(v) if v.dtype.kind == "f" else 0 for v in self._base_values]
+        self._fill_decimals = [d + 1 for d in self._decimals]
         self._codes = state_codes(sheet.states, self._names)
         self._fill = np.zeros(self._codes.shape, dtype=np.int8)
         self._notes = _note_texts(sheet, frame.index, self._names)
@@ -110,10 +112,16 @@ class SheetTableModel(FlatTableModel):
         if result is None or not self._names:
             self._values = list(self._base_values)
             self._fill = np.zeros(self._codes.shape, dtype=np.int8)
+            self._fill_decimals = [d + 1 for d in self._decimals]
         else:
             frame = result.frame
             self._values = [_column_array(frame[n], k) for n, k in zip(self._names, self._kinds, strict=True)]
             self._fill = _fill_codes(result, self._names)
+            # a rounded column shows its fills at the decimals they were rounded to; one
+            # computed as is shows one decimal more than its measured values
+            rounded = dict(getattr(result, "decimals", {}) or {})
+            pairs = zip(self._names, self._decimals, strict=True)
+            self._fill_decimals = [int(rounded[n]) if n in rounded else d + 1 for n, d in pairs]
         if self._names:
             last = self.index(self.rowCount() - 1, self.columnCount() - 1)
             self.dataChanged.emit(self.index(0, 0), last)
@@ -286,8 +294,9 @@ class SheetTableModel(FlatTableModel):
         if values.dtype.kind == "f":
             if math.isnan(value):
                 return ""
-            extra = 1 if shown_value and self._codes[row, col] != OBSERVED else 0
-            return _format_number(float(value), self._decimals[col] + extra, full)
+            filled = shown_value and self._codes[row, col] != OBSERVED
+            decimals = self._fill_decimals[col] if filled else self._decimals[col]
+            return _format_number(float(value), decimals, full)
         if value is None or (isinstance(value, float) and math.isnan(value)) or value is pd.NA:
             return ""
         return str(value)

@@ -188,3 +188,23 @@ def test_two_hundred_thousand_rows_load_and_answer_quickly(qapp):
     assert built < 1.0 and answered < 1.0, (built, answered)
     r, c = np.argwhere(gaps)[0]
     assert model.data(model.index(int(r), int(c))) == MARKERS["missing"].symbol
+
+
+def test_rounded_fills_show_their_own_decimals(samples_dir: Path) -> None:
+    # the demo's pH is measured to 2 decimals: a fill rounded to its measured precision
+    # shows 2 (7.23, not 7.230); computed as is, it shows one decimal more than measured
+    from imputer_app.engine import impute
+    from imputer_app.plan import FillPlan
+    from imputer_app.sheets import read_sheet
+
+    demo = read_sheet(samples_dir / "river_survey.xlsx")
+    model = SheetTableModel()
+    model.set_sheet(demo)
+    column = model.column_names().index("pH")
+    for rounding, decimals in (("measured", 2), ("as_computed", 3)):
+        result = impute(demo, FillPlan(rounding=rounding))
+        model.set_layer(result, "preview")
+        row = int(np.flatnonzero(model.fill_codes[:, column] > 0)[0])
+        shown = model.data(model.index(row, column)).split()[-1]
+        assert len(shown.split(".")[1]) == decimals, shown
+        assert float(shown) == pytest.approx(result.frame["pH"].iloc[row], abs=0.5 * 10.0**-decimals)
