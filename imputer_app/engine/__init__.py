@@ -10,6 +10,7 @@ from imputer_app.engine._combine import combine
 from imputer_app.engine._conformal import Calibration, ColumnCalibration
 from imputer_app.engine._impute import calibrate_intervals, impute
 from imputer_app.engine._input import SheetLike
+from imputer_app.engine._neighbours import NeighbourCache, only_combining_changed
 from imputer_app.engine._prepare import default_role_reasons, default_roles, prepare
 from imputer_app.engine._result import FillResult
 from imputer_app.engine._search import ColumnDonors, nearest_donors
@@ -20,6 +21,7 @@ __all__ = [
     "ColumnCalibration",
     "ColumnDonors",
     "FillResult",
+    "NeighbourCache",
     "PreparedTable",
     "SheetLike",
     "calibrate_intervals",
@@ -28,5 +30,6 @@ __all__ = [
     "default_roles",
     "impute",
     "nearest_donors",
+    "only_combining_changed",
     "prepare",
 ]

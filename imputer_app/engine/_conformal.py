@@ -22,7 +22,7 @@ with missing values"), so the hidden cells look like the cells being filled.
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
@@ -36,6 +36,10 @@ from imputer_app.work import CancelFlag
 
 BoolArray = NDArray[np.bool_]
 FloatArray = NDArray[np.float64]
+
+#: A donor search per fill column, called like :func:`~imputer_app.engine.nearest_donors`
+#: (``search(table, kmax=..., targets=..., cancel=...)``).
+ColumnSearch = Callable[..., Mapping[str, ColumnDonors]]
 
 #: Share of a column's known cells hidden for calibration, and the bounds on the count.
 CAL_SHARE = 0.25
@@ -272,14 +276,19 @@ def round_scores(
     hidden: PreparedTable,
     chosen: Mapping[str, BoolArray],
     cancel: CancelFlag | None = None,
+    search: ColumnSearch = nearest_donors,
 ) -> dict[str, FloatArray]:
-    """Fill one round's chosen cells with each column's k and score them, per column."""
+    """Fill one round's chosen cells with each column's k and score them, per column.
+
+    ``search`` finds the donors (a :class:`~imputer_app.engine.NeighbourCache` passes
+    its own, which reuses the lists of an earlier search of the same hidden table).
+    """
     plan = table.plan
     ks = {c: plan.k_for(c) for c in table.fill_columns}
     targets = {c: m for c, m in chosen.items() if m.any()}
     if not targets:
         return {}
-    donors = nearest_donors(hidden, kmax=max(ks.values()), targets=targets, cancel=cancel)
+    donors = search(hidden, kmax=max(ks.values()), targets=targets, cancel=cancel)
     values = combine(hidden, donors, sorted(set(ks.values())))
     out: dict[str, FloatArray] = {}
     for col, d in donors.items():

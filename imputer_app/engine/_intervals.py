@@ -28,6 +28,7 @@ from imputer_app.engine._conformal import (
     CAL_SEED,
     Calibration,
     ColumnCalibration,
+    ColumnSearch,
     calibration_masks,
     column_rule,
     round_scores,
@@ -36,6 +37,7 @@ from imputer_app.engine._distance import Features
 from imputer_app.engine._input import Input
 from imputer_app.engine._log import KNN, KNN_CAPPED, LogPiece, Records
 from imputer_app.engine._prepare import prepare_input
+from imputer_app.engine._search import nearest_donors
 from imputer_app.engine._table import PreparedTable
 from imputer_app.work import CancelFlag
 
@@ -57,6 +59,7 @@ def calibrate(
     censored_masks: Mapping[str, BoolArray],
     gaps: BoolArray,
     cancel: CancelFlag | None = None,
+    search: ColumnSearch = nearest_donors,
 ) -> Calibration | None:
     """Calibrate the plan's interval on hidden known cells; None when intervals are off.
 
@@ -72,6 +75,8 @@ def calibrate(
         The sheet's gaps, whose patterns the hidden rows copy.
     cancel : Event-like or callable, optional
         Checked between the rounds of hiding.
+    search : callable, default=nearest_donors
+        Finds the hidden cells' donors (see :func:`round_scores`).
     """
     level = table.plan.interval_level
     if level is None or not table.fill_columns:
@@ -81,7 +86,7 @@ def calibrate(
     pooled: dict[str, list[FloatArray]] = {c: [] for c in table.fill_columns}
     for hide, chosen in rounds:
         hidden = prepare_input(inp, table.plan, hide=hide, cancel=cancel)[0]
-        for col, scores in round_scores(table, hidden, chosen, cancel).items():
+        for col, scores in round_scores(table, hidden, chosen, cancel, search).items():
             pooled[col].append(scores)
     columns = {
         c: column_rule(table, c, np.hstack(parts) if parts else np.empty((2, 0)), level)
