@@ -43,15 +43,16 @@ from imputer_app.engine._result import FillResult
 from imputer_app.engine._search import ColumnDonors, extra_donors
 from imputer_app.engine._table import PreparedTable
 from imputer_app.engine._ties import tie_edges
-from imputer_app.plan import DEFAULT_KS, FillPlan
+from imputer_app.plan import FillPlan
 from imputer_app.work import CancelFlag, Progress, report
 
 IntArray = NDArray[np.intp]
 BoolArray = NDArray[np.bool_]
 
-#: Donors searched for beyond the plan's k, so that a larger k re-combines as well: as
-#: many as the recovery test tries by default (Kinfill's own choice).
-REACH = max(DEFAULT_KS)
+#: Donors searched for beyond the plan's k, so that a larger k re-combines as well: twice
+#: the k asked, and at least this many (Kinfill's own choice: each donor kept costs its
+#: exact distance in the first search, measured about a quarter of it at 30 donors).
+REACH = 10
 #: Bytes all kept lists may take; the least recently used searches are let go past it.
 KEEP_BYTES = 256 * 2**20
 
@@ -151,14 +152,39 @@ def covers(found: ColumnDonors, kmax: int, ks: Any) -> bool:
         return True
     if found.index.shape[1] < kmax:  # not lists of a search for kmax
         return False
-    d2 = np.square(found.distance)  # as the tie rule squares them
+    distance = found.distance
     full = found.count >= kmax
-    edge = tie_edges(d2[:, kmax - 1])[1]
-    last = d2[np.arange(len(d2)), np.maximum(found.count - 1, 0)]
-    high = tie_edges(d2[:, ks - 1])[1]
+    edge = tie_edges(np.square(distance[:, kmax - 1]))[1]  # squared as the tie rule squares them
+    last = np.square(distance[np.arange(len(distance)), np.maximum(found.count - 1, 0)])
+    high = tie_edges(np.square(distance[:, ks - 1]))[1]
     with np.errstate(invalid="ignore"):
         ok = ~full[:, None] | (high <= edge[:, None]) | (last[:, None] > high)
     return bool(ok.all())
+
+
+def shortened(found: ColumnDonors, kmax: int) -> ColumnDonors:
+    """``found`` cut to the donors that take part for some k <= ``kmax``, and one more.
+
+    Combining gives the same numbers (the donors cut off have weight 0, and the one
+    kept past the tied donors shows the tie rule where the tie ends), on narrower arrays.
+    """
+    distance, count = found.distance, found.count
+    width = distance.shape[1]
+    if width <= kmax + 1 or not len(count):
+        return found
+    d2 = np.square(distance)
+    high = tie_edges(d2[:, kmax - 1])[1]  # NaN (no tie edge) for cells with fewer donors
+    with np.errstate(invalid="ignore"):
+        taken = np.where(count >= kmax, (d2 <= high[:, None]).sum(axis=1), count)
+    keep = min(width, int(taken.max(initial=0)) + 1)
+    if keep >= width:
+        return found
+    return ColumnDonors(
+        found.rows,
+        np.ascontiguousarray(found.index[:, :keep]),
+        np.ascontiguousarray(distance[:, :keep]),
+        np.minimum(count, keep).astype(np.intp),
+    )
 
 
 @dataclass(frozen=True)
@@ -183,9 +209,9 @@ class NeighbourCache:
 
     Parameters
     ----------
-    reach : int, default=30
+    reach : int, optional
         Donors searched for at least (when memory allows), so that a k up to it
-        re-combines without a new search.
+        re-combines without a new search; default twice the k asked, at least 10.
     keep_bytes : int, default=256 MiB
         Bytes all kept lists may take (the least recently used searches are let go
         past it, never those of the fill under way); a search whose lists for
@@ -208,8 +234,8 @@ class NeighbourCache:
     3
     """
 
-    def __init__(self, reach: int = REACH, keep_bytes: int = KEEP_BYTES) -> None:
-        self.reach = int(reach)
+    def __init__(self, reach: int | None = None, keep_bytes: int = KEEP_BYTES) -> None:
+        self.reach = None if reach is None else int(reach)
         self.keep_bytes = int(keep_bytes)
         self.searches = 0
         self.reused = 0
@@ -298,7 +324,7 @@ class NeighbourCache:
                 self.reused += 1
                 self._touch(key)
                 report(progress, 1, 1)
-                return kept.found, kept.col
+                return shortened(kept.found, kmax), kept.col
             most = max(1, table.n_rows - 1)
             width = self._width(wanted, kmax, most)
             found, col = _search.search_cells(
@@ -314,7 +340,8 @@ class NeighbourCache:
 
         They fit when they take at most half of :attr:`keep_bytes`.
         """
-        wide = min(max(kmax, self.reach), most)
+        reach = max(REACH, 2 * kmax) if self.reach is None else self.reach
+        wide = min(max(kmax, reach), most)
         if wide <= kmax:
             return kmax
         cells = sum(int(np.count_nonzero(m)) for m in targets.values())
