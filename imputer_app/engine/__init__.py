@@ -11,6 +11,7 @@ from imputer_app.engine._conformal import Calibration, ColumnCalibration, score_
 from imputer_app.engine._impute import calibrate_intervals, impute
 from imputer_app.engine._input import SheetLike
 from imputer_app.engine._intervals import FAR, WIDE_RANGE
+from imputer_app.engine._neighbours import NeighbourCache, only_combining_changed
 from imputer_app.engine._prepare import default_role_reasons, default_roles, prepare
 from imputer_app.engine._result import FillResult
 from imputer_app.engine._reuse import HiddenCells
@@ -25,6 +26,7 @@ __all__ = [
     "ColumnDonors",
     "FillResult",
     "HiddenCells",
+    "NeighbourCache",
     "PreparedTable",
     "SheetLike",
     "calibrate_intervals",
@@ -33,6 +35,7 @@ __all__ = [
     "default_roles",
     "impute",
     "nearest_donors",
+    "only_combining_changed",
     "prepare",
     "score_cells",
 ]

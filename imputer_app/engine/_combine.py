@@ -34,6 +34,18 @@ def donor_shares(donors: ColumnDonors, k: int) -> tuple[FloatArray, IntArray]:
     return shares(np.square(donors.distance), donors.count, k)
 
 
+def _taking_part(donors: ColumnDonors, k: int) -> tuple[FloatArray, int]:
+    """Donor weights for ``k`` places cut to the widest prefix that takes part, and that width.
+
+    Sums over donors run over these columns only: the same donors give the same sums to
+    the last bit however long the lists are (a search for a larger k keeps more donors,
+    all of weight 0 here, and a longer row is summed in another order).
+    """
+    w, taken = donor_shares(donors, k)
+    cut = int(taken.max(initial=0))
+    return w[:, :cut], cut
+
+
 def donor_values(values: FloatArray, donors: ColumnDonors) -> FloatArray:
     """Donors' raw values of one column, shape (m, w); NaN where there is no donor."""
     got = values[np.maximum(donors.index, 0)].astype(np.float64)
@@ -72,17 +84,17 @@ def mean_values(
         inverse = np.where(valid & ~zero, 1.0 / donors.distance, 0.0)
     out: dict[int, FloatArray] = {}
     for k in ks:
-        w, _ = donor_shares(donors, k)
+        w, cut = _taking_part(donors, k)
         used = _used(donors.count, k)
         with np.errstate(invalid="ignore", divide="ignore"):
             if not inverse_distance:
-                out[int(k)] = np.where(used > 0, (w * v0).sum(axis=1) / used, np.nan)
+                out[int(k)] = np.where(used > 0, (w * v0[:, :cut]).sum(axis=1) / used, np.nan)
                 continue
-            wz = np.where(zero, w, 0.0)
+            wz = np.where(zero[:, :cut], w, 0.0)
             nz = wz.sum(axis=1)
-            by_zero = (wz * v0).sum(axis=1) / nz
-            wd = w * inverse
-            by_weight = (wd * v0).sum(axis=1) / wd.sum(axis=1)
+            by_zero = (wz * v0[:, :cut]).sum(axis=1) / nz
+            wd = w * inverse[:, :cut]
+            by_weight = (wd * v0[:, :cut]).sum(axis=1) / wd.sum(axis=1)
         out[int(k)] = np.where(used > 0, np.where(nz > 0, by_zero, by_weight), np.nan)
     return out
 
@@ -102,13 +114,13 @@ def spread(v: FloatArray, donors: ColumnDonors, k: int) -> FloatArray:
     ``sqrt(sum w (v - mean)^2 / (sum w - 1))`` with ``sum w = min(k, count)``: the usual
     ``ddof=1`` standard deviation of the k nearest when nothing ties; NaN below 2 places.
     """
-    w, _ = donor_shares(donors, k)
+    w, cut = _taking_part(donors, k)
     used = _used(donors.count, k)
     out = np.full(len(used), np.nan)
     many = np.flatnonzero(used >= 2)
     if not len(many):
         return out
-    wm, vm = w[many], np.where(w[many] > 0, v[many], 0.0)
+    wm, vm = w[many], np.where(w[many] > 0, v[many, :cut], 0.0)
     n = used[many].astype(np.float64)
     mean = (wm * vm).sum(axis=1) / n
     dev = np.where(wm > 0, vm - mean[:, None], 0.0)

@@ -306,21 +306,21 @@ class DistanceModel:
 
     def _pairs(self, x: IntArray, y: IntArray, values: FloatArray | None = None) -> FloatArray:
         if values is None:
-            z, codes = self._values
-        else:
-            z, codes = values, self._codes
+            z, codes, dot = *self._values, _product
+        else:  # exact: a BLAS product's rounding varies with the number of pairs in the batch
+            z, codes, dot = values, self._codes, _row_sums
         sq = np.take(z, x, axis=0)
         sq -= np.take(z, y, axis=0)
         sq *= sq
         # 0 exactly when no column is shared (a float mask: a bool matrix product skips BLAS)
-        shared = self._w.sum() - np.isnan(sq).astype(np.float64) @ self._w
+        shared = self._w.sum() - dot(np.isnan(sq).astype(np.float64), self._w)
         np.fmax(sq, 0.0, out=sq)  # a gap's NaN adds 0
-        total = sq @ self._tw_w
+        total = dot(sq, self._tw_w)
         if codes.shape[1]:
             cx, cy = np.take(codes, x, axis=0), np.take(codes, y, axis=0)
             seen = (cx >= 0) & (cy >= 0)
-            total += (seen & (cx != cy)) @ self._tw_cw
-            shared += seen @ self._cw
+            total += dot((seen & (cx != cy)).astype(np.float64), self._tw_cw)
+            shared += dot(seen.astype(np.float64), self._cw)
         return ratio(total, shared)
 
     def block(self, targets: Targets, cand: Candidates, part: slice = slice(None)) -> FloatArray:
@@ -448,6 +448,16 @@ class DistanceModel:
         """
         d2 = self.block(self.targets(rows), self.candidates())
         return d2, np.isfinite(d2)
+
+
+def _product(rows: FloatArray, weights: FloatArray) -> FloatArray:
+    """``rows @ weights`` by BLAS: fast, its rounding depends on the number of rows."""
+    return np.asarray(rows @ weights, dtype=np.float64)
+
+
+def _row_sums(rows: FloatArray, weights: FloatArray) -> FloatArray:
+    """``rows @ weights`` summed row by row: the same numbers for a row whatever rows come with it."""
+    return np.asarray((rows * weights).sum(axis=1), dtype=np.float64)
 
 
 def shifted(x: FloatArray) -> tuple[FloatArray, NDArray[np.bool_]]:

@@ -150,7 +150,8 @@ def exact_lists(
     rows : ndarray of int, shape (m,)
         The target rows.
     index, d2 : ndarray of shape (m, L)
-        Each row's candidates and search distances, nearest first; -1 / inf pad.
+        Each row's candidates and search distances, nearest first; -1 / inf pad. An
+        ``inf`` distance (a candidate the search ruled out) is dropped.
 
     Returns
     -------
@@ -162,6 +163,9 @@ def exact_lists(
         is not full (it holds every candidate).
     """
     beyond = d2[:, -1].copy() if index.shape[1] else np.full(len(index), np.inf)
+    # a candidate the search ruled out (another group, the row itself) has no distance:
+    # recomputed from differences it would get one back
+    index = np.where(np.isfinite(d2), index, -1)
     return (*exact_sorted(model, rows, index)[:2], beyond)
 
 

@@ -9,7 +9,7 @@ in its own module (:mod:`~imputer_app.engine._prepare`,
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from typing import Any
 
 import numpy as np
@@ -20,20 +20,27 @@ from imputer_app.engine._censored import Censored, censored_records
 from imputer_app.engine._conformal import Calibration
 from imputer_app.engine._decide import fill_records
 from imputer_app.engine._input import SheetLike, unpack
-from imputer_app.engine._intervals import add_intervals, calibrate
+from imputer_app.engine._intervals import ColumnSearch, add_intervals, calibrate
 from imputer_app.engine._log import Records
 from imputer_app.engine._prepare import prepare_input
 from imputer_app.engine._result import FillResult, build_result
 from imputer_app.engine._reuse import HiddenCells
-from imputer_app.engine._search import search_cells
+from imputer_app.engine._search import ColumnDonors, search_cells
 from imputer_app.engine._stack import Stack
 from imputer_app.engine._support import weak_threshold
+from imputer_app.engine._table import PreparedTable
 from imputer_app.plan import FillPlan
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
+#: What :func:`impute` takes: a DataFrame, a read sheet or a 2-D array.
+Data = pd.DataFrame | SheetLike | NDArray[Any]
+#: A donor search over flat cells, called like :func:`search_cells`
+#: (``search(table, kmax=..., targets=..., progress=..., cancel=...)``).
+CellSearch = Callable[..., tuple[ColumnDonors, NDArray[np.intp]]]
+
 
 def impute(
-    data: pd.DataFrame | SheetLike | NDArray[Any],
+    data: Data,
     plan: FillPlan,
     progress: Progress | None = None,
     cancel: CancelFlag | None = None,
@@ -87,6 +94,25 @@ def impute(
     >>> impute(frame.to_numpy(), FillPlan(k=1, scaling="none")).array[3].tolist()
     [3.0, 3.1]
     """
+    return fill_with(search_cells, data, plan, progress, cancel, hidden=hidden)
+
+
+def fill_with(
+    search: CellSearch,
+    data: Data,
+    plan: FillPlan,
+    progress: Progress | None = None,
+    cancel: CancelFlag | None = None,
+    *,
+    hidden: HiddenCells | None = None,
+) -> FillResult:
+    """:func:`impute` with the donors found by ``search`` (called like :func:`search_cells`).
+
+    The fill's one code path: :func:`impute` passes the plain search, a
+    :class:`~imputer_app.engine.NeighbourCache` its own, which reuses the lists of its
+    last search when the plan's changes leave them valid. The calibration's searches go
+    through ``search`` as well.
+    """
     raise_if_cancelled(cancel)
     inp = unpack(data)
     table, censored = prepare_input(inp, plan, cancel=cancel)
@@ -109,7 +135,7 @@ def impute(
         report(progress, done, total + 1)
 
     # one flat search over every fill column: values and log rows are worked out for all at once
-    found, cell_col = search_cells(table, kmax=k, progress=searching, cancel=cancel)
+    found, cell_col = search(table, kmax=k, progress=searching, cancel=cancel)
     stack = Stack.of_cells(table.fill_columns, found, cell_col)
     threshold = weak_threshold([stack.donors])
     records = Records(inp.names)
@@ -118,12 +144,26 @@ def impute(
     censored_records(censored, table.fill_columns, table.plan.censored, records)
     raise_if_cancelled(cancel)
     gaps = inp.frame.isna().to_numpy() if plan_used.interval_level is not None else None
-    calibration = None if gaps is None else calibrate(inp, table, _masks(censored), gaps, cancel, hidden)
+    calibration = (
+        None
+        if gaps is None
+        else calibrate(inp, table, _masks(censored), gaps, cancel, hidden, by_column(search))
+    )
     if calibration is not None:
         add_intervals(records, table, calibration)
     result = build_result(inp, table, records, threshold, cancel)
     report(progress, steps + 1, steps + 1)
     return dataclasses.replace(result, calibration=calibration) if calibration is not None else result
+
+
+def by_column(search: CellSearch) -> ColumnSearch:
+    """``search`` (flat cells) as a search per fill column, called like :func:`nearest_donors`."""
+
+    def columns(table: PreparedTable, **options: Any) -> dict[str, ColumnDonors]:
+        found, col = search(table, **options)
+        return Stack.of_cells(table.fill_columns, found, col).per_column()
+
+    return columns
 
 
 def _masks(censored: Mapping[str, Censored]) -> dict[str, NDArray[np.bool_]]:

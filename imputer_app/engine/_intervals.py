@@ -23,7 +23,7 @@ choices, stated in README.md.
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 
 import numpy as np
 from numpy.typing import NDArray
@@ -43,7 +43,7 @@ from imputer_app.engine._input import Input
 from imputer_app.engine._log import KNN, KNN_CAPPED, LogPiece, Records
 from imputer_app.engine._prepare import prepare_input
 from imputer_app.engine._reuse import HiddenCells
-from imputer_app.engine._search import nearest_donors
+from imputer_app.engine._search import ColumnDonors, nearest_donors
 from imputer_app.engine._table import PreparedTable
 from imputer_app.work import CancelFlag, raise_if_cancelled
 
@@ -57,6 +57,9 @@ FAR = 3.0
 #: Donors sharing on average less than this share of the cell's similarity weight: weak.
 FEW_SHARED = 0.5
 _CHUNK = 50_000
+#: A donor search per fill column, called like :func:`~imputer_app.engine.nearest_donors`
+#: (``search(table, kmax=..., targets=..., cancel=...)``).
+ColumnSearch = Callable[..., Mapping[str, ColumnDonors]]
 #: Up to this many rows, the shared weight of every pair of rows is one matrix product.
 _PAIRS_ROWS = 4_000
 
@@ -68,6 +71,7 @@ def calibrate(
     gaps: BoolArray,
     cancel: CancelFlag | None = None,
     reuse: HiddenCells | None = None,
+    search: ColumnSearch = nearest_donors,
 ) -> Calibration | None:
     """Calibrate the plan's interval on hidden known cells; None when intervals are off.
 
@@ -88,6 +92,9 @@ def calibrate(
         A recovery test's hidden cells: used instead of hiding cells again when the
         test's plan matches the fill's (but for k) and it tried each column's k;
         otherwise :attr:`Calibration.remark` says why not.
+    search : callable, default=nearest_donors
+        The donor search of the hidden tables, called like
+        :func:`~imputer_app.engine.nearest_donors`.
     """
     level = table.plan.interval_level
     if level is None or not table.fill_columns:
@@ -106,7 +113,7 @@ def calibrate(
         hidden = hidden_table(table, hide)
         if hidden is None:
             hidden = prepare_input(inp, table.plan, hide=hide, cancel=cancel)[0]
-        for col, scores in round_scores(table, hidden, chosen, cancel).items():
+        for col, scores in round_scores(table, hidden, chosen, cancel, search).items():
             pooled[col].append(scores)
     found = {c: np.concatenate(parts, axis=1) for c, parts in pooled.items() if parts}
     masking = "gap patterns" if patterned else "random"
@@ -118,17 +125,20 @@ def round_scores(
     hidden: PreparedTable,
     chosen: Mapping[str, BoolArray],
     cancel: CancelFlag | None = None,
+    search: ColumnSearch = nearest_donors,
 ) -> dict[str, FloatArray]:
     """Fill one round's chosen cells with each column's k (one search) and score them.
 
-    Returns per column an array of shape (3, cells): see
+    ``search`` finds the donors (a :class:`~imputer_app.engine.NeighbourCache` passes its
+    own, which reuses the lists of an earlier search of the same hidden table). Returns
+    per column an array of shape (3, cells): see
     :func:`~imputer_app.engine._conformal.score_cells`.
     """
     ks = {c: table.plan.k_for(c) for c in table.fill_columns}
     targets = {c: m for c, m in chosen.items() if m.any()}
     if not targets:
         return {}
-    donors = nearest_donors(hidden, kmax=max(ks[c] for c in targets), targets=targets, cancel=cancel)
+    donors = search(hidden, kmax=max(ks[c] for c in targets), targets=targets, cancel=cancel)
     out: dict[str, FloatArray] = {}
     for k in sorted({ks[c] for c in targets}):
         group = {c: d for c, d in donors.items() if c in targets and ks[c] == k}

@@ -25,7 +25,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from imputer_app.engine._distance import DistanceModel
-from imputer_app.engine._exact import exact_cells, exact_lists, still_open
+from imputer_app.engine._exact import exact_cells, exact_lists, exact_sorted, still_open
 from imputer_app.engine._nearest import BlockSearch, _pad, chunks, top_l
 from imputer_app.engine._table import PreparedTable
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
@@ -156,13 +156,21 @@ class _Cells:
             return
         self.index[at], self.d2[at] = _pad((index, d2), self.index.shape[1])
 
-    def flat(self) -> tuple[ColumnDonors, IntArray]:
+    def flat(self, model: DistanceModel | None = None) -> tuple[ColumnDonors, IntArray]:
+        """The cells' donors; with ``model``, every distance exact and the lists re-sorted.
+
+        The search's own distances vary in the last bits with the path that found them
+        (a block or a pair, the head or a tile, which depends on kmax): exact ones make
+        a search for kmax agree to the last bit with one for a smaller k.
+        """
         if self.wide:
             width = max(self.index.shape[1], *(w[1].shape[1] for w in self.wide))
             self.index, self.d2 = _pad((self.index, self.d2), width)
             for at, index, d2 in self.wide:
                 self.index[at], self.d2[at] = _pad((index, d2), width)
             self.wide = []
+        if model is not None and len(self.row):
+            self.index, self.d2 = exact_sorted(model, self.row, self.index)[:2]
         valid = self.index >= 0
         with np.errstate(invalid="ignore"):
             distance = np.where(valid, np.sqrt(self.d2), np.inf)
@@ -256,11 +264,13 @@ def search_cells(
     cells = _Cells.of(want, kmax + extra_donors(kmax))
     active = np.flatnonzero(want.any(axis=0) & ok.any(axis=0))
     steps = 1
+    model = None
     if len(active):
-        search = BlockSearch(DistanceModel(table.features), table.groups, budget)
-        steps = _Jobs(search, want, ok, kmax, active).run(cells, progress, cancel)
+        model = DistanceModel(table.features)
+        jobs = _Jobs(BlockSearch(model, table.groups, budget), want, ok, kmax, active)
+        steps = jobs.run(cells, progress, cancel)
     report(progress, steps, steps)
-    return cells.flat()
+    return cells.flat(model)
 
 
 def extra_donors(kmax: int) -> int:

@@ -59,6 +59,14 @@ class Stack:
         bounds = np.searchsorted(col, np.arange(len(columns) + 1)).astype(np.intp)
         return cls(tuple(columns), donors, np.asarray(col, dtype=np.intp), bounds)
 
+    def per_column(self) -> dict[str, ColumnDonors]:
+        """The donors of each column's cells (the inverse of :meth:`of`)."""
+        d, bounds = self.donors, self.offsets
+        return {
+            c: ColumnDonors(d.rows[a:b], d.index[a:b], d.distance[a:b], d.count[a:b])
+            for c, a, b in zip(self.columns, bounds[:-1], bounds[1:], strict=True)
+        }
+
     def split(self, values: NDArray[Any]) -> dict[str, NDArray[Any]]:
         """Per column, the part of a per-cell array that belongs to it."""
         return {

@@ -31,6 +31,7 @@ from imputer_app.gui.methods_copy import copy_methods_text
 from imputer_app.gui.panel_tabs import PanelTabs
 from imputer_app.gui.pictures_view import PicturesView
 from imputer_app.gui.plan_files import PlanFiles
+from imputer_app.gui.preview_follow import PreviewFollower
 from imputer_app.gui.read_bar import read_job, worksheets
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
@@ -84,6 +85,8 @@ class MainWindow(QMainWindow):
         self.toolbar = build_menus(self, self.actions_, self.recent_menu, self.data.filter_menu)
         self.data.add_table_actions([self.actions_[k] for k in ("previous_weak", "next_weak", "next_gap")])
         self.session.subscribe(self._on_session)
+        #: Moving k (or another combining setting) after a preview previews again at once.
+        self.follower = PreviewFollower(self.session, self.runner, self.preview_fill, self)
         self._sizes_restored = window_layout.restore_layout(
             self, self.settings, self.splitter, self.table_split
         )
@@ -262,7 +265,8 @@ class MainWindow(QMainWindow):
     # ------------------------------------------------------------------- plans
     def _use_k(self, k: int) -> None:
         # The panel has already put k into the session's plan; every view follows from there.
-        self.statusBar().showMessage(f"k set to {k}; preview the fill to see its effect.", 6000)
+        then = "the preview follows" if self.session.following else "preview the fill to see its effect"
+        self.statusBar().showMessage(f"k set to {k}; {then}.", 6000)
 
     def open_plan(self, path: str | Path | None = None) -> None:
         """Make a ``*.plan.toml`` the session's plan (see :meth:`PlanFiles.open`)."""
@@ -284,11 +288,7 @@ class MainWindow(QMainWindow):
         if sheet is None or not fq.k_fits(self, sheet):
             return
         plan = self.session.plan
-
-        def job(progress: Progress, cancel: CancelFlag) -> FillResult:
-            from imputer_app.engine import impute
-
-            return impute(sheet, plan, progress=progress, cancel=cancel)
+        job = self.session.preview_job(plan)  # re-combines the last search's lists when it can
 
         def done(result: FillResult) -> None:
             if self.session.path is not None:

@@ -14,6 +14,13 @@ through its methods, and redraw from it when told. The session is the only holde
 the plan: a panel that changes a setting calls :meth:`Session.set_plan` (or
 :meth:`Session.set_k`), and every view, the panel included, redraws on the ``"plan"``
 event.
+
+Previews are computed by :meth:`Session.preview_job` through the sheet's
+:class:`~imputer_app.engine.NeighbourCache`: once a preview is on screen, a change of a
+combining setting only (k, neighbour weighting, numeric rule, bounds, decimals,
+censored rule, no-donor rule, interval level) drops it but sets
+:attr:`Session.wants_preview`, and the new preview re-combines the kept neighbour
+lists instead of searching again.
 """
 
 from __future__ import annotations
@@ -27,10 +34,13 @@ from imputer_app.plan import FillPlan
 if TYPE_CHECKING:
     import pandas as pd
 
-    from imputer_app.engine import FillResult
+    from imputer_app.engine import FillResult, NeighbourCache
     from imputer_app.sheets import Sheet
     from imputer_app.validation import RecoveryReport
     from imputer_app.work import CancelFlag, Progress
+
+#: A preview's work, run off the GUI thread: ``job(progress, cancel) -> FillResult``.
+PreviewJob = Callable[["Progress | None", "CancelFlag | None"], "FillResult"]
 
 #: Names of the changes a listener is told about.
 EVENTS = ("sheet", "plan", "report", "preview", "applied", "saved")
@@ -60,6 +70,10 @@ class Session:
         self.plan_problem: str | None = None
         self.report: RecoveryReport | None = None
         self.preview: FillResult | None = None
+        #: The plan of the last preview while the preview follows the combining settings
+        #: (None: a change of plan only drops the preview).
+        self.following: FillPlan | None = None
+        self._neighbours: NeighbourCache | None = None  # the open sheet's kept neighbour lists
         # history[:position] are the applied fills; history[position:] can be redone.
         self._history: list[FillResult] = []
         self._position = 0
@@ -93,6 +107,15 @@ class Session:
             raise SessionError("no sheet is loaded")
         applied = self.applied
         return applied.frame if applied is not None else self.sheet.frame
+
+    @property
+    def wants_preview(self) -> bool:
+        """True when the preview was dropped by a change of combining settings and should follow.
+
+        The app then computes a new preview at once (:meth:`preview_job`); it re-combines
+        the last search's neighbour lists, so it is quick.
+        """
+        return self.following is not None and self.preview is None and self.plan_problem is None
 
     @property
     def can_undo(self) -> bool:
@@ -135,15 +158,25 @@ class Session:
         self.plan_problem = None
         self.report = None
         self.preview = None
+        self.following = None
+        self._neighbours = None
         self._history.clear()
         self._position = 0
         self._exported = None
         self._emit("sheet")
 
     def set_plan(self, plan: FillPlan) -> None:
-        """Use ``plan`` from now on; a preview made with another plan is dropped."""
+        """Use ``plan`` from now on; a preview made with another plan is dropped.
+
+        When only combining settings changed since the last preview, the preview follows
+        (:attr:`wants_preview`); any other change stops it following.
+        """
         if plan == self.plan:
             return
+        from imputer_app.engine import only_combining_changed
+
+        if self.following is not None and not only_combining_changed(self.following, plan):
+            self.following = None
         self.plan = plan
         if self.preview is not None:
             self.preview = None
@@ -167,16 +200,50 @@ class Session:
         self._emit("report")
 
     def set_preview(self, result: FillResult | None) -> None:
-        """Show ``result`` as a preview layer; nothing in the working table changes."""
+        """Show ``result`` as a preview layer; nothing in the working table changes.
+
+        ``result`` is a fill made with the session's plan. From now on the preview
+        follows changes of the combining settings (None stops it).
+        """
         self._require_sheet()
         self.preview = result
+        self.following = self.plan if result is not None else None
         self._emit("preview")
+
+    def preview_job(self, plan: FillPlan | None = None) -> PreviewJob:
+        """The work of a preview of ``plan`` (default the session's), to run on any thread.
+
+        The job fills the sheet loaded now through its
+        :class:`~imputer_app.engine.NeighbourCache`: the same result as
+        :func:`~imputer_app.engine.impute`, without a new neighbour search when only
+        combining settings changed since the last preview. Show its result with
+        :meth:`set_preview` if the plan is still the session's.
+
+        Examples
+        --------
+        >>> result = session.preview_job()(None, None)  # doctest: +SKIP
+        >>> session.set_preview(result)  # doctest: +SKIP
+        """
+        sheet = self.sheet
+        if sheet is None:
+            raise SessionError("no sheet is loaded")
+        if self._neighbours is None:
+            from imputer_app.engine import NeighbourCache
+
+            self._neighbours = NeighbourCache()
+        cache, chosen = self._neighbours, self.plan if plan is None else plan
+
+        def job(progress: Progress | None, cancel: CancelFlag | None) -> FillResult:
+            return cache.impute(sheet, chosen, progress=progress, cancel=cancel)
+
+        return job
 
     def apply(self) -> FillResult:
         """Make the preview the applied fill; redo history beyond this point is dropped."""
         if self.preview is None:
             raise SessionError("there is no preview to apply")
         result = self.preview
+        self.following = None
         del self._history[self._position :]
         self._history.append(result)
         self._position += 1
@@ -211,6 +278,7 @@ class Session:
 
     def _drop_preview(self) -> None:
         # Undo and redo change what is applied; the table then shows it, not an older preview.
+        self.following = None
         if self.preview is not None:
             self.preview = None
             self._emit("preview")

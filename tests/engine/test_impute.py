@@ -358,7 +358,8 @@ def test_cancel_is_checked_inside_prepare_and_while_building_the_result(
 
     with pytest.raises(Cancelled):
         impute(frame, FillPlan(), cancel=cancel)
-    assert steps == (["search", "log"] if late else [])
+    # the calibration's searches of the hidden cells go through the same search
+    assert list(dict.fromkeys(steps)) == (["search", "log"] if late else [])
     assert len(checks) == stop_at
 
 

@@ -52,13 +52,14 @@ def test_cancel_during_a_recovery_test_changes_nothing(window, qtbot):
 def test_cancel_during_a_preview_changes_nothing_and_one_job_runs_at_a_time(window, qtbot, monkeypatch):
     started = threading.Event()
 
-    def slow_impute(data, plan, progress=None, cancel=None):
+    def slow_impute(self, data, plan, progress=None, cancel=None):
         started.set()
         while True:
             raise_if_cancelled(cancel)
             time.sleep(0.01)
 
-    monkeypatch.setattr(imputer_app.engine, "impute", slow_impute)
+    # the preview fills through the session's neighbour cache
+    monkeypatch.setattr(imputer_app.engine.NeighbourCache, "impute", slow_impute)
     window.preview_fill()
     qtbot.waitUntil(started.is_set, timeout=5000)
     assert window.busy.isVisible() and not window.actions_["export"].isEnabled()
