@@ -28,6 +28,7 @@ from imputer_app.engine._distance import DistanceModel
 from imputer_app.engine._exact import exact_cells, exact_lists, still_open
 from imputer_app.engine._nearest import BlockSearch, _pad, chunks, top_l
 from imputer_app.engine._table import PreparedTable
+from imputer_app.engine._tree_search import tree_search
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
 IntArray = NDArray[np.intp]
@@ -62,12 +63,15 @@ class ColumnDonors:
         it); ``inf`` pads.
     count : ndarray of int, shape (m,)
         Number of real donors per target (may exceed kmax).
+    path : {"block", "tree"}, default="block"
+        Which search found them (:data:`~imputer_app.engine._tree_search.PATH_NAMES`).
     """
 
     rows: IntArray
     index: IntArray
     distance: FloatArray
     count: IntArray
+    path: str = "block"
 
 
 def first_positions(good: BoolArray, kmax: int) -> IntArray:
@@ -178,6 +182,7 @@ def nearest_donors(
     progress: Progress | None = None,
     cancel: CancelFlag | None = None,
     budget: int = BLOCK_BYTES,
+    path: str = "auto",
 ) -> dict[str, ColumnDonors]:
     """Find the ``kmax`` nearest donors of every target cell, per fill column.
 
@@ -196,6 +201,10 @@ def nearest_donors(
         Checked for every distance block; raises :class:`~imputer_app.errors.Cancelled`.
     budget : int, default=64 MiB
         Bytes for one distance block and its temporaries.
+    path : {"auto", "tree", "block"}, default="auto"
+        "auto" takes k-d trees per gap pattern where they are estimated to pay
+        (:mod:`~imputer_app.engine._tree_search`), else the block search; both give the
+        same donors. "tree" uses the trees wherever they can serve.
 
     Returns
     -------
@@ -213,11 +222,11 @@ def nearest_donors(
     >>> donors["nitrate"].index[0]  # row positions of the first target's donors  # doctest: +SKIP
     """
     found, col = search_cells(
-        table, kmax=kmax, targets=targets, progress=progress, cancel=cancel, budget=budget
+        table, kmax=kmax, targets=targets, progress=progress, cancel=cancel, budget=budget, path=path
     )
     bounds = np.searchsorted(col, np.arange(len(table.fill_columns) + 1))
     return {
-        name: ColumnDonors(found.rows[a:b], found.index[a:b], found.distance[a:b], found.count[a:b])
+        name: ColumnDonors(found.rows[a:b], found.index[a:b], found.distance[a:b], found.count[a:b], found.path)
         for name, a, b in zip(table.fill_columns, bounds[:-1], bounds[1:], strict=True)
     }
 
@@ -230,6 +239,7 @@ def search_cells(
     progress: Progress | None = None,
     cancel: CancelFlag | None = None,
     budget: int = BLOCK_BYTES,
+    path: str = "auto",
 ) -> tuple[ColumnDonors, IntArray]:
     """:func:`nearest_donors` for all fill columns as one flat set of cells (no split per column).
 
@@ -253,14 +263,27 @@ def search_cells(
         ok[:, j] = table.observed[name]
     if table.groups is not None:
         ok &= (table.groups >= 0)[:, None]
-    cells = _Cells.of(want, kmax + extra_donors(kmax))
+    keep = kmax + extra_donors(kmax)
+    cells = _Cells.of(want, keep)
     active = np.flatnonzero(want.any(axis=0) & ok.any(axis=0))
-    steps = 1
+    steps: int | None = 1
+    tree = False
     if len(active):
         search = BlockSearch(DistanceModel(table.features), table.groups, budget)
-        steps = _Jobs(search, want, ok, kmax, active).run(cells, progress, cancel)
+
+        def block(some: BoolArray, progress: Progress | None = None) -> int:
+            cols = np.flatnonzero(some.any(axis=0) & ok.any(axis=0))
+            return _Jobs(search, some, ok, kmax, cols).run(cells, progress, cancel) if len(cols) else 1
+
+        put, first = cells.put, first_positions
+        steps = tree_search(table, search.model, want, ok, kmax=kmax, keep=keep, put=put, block=block,
+                            first=first, path=path, progress=progress, cancel=cancel)  # fmt: skip
+        tree = steps is not None
+        steps = steps if steps is not None else block(want, progress)
     report(progress, steps, steps)
-    return cells.flat()
+    found, col = cells.flat()
+    found.path = "tree" if tree else "block"
+    return found, col
 
 
 def extra_donors(kmax: int) -> int:
