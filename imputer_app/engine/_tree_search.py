@@ -21,6 +21,7 @@ from __future__ import annotations
 import math
 from collections import Counter
 from collections.abc import Callable, Iterator
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -41,17 +42,23 @@ Put = Callable[[IntArray, IntArray, IntArray, FloatArray], None]
 Block = Callable[[BoolArray], object]
 #: Picks the first ``n`` True entries per row: positions, -1 pads.
 First = Callable[[BoolArray, int], IntArray]
+#: Settled cells: column, row, donor rows, squared distances.
+_Cellset = tuple[IntArray, IntArray, IntArray, FloatArray]
 
 #: More numeric similarity columns than this: a k-d tree no longer pays.
 MAX_COLUMNS = 15
 #: Fewer candidate rows than this: the block search is quick anyway.
 MIN_ROWS = 20_000
 #: A target pattern with fewer rows (in its group) goes to the block search.
-MIN_TARGETS = 64
+MIN_TARGETS = 256
 #: A candidate pattern with fewer rows is compared directly instead of through a tree.
-MIN_TREE = 256
+MIN_TREE = 32
 #: Target rows per batch (progress and cancel between batches; bounds the memory).
 BATCH = 4096
+#: Rounds of ever longer lists (x4 each) before an open cell goes to the block search.
+ROUNDS = 3
+#: A tree of at most this many rows is asked for a whole batch at once (with its largest bound).
+SMALL_TREE = 8192
 #: Rows per bounded tree query (rows sorted by bound, so that one bound fits them all).
 SUB = 256
 #: Candidate rows per direct comparison block.
@@ -241,17 +248,48 @@ class TreeSearch:
             redo[np.ix_(common[key], np.flatnonzero(dense))] = False
         total = sum(math.ceil(len(v) / BATCH) for v in common.values()) + 2
         done = 0
-        for key, rows in common.items():
-            for batch in (rows[i : i + BATCH] for i in range(0, len(rows), BATCH)):
-                raise_if_cancelled(cancel)
-                self._cells(batch, self._lists(key, batch), redo)
-                done += 1
-                report(progress, done, total)
-            self._release(key)
-        if redo.any():  # rare patterns, and cells whose ties run past their list
+        pool = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="kinfill-trees")
+        try:  # batches side by side: tree queries and numpy release the GIL
+            for key, rows in common.items():
+                list(pool.map(self._tree, self._tree_keys(*key)))
+                batches = [rows[i : i + BATCH] for i in range(0, len(rows), BATCH)]
+                for found, (line, col) in pool.map(lambda b: self._batch(key, b, cancel), batches):
+                    for cells in found:
+                        self.put(*cells)
+                    redo[line, col] = True
+                    done += 1
+                    report(progress, done, total)
+                self._release(key)
+        finally:  # on an error or a cancel, batches not started are dropped
+            pool.shutdown(wait=True, cancel_futures=True)
+        if redo.any():  # rare patterns, and cells whose ties run past their lists
+            raise_if_cancelled(cancel)
             self.block(redo)
         report(progress, total - 1, total)
         return total
+
+    def _batch(
+        self, key: tuple[int, int], batch: IntArray, cancel: CancelFlag | None
+    ) -> tuple[list[_Cellset], tuple[IntArray, IntArray]]:
+        """Donors of the cells of ``batch``, widening the lists of open cells :data:`ROUNDS` times.
+
+        Returns the cells found (column, row, donors, squared distances) and the cells
+        (row, column) still open, for the block search.
+        """
+        want = self.want[batch]
+        size, found = self._size(), []
+        for _ in range(ROUNDS):
+            raise_if_cancelled(cancel)
+            at = np.flatnonzero(want.any(axis=1))
+            cells, (line, col) = self._cells(batch[at], want[at], self._lists(key, batch[at], size))
+            found.append(cells)
+            want = np.zeros_like(want)
+            want[at[line], col] = True
+            if not len(line):
+                break
+            size *= 4
+        line, col = np.nonzero(want)
+        return found, (batch[line], col)
 
     def _tree_keys(self, g: int, bits: int) -> Iterator[tuple[int, int, int]]:
         """(group, candidate pattern, shared columns) of the trees a target pattern asks."""
@@ -274,16 +312,15 @@ class TreeSearch:
         return self._trees[t]
 
     def _size(self) -> int:
-        """Candidates kept per row so that nearly every cell finds ``keep + 1`` donors (as the block search)."""
+        """Candidates first kept per row: ``keep`` donors, the next one, and a few not donors."""
         cols = self.want.any(axis=0)
-        cand = self.ok[:, cols].any(axis=1)
-        share = float(self.ok[np.ix_(cand, cols)].mean(axis=0).min()) if cand.any() else 1.0
-        return math.ceil((self.keep + 1) / max(share, DENSE_SHARE) * 1.3) + 4
+        share = float(self.ok[:, cols].mean(axis=0).min()) if cols.any() else 1.0
+        return math.ceil((self.keep + 1) / max(share, DENSE_SHARE)) + 2
 
-    def _lists(self, key: tuple[int, int], batch: IntArray) -> _Lists:
-        """The merged nearest candidates of ``batch`` (target rows of one group and pattern)."""
+    def _lists(self, key: tuple[int, int], batch: IntArray, size: int) -> _Lists:
+        """The merged nearest ``size`` candidates of ``batch`` (target rows of one group and pattern)."""
         g, bits = key
-        lists = _Lists.empty(len(batch), self._size())
+        lists = _Lists.empty(len(batch), size)
         trees = sorted(self._tree_keys(g, bits), key=lambda t: -len(self._cand[t[0], t[1]]))
         for t in trees:
             self._query(t, batch, lists)
@@ -299,15 +336,13 @@ class TreeSearch:
         cols, factor = self.lay.columns(t[2]), self.lay.factor(t[2])
         size = min(lists.d2.shape[1] + 1, len(rows))  # one more: the row itself may be among them
         bound = lists.bound
-        order = np.argsort(bound, kind="stable")
-        for part in (order[i : i + SUB] for i in range(0, len(order), SUB)):
+        for part in _parts(bound, SUB if len(rows) > SMALL_TREE else len(bound)):
             reach = float(bound[part[-1]])  # the largest bound of the part (sorted)
             upper = math.sqrt(reach / factor) * (1 + 1e-9) + 1e-300 if math.isfinite(reach) else np.inf
             e, i = tree.query(
                 self.lay.x[np.ix_(batch[part], cols)],
                 k=list(range(1, size + 1)),
                 distance_upper_bound=upper,
-                workers=WORKERS if len(part) >= 1024 else 1,
             )
             found = np.isfinite(e)
             index = np.where(found, rows[np.minimum(i, len(rows) - 1)], -1)
@@ -349,9 +384,16 @@ class TreeSearch:
             index[r, pos], dist[r, pos] = cand[j], d2[r, j]
             lists.merge(np.arange(len(batch)), index, dist, np.full(len(batch), np.inf))
 
-    def _cells(self, batch: IntArray, lists: _Lists, redo: BoolArray) -> None:
-        """Give every target cell of ``batch`` its donors; mark the open ones for the block search."""
-        r, col = np.nonzero(self.want[batch])
+    def _cells(
+        self, batch: IntArray, want: BoolArray, lists: _Lists
+    ) -> tuple[_Cellset, tuple[IntArray, IntArray]]:
+        """The donors of the cells ``want`` (rows of ``batch`` x fill columns) from the rows' lists.
+
+        Returns the cells that are settled (column, row, donors, squared distances) and
+        the open ones (position in ``batch``, column): short of donors while more may
+        exist, or tied with the ``kmax``-th donor past the list.
+        """
+        r, col = np.nonzero(want)
         ld2 = lists.d2
         good = self.ok[np.maximum(lists.index[r], 0), col[:, None]] & np.isfinite(ld2[r])
         pos = self.first(good, self.keep + 1)  # one more: the next donor
@@ -360,9 +402,16 @@ class TreeSearch:
         count = (idx >= 0).sum(axis=1)
         open_ = still_open(d2, count, self.kmax, beyond, self.model.noise)
         done = ~open_
-        self.put(col[done], batch[r[done]], idx[done], d2[done])
-        redo[batch[r[open_]], col[open_]] = True
+        return (col[done], batch[r[done]], idx[done], d2[done]), (r[open_], col[open_])
 
+
+def _parts(bound: FloatArray, size: int) -> Iterator[IntArray]:
+    """Rows by ascending bound, in runs of at most ``size``; rows without a bound (``inf``) in runs of their own."""
+    order = np.argsort(bound, kind="stable")
+    cut = int(np.isfinite(bound).sum())
+    for run in (order[:cut], order[cut:]):
+        for i in range(0, len(run), max(size, 1)):
+            yield run[i : i + size]
 
 
 def tree_search(
