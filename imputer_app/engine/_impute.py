@@ -27,6 +27,7 @@ from imputer_app.engine._result import FillResult, build_result
 from imputer_app.engine._search import search_cells
 from imputer_app.engine._stack import Stack
 from imputer_app.engine._support import weak_threshold
+from imputer_app.engine._tree_search import PATH_NAMES
 from imputer_app.plan import FillPlan
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
@@ -113,7 +114,9 @@ def impute(
     calibration = None if gaps is None else calibrate(inp, table, _masks(censored), gaps, cancel)
     if calibration is not None:
         add_intervals(records, table, calibration)
-    result = build_result(inp, table, records, threshold, cancel)
+    result = dataclasses.replace(
+        build_result(inp, table, records, threshold, cancel), search=PATH_NAMES[found.path]
+    )
     report(progress, steps + 1, steps + 1)
     return dataclasses.replace(result, calibration=calibration) if calibration is not None else result
 

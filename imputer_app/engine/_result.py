@@ -52,6 +52,9 @@ class FillResult:
         nothing was filled).
     calibration : Calibration or None
         How the intervals were calibrated (None when ``plan.interval_level`` is None).
+    search : str
+        Which neighbour search found the donors (all pairs in blocks, or k-d trees per
+        gap pattern for long sheets with few similarity columns); both are exact.
 
     Notes
     -----
@@ -69,6 +72,7 @@ class FillResult:
     warnings: tuple[str, ...]
     k_weak_threshold: float
     calibration: Calibration | None = None
+    search: str = ""
 
     @property
     def array(self) -> NDArray[Any]:

@@ -65,6 +65,7 @@ LABELS = {
     "best_k_1se": "k by the one-standard-error rule",
     "ks": "k values tested",
     "baseline_score": "baseline score (column average)",
+    "neighbour_search": "neighbour search",
 }
 
 
@@ -125,7 +126,11 @@ def build_record(
     log = result.log
     methods = log["method"].astype(str) if len(log) else pd.Series([], dtype=str)
     record: dict[str, Any] = {
-        "run": {"kinfill_version": __version__, "created_utc": utc_now()},
+        "run": {
+            "kinfill_version": __version__,
+            "created_utc": utc_now(),
+            "neighbour_search": getattr(result, "search", "") or None,
+        },
         "input": _input(sheet),
         "output": dict(output),
         "counts": {
