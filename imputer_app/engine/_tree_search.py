@@ -51,24 +51,26 @@ MAX_COLUMNS = 15
 MIN_ROWS = 20_000
 #: A target pattern with fewer rows (in its group) goes to the block search.
 MIN_TARGETS = 256
-#: A candidate pattern with fewer rows is compared directly instead of through a tree.
-MIN_TREE = 32
+#: A candidate pattern with fewer rows is compared directly instead of through a tree: in
+#: 8 to 10 dimensions a bounded tree query visits most of a small tree, while a matrix
+#: product compares a few thousand rows in microseconds.
+MIN_TREE = 8192
 #: Target rows per batch (progress and cancel between batches; bounds the memory).
 BATCH = 4096
 #: Rounds of ever longer lists (x4 each) before an open cell goes to the block search.
 ROUNDS = 3
 #: A tree of at most this many rows is asked for a whole batch at once (with its largest bound).
-SMALL_TREE = 8192
+SMALL_TREE = 0
 #: Rows per bounded tree query (rows sorted by bound, so that one bound fits them all).
-SUB = 256
+SUB = 128
 #: Candidate rows per direct comparison block.
 DIRECT = 4096
-#: Work of one tree query in candidate comparisons, per power of two of the dimension
-#: (measured on 600,000 x 9 normal rows: about 0.4 ms, where the block search compares
-#: about 100,000 pairs).
+#: Work of one tree query in the block search's pair comparisons, per power of two of the
+#: dimension (measured on normal rows with 9 columns: 0.4 ms per query in 600,000 rows, about
+#: 1.3 ms in 60,000 rows on a busy machine where the block search took 64 ns per pair).
 QUERY = 180
-#: Work of one bounded query of a further tree, in candidate comparisons.
-BOUNDED = 64
+#: Work of one direct comparison, in the block search's pair comparisons (measured).
+DIRECT_PAIR = 0.75
 #: A fill column whose donors are fewer than this share of the candidates goes to the block search.
 DENSE_SHARE = 0.3
 #: Threads of one tree query.
@@ -146,24 +148,29 @@ def _keys(lay: Layout, rows: IntArray) -> dict[tuple[int, int], IntArray]:
 def tree_pays(lay: Layout, want: BoolArray, candidates: BoolArray) -> bool:
     """Whether the trees are estimated to cost less than half the block search.
 
-    The block search compares every target row with every candidate; a tree query
-    costs about ``QUERY x 2^|T|`` comparisons (no more than the candidates), a bounded
-    query of a further tree :data:`BOUNDED`; rows of rare patterns are compared with
-    every candidate either way.
+    Costs are counted in the block search's pair comparisons: it compares every target
+    row with every candidate. The trees cost, per target row of a common pattern ``T``,
+    one query of its largest candidate pattern's tree (about ``QUERY x 2^|T|``, no more
+    than its rows), a bounded query of every further tree (a quarter of that) and
+    :data:`DIRECT_PAIR` per row of the small candidate patterns compared directly; rows
+    of rare target patterns are compared with every candidate either way.
     """
     n_cand = int(candidates.sum())
     rows = np.flatnonzero(want.any(axis=1))
     if n_cand < MIN_ROWS or not len(rows):
         return False
-    by_target = _keys(lay, rows)
     by_cand = Counter(zip(lay.group[candidates].tolist(), lay.pattern[candidates].tolist(), strict=True))
-    trees = Counter(g for (g, _), count in by_cand.items() if count >= MIN_TREE)
     cost = 0.0
-    for (g, bits), part in by_target.items():
+    for (g, bits), part in _keys(lay, rows).items():
         if len(part) < MIN_TARGETS:
             cost += len(part) * n_cand
-        else:
-            cost += len(part) * (min(n_cand, QUERY * 2.0 ** bin(bits).count("1")) + BOUNDED * trees[g])
+            continue
+        query = QUERY * 2.0 ** bin(bits).count("1")
+        sizes = [n for (gc, cb), n in by_cand.items() if gc == g and cb & bits]
+        trees = sorted((n for n in sizes if n >= MIN_TREE), reverse=True)
+        small = sum(n for n in sizes if n < MIN_TREE)
+        tree_cost = sum(min(n, query if i == 0 else query / 4) for i, n in enumerate(trees))
+        cost += len(part) * (tree_cost + DIRECT_PAIR * small)
     return cost < 0.5 * len(rows) * n_cand
 
 
@@ -354,34 +361,41 @@ class TreeSearch:
             lists.merge(part, index, d2, past)
 
     def _direct(self, bits: int, batch: IntArray, rows: IntArray, lists: _Lists) -> None:
-        """Compare ``batch`` with the rows of rare candidate patterns (product form, one pattern of targets)."""
+        """Compare ``batch`` with the rows of small candidate patterns directly (one pattern of targets).
+
+        One matrix product per block gives ``sum_S (x - y)^2`` in product form:
+        ``[t^2 | t | 1] . [m | -2c | sum c^2]`` (gaps 0), times ``W_all / W_S`` per candidate.
+        """
         cols = self.lay.columns(bits)
         lay, noise = self.lay, self.model.noise
         t = lay.x[np.ix_(batch, cols)]
-        t2 = t * t
+        left = np.hstack([t * t, t, np.ones((len(batch), 1))])
         for start in range(0, len(rows), DIRECT):
             cand = rows[start : start + DIRECT]
             c, m = lay.x[np.ix_(cand, cols)], lay.mask[np.ix_(cand, cols)]
-            shared = m @ lay.weights[cols]
-            e2 = t2 @ m.T.astype(np.float64) + (c * c).sum(axis=1) - 2.0 * (t @ c.T)
-            with np.errstate(divide="ignore"):
-                d2 = np.maximum(e2, 0.0) * np.where(shared > 0, lay.total / shared, np.inf)
-            d2[cand[None, :] == batch[:, None]] = np.inf
+            right = np.hstack([m, -2.0 * c, (c * c).sum(axis=1, keepdims=True)])
+            d2 = left @ right.T
+            d2 *= lay.total / (m @ lay.weights[cols])  # the rows share a column (by pattern)
+            for line in np.flatnonzero(np.isin(batch, cand)).tolist():  # never the row itself
+                d2[line, np.searchsorted(cand, batch[line])] = np.inf
             # entries near or inside the bound go to the merge (the exact distances decide);
             # a row whose list is not full takes its nearest ``size`` of this block
-            reach = lists.bound.copy()
+            reach = lists.bound + noise
             wide = ~np.isfinite(reach)
             if wide.any():
                 size = min(lists.d2.shape[1], d2.shape[1]) - 1
-                reach[wide] = np.partition(d2[wide], size, axis=1)[:, size]
-            r, j = np.nonzero(d2 <= reach[:, None] + noise)
-            if not len(r):
+                reach[wide] = np.partition(d2[wide], size, axis=1)[:, size] + noise
+            near = d2 <= reach[:, None]
+            some = np.flatnonzero(near.any(axis=1))  # few rows have a hit: search only those
+            if not len(some):
                 continue
+            r, j = np.nonzero(near[some])
+            r = some[r]
             width = int(np.bincount(r).max())
             pos = np.arange(len(r)) - np.searchsorted(r, r)
             index = np.full((len(batch), width), -1, dtype=np.intp)
             dist = np.full((len(batch), width), np.inf)
-            index[r, pos], dist[r, pos] = cand[j], d2[r, j]
+            index[r, pos], dist[r, pos] = cand[j], np.maximum(d2[r, j], 0.0)
             lists.merge(np.arange(len(batch)), index, dist, np.full(len(batch), np.inf))
 
     def _cells(
