@@ -74,8 +74,9 @@ def main() -> None:
     out = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True).stdout
     print("\n".join(line for line in out.splitlines() if "seconds=" not in line), flush=True)
     seconds = float(out.rsplit("seconds=", 1)[1].split()[0])
+    ratio = t_block * scale / seconds
     print(f"      block search extrapolated to {ROWS} rows: {t_block * scale:.0f} s "
-          f"(square law from the slice) -> whole fill {t_block * scale / seconds:.1f}x faster", flush=True)  # fmt: skip
+          f"(square law from the slice) -> whole fill {ratio:.1f}x faster", flush=True)  # fmt: skip
     print(f"   wide: 200000 x 30, 5% gaps: the cost estimate takes {_wide_choice()}")
     t_auto, used = _search_seconds(20_000, 30, "auto")
     t_old, _ = _search_seconds(20_000, 30, "block")

@@ -226,7 +226,9 @@ def nearest_donors(
     )
     bounds = np.searchsorted(col, np.arange(len(table.fill_columns) + 1))
     return {
-        name: ColumnDonors(found.rows[a:b], found.index[a:b], found.distance[a:b], found.count[a:b], found.path)
+        name: ColumnDonors(
+            found.rows[a:b], found.index[a:b], found.distance[a:b], found.count[a:b], found.path
+        )
         for name, a, b in zip(table.fill_columns, bounds[:-1], bounds[1:], strict=True)
     }
 
@@ -266,8 +268,7 @@ def search_cells(
     keep = kmax + extra_donors(kmax)
     cells = _Cells.of(want, keep)
     active = np.flatnonzero(want.any(axis=0) & ok.any(axis=0))
-    steps: int | None = 1
-    tree = False
+    steps, tree = 1, None
     if len(active):
         search = BlockSearch(DistanceModel(table.features), table.groups, budget)
 
@@ -276,13 +277,12 @@ def search_cells(
             return _Jobs(search, some, ok, kmax, cols).run(cells, progress, cancel) if len(cols) else 1
 
         put, first = cells.put, first_positions
-        steps = tree_search(table, search.model, want, ok, kmax=kmax, keep=keep, put=put, block=block,
-                            first=first, path=path, progress=progress, cancel=cancel)  # fmt: skip
-        tree = steps is not None
-        steps = steps if steps is not None else block(want, progress)
+        tree = tree_search(table, search.model, want, ok, kmax=kmax, keep=keep, put=put, block=block,
+                           first=first, path=path, progress=progress, cancel=cancel)  # fmt: skip
+        steps = tree if tree is not None else block(want, progress)
     report(progress, steps, steps)
     found, col = cells.flat()
-    found.path = "tree" if tree else "block"
+    found.path = "block" if tree is None else "tree"
     return found, col
 
 

@@ -131,7 +131,9 @@ def layout(features: Features, groups: IntArray | None) -> Layout | None:
     x = np.where(mask, numbers, 0.0) * np.sqrt(weights)
     pattern = (mask.astype(np.intp) << np.arange(p)).sum(axis=1)
     group = np.zeros(len(x), dtype=np.intp) if groups is None else np.asarray(groups, dtype=np.intp)
-    return Layout(x, mask, np.asarray(weights, dtype=np.float64), float(features.total_weight), pattern, group)
+    return Layout(
+        x, mask, np.asarray(weights, dtype=np.float64), float(features.total_weight), pattern, group
+    )
 
 
 def _keys(lay: Layout, rows: IntArray) -> dict[tuple[int, int], IntArray]:
@@ -142,7 +144,9 @@ def _keys(lay: Layout, rows: IntArray) -> dict[tuple[int, int], IntArray]:
     order = np.argsort(key, kind="stable")
     uniq, start = np.unique(key[order], return_index=True)
     parts = np.split(rows[order], start[1:])
-    return {(int(u >> 20), int(u & ((1 << 20) - 1))): part for u, part in zip(uniq.tolist(), parts, strict=True)}
+    return {
+        (int(u >> 20), int(u & ((1 << 20) - 1))): part for u, part in zip(uniq.tolist(), parts, strict=True)
+    }
 
 
 def tree_pays(lay: Layout, want: BoolArray, candidates: BoolArray) -> bool:
@@ -260,7 +264,8 @@ class TreeSearch:
             for key, rows in common.items():
                 list(pool.map(self._tree, self._tree_keys(*key)))
                 batches = [rows[i : i + BATCH] for i in range(0, len(rows), BATCH)]
-                for found, (line, col) in pool.map(lambda b: self._batch(key, b, cancel), batches):
+                keys = [key] * len(batches)
+                for found, (line, col) in pool.map(self._batch, keys, batches, [cancel] * len(batches)):
                     for cells in found:
                         self.put(*cells)
                     redo[line, col] = True
@@ -357,7 +362,9 @@ class TreeSearch:
             d2[index == batch[part][:, None]] = np.inf  # never the row itself
             # a candidate not returned is at least as far as the last returned, or past the bound
             full = found[:, -1] & (size < len(rows))
-            past = np.where(full, factor * e[:, -1] ** 2, factor * upper**2 if math.isfinite(upper) else np.inf)
+            past = np.where(
+                full, factor * e[:, -1] ** 2, factor * upper**2 if math.isfinite(upper) else np.inf
+            )
             lists.merge(part, index, d2, past)
 
     def _direct(self, bits: int, batch: IntArray, rows: IntArray, lists: _Lists) -> None:
@@ -420,7 +427,7 @@ class TreeSearch:
 
 
 def _parts(bound: FloatArray, size: int) -> Iterator[IntArray]:
-    """Rows by ascending bound, in runs of at most ``size``; rows without a bound (``inf``) in runs of their own."""
+    """Rows by ascending bound, in runs of at most ``size``; rows without a bound (``inf``) run apart."""
     order = np.argsort(bound, kind="stable")
     cut = int(np.isfinite(bound).sum())
     for run in (order[:cut], order[cut:]):
@@ -452,6 +459,6 @@ def tree_search(
     if path not in PATHS:
         raise ValueError(f"path must be one of {', '.join(PATHS)}; got {path!r}")
     lay = None if path == "block" else layout(table.features, table.groups)
-    if lay is None or (path == "auto" and not tree_pays(lay, want, ok.any(axis=1))):
+    if lay is None or (path == "auto" and not tree_pays(lay, want, np.asarray(ok.any(axis=1), dtype=bool))):
         return None
     return TreeSearch(lay, model, want, ok, kmax, keep, put, block, first).run(progress, cancel)

@@ -92,7 +92,9 @@ def test_tree_matches_block_with_groups(monkeypatch: pytest.MonkeyPatch) -> None
 
 
 @pytest.mark.parametrize(("values", "kmax"), [(3, 4), (5, 5), (2, 2)])
-def test_tree_matches_block_on_integer_grid_ties(monkeypatch: pytest.MonkeyPatch, values: int, kmax: int) -> None:
+def test_tree_matches_block_on_integer_grid_ties(
+    monkeypatch: pytest.MonkeyPatch, values: int, kmax: int
+) -> None:
     """Whole numbers on a small grid: many donors tie at the k-th distance; they share its places."""
     _lower_limits(monkeypatch)
     rng = np.random.default_rng(values)
@@ -107,7 +109,7 @@ def test_tree_matches_block_on_integer_grid_ties(monkeypatch: pytest.MonkeyPatch
 
 
 def test_tree_matches_block_for_given_targets_and_fill_only_columns(monkeypatch: pytest.MonkeyPatch) -> None:
-    """Targets that are observed (their own row must never be a donor) and a fill column outside the distance."""
+    """Observed targets (their own row is never a donor) and a fill column outside the distance."""
     _lower_limits(monkeypatch)
     frame = random_frame(400, 4, 0.1, seed=6)
     plan = FillPlan(scaling="none", similarity_columns=["c0", "c1", "c2"], fill_columns=["c2", "c3"])
