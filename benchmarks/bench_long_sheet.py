@@ -21,7 +21,7 @@ import time
 import numpy as np
 
 from benchmarks.bench_engine import PLAN, _data, _peak_gb
-from imputer_app.engine import _tree_search, impute, nearest_donors, prepare
+from imputer_app.engine import _patterns, impute, nearest_donors, prepare
 
 ROWS = int(os.environ.get("KINFILL_BENCH_LONG_ROWS", 1_048_576))
 SLICE = 100_000
@@ -55,11 +55,11 @@ def _wide_choice() -> str:
     """The path the cost estimate takes for 200,000 x 30 (no search run)."""
     _, frame = _data(200_000, 30, 0.05)
     table = prepare(frame, PLAN)
-    lay = _tree_search.layout(table.features, table.groups)
+    lay = _patterns.layout(table.features, table.groups)
     if lay is None:
-        return f"block ({len(table.similarity_columns)} similarity columns > {_tree_search.MAX_COLUMNS})"
+        return f"block ({len(table.similarity_columns)} similarity columns > {_patterns.MAX_COLUMNS})"
     want = frame.isna().to_numpy()
-    return "tree" if _tree_search.tree_pays(lay, want, np.ones(len(frame), bool)) else "block"
+    return "tree" if _patterns.tree_pays(lay, want, np.ones(len(frame), bool)) else "block"
 
 
 def main() -> None:

@@ -6,14 +6,16 @@ Dixon's distance is ``d^2 = W_all / W_S x sum_{j in S} w_j (x_j - y_j)^2``: a fi
 multiple of the Euclidean distance in the subspace ``S`` once each column is multiplied
 by ``sqrt(w_j)``. So one k-d tree (scipy's ``cKDTree``, exact) per (group, candidate
 pattern, ``S``) answers every target of pattern ``T`` exactly. Target rows are taken
-pattern by pattern in batches; each batch asks the largest candidate pattern first
-(which gives every row a bound: its list's last distance), then every other candidate
-pattern with that bound (a tree search that stops at the bound is cheap), and compares
-the rows of rare candidate patterns directly. The merged lists are handled like the
+pattern by pattern in batches; each batch asks the largest candidate pattern's tree
+first (which gives every row a bound: its list's last distance), then the trees of the
+other large candidate patterns within that bound, and compares the rows of small
+candidate patterns directly (one matrix product). The merged lists are handled like the
 block search's: every cell keeps its first donors, their distances are made exact and
 re-sorted, and cells whose tie with the ``kmax``-th donor may run past the list, or
 short of donors, are searched again by the block search, as are target rows of rare
-patterns. Only numeric similarity columns, at most :data:`MAX_COLUMNS` of them.
+patterns. Only numeric similarity columns, at most
+:data:`~imputer_app.engine._patterns.MAX_COLUMNS` of them; :func:`tree_search` says
+whether the trees are used.
 """
 
 from __future__ import annotations
@@ -28,8 +30,9 @@ import numpy as np
 from numpy.typing import NDArray
 from scipy.spatial import cKDTree
 
-from imputer_app.engine._distance import DistanceModel, Features
+from imputer_app.engine._distance import DistanceModel
 from imputer_app.engine._exact import exact_cells, still_open
+from imputer_app.engine._patterns import MIN_TARGETS, MIN_TREE, Layout, by_pattern, layout, tree_pays
 from imputer_app.engine._table import PreparedTable
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
@@ -45,35 +48,17 @@ First = Callable[[BoolArray, int], IntArray]
 #: Settled cells: column, row, donor rows, squared distances.
 _Cellset = tuple[IntArray, IntArray, IntArray, FloatArray]
 
-#: More numeric similarity columns than this: a k-d tree no longer pays.
-MAX_COLUMNS = 15
-#: Fewer candidate rows than this: the block search is quick anyway.
-MIN_ROWS = 20_000
-#: A target pattern with fewer rows (in its group) goes to the block search.
-MIN_TARGETS = 256
-#: A candidate pattern with fewer rows is compared directly instead of through a tree: in
-#: 8 to 10 dimensions a bounded tree query visits most of a small tree, while a matrix
-#: product compares a few thousand rows in microseconds.
-MIN_TREE = 8192
 #: Target rows per batch (progress and cancel between batches; bounds the memory).
 BATCH = 4096
 #: Rounds of ever longer lists (x4 each) before an open cell goes to the block search.
 ROUNDS = 3
-#: A tree of at most this many rows is asked for a whole batch at once (with its largest bound).
-SMALL_TREE = 0
 #: Rows per bounded tree query (rows sorted by bound, so that one bound fits them all).
 SUB = 128
 #: Candidate rows per direct comparison block.
 DIRECT = 4096
-#: Work of one tree query in the block search's pair comparisons, per power of two of the
-#: dimension (measured on normal rows with 9 columns: 0.4 ms per query in 600,000 rows, about
-#: 1.3 ms in 60,000 rows on a busy machine where the block search took 64 ns per pair).
-QUERY = 180
-#: Work of one direct comparison, in the block search's pair comparisons (measured).
-DIRECT_PAIR = 0.75
 #: A fill column whose donors are fewer than this share of the candidates goes to the block search.
 DENSE_SHARE = 0.3
-#: Threads of one tree query.
+#: Batches searched side by side (tree queries and numpy release the GIL).
 WORKERS = 2
 #: The ``path`` settings of the search: choose by cost, or force one.
 PATHS = ("auto", "tree", "block")
@@ -82,100 +67,6 @@ PATH_NAMES = {
     "tree": "k-d trees per gap pattern (exact)",
     "block": "all pairs in blocks (exact)",
 }
-
-
-@dataclass(frozen=True)
-class Layout:
-    """The similarity columns as tree coordinates.
-
-    Attributes
-    ----------
-    x : ndarray of shape (n_rows, p)
-        Values times ``sqrt(weight)``, 0 in gaps (positive weights only).
-    mask : ndarray of bool, shape (n_rows, p)
-    weights : ndarray of shape (p,)
-    total : float
-        ``W_all``, the weight of all similarity columns.
-    pattern : ndarray of int, shape (n_rows,)
-        The observed columns as bits.
-    group : ndarray of int, shape (n_rows,)
-        Group codes (-1: no group), all 0 without a group column.
-    """
-
-    x: FloatArray
-    mask: BoolArray
-    weights: FloatArray
-    total: float
-    pattern: IntArray
-    group: IntArray
-
-    def columns(self, bits: int) -> IntArray:
-        """Column positions of a pattern."""
-        return np.flatnonzero((bits >> np.arange(self.x.shape[1])) & 1)
-
-    def factor(self, bits: int) -> float:
-        """``W_all / W_S`` for the shared columns ``bits``."""
-        return self.total / float(self.weights[self.columns(bits)].sum())
-
-
-def layout(features: Features, groups: IntArray | None) -> Layout | None:
-    """The tree coordinates, or None when the trees cannot serve (categories, too many columns)."""
-    if features.codes.shape[1]:
-        return None  # Gower's matching rule: left to the block search
-    keep = features.number_weights > 0
-    p = int(keep.sum())
-    if p == 0 or p > MAX_COLUMNS:
-        return None
-    numbers, weights = features.numbers[:, keep], features.number_weights[keep]
-    mask = np.isfinite(numbers)
-    x = np.where(mask, numbers, 0.0) * np.sqrt(weights)
-    pattern = (mask.astype(np.intp) << np.arange(p)).sum(axis=1)
-    group = np.zeros(len(x), dtype=np.intp) if groups is None else np.asarray(groups, dtype=np.intp)
-    return Layout(
-        x, mask, np.asarray(weights, dtype=np.float64), float(features.total_weight), pattern, group
-    )
-
-
-def _keys(lay: Layout, rows: IntArray) -> dict[tuple[int, int], IntArray]:
-    """``rows`` by (group, pattern), each ascending."""
-    if not len(rows):
-        return {}
-    key = lay.group[rows].astype(np.int64) * (1 << 20) + lay.pattern[rows]
-    order = np.argsort(key, kind="stable")
-    uniq, start = np.unique(key[order], return_index=True)
-    parts = np.split(rows[order], start[1:])
-    return {
-        (int(u >> 20), int(u & ((1 << 20) - 1))): part for u, part in zip(uniq.tolist(), parts, strict=True)
-    }
-
-
-def tree_pays(lay: Layout, want: BoolArray, candidates: BoolArray) -> bool:
-    """Whether the trees are estimated to cost less than half the block search.
-
-    Costs are counted in the block search's pair comparisons: it compares every target
-    row with every candidate. The trees cost, per target row of a common pattern ``T``,
-    one query of its largest candidate pattern's tree (about ``QUERY x 2^|T|``, no more
-    than its rows), a bounded query of every further tree (a quarter of that) and
-    :data:`DIRECT_PAIR` per row of the small candidate patterns compared directly; rows
-    of rare target patterns are compared with every candidate either way.
-    """
-    n_cand = int(candidates.sum())
-    rows = np.flatnonzero(want.any(axis=1))
-    if n_cand < MIN_ROWS or not len(rows):
-        return False
-    by_cand = Counter(zip(lay.group[candidates].tolist(), lay.pattern[candidates].tolist(), strict=True))
-    cost = 0.0
-    for (g, bits), part in _keys(lay, rows).items():
-        if len(part) < MIN_TARGETS:
-            cost += len(part) * n_cand
-            continue
-        query = QUERY * 2.0 ** bin(bits).count("1")
-        sizes = [n for (gc, cb), n in by_cand.items() if gc == g and cb & bits]
-        trees = sorted((n for n in sizes if n >= MIN_TREE), reverse=True)
-        small = sum(n for n in sizes if n < MIN_TREE)
-        tree_cost = sum(min(n, query if i == 0 else query / 4) for i, n in enumerate(trees))
-        cost += len(part) * (tree_cost + DIRECT_PAIR * small)
-    return cost < 0.5 * len(rows) * n_cand
 
 
 @dataclass
@@ -251,10 +142,10 @@ class TreeSearch:
         cand = self.ok.any(axis=1)
         dense = self.ok[cand].mean(axis=0) >= DENSE_SHARE if cand.any() else np.zeros(self.ok.shape[1], bool)
         self.want = self.want & dense
-        self._cand = _keys(self.lay, np.flatnonzero((self.ok & dense).any(axis=1)))
-        targets = _keys(self.lay, np.flatnonzero(self.want.any(axis=1)))
+        self._cand = by_pattern(self.lay, np.flatnonzero((self.ok & dense).any(axis=1)))
+        targets = by_pattern(self.lay, np.flatnonzero(self.want.any(axis=1)))
         common = {k: v for k, v in targets.items() if len(v) >= MIN_TARGETS and k[0] >= 0 and k[1]}
-        self._uses = Counter(t for key in common for t in self._tree_keys(*key))
+        self._uses = Counter(t for key in common for t in self._treeby_pattern(*key))
         for key in common:
             redo[np.ix_(common[key], np.flatnonzero(dense))] = False
         total = sum(math.ceil(len(v) / BATCH) for v in common.values()) + 2
@@ -262,7 +153,7 @@ class TreeSearch:
         pool = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="kinfill-trees")
         try:  # batches side by side: tree queries and numpy release the GIL
             for key, rows in common.items():
-                list(pool.map(self._tree, self._tree_keys(*key)))
+                list(pool.map(self._tree, self._treeby_pattern(*key)))
                 batches = [rows[i : i + BATCH] for i in range(0, len(rows), BATCH)]
                 keys = [key] * len(batches)
                 for found, (line, col) in pool.map(self._batch, keys, batches, [cancel] * len(batches)):
@@ -303,7 +194,7 @@ class TreeSearch:
         line, col = np.nonzero(want)
         return found, (batch[line], col)
 
-    def _tree_keys(self, g: int, bits: int) -> Iterator[tuple[int, int, int]]:
+    def _treeby_pattern(self, g: int, bits: int) -> Iterator[tuple[int, int, int]]:
         """(group, candidate pattern, shared columns) of the trees a target pattern asks."""
         for gc, cbits in self._cand:
             if gc == g and bits & cbits and len(self._cand[gc, cbits]) >= MIN_TREE:
@@ -311,7 +202,7 @@ class TreeSearch:
 
     def _release(self, key: tuple[int, int]) -> None:
         """Drop the trees no later target pattern asks (one per pattern: they add up)."""
-        for t in self._tree_keys(*key):
+        for t in self._treeby_pattern(*key):
             self._uses[t] -= 1
             if self._uses[t] <= 0:
                 self._trees.pop(t, None)
@@ -333,7 +224,7 @@ class TreeSearch:
         """The merged nearest ``size`` candidates of ``batch`` (target rows of one group and pattern)."""
         g, bits = key
         lists = _Lists.empty(len(batch), size)
-        trees = sorted(self._tree_keys(g, bits), key=lambda t: -len(self._cand[t[0], t[1]]))
+        trees = sorted(self._treeby_pattern(g, bits), key=lambda t: -len(self._cand[t[0], t[1]]))
         for t in trees:
             self._query(t, batch, lists)
         rare = [r for (gc, cb), r in self._cand.items() if gc == g and cb & bits and len(r) < MIN_TREE]
@@ -348,7 +239,7 @@ class TreeSearch:
         cols, factor = self.lay.columns(t[2]), self.lay.factor(t[2])
         size = min(lists.d2.shape[1] + 1, len(rows))  # one more: the row itself may be among them
         bound = lists.bound
-        for part in _parts(bound, SUB if len(rows) > SMALL_TREE else len(bound)):
+        for part in _parts(bound, SUB):
             reach = float(bound[part[-1]])  # the largest bound of the part (sorted)
             upper = math.sqrt(reach / factor) * (1 + 1e-9) + 1e-300 if math.isfinite(reach) else np.inf
             e, i = tree.query(
@@ -453,8 +344,9 @@ def tree_search(
     """Run the tree path when ``path`` asks for it ("tree") or it is estimated to pay ("auto").
 
     Returns the progress steps, or None when the block search is to run instead
-    (``path`` "block", categorical similarity columns, more than :data:`MAX_COLUMNS`
-    numeric ones, or too little to gain: :func:`tree_pays`).
+    (``path`` "block", categorical similarity columns, more than
+    :data:`~imputer_app.engine._patterns.MAX_COLUMNS` numeric ones, or too little to gain:
+    :func:`~imputer_app.engine._patterns.tree_pays`).
     """
     if path not in PATHS:
         raise ValueError(f"path must be one of {', '.join(PATHS)}; got {path!r}")

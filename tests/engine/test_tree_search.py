@@ -9,7 +9,7 @@ import pandas as pd
 import pytest
 from sklearn.impute import KNNImputer
 
-from imputer_app.engine import _tree_search, combine, impute, nearest_donors, prepare
+from imputer_app.engine import _patterns, _tree_search, combine, impute, nearest_donors, prepare
 from imputer_app.engine._search import ColumnDonors
 from imputer_app.engine._ties import shares
 from imputer_app.errors import Cancelled
@@ -59,7 +59,6 @@ def _lower_limits(monkeypatch: pytest.MonkeyPatch) -> None:
     """Trees for patterns of a few rows, so that small tables take every branch of the path."""
     monkeypatch.setattr(_tree_search, "MIN_TARGETS", 4)
     monkeypatch.setattr(_tree_search, "MIN_TREE", 4)
-    monkeypatch.setattr(_tree_search, "SMALL_TREE", 64)
     monkeypatch.setattr(_tree_search, "SUB", 16)
     monkeypatch.setattr(_tree_search, "BATCH", 64)
 
@@ -153,19 +152,18 @@ def test_auto_keeps_the_block_search_where_the_trees_do_not_pay() -> None:
 def test_cost_estimate_prefers_trees_for_long_narrow_sheets() -> None:
     frame = random_frame(200_000, 6, 0.05, seed=10)
     table = prepare(frame, FillPlan(scaling="none"))
-    lay = _tree_search.layout(table.features, table.groups)
+    lay = _patterns.layout(table.features, table.groups)
     assert lay is not None
     want = frame.isna().to_numpy()
-    assert _tree_search.tree_pays(lay, want, (~want).any(axis=1))
-    short = _tree_search.layout(prepare(frame.head(5000), FillPlan()).features, None)
+    assert _patterns.tree_pays(lay, want, (~want).any(axis=1))
+    short = _patterns.layout(prepare(frame.head(5000), FillPlan()).features, None)
     assert short is not None
-    assert not _tree_search.tree_pays(short, want[:5000], (~want[:5000]).any(axis=1))  # below MIN_ROWS
+    assert not _patterns.tree_pays(short, want[:5000], (~want[:5000]).any(axis=1))  # below MIN_ROWS
 
 
 def test_impute_says_which_search_it_used(monkeypatch: pytest.MonkeyPatch) -> None:
     frame = random_frame(300, 3, 0.1, seed=11)
     assert impute(frame, FillPlan(k=2)).search == _tree_search.PATH_NAMES["block"]
-    monkeypatch.setattr(_tree_search, "MIN_ROWS", 10)
     monkeypatch.setattr(_tree_search, "tree_pays", lambda *a: True)
     assert impute(frame, FillPlan(k=2)).search == _tree_search.PATH_NAMES["tree"]
 
