@@ -19,16 +19,16 @@ from imputer_app.engine._search import ColumnDonors, nearest_donors
 from imputer_app.engine._table import PreparedTable
 
 __all__ = [
+    "FAR",
+    "WIDE_RANGE",
     "Calibration",
     "ColumnCalibration",
     "ColumnDonors",
-    "FAR",
     "FillResult",
     "HiddenCells",
     "NeighbourCache",
     "PreparedTable",
     "SheetLike",
-    "WIDE_RANGE",
     "calibrate_intervals",
     "combine",
     "default_role_reasons",

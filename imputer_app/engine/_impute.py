@@ -29,6 +29,7 @@ from imputer_app.engine._search import ColumnDonors, search_cells
 from imputer_app.engine._stack import Stack
 from imputer_app.engine._support import weak_threshold
 from imputer_app.engine._table import PreparedTable
+from imputer_app.engine._tree_search import PATH_NAMES
 from imputer_app.plan import FillPlan
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
@@ -151,7 +152,9 @@ def fill_with(
     )
     if calibration is not None:
         add_intervals(records, table, calibration)
-    result = build_result(inp, table, records, threshold, cancel)
+    result = dataclasses.replace(
+        build_result(inp, table, records, threshold, cancel), search=PATH_NAMES[found.path]
+    )
     report(progress, steps + 1, steps + 1)
     return dataclasses.replace(result, calibration=calibration) if calibration is not None else result
 

@@ -57,6 +57,9 @@ class FillResult:
         Per numeric fill column that was rounded, the decimals of its filled numbers
         (the plan's ``decimals``, else the sheet's measured precision under
         ``plan.rounding``); interval bounds are rounded outward to the same decimals.
+    search : str
+        Which neighbour search found the donors (all pairs in blocks, or k-d trees per
+        gap pattern for long sheets with few similarity columns); both are exact.
     coverage : DataFrame or None
         Nominal against observed coverage of the intervals (see :attr:`coverage`).
 
@@ -77,6 +80,7 @@ class FillResult:
     k_weak_threshold: float
     calibration: Calibration | None = None
     decimals: Mapping[str, int] = field(default_factory=dict)
+    search: str = ""
 
     @property
     def coverage(self) -> pd.DataFrame | None:

@@ -28,6 +28,7 @@ from imputer_app.engine._distance import DistanceModel
 from imputer_app.engine._exact import exact_cells, exact_lists, exact_sorted, still_open
 from imputer_app.engine._nearest import BlockSearch, _pad, chunks, top_l
 from imputer_app.engine._table import PreparedTable
+from imputer_app.engine._tree_search import tree_search
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
 IntArray = NDArray[np.intp]
@@ -62,12 +63,15 @@ class ColumnDonors:
         it); ``inf`` pads.
     count : ndarray of int, shape (m,)
         Number of real donors per target (may exceed kmax).
+    path : {"block", "tree"}, default="block"
+        Which search found them (:data:`~imputer_app.engine._tree_search.PATH_NAMES`).
     """
 
     rows: IntArray
     index: IntArray
     distance: FloatArray
     count: IntArray
+    path: str = "block"
 
 
 def first_positions(good: BoolArray, kmax: int) -> IntArray:
@@ -186,6 +190,7 @@ def nearest_donors(
     progress: Progress | None = None,
     cancel: CancelFlag | None = None,
     budget: int = BLOCK_BYTES,
+    path: str = "auto",
 ) -> dict[str, ColumnDonors]:
     """Find the ``kmax`` nearest donors of every target cell, per fill column.
 
@@ -204,6 +209,10 @@ def nearest_donors(
         Checked for every distance block; raises :class:`~imputer_app.errors.Cancelled`.
     budget : int, default=64 MiB
         Bytes for one distance block and its temporaries.
+    path : {"auto", "tree", "block"}, default="auto"
+        "auto" takes k-d trees per gap pattern where they are estimated to pay
+        (:mod:`~imputer_app.engine._tree_search`), else the block search; both give the
+        same donors. "tree" uses the trees wherever they can serve.
 
     Returns
     -------
@@ -221,11 +230,13 @@ def nearest_donors(
     >>> donors["nitrate"].index[0]  # row positions of the first target's donors  # doctest: +SKIP
     """
     found, col = search_cells(
-        table, kmax=kmax, targets=targets, progress=progress, cancel=cancel, budget=budget
+        table, kmax=kmax, targets=targets, progress=progress, cancel=cancel, budget=budget, path=path
     )
     bounds = np.searchsorted(col, np.arange(len(table.fill_columns) + 1))
     return {
-        name: ColumnDonors(found.rows[a:b], found.index[a:b], found.distance[a:b], found.count[a:b])
+        name: ColumnDonors(
+            found.rows[a:b], found.index[a:b], found.distance[a:b], found.count[a:b], found.path
+        )
         for name, a, b in zip(table.fill_columns, bounds[:-1], bounds[1:], strict=True)
     }
 
@@ -238,6 +249,7 @@ def search_cells(
     progress: Progress | None = None,
     cancel: CancelFlag | None = None,
     budget: int = BLOCK_BYTES,
+    path: str = "auto",
 ) -> tuple[ColumnDonors, IntArray]:
     """:func:`nearest_donors` for all fill columns as one flat set of cells (no split per column).
 
@@ -261,16 +273,26 @@ def search_cells(
         ok[:, j] = table.observed[name]
     if table.groups is not None:
         ok &= (table.groups >= 0)[:, None]
-    cells = _Cells.of(want, kmax + extra_donors(kmax))
+    keep = kmax + extra_donors(kmax)
+    cells = _Cells.of(want, keep)
     active = np.flatnonzero(want.any(axis=0) & ok.any(axis=0))
-    steps = 1
-    model = None
+    steps, tree, model = 1, None, None
     if len(active):
         model = DistanceModel(table.features)
-        jobs = _Jobs(BlockSearch(model, table.groups, budget), want, ok, kmax, active)
-        steps = jobs.run(cells, progress, cancel)
+        search = BlockSearch(model, table.groups, budget)
+
+        def block(some: BoolArray, progress: Progress | None = None) -> int:
+            cols = np.flatnonzero(some.any(axis=0) & ok.any(axis=0))
+            return _Jobs(search, some, ok, kmax, cols).run(cells, progress, cancel) if len(cols) else 1
+
+        put, first = cells.put, first_positions
+        tree = tree_search(table, model, want, ok, kmax=kmax, keep=keep, put=put, block=block,
+                           first=first, path=path, progress=progress, cancel=cancel)  # fmt: skip
+        steps = tree if tree is not None else block(want, progress)
     report(progress, steps, steps)
-    return cells.flat(model)
+    found, col = cells.flat(model)
+    found.path = "block" if tree is None else "tree"
+    return found, col
 
 
 def extra_donors(kmax: int) -> int:

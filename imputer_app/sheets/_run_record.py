@@ -69,6 +69,7 @@ LABELS = {
     "baseline_score": "baseline score (column average)",
     "coverage": "coverage on hidden cells (nominal level, observed share, cells)",
     "n_hidden": "hidden known cells used",
+    "neighbour_search": "neighbour search",
 }
 
 
@@ -129,7 +130,11 @@ def build_record(
     log = result.log
     methods = log["method"].astype(str) if len(log) else pd.Series([], dtype=str)
     record: dict[str, Any] = {
-        "run": {"kinfill_version": __version__, "created_utc": utc_now()},
+        "run": {
+            "kinfill_version": __version__,
+            "created_utc": utc_now(),
+            "neighbour_search": getattr(result, "search", "") or None,
+        },
         "input": _input(sheet),
         "output": dict(output),
         "counts": {

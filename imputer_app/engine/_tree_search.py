@@ -1,0 +1,356 @@
+"""Exact nearest donors through k-d trees, one per gap pattern (numpy + scipy).
+
+Rows are grouped by gap pattern over the similarity columns. For a target of pattern
+``T`` and a candidate of pattern ``C`` the columns both have are ``S = T & C`` and
+Dixon's distance is ``d^2 = W_all / W_S x sum_{j in S} w_j (x_j - y_j)^2``: a fixed
+multiple of the Euclidean distance in the subspace ``S`` once each column is multiplied
+by ``sqrt(w_j)``. So one k-d tree (scipy's ``cKDTree``, exact) per (group, candidate
+pattern, ``S``) answers every target of pattern ``T`` exactly. Target rows are taken
+pattern by pattern in batches; each batch asks the largest candidate pattern's tree
+first (which gives every row a bound: its list's last distance), then the trees of the
+other large candidate patterns within that bound, and compares the rows of small
+candidate patterns directly (one matrix product). The merged lists are handled like the
+block search's: every cell keeps its first donors, their distances are made exact and
+re-sorted, and cells whose tie with the ``kmax``-th donor may run past the list, or
+short of donors, are searched again by the block search, as are target rows of rare
+patterns. Only numeric similarity columns, at most
+:data:`~imputer_app.engine._patterns.MAX_COLUMNS` of them; :func:`tree_search` says
+whether the trees are used.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import Counter
+from collections.abc import Callable, Iterator
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import NDArray
+from scipy.spatial import cKDTree
+
+from imputer_app.engine._distance import DistanceModel
+from imputer_app.engine._exact import exact_cells, still_open
+from imputer_app.engine._patterns import MIN_TARGETS, MIN_TREE, Layout, by_pattern, layout, tree_pays
+from imputer_app.engine._table import PreparedTable
+from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
+
+IntArray = NDArray[np.intp]
+FloatArray = NDArray[np.float64]
+BoolArray = NDArray[np.bool_]
+#: Stores a cell's donors: column, row, donor rows, squared distances.
+Put = Callable[[IntArray, IntArray, IntArray, FloatArray], None]
+#: Runs the block search for the cells marked True (rows x fill columns).
+Block = Callable[[BoolArray], object]
+#: Picks the first ``n`` True entries per row: positions, -1 pads.
+First = Callable[[BoolArray, int], IntArray]
+#: Settled cells: column, row, donor rows, squared distances.
+_Cellset = tuple[IntArray, IntArray, IntArray, FloatArray]
+
+#: Target rows per batch (progress and cancel between batches; bounds the memory).
+BATCH = 4096
+#: Rounds of ever longer lists (x4 each) before an open cell goes to the block search.
+ROUNDS = 3
+#: Rows per bounded tree query (rows sorted by bound, so that one bound fits them all).
+SUB = 128
+#: Candidate rows per direct comparison block.
+DIRECT = 4096
+#: A fill column whose donors are fewer than this share of the candidates goes to the block search.
+DENSE_SHARE = 0.3
+#: Batches searched side by side (tree queries and numpy release the GIL).
+WORKERS = 2
+#: The ``path`` settings of the search: choose by cost, or force one.
+PATHS = ("auto", "tree", "block")
+#: How the run record names each path.
+PATH_NAMES = {
+    "tree": "k-d trees per gap pattern (exact)",
+    "block": "all pairs in blocks (exact)",
+}
+
+
+@dataclass
+class _Lists:
+    """Each target row's nearest candidates so far (search distances, nearest first)."""
+
+    index: IntArray
+    d2: FloatArray
+    past: FloatArray  # lowest distance a candidate left out can have
+
+    @classmethod
+    def empty(cls, m: int, size: int) -> _Lists:
+        return cls(np.full((m, size), -1, dtype=np.intp), np.full((m, size), np.inf), np.full(m, np.inf))
+
+    @property
+    def bound(self) -> FloatArray:
+        """The last kept distance (``inf`` while a list is not full)."""
+        return self.d2[:, -1]
+
+    def merge(self, at: IntArray, index: IntArray, d2: FloatArray, past: FloatArray) -> None:
+        """Merge new candidates of the rows ``at`` (shape (len(at), w), ``inf`` pads)."""
+        self.past[at] = np.minimum(self.past[at], past)
+        hit = np.isfinite(d2).any(axis=1)
+        at, index, d2 = at[hit], index[hit], d2[hit]
+        if not len(at):
+            return
+        size = self.d2.shape[1]
+        both_i = np.hstack([self.index[at], np.where(np.isfinite(d2), index, -1)])
+        both_d = np.hstack([self.d2[at], d2])
+        order = np.lexsort((np.where(both_i >= 0, both_i, np.iinfo(np.intp).max), both_d), axis=-1)
+        # what falls off a full list is at least as far as its new last entry
+        dropped = np.take_along_axis(both_d, order[:, size : size + 1], axis=1)[:, 0]
+        self.past[at] = np.minimum(self.past[at], dropped)
+        self.index[at] = np.take_along_axis(both_i, order[:, :size], axis=1)
+        self.d2[at] = np.take_along_axis(both_d, order[:, :size], axis=1)
+
+
+@dataclass
+class TreeSearch:
+    """The tree path of :func:`~imputer_app.engine._search.search_cells` (same cells, same donors).
+
+    Parameters
+    ----------
+    lay : Layout
+    model : DistanceModel
+        Exact distances of the chosen donors.
+    want, ok : ndarray of bool, shape (n_rows, n_fill)
+        Target cells; rows that may be donors per fill column (group known).
+    kmax, keep : int
+        Places asked for; donors kept per cell.
+    put, block, first : callables
+        Store a cell's donors; run the block search for some cells; first True
+        positions per row (:func:`~imputer_app.engine._search.first_positions`).
+    """
+
+    lay: Layout
+    model: DistanceModel
+    want: BoolArray
+    ok: BoolArray
+    kmax: int
+    keep: int
+    put: Put
+    block: Block
+    first: First
+    _trees: dict[tuple[int, int, int], tuple[cKDTree, IntArray]] = field(default_factory=dict)
+    _cand: dict[tuple[int, int], IntArray] = field(default_factory=dict)
+    _uses: Counter[tuple[int, int, int]] = field(default_factory=Counter)
+
+    def run(self, progress: Progress | None, cancel: CancelFlag | None) -> int:
+        """Search every target cell; returns the progress steps (the last reported by the caller)."""
+        redo = self.want.copy()
+        # columns with few donors would need long lists: the block search takes them alone
+        cand = self.ok.any(axis=1)
+        dense = self.ok[cand].mean(axis=0) >= DENSE_SHARE if cand.any() else np.zeros(self.ok.shape[1], bool)
+        self.want = self.want & dense
+        self._cand = by_pattern(self.lay, np.flatnonzero((self.ok & dense).any(axis=1)))
+        targets = by_pattern(self.lay, np.flatnonzero(self.want.any(axis=1)))
+        common = {k: v for k, v in targets.items() if len(v) >= MIN_TARGETS and k[0] >= 0 and k[1]}
+        self._uses = Counter(t for key in common for t in self._treeby_pattern(*key))
+        for key in common:
+            redo[np.ix_(common[key], np.flatnonzero(dense))] = False
+        total = sum(math.ceil(len(v) / BATCH) for v in common.values()) + 2
+        done = 0
+        pool = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="kinfill-trees")
+        try:  # batches side by side: tree queries and numpy release the GIL
+            for key, rows in common.items():
+                list(pool.map(self._tree, self._treeby_pattern(*key)))
+                batches = [rows[i : i + BATCH] for i in range(0, len(rows), BATCH)]
+                keys = [key] * len(batches)
+                for found, (line, col) in pool.map(self._batch, keys, batches, [cancel] * len(batches)):
+                    for cells in found:
+                        self.put(*cells)
+                    redo[line, col] = True
+                    done += 1
+                    report(progress, done, total)
+                self._release(key)
+        finally:  # on an error or a cancel, batches not started are dropped
+            pool.shutdown(wait=True, cancel_futures=True)
+        if redo.any():  # rare patterns, and cells whose ties run past their lists
+            raise_if_cancelled(cancel)
+            self.block(redo)
+        report(progress, total - 1, total)
+        return total
+
+    def _batch(
+        self, key: tuple[int, int], batch: IntArray, cancel: CancelFlag | None
+    ) -> tuple[list[_Cellset], tuple[IntArray, IntArray]]:
+        """Donors of the cells of ``batch``, widening the lists of open cells :data:`ROUNDS` times.
+
+        Returns the cells found (column, row, donors, squared distances) and the cells
+        (row, column) still open, for the block search.
+        """
+        want = self.want[batch]
+        size, found = self._size(), []
+        for _ in range(ROUNDS):
+            raise_if_cancelled(cancel)
+            at = np.flatnonzero(want.any(axis=1))
+            cells, (line, col) = self._cells(batch[at], want[at], self._lists(key, batch[at], size))
+            found.append(cells)
+            want = np.zeros_like(want)
+            want[at[line], col] = True
+            if not len(line):
+                break
+            size *= 4
+        line, col = np.nonzero(want)
+        return found, (batch[line], col)
+
+    def _treeby_pattern(self, g: int, bits: int) -> Iterator[tuple[int, int, int]]:
+        """(group, candidate pattern, shared columns) of the trees a target pattern asks."""
+        for gc, cbits in self._cand:
+            if gc == g and bits & cbits and len(self._cand[gc, cbits]) >= MIN_TREE:
+                yield g, cbits, bits & cbits
+
+    def _release(self, key: tuple[int, int]) -> None:
+        """Drop the trees no later target pattern asks (one per pattern: they add up)."""
+        for t in self._treeby_pattern(*key):
+            self._uses[t] -= 1
+            if self._uses[t] <= 0:
+                self._trees.pop(t, None)
+
+    def _tree(self, t: tuple[int, int, int]) -> tuple[cKDTree, IntArray]:
+        if t not in self._trees:
+            rows = self._cand[t[0], t[1]]
+            coords = self.lay.x[np.ix_(rows, self.lay.columns(t[2]))]
+            self._trees[t] = (cKDTree(coords, balanced_tree=False, compact_nodes=False), rows)
+        return self._trees[t]
+
+    def _size(self) -> int:
+        """Candidates first kept per row: ``keep`` donors, the next one, and a few not donors."""
+        cols = self.want.any(axis=0)
+        share = float(self.ok[:, cols].mean(axis=0).min()) if cols.any() else 1.0
+        return math.ceil((self.keep + 1) / max(share, DENSE_SHARE)) + 2
+
+    def _lists(self, key: tuple[int, int], batch: IntArray, size: int) -> _Lists:
+        """The merged nearest ``size`` candidates of ``batch`` (target rows of one group and pattern)."""
+        g, bits = key
+        lists = _Lists.empty(len(batch), size)
+        trees = sorted(self._treeby_pattern(g, bits), key=lambda t: -len(self._cand[t[0], t[1]]))
+        for t in trees:
+            self._query(t, batch, lists)
+        rare = [r for (gc, cb), r in self._cand.items() if gc == g and cb & bits and len(r) < MIN_TREE]
+        if rare:
+            self._direct(bits, batch, np.sort(np.concatenate(rare)), lists)
+        lists.past = np.minimum(lists.past, lists.bound)
+        return lists
+
+    def _query(self, t: tuple[int, int, int], batch: IntArray, lists: _Lists) -> None:
+        """Ask one tree for the nearest of every row, within each row's bound."""
+        tree, rows = self._tree(t)
+        cols, factor = self.lay.columns(t[2]), self.lay.factor(t[2])
+        size = min(lists.d2.shape[1] + 1, len(rows))  # one more: the row itself may be among them
+        bound = lists.bound
+        for part in _parts(bound, SUB):
+            reach = float(bound[part[-1]])  # the largest bound of the part (sorted)
+            upper = math.sqrt(reach / factor) * (1 + 1e-9) + 1e-300 if math.isfinite(reach) else np.inf
+            e, i = tree.query(
+                self.lay.x[np.ix_(batch[part], cols)],
+                k=list(range(1, size + 1)),
+                distance_upper_bound=upper,
+            )
+            found = np.isfinite(e)
+            index = np.where(found, rows[np.minimum(i, len(rows) - 1)], -1)
+            d2 = np.where(found, factor * e * e, np.inf)
+            d2[index == batch[part][:, None]] = np.inf  # never the row itself
+            # a candidate not returned is at least as far as the last returned, or past the bound
+            full = found[:, -1] & (size < len(rows))
+            past = np.where(
+                full, factor * e[:, -1] ** 2, factor * upper**2 if math.isfinite(upper) else np.inf
+            )
+            lists.merge(part, index, d2, past)
+
+    def _direct(self, bits: int, batch: IntArray, rows: IntArray, lists: _Lists) -> None:
+        """Compare ``batch`` with the rows of small candidate patterns directly (one pattern of targets).
+
+        One matrix product per block gives ``sum_S (x - y)^2`` in product form:
+        ``[t^2 | t | 1] . [m | -2c | sum c^2]`` (gaps 0), times ``W_all / W_S`` per candidate.
+        """
+        cols = self.lay.columns(bits)
+        lay, noise = self.lay, self.model.noise
+        t = lay.x[np.ix_(batch, cols)]
+        left = np.hstack([t * t, t, np.ones((len(batch), 1))])
+        for start in range(0, len(rows), DIRECT):
+            cand = rows[start : start + DIRECT]
+            c, m = lay.x[np.ix_(cand, cols)], lay.mask[np.ix_(cand, cols)]
+            right = np.hstack([m, -2.0 * c, (c * c).sum(axis=1, keepdims=True)])
+            d2 = left @ right.T
+            d2 *= lay.total / (m @ lay.weights[cols])  # the rows share a column (by pattern)
+            for line in np.flatnonzero(np.isin(batch, cand)).tolist():  # never the row itself
+                d2[line, np.searchsorted(cand, batch[line])] = np.inf
+            # entries near or inside the bound go to the merge (the exact distances decide);
+            # a row whose list is not full takes its nearest ``size`` of this block
+            reach = lists.bound + noise
+            wide = ~np.isfinite(reach)
+            if wide.any():
+                size = min(lists.d2.shape[1], d2.shape[1]) - 1
+                reach[wide] = np.partition(d2[wide], size, axis=1)[:, size] + noise
+            near = d2 <= reach[:, None]
+            some = np.flatnonzero(near.any(axis=1))  # few rows have a hit: search only those
+            if not len(some):
+                continue
+            r, j = np.nonzero(near[some])
+            r = some[r]
+            width = int(np.bincount(r).max())
+            pos = np.arange(len(r)) - np.searchsorted(r, r)
+            index = np.full((len(batch), width), -1, dtype=np.intp)
+            dist = np.full((len(batch), width), np.inf)
+            index[r, pos], dist[r, pos] = cand[j], np.maximum(d2[r, j], 0.0)
+            lists.merge(np.arange(len(batch)), index, dist, np.full(len(batch), np.inf))
+
+    def _cells(
+        self, batch: IntArray, want: BoolArray, lists: _Lists
+    ) -> tuple[_Cellset, tuple[IntArray, IntArray]]:
+        """The donors of the cells ``want`` (rows of ``batch`` x fill columns) from the rows' lists.
+
+        Returns the cells that are settled (column, row, donors, squared distances) and
+        the open ones (position in ``batch``, column): short of donors while more may
+        exist, or tied with the ``kmax``-th donor past the list.
+        """
+        r, col = np.nonzero(want)
+        ld2 = lists.d2
+        good = self.ok[np.maximum(lists.index[r], 0), col[:, None]] & np.isfinite(ld2[r])
+        pos = self.first(good, self.keep + 1)  # one more: the next donor
+        beyond = np.where(pos[:, -1] >= 0, ld2[r, np.maximum(pos[:, -1], 0)], lists.past[r])
+        idx, d2 = exact_cells(self.model, batch, lists.index, ld2, r, pos[:, : self.keep])
+        count = (idx >= 0).sum(axis=1)
+        open_ = still_open(d2, count, self.kmax, beyond, self.model.noise)
+        done = ~open_
+        return (col[done], batch[r[done]], idx[done], d2[done]), (r[open_], col[open_])
+
+
+def _parts(bound: FloatArray, size: int) -> Iterator[IntArray]:
+    """Rows by ascending bound, in runs of at most ``size``; rows without a bound (``inf``) run apart."""
+    order = np.argsort(bound, kind="stable")
+    cut = int(np.isfinite(bound).sum())
+    for run in (order[:cut], order[cut:]):
+        for i in range(0, len(run), max(size, 1)):
+            yield run[i : i + size]
+
+
+def tree_search(
+    table: PreparedTable,
+    model: DistanceModel,
+    want: BoolArray,
+    ok: BoolArray,
+    *,
+    kmax: int,
+    keep: int,
+    put: Put,
+    block: Block,
+    first: First,
+    path: str = "auto",
+    progress: Progress | None = None,
+    cancel: CancelFlag | None = None,
+) -> int | None:
+    """Run the tree path when ``path`` asks for it ("tree") or it is estimated to pay ("auto").
+
+    Returns the progress steps, or None when the block search is to run instead
+    (``path`` "block", categorical similarity columns, more than
+    :data:`~imputer_app.engine._patterns.MAX_COLUMNS` numeric ones, or too little to gain:
+    :func:`~imputer_app.engine._patterns.tree_pays`).
+    """
+    if path not in PATHS:
+        raise ValueError(f"path must be one of {', '.join(PATHS)}; got {path!r}")
+    lay = None if path == "block" else layout(table.features, table.groups)
+    if lay is None or (path == "auto" and not tree_pays(lay, want, np.asarray(ok.any(axis=1), dtype=bool))):
+        return None
+    return TreeSearch(lay, model, want, ok, kmax, keep, put, block, first).run(progress, cancel)
