@@ -95,8 +95,9 @@ def test_csv_export_writes_text_cells_as_read(tmp_path: Path, filled) -> None:
 
 
 @needs_soffice
+@pytest.mark.parametrize("layout", ["table", "workbook"])
 @pytest.mark.parametrize("fmt", ["ods", "xls"])
-def test_other_workbooks_keep_their_text_too(tmp_path: Path, fmt: str) -> None:
+def test_other_workbooks_keep_their_text_too(tmp_path: Path, fmt: str, layout: str) -> None:
     source = convert(_workbook(tmp_path / "lab.xlsx"), fmt, tmp_path / "converted")
     # The workbook parser (python-calamine) drops an .ods tab (<text:tab/>) from text:
     # such a cell leaves as it was read, without its tab. Spaces of every kind are kept.
@@ -105,7 +106,7 @@ def test_other_workbooks_keep_their_text_too(tmp_path: Path, fmt: str) -> None:
     assert list(sheet.frame["note"]) == [read(n).strip() for n in NOTES]
     result = impute(sheet, PLAN)
     out = tmp_path / "out.xlsx"
-    write_result(out, sheet, result, PLAN)
-    rows = _read_back(out, "Filled")
+    write_result(out, sheet, result, PLAN, layout=layout)  # the workbook layout: an .xlsx copy
+    rows = _read_back(out, "Filled" if layout == "table" else "Data")
     assert [r[1] for r in rows] == [read(n) for n in NOTES]
     assert [r[2] for r in rows] == [read(s) if s is not None else "river" for s in SITES]
