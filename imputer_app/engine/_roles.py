@@ -96,11 +96,12 @@ def carry_reasons(inp: Input, plan: FillPlan, kinds: Mapping[str, str]) -> dict[
     """
     frame = inp.frame
     out: dict[str, str] = {}
+    constant = _constant_numbers(frame, [c for c in inp.names if kinds[c] == "number"])
     for col in inp.names:
         kind = kinds[col]
         why = inp.sheet_reasons.get(col) or KIND_REASONS.get(kind)
         if why is None and kind == "number":
-            why = _constant_number(frame[col])
+            why = constant.get(col)
         elif why is None and kind == "category":
             why = _category_reason(frame[col], forced=col in plan.kinds)
         if why:
@@ -108,12 +109,26 @@ def carry_reasons(inp: Input, plan: FillPlan, kinds: Mapping[str, str]) -> dict[
     return out
 
 
-def _constant_number(series: pd.Series) -> str | None:
-    values = pd.to_numeric(series, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
-    present = values[np.isfinite(values)]
-    if present.size >= 2 and present.min() == present.max():
-        return f"constant (every filled cell is {present[0]:g})"
-    return None
+def _constant_numbers(frame: pd.DataFrame, columns: list[str]) -> dict[str, str]:
+    """The reason for each number column whose filled cells (two or more) are all equal.
+
+    One pass over all number columns at once: a wide sheet has thousands of them.
+    """
+    if not columns:
+        return {}
+    part = frame[columns]
+    if all(kind in "fiu" for kind in part.dtypes.map(lambda d: d.kind)):
+        values = part.to_numpy(dtype=float, na_value=np.nan)  # one block: no per-column work
+    else:
+        values = np.column_stack(
+            [pd.to_numeric(part[c], errors="coerce").to_numpy(dtype=float, na_value=np.nan) for c in columns]
+        )
+    present = np.isfinite(values)
+    with np.errstate(invalid="ignore"):
+        low = np.where(present, values, np.inf).min(axis=0)
+        high = np.where(present, values, -np.inf).max(axis=0)
+    same = (present.sum(axis=0) >= 2) & (low == high)
+    return {columns[j]: f"constant (every filled cell is {low[j]:g})" for j in np.flatnonzero(same)}
 
 
 def _category_reason(series: pd.Series, forced: bool) -> str | None:
