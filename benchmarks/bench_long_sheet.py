@@ -4,11 +4,14 @@ Goals (README "Benchmarks"): 1,048,576 x 10 with 5% gaps (missing completely at 
 k=5: the whole fill in at most 2 minutes with peak memory under 3 GB, printed with its
 ratio to the block search, which is timed on a 100,000-row slice of the same sheet and
 extrapolated by the square law (it compares every target with every candidate; a full
-run takes a quarter of an hour). 200,000 x 30 with 5% gaps: no slower than before (the
-cost estimate keeps the block search there: printed with the path it chose and the two
-searches timed on a slice).
+run takes a quarter of an hour). Two long sheets: an invented monitoring station's log
+(:mod:`benchmarks.station_log`, ten channels with few degrees of freedom, z-scores) and
+ten independent normal columns (no structure at all: the hardest case for any exact
+search). 200,000 x 30 with 5% gaps: no slower than before (the cost estimate keeps the
+block search there: printed with the path it chose and the two searches timed on a slice).
 
-Set ``KINFILL_BENCH_LONG_ROWS`` to fewer rows while iterating (default 1,048,576).
+Set ``KINFILL_BENCH_LONG_ROWS`` to fewer rows while iterating (default 1,048,576) and
+``KINFILL_BENCH_LONG_CASES`` to ``station``, ``normal`` or both (the default).
 """
 
 from __future__ import annotations
@@ -20,12 +23,25 @@ import sys
 import time
 
 import numpy as np
+import pandas as pd
 
 from benchmarks.bench_engine import PLAN, _data, _peak_gb
+from benchmarks.station_log import station_log
 from imputer_app.engine import _patterns, impute, nearest_donors, prepare
+from imputer_app.plan import FillPlan
 
 ROWS = int(os.environ.get("KINFILL_BENCH_LONG_ROWS", 1_048_576))
+CASES = os.environ.get("KINFILL_BENCH_LONG_CASES", "station,normal").split(",")
 SLICE = 100_000
+#: The station log's plan: its channels have different units, so z-scores (the default).
+STATION_PLAN = FillPlan(k=PLAN.k, interval_level=None)
+
+
+def _sheet(case: str, rows: int) -> tuple[pd.DataFrame, FillPlan]:
+    """The long sheet of a case (its first ``rows`` rows) and its plan."""
+    if case == "station":
+        return station_log(ROWS).head(rows), STATION_PLAN
+    return _data(ROWS, 10, 0.05)[1].head(rows), PLAN
 
 
 def _cpu() -> float:
@@ -34,23 +50,26 @@ def _cpu() -> float:
     return use.ru_utime + use.ru_stime
 
 
-def _search_seconds(rows: int, cols: int, path: str) -> tuple[float, str, float]:
+def _search_seconds(rows: int, case: str, path: str) -> tuple[float, str, float]:
     """Wall seconds of the neighbour search alone on the first ``rows`` rows, its path and CPU seconds."""
-    _, frame = _data(ROWS if cols == 10 else 200_000, cols, 0.05)
-    table = prepare(frame.head(rows), PLAN)
+    if case == "wide":
+        frame, plan = _data(200_000, 30, 0.05)[1].head(rows), PLAN
+    else:
+        frame, plan = _sheet(case, rows)
+    table = prepare(frame, plan)
     start, cpu = time.perf_counter(), _cpu()
     found = nearest_donors(table, kmax=PLAN.k, path=path)
     return time.perf_counter() - start, next(iter(found.values())).path, _cpu() - cpu
 
 
-def long_fill() -> None:
-    """The whole fill of the long sheet (run in a fresh process: its peak memory alone)."""
-    _, frame = _data(ROWS, 10, 0.05)
+def long_fill(case: str) -> None:
+    """The whole fill of a long sheet (run in a fresh process: its peak memory alone)."""
+    frame, plan = _sheet(case, ROWS)
     before = _peak_gb()
     start, cpu = time.perf_counter(), _cpu()
-    result = impute(frame, PLAN)
+    result = impute(frame, plan)
     seconds, cpu = time.perf_counter() - start, _cpu() - cpu
-    print(f"   long: {ROWS} x 10, 5% gaps, k={PLAN.k}: impute {seconds:.1f} s, {cpu:.1f} CPU s "
+    print(f"   long, {case}: {ROWS} x 10, 5% gaps, k={PLAN.k}: impute {seconds:.1f} s, {cpu:.1f} CPU s "
           f"(goal <= 120 s), {int(result.filled.to_numpy().sum())} cells filled", flush=True)  # fmt: skip
     print(f"      search used: {result.search}")
     print(f"      peak memory of the process {_peak_gb():.2f} GB "
@@ -69,15 +88,13 @@ def _wide_choice() -> str:
     return "tree" if _patterns.tree_pays(lay, want, np.ones(len(frame), bool)) else "block"
 
 
-def main() -> None:
-    """Time the long fill, the block search on a slice, and print the ratios."""
-    print(f"   load: {os.getloadavg()[0]:.1f} {os.getloadavg()[1]:.1f} {os.getloadavg()[2]:.1f} "
-          f"(1, 5, 15 min) on {os.cpu_count()} cores", flush=True)  # fmt: skip
+def _long_case(case: str) -> None:
+    """The long fill of one sheet in a fresh process, beside the block search on a slice."""
     rows = min(SLICE, ROWS)
-    t_block, _, c_block = _search_seconds(rows, 10, "block")
+    t_block, _, c_block = _search_seconds(rows, case, "block")
     scale = (ROWS / rows) ** 2
-    print(f"   slice {rows} x 10: block search {t_block:.1f} s, {c_block:.1f} CPU s", flush=True)
-    code = "from benchmarks.bench_long_sheet import long_fill; long_fill()"
+    print(f"   {case} slice {rows} x 10: block search {t_block:.1f} s, {c_block:.1f} CPU s", flush=True)
+    code = f"from benchmarks.bench_long_sheet import long_fill; long_fill({case!r})"
     out = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True).stdout
     print("\n".join(line for line in out.splitlines() if "seconds=" not in line), flush=True)
     tail = out.rsplit("seconds=", 1)[1].split()
@@ -85,9 +102,17 @@ def main() -> None:
     print(f"      block search extrapolated to {ROWS} rows: {t_block * scale:.0f} s, "
           f"{c_block * scale:.0f} CPU s (square law from the slice) -> whole fill "
           f"{t_block * scale / seconds:.1f}x faster ({c_block * scale / cpu:.1f}x in CPU time)")  # fmt: skip
+
+
+def main() -> None:
+    """Time the long fill, the block search on a slice, and print the ratios."""
+    print(f"   load: {os.getloadavg()[0]:.1f} {os.getloadavg()[1]:.1f} {os.getloadavg()[2]:.1f} "
+          f"(1, 5, 15 min) on {os.cpu_count()} cores", flush=True)  # fmt: skip
+    for case in CASES:
+        _long_case(case)
     print(f"   wide: 200000 x 30, 5% gaps: the cost estimate takes {_wide_choice()}")
-    t_auto, used, _ = _search_seconds(20_000, 30, "auto")
-    t_old, _, _ = _search_seconds(20_000, 30, "block")
+    t_auto, used, _ = _search_seconds(20_000, "wide", "auto")
+    t_old, _, _ = _search_seconds(20_000, "wide", "block")
     print(f"      20,000-row slice: auto ({used}) {t_auto:.1f} s, block {t_old:.1f} s "
           f"(ratio {t_old / t_auto:.2f}; goal >= 1 within the noise)", flush=True)  # fmt: skip
 

@@ -134,6 +134,8 @@ class TreeSearch:
     _trees: dict[tuple[int, int, int], tuple[cKDTree, IntArray]] = field(default_factory=dict)
     _cand: dict[tuple[int, int], IntArray] = field(default_factory=dict)
     _uses: Counter[tuple[int, int, int]] = field(default_factory=Counter)
+    _asks: dict[tuple[int, int], BoolArray] = field(default_factory=dict)
+    _gives: dict[tuple[int, int], IntArray] = field(default_factory=dict)
 
     def run(self, progress: Progress | None, cancel: CancelFlag | None) -> int:
         """Search every target cell; returns the progress steps (the last reported by the caller)."""
@@ -145,6 +147,10 @@ class TreeSearch:
         self._cand = by_pattern(self.lay, np.flatnonzero((self.ok & dense).any(axis=1)))
         targets = by_pattern(self.lay, np.flatnonzero(self.want.any(axis=1)))
         common = {k: v for k, v in targets.items() if len(v) >= MIN_TARGETS and k[0] >= 0 and k[1]}
+        # the fill columns each target pattern asks for and each candidate pattern can give:
+        # a candidate pattern that gives none of them is never searched for those targets
+        self._asks = {k: np.asarray(self.want[v].any(axis=0), dtype=bool) for k, v in common.items()}
+        self._gives = {k: self.ok[v].sum(axis=0) for k, v in self._cand.items()}
         self._uses = Counter(t for key in common for t in self._treeby_pattern(*key))
         for key in common:
             redo[np.ix_(common[key], np.flatnonzero(dense))] = False
@@ -180,7 +186,7 @@ class TreeSearch:
         (row, column) still open, for the block search.
         """
         want = self.want[batch]
-        size, found = self._size(), []
+        size, found = self._size(key), []
         for _ in range(ROUNDS):
             raise_if_cancelled(cancel)
             at = np.flatnonzero(want.any(axis=1))
@@ -194,10 +200,17 @@ class TreeSearch:
         line, col = np.nonzero(want)
         return found, (batch[line], col)
 
+    def _candidates(self, g: int, bits: int) -> Iterator[tuple[int, IntArray]]:
+        """(pattern, rows) of candidate patterns sharing a column with a target pattern and donating to it."""
+        asks = self._asks[g, bits]
+        for (gc, cbits), rows in self._cand.items():
+            if gc == g and bits & cbits and self._gives[gc, cbits][asks].any():
+                yield cbits, rows
+
     def _treeby_pattern(self, g: int, bits: int) -> Iterator[tuple[int, int, int]]:
         """(group, candidate pattern, shared columns) of the trees a target pattern asks."""
-        for gc, cbits in self._cand:
-            if gc == g and bits & cbits and len(self._cand[gc, cbits]) >= MIN_TREE:
+        for cbits, rows in self._candidates(g, bits):
+            if len(rows) >= MIN_TREE:
                 yield g, cbits, bits & cbits
 
     def _release(self, key: tuple[int, int]) -> None:
@@ -214,11 +227,17 @@ class TreeSearch:
             self._trees[t] = (cKDTree(coords, balanced_tree=False, compact_nodes=False), rows)
         return self._trees[t]
 
-    def _size(self) -> int:
-        """Candidates first kept per row: ``keep`` donors, the next one, and a few not donors."""
-        cols = self.want.any(axis=0)
-        share = float(self.ok[:, cols].mean(axis=0).min()) if cols.any() else 1.0
-        return math.ceil((self.keep + 1) / max(share, DENSE_SHARE)) + 2
+    def _size(self, key: tuple[int, int]) -> int:
+        """Candidates first kept per target row: ``keep`` donors, the next one, and a few not donors.
+
+        The share of donors is the least, over the fill columns the pattern asks for, among
+        the candidates searched for it; when every candidate is a donor no spare place is kept.
+        """
+        rows = sum(len(r) for _, r in self._candidates(*key))
+        gives = sum((self._gives[key[0], c] for c, _ in self._candidates(*key)), np.zeros(1, np.intp))
+        share = float(gives[self._asks[key]].min()) / max(rows, 1) if rows else 1.0
+        spare = 0 if share >= 1.0 else 2
+        return math.ceil((self.keep + 1) / max(share, DENSE_SHARE)) + spare
 
     def _lists(self, key: tuple[int, int], batch: IntArray, size: int) -> _Lists:
         """The merged nearest ``size`` candidates of ``batch`` (target rows of one group and pattern)."""
@@ -226,18 +245,21 @@ class TreeSearch:
         lists = _Lists.empty(len(batch), size)
         trees = sorted(self._treeby_pattern(g, bits), key=lambda t: -len(self._cand[t[0], t[1]]))
         for t in trees:
-            self._query(t, batch, lists)
-        rare = [r for (gc, cb), r in self._cand.items() if gc == g and cb & bits and len(r) < MIN_TREE]
-        if rare:
-            self._direct(bits, batch, np.sort(np.concatenate(rare)), lists)
+            self._query(t, batch, lists, same=t[1] == bits)
+        small = [rows for _, rows in self._candidates(g, bits) if len(rows) < MIN_TREE]
+        if small:
+            self._direct(bits, batch, np.sort(np.concatenate(small)), lists)
         lists.past = np.minimum(lists.past, lists.bound)
         return lists
 
-    def _query(self, t: tuple[int, int, int], batch: IntArray, lists: _Lists) -> None:
-        """Ask one tree for the nearest of every row, within each row's bound."""
+    def _query(self, t: tuple[int, int, int], batch: IntArray, lists: _Lists, *, same: bool) -> None:
+        """Ask one tree for the nearest of every row, within each row's bound.
+
+        ``same``: the tree holds rows of the targets' own pattern (so maybe the rows themselves).
+        """
         tree, rows = self._tree(t)
         cols, factor = self.lay.columns(t[2]), self.lay.factor(t[2])
-        size = min(lists.d2.shape[1] + 1, len(rows))  # one more: the row itself may be among them
+        size = min(lists.d2.shape[1] + int(same), len(rows))  # one more: the row itself may be among them
         bound = lists.bound
         for part in _parts(bound, SUB):
             reach = float(bound[part[-1]])  # the largest bound of the part (sorted)
@@ -261,40 +283,48 @@ class TreeSearch:
     def _direct(self, bits: int, batch: IntArray, rows: IntArray, lists: _Lists) -> None:
         """Compare ``batch`` with the rows of small candidate patterns directly (one pattern of targets).
 
-        One matrix product per block gives ``sum_S (x - y)^2`` in product form:
-        ``[t^2 | t | 1] . [m | -2c | sum c^2]`` (gaps 0), times ``W_all / W_S`` per candidate.
+        One matrix product per block gives Dixon's ``d^2`` in product form:
+        ``[t^2 | t | 1] . f [m | -2c | sum c^2]`` (gaps 0), with each candidate's factor
+        ``f = W_all / W_S`` folded into its side, so one comparison with each row's reach
+        keeps the few pairs that matter. They are merged once, after every block.
         """
-        cols = self.lay.columns(bits)
         lay, noise = self.lay, self.model.noise
+        cols = lay.columns(bits)
         t = lay.x[np.ix_(batch, cols)]
         left = np.hstack([t * t, t, np.ones((len(batch), 1))])
+        size = lists.d2.shape[1]
+        reach = (lists.bound + noise)[:, None]
+        wide = np.flatnonzero(~np.isfinite(reach[:, 0]))  # lists not full: the nearest ``size`` per block
+        at = np.searchsorted(rows, batch)  # where each target row sits among the candidates
+        at_in = (at < len(rows)) & (rows[np.minimum(at, len(rows) - 1)] == batch)
+        hits: list[tuple[IntArray, IntArray, FloatArray]] = []
         for start in range(0, len(rows), DIRECT):
             cand = rows[start : start + DIRECT]
             c, m = lay.x[np.ix_(cand, cols)], lay.mask[np.ix_(cand, cols)]
-            right = np.hstack([m, -2.0 * c, (c * c).sum(axis=1, keepdims=True)])
-            d2 = left @ right.T
-            d2 *= lay.total / (m @ lay.weights[cols])  # the rows share a column (by pattern)
-            for line in np.flatnonzero(np.isin(batch, cand)).tolist():  # never the row itself
-                d2[line, np.searchsorted(cand, batch[line])] = np.inf
-            # entries near or inside the bound go to the merge (the exact distances decide);
-            # a row whose list is not full takes its nearest ``size`` of this block
-            reach = lists.bound + noise
-            wide = ~np.isfinite(reach)
-            if wide.any():
-                size = min(lists.d2.shape[1], d2.shape[1]) - 1
-                reach[wide] = np.partition(d2[wide], size, axis=1)[:, size] + noise
-            near = d2 <= reach[:, None]
-            some = np.flatnonzero(near.any(axis=1))  # few rows have a hit: search only those
-            if not len(some):
-                continue
-            r, j = np.nonzero(near[some])
-            r = some[r]
-            width = int(np.bincount(r).max())
-            pos = np.arange(len(r)) - np.searchsorted(r, r)
-            index = np.full((len(batch), width), -1, dtype=np.intp)
-            dist = np.full((len(batch), width), np.inf)
-            index[r, pos], dist[r, pos] = cand[j], np.maximum(d2[r, j], 0.0)
-            lists.merge(np.arange(len(batch)), index, dist, np.full(len(batch), np.inf))
+            f = lay.total / (m @ lay.weights[cols])  # the rows share a column (by pattern)
+            right = np.hstack([m, -2.0 * c, np.einsum("ij,ij->i", c, c)[:, None]])
+            d2 = left @ (right * f[:, None]).T
+            own = np.flatnonzero(at_in & (at >= start) & (at < start + len(cand)))
+            d2[own, at[own] - start] = np.inf  # never the row itself
+            near = d2 <= reach
+            if len(wide):
+                kth = min(size, d2.shape[1]) - 1
+                cut = np.partition(d2[wide], kth, axis=1)[:, kth : kth + 1] + noise
+                near[wide] = d2[wide] <= cut
+            r, j = np.divmod(np.flatnonzero(near), near.shape[1])  # quicker than nonzero when few
+            if len(r):
+                hits.append((r, cand[j], np.maximum(d2[r, j], 0.0)))
+        if not hits:
+            return
+        r = np.concatenate([h[0] for h in hits])
+        order = np.argsort(r, kind="stable")
+        r = r[order]
+        pos = np.arange(len(r)) - np.searchsorted(r, r)
+        index = np.full((len(batch), int(pos.max()) + 1), -1, dtype=np.intp)
+        dist = np.full(index.shape, np.inf)
+        index[r, pos] = np.concatenate([h[1] for h in hits])[order]
+        dist[r, pos] = np.concatenate([h[2] for h in hits])[order]
+        lists.merge(np.arange(len(batch)), index, dist, np.full(len(batch), np.inf))
 
     def _cells(
         self, batch: IntArray, want: BoolArray, lists: _Lists

@@ -119,6 +119,41 @@ def test_tree_matches_block_for_given_targets_and_fill_only_columns(monkeypatch:
     assert not (found.index == found.rows[:, None]).any()
 
 
+@pytest.mark.parametrize("min_tree", [4, 60, 10**9])
+def test_direct_comparison_matches_block_at_any_tree_size(
+    monkeypatch: pytest.MonkeyPatch, min_tree: int
+) -> None:
+    """Small candidate patterns are compared in one matrix product; with no tree at all every
+    list starts empty and takes each block's nearest rows."""
+    _lower_limits(monkeypatch)
+    monkeypatch.setattr(_tree_search, "MIN_TREE", min_tree)
+    _both(random_frame(700, 5, 0.2, seed=8), FillPlan(scaling="none"), 4)
+    _both(random_frame(500, 4, 0.1, seed=9), FillPlan(weights={"c0": 2.0, "c2": 0.25}), 3)
+
+
+def test_candidate_patterns_that_cannot_donate_are_not_searched(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Rows that lack a target's only gap column never give it a donor: their tree is not built."""
+    _lower_limits(monkeypatch)
+    rng = np.random.default_rng(10)
+    x = rng.normal(size=(600, 4))
+    gaps = rng.random(len(x)) < 0.3
+    x[gaps, rng.integers(0, 4, size=int(gaps.sum()))] = np.nan  # one gap at most per row
+    frame = pd.DataFrame(x, columns=[f"c{j}" for j in range(4)])
+    built: list[tuple[int, int, int]] = []
+    tree = _tree_search.TreeSearch._tree
+
+    def spy(self: _tree_search.TreeSearch, t: tuple[int, int, int]) -> object:
+        built.append(t)
+        return tree(self, t)
+
+    monkeypatch.setattr(_tree_search.TreeSearch, "_tree", spy)
+    _both(frame, FillPlan(scaling="none"), 3)
+    assert built
+    # a target missing c_j asks the complete rows (shared: all but c_j) and the rows missing
+    # another column; never the rows missing c_j themselves (candidate pattern = shared columns)
+    assert all(cbits != shared for _, cbits, shared in built)
+
+
 def test_tree_fill_equals_knnimputer() -> None:
     """Plain numbers, no scaling, no ties: the tree path's fill is scikit-learn's KNNImputer's output.
 
