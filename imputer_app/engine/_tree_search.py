@@ -89,8 +89,11 @@ class _Lists:
     def merge(self, at: IntArray, index: IntArray, d2: FloatArray, past: FloatArray) -> None:
         """Merge new candidates of the rows ``at`` (shape (len(at), w), ``inf`` pads)."""
         self.past[at] = np.minimum(self.past[at], past)
-        hit = np.isfinite(d2).any(axis=1)
-        at, index, d2 = at[hit], index[hit], d2[hit]
+        # rows where nothing new reaches the last kept distance only learn what they left out
+        enter = (np.isfinite(d2) & (d2 <= self.d2[at, -1:])).any(axis=1)
+        out = at[~enter]
+        self.past[out] = np.minimum(self.past[out], d2[~enter].min(axis=1, initial=np.inf))
+        at, index, d2 = at[enter], index[enter], d2[enter]
         if not len(at):
             return
         size = self.d2.shape[1]
