@@ -31,6 +31,7 @@ from imputer_app.gui.markers import (
     WEAK_SYMBOL,
     palette_is_dark,
 )
+from imputer_app.plan_rounding import stand_in_decimals
 from imputer_app.words import STATE_WORDS
 
 if TYPE_CHECKING:
@@ -301,6 +302,8 @@ class SheetTableModel(FlatTableModel):
                 return ""
             filled = shown_value and self._codes[row, col] != OBSERVED
             decimals = self._fill_decimals[col] if filled else self._decimals[col]
+            if filled and self._codes[row, col] == CENSORED:  # below a limit: 2 significant digits kept
+                decimals = int(stand_in_decimals(np.array([value]), decimals)[0])
             return _format_number(float(value), decimals, full)
         if value is None or (isinstance(value, float) and math.isnan(value)) or value is pd.NA:
             return ""

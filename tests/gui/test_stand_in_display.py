@@ -62,3 +62,22 @@ def test_loading_a_plan_naming_its_rounding_says_nothing_more(window, tmp_path, 
     window.open_plan(path)
     assert window.session.plan.rounding == "measured"
     assert window.statusBar().currentMessage() == "Plan new.plan.toml loaded."
+
+
+def test_a_censored_cell_filled_by_knn_shows_its_two_significant_digits(qapp, tmp_path) -> None:
+    rows = [["Sample", "Temp", "Lead"]]
+    for i in range(20):
+        lead = "<0.05" if i == 2 else f"{0.01 + 0.01 * (i % 3):.2f}" if i < 8 else f"{0.05 * i:.2f}"
+        rows.append([f"S{i:02d}", f"{4 + 0.37 * i:.2f}", lead])  # a number, not a running one
+    path = tmp_path / "lead.csv"
+    with path.open("w", newline="", encoding="utf-8") as handle:
+        csv.writer(handle).writerows(rows)
+    sheet = read_sheet(path)
+    plan = FillPlan(k=3, censored="fill_capped", fill_columns=("Lead",), interval_level=None)
+    result = impute(sheet, plan)
+    value = float(result.frame["Lead"].iloc[2])
+    assert round(value, 2) != value == round(value, 3)  # 3 decimals in a 2-decimal column
+    model = SheetTableModel()
+    model.set_sheet(sheet)
+    model.set_layer(result, "preview")
+    assert model.display_text(2, 2).endswith(f" {value:.3f}")

@@ -210,3 +210,27 @@ def test_workbook_export_shows_every_digit_of_a_stand_in(
         )
     observed = data.cell(row=2, column=3)
     assert observed.number_format == "0.00"  # the lab's own cells are untouched
+
+
+def _low_lead(path: Path) -> Path:
+    """Lead with 2 decimals; rows 2 and 5 "<0.05", their nearest rows (by Temp) 0.01-0.03."""
+    rows = [["Sample", "Temp", "Lead"]]
+    for i in range(20):
+        lead = "<0.05" if i in (2, 5) else f"{0.01 + 0.01 * (i % 3):.2f}" if i < 8 else f"{0.05 * i:.2f}"
+        rows.append([f"S{i:02d}", f"{4 + 0.37 * i:.2f}", lead])  # a number, not a running one
+    with path.open("w", newline="", encoding="utf-8") as handle:
+        csv.writer(handle).writerows(rows)
+    return path
+
+
+def test_a_censored_cell_filled_by_knn_keeps_two_significant_digits_under_its_cap(tmp_path: Path) -> None:
+    sheet = read_sheet(_low_lead(tmp_path / "lead.csv"))
+    plan = FillPlan(k=3, censored="fill_capped", fill_columns=("Lead",), interval_level=None)
+    rounded = impute(sheet, plan).frame["Lead"].to_numpy()[[2, 5]]
+    exact = impute(sheet, plan.replace(rounding="as_computed")).frame["Lead"].to_numpy()[[2, 5]]
+    # donors' values are 0.01-0.03, so their mean needs a third decimal (hand check)
+    assert all(0.01 < v < 0.03 and round(v, 2) != v for v in exact)
+    assert rounded.tolist() == [round(v, 3) for v in exact]
+    # a fill of an ordinary gap in the same column still gets the column's 2 decimals
+    gaps = impute(sheet, FillPlan(k=3, censored="half_limit", interval_level=None)).frame["Lead"]
+    assert gaps.to_numpy()[[2, 5]].tolist() == [0.025, 0.025]
