@@ -4,7 +4,10 @@ A :class:`FillPlan` says which columns define similar samples, which columns to 
 how much each column counts and how donors' values are combined. It holds column
 *names* only; which names exist is checked when the plan meets a sheet.
 
-Plans are saved as human-readable ``*.plan.toml`` files with a ``format = 1`` key.
+Plans are saved as human-readable ``*.plan.toml`` files with a ``format = 1`` key. A
+saved plan names every choice; one read without ``rounding`` (a plan file or an export
+written before Kinfill rounded filled numbers) is read as ``"as_computed"``, what that
+version did, and its fill says so in one line; a plan made now rounds by default.
 
 Examples
 --------
@@ -29,7 +32,7 @@ import tomli_w
 
 from imputer_app.errors import PlanError
 from imputer_app.files import write_text_atomic
-from imputer_app.plan_rounding import DEFAULT_ROUNDING, ROUNDINGS
+from imputer_app.plan_rounding import DEFAULT_ROUNDING, LEGACY_ROUNDING, ROUNDINGS
 from imputer_app.plan_text import (
     commented_toml,
     line_in_table,
@@ -38,6 +41,7 @@ from imputer_app.plan_text import (
     read_plan_text,
     shown_value,
 )
+from imputer_app.words import ROUNDING_NOT_GIVEN
 
 PLAN_FORMAT = 1
 PLAN_SUFFIX = ".plan.toml"
@@ -138,7 +142,12 @@ class FillPlan:
         Filled numbers of columns not in ``decimals`` are rounded to their column's
         measured precision (the most decimals among its observed values), or left as
         computed; interval bounds are rounded outward to the same decimals
-        (:mod:`imputer_app.plan_rounding`).
+        (:mod:`imputer_app.plan_rounding`). A plan read from a file or an export
+        without this key was written before rounding existed and is read as
+        ``"as_computed"``, what Kinfill did then (:attr:`rounding_note` says so).
+    rounding_given : bool, default=True
+        False for a plan read without a ``rounding`` key; not saved, not compared.
+        Changing ``rounding`` through :meth:`replace` makes it True.
     """
 
     k: int = 5
@@ -162,6 +171,7 @@ class FillPlan:
     limits: Mapping[str, float] = field(default_factory=dict)
     id_column: str | None = None
     rounding: str = DEFAULT_ROUNDING
+    rounding_given: bool = field(default=True, compare=False, repr=False)
 
     def __post_init__(self) -> None:
         _set = object.__setattr__
@@ -194,6 +204,11 @@ class FillPlan:
         self._check_roles()
 
     # ------------------------------------------------------------------ queries
+    @property
+    def rounding_note(self) -> str:
+        """One line when the rounding was read as as_computed for want of a key, else ""."""
+        return "" if self.rounding_given or self.rounding != LEGACY_ROUNDING else ROUNDING_NOT_GIVEN
+
     def weight(self, column: str) -> float:
         """Return the distance weight of ``column`` (1.0 unless set)."""
         return float(self.weights.get(column, 1.0))
@@ -233,7 +248,9 @@ class FillPlan:
             raise PlanError(f"the plan names column(s) this sheet does not have: {name_list(missing)}")
 
     def replace(self, **changes: Any) -> FillPlan:
-        """Return a copy with ``changes`` applied (validated again)."""
+        """Return a copy with ``changes`` applied (validated again); a rounding changed is given."""
+        if changes.get("rounding", self.rounding) != self.rounding:  # the app passes it with every edit
+            changes.setdefault("rounding_given", True)
         return dataclasses.replace(self, **changes)
 
     def to_dict(self) -> dict[str, Any]:
@@ -547,6 +564,8 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
         kwargs["interval_level"] = level
     kwargs["markers"] = dict(data.get("markers", {}))
     kwargs["limits"] = dict(data.get("limits", {}))
+    if "rounding" not in data:  # written before rounding existed: read as that version filled
+        kwargs["rounding"], kwargs["rounding_given"] = LEGACY_ROUNDING, False
     if "fill_formula_errors" in data:
         if not isinstance(data["fill_formula_errors"], bool):
             where = line_of(text, "fill_formula_errors")

@@ -41,6 +41,19 @@ SUBSTITUTION_PHRASES = {
     "ros": "a value below its limit estimated by robust regression on order statistics (ROS)",
 }
 
+#: How a censored entry's stand-in is rounded (plan_rounding.round_stand_ins), completing
+#: "Values standing for below-limit entries were ...".
+STAND_IN_ROUNDING = (
+    "rounded like the filled numbers of their column, but to no fewer than two significant "
+    "digits and never above their limit"
+)
+
+#: One line said when a plan had no rounding setting and was read as Kinfill then filled.
+ROUNDING_NOT_GIVEN = (
+    "the plan has no rounding setting (it was written before Kinfill rounded filled numbers), "
+    'so filled numbers are left as computed, as then; set rounding = "measured" to round them'
+)
+
 #: The cell states a sheet can give a cell, in plain words.
 STATE_WORDS = {
     "observed": "measured",
@@ -129,7 +142,9 @@ __all__ = [
     "CHOICE_WORDS",
     "EXPORT_LOG_COLUMNS",
     "LOG_COLUMNS",
+    "ROUNDING_NOT_GIVEN",
     "SETTING_TIPS",
+    "STAND_IN_ROUNDING",
     "STATE_WORDS",
     "SUBSTITUTION_PHRASES",
     "UNFILLED_COLUMNS",

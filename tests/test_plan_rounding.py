@@ -15,8 +15,17 @@ from imputer_app.cli.parser import build_parser
 from imputer_app.cli.plan_options import build_plan
 from imputer_app.errors import PlanError
 from imputer_app.plan import CHOICES, FillPlan
-from imputer_app.plan_rounding import MAX_DECIMALS, column_decimals, float_decimals, outward
-from imputer_app.words import CHOICE_WORDS, SETTING_TIPS
+from imputer_app.plan_rounding import (
+    LEGACY_ROUNDING,
+    MAX_DECIMALS,
+    STAND_IN_SIGNIFICANT,
+    column_decimals,
+    float_decimals,
+    outward,
+    round_stand_ins,
+    stand_in_decimals,
+)
+from imputer_app.words import CHOICE_WORDS, ROUNDING_NOT_GIVEN, SETTING_TIPS
 
 
 @pytest.mark.parametrize(
@@ -117,3 +126,76 @@ def test_the_command_line_refuses_an_unknown_rounding(capsys) -> None:
     with pytest.raises(SystemExit) as info:
         build_parser().parse_args(["fill", "in.csv", "--rounding", "nearest"])
     assert info.value.code == 2 and "invalid choice: 'nearest'" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize(
+    "value, decimals, expected",
+    [
+        (0.0122215, 2, 0.012),  # 2 decimals would give 0.01: two significant digits kept
+        (0.0122215, 3, 0.012),
+        (0.0122215, 4, 0.0122),  # the column's decimals win when they give more
+        (0.0042, 2, 0.0042),  # never 0.0
+        (0.025, 2, 0.025),
+        (0.5, 2, 0.5),
+        (2.5, 0, 2.5),  # half a limit of 5 in a whole-number column
+        (140.26, 0, 140.0),  # already two significant digits at 0 decimals
+        (0.0, 2, 0.0),
+        (math.nan, 2, math.nan),
+        (1e-20, 2, 0.0),  # past MAX_DECIMALS: rounded at 15 decimals
+    ],
+)
+def test_stand_ins_round_to_the_column_but_keep_two_significant_digits(value, decimals, expected) -> None:
+    got = round_stand_ins(np.array([value]), decimals)
+    assert np.allclose(got, [expected], rtol=0, atol=0, equal_nan=True)
+    assert int(stand_in_decimals(np.array([value]), decimals)[0]) >= decimals
+
+
+def test_stand_ins_are_left_as_computed_without_decimals() -> None:
+    values = np.array([0.0122215, 2.5])
+    assert round_stand_ins(values, None).tolist() == values.tolist()
+    assert STAND_IN_SIGNIFICANT == 2
+
+
+def test_a_plan_without_a_rounding_key_is_read_as_computed_and_says_so(tmp_path) -> None:
+    # what a plan written before rounding existed holds: every other key, no rounding
+    old = FillPlan(k=3).to_dict()
+    del old["rounding"]
+    plan = FillPlan.from_dict(old, source="old.plan.toml")
+    assert plan.rounding == LEGACY_ROUNDING == "as_computed"
+    assert plan.rounding_note == ROUNDING_NOT_GIVEN and "\n" not in plan.rounding_note
+    assert plan == FillPlan(k=3, rounding="as_computed")  # the note is no setting
+    path = tmp_path / "old.plan.toml"
+    path.write_text("format = 1\nk = 3\n", encoding="utf-8")
+    assert FillPlan.load(path).rounding_note == ROUNDING_NOT_GIVEN
+    # saved again, the plan names its rounding and reads back without a note
+    FillPlan.load(path).save(path)
+    again = FillPlan.load(path)
+    assert (again.rounding, again.rounding_note) == ("as_computed", "")
+
+
+def test_a_new_plan_rounds_and_a_plan_naming_its_rounding_keeps_it() -> None:
+    assert (FillPlan().rounding, FillPlan().rounding_note) == ("measured", "")
+    assert FillPlan.from_dict(FillPlan().to_dict()).rounding == "measured"
+    named = FillPlan.from_dict({"format": 1, "rounding": "as_computed"})
+    assert (named.rounding, named.rounding_note) == ("as_computed", "")
+
+
+def test_the_note_follows_the_plan_until_its_rounding_is_changed() -> None:
+    old = FillPlan.from_dict({"format": 1, "k": 3})
+    assert old.replace(k=4).rounding_note == ROUNDING_NOT_GIVEN  # other edits keep it
+    assert old.replace(rounding="as_computed").rounding_note == ROUNDING_NOT_GIVEN  # the app re-sends it
+    changed = old.replace(rounding="measured")
+    assert (changed.rounding, changed.rounding_note) == ("measured", "")
+    assert changed.replace(rounding="as_computed").rounding_note == ""  # chosen now, not inherited
+
+
+def test_an_old_plan_refills_as_computed_and_the_fill_says_so_once() -> None:
+    from imputer_app.engine import impute
+    from tests.engine.helpers import random_frame
+
+    frame = random_frame(30, 3, 0.1, seed=4).round(2)
+    old = FillPlan.from_dict({"format": 1, "k": 3, "decimals": {}, "interval_level": "off"})
+    result = impute(frame, old)
+    assert list(result.warnings).count(ROUNDING_NOT_GIVEN) == 1
+    assert result.plan.rounding_note == ROUNDING_NOT_GIVEN
+    assert ROUNDING_NOT_GIVEN not in impute(frame, FillPlan(k=3, interval_level=None)).warnings

@@ -7,6 +7,11 @@ measured values falls back to half the limit. With a substitution mode a below-l
 entry stands for its limit times a factor (Hornung & Reed 1990). An above-range entry
 stands for its limit in every mode; with ``fill_capped``, or when no limit is written,
 the cell is filled by kNN instead and the fill is kept on its side of the limit.
+
+A below-limit entry's stand-in is rounded like a filled number of its column, but keeps
+at least two significant digits and never exceeds its limit
+(:func:`~imputer_app.plan_rounding.round_stand_ins`); the rounded value is the one the
+distances, the donors' values, the fill log and the exports all use.
 """
 
 from __future__ import annotations
@@ -21,6 +26,7 @@ from numpy.typing import NDArray
 
 from imputer_app.engine._log import METHODS, Records
 from imputer_app.engine._ros import ROS_MIN_MEASURED, ros_estimates, ros_usable
+from imputer_app.plan_rounding import round_stand_ins
 from imputer_app.words import SUBSTITUTION_PHRASES
 
 #: Factor applied to a below-limit entry's limit, per censored mode (Hornung & Reed 1990).
@@ -49,6 +55,10 @@ class Censored:
         None when ROS was not fitted.
     ros_note : str
         Why ROS was not used for this column (empty when it was, or was not asked for).
+    decimals : int or None
+        The column's decimals (:func:`~imputer_app.plan_rounding.column_decimals`):
+        below-limit stand-ins are rounded to them, keeping two significant digits; None
+        leaves them as computed.
     """
 
     mask: NDArray[np.bool_]
@@ -57,18 +67,22 @@ class Censored:
     text: NDArray[np.object_]
     ros: NDArray[np.float64] | None = None
     ros_note: str = ""
+    decimals: int | None = None
 
     def below(self) -> NDArray[np.bool_]:
         """Below-limit entries with a written limit."""
         return self.mask & np.isfinite(self.limit) & (self.side != ">")
 
-    def substitute(self, mode: str) -> NDArray[np.float64]:
+    def substitute(self, mode: str, *, exact: bool = False) -> NDArray[np.float64]:
         """Value each censored cell stands for under ``mode``; NaN where it is filled instead.
 
         A below-limit entry stands for its ROS estimate (``ros``, when fitted by
         :func:`with_ros`) or limit x factor (:data:`CENSORED_FACTORS`; ``ros`` without
-        a fit uses :data:`ROS_FALLBACK`), an above-range entry for its limit; with
-        ``fill_capped`` or an unknown limit the cell is filled by kNN.
+        a fit uses :data:`ROS_FALLBACK`), rounded by
+        :func:`~imputer_app.plan_rounding.round_stand_ins` to :attr:`decimals` and no
+        higher than its limit (``exact=True``: as computed); an above-range entry
+        stands for its limit as written. With ``fill_capped`` or an unknown limit the
+        cell is filled by kNN.
         """
         out = np.full(len(self.mask), np.nan)
         if mode == "fill_capped":
@@ -79,6 +93,9 @@ class Censored:
         out[below] = self.limit[below] * factor
         if mode == "ros" and self.ros is not None:
             out[below] = np.where(np.isfinite(self.ros[below]), self.ros[below], out[below])
+        if not exact and self.decimals is not None:
+            # 2 significant digits may round up past the limit (0.0126 -> 0.013 under <0.0126)
+            out[below] = np.minimum(round_stand_ins(out[below], self.decimals), self.limit[below])
         out[above] = self.limit[above]
         return out
 
@@ -163,6 +180,7 @@ def censored_records(
 def substitution_records(col: str, cen: Censored, mode: str, out: Records) -> None:
     """Log every censored cell of ``col`` replaced by a number under ``mode``."""
     value = cen.substitute(mode)
+    exact = cen.substitute(mode, exact=True)  # the note compares the estimate itself with the limit
     rows = np.flatnonzero(cen.mask & np.isfinite(value))
     if not len(rows):
         return
@@ -172,7 +190,7 @@ def substitution_records(col: str, cen: Censored, mode: str, out: Records) -> No
         for t, side, m in zip(cen.text[rows].tolist(), cen.side[rows].tolist(), method.tolist(), strict=True)
     ]
     # a ROS value cut back to its limit: the fit placed the entry above its own limit
-    for i in np.flatnonzero((method == METHODS.index("ros")) & (value[rows] >= cen.limit[rows])).tolist():
+    for i in np.flatnonzero((method == METHODS.index("ros")) & (exact[rows] >= cen.limit[rows])).tolist():
         notes[i] += "; the fitted value lay above the limit, so the limit was used"
     out.add_without_donors(rows, col, value[rows].tolist(), method, notes)
 

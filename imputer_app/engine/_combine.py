@@ -20,6 +20,7 @@ from imputer_app.engine._search import ColumnDonors
 from imputer_app.engine._stack import Stack
 from imputer_app.engine._table import PreparedTable
 from imputer_app.engine._ties import shares, weighted_median, weighted_vote
+from imputer_app.plan_rounding import round_stand_ins
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.intp]
@@ -160,7 +161,9 @@ class Finish:
         Limits of censored cells being filled (">2000" gives ``cap_lower``); applied
         after the bounds, so a cap wins over a bound.
     decimals : ndarray of int, shape (cells,)
-        Rounding per cell, -1 for none.
+        Rounding per cell, -1 for none. A censored cell being filled (one with a cap)
+        keeps at least two significant digits, like a below-limit stand-in
+        (:func:`~imputer_app.plan_rounding.round_stand_ins`), and stays within its cap.
     """
 
     lower: FloatArray
@@ -197,9 +200,15 @@ class Finish:
             for lower, upper in ((self.lower, self.upper), (self.cap_lower, self.cap_upper)):
                 out = np.where(out < lower, lower, out)
                 out = np.where(out > upper, upper, out)
-        for d in np.unique(self.decimals[self.decimals >= 0]):
+        capped = np.isfinite(self.cap_lower) | np.isfinite(self.cap_upper)
+        for d in np.unique(self.decimals[self.decimals >= 0]).tolist():
             sel = self.decimals == d
-            out[sel] = np.round(out[sel], int(d))
+            out[sel & ~capped] = np.round(out[sel & ~capped], d)
+            if capped.any():  # below a limit: 0.012 under <0.02 must not become 0.01
+                cells = sel & capped
+                kept = round_stand_ins(out[cells], d)
+                inside = np.fmax(np.fmin(kept, self.cap_upper[cells]), self.cap_lower[cells])
+                out[cells] = np.where(np.isnan(kept), kept, inside)  # fmin would turn NaN into the cap
         return out
 
 

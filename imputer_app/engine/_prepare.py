@@ -10,6 +10,7 @@ the roles the default plan gives each column.
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import replace
 
 import numpy as np
 import pandas as pd
@@ -120,6 +121,9 @@ def _read_columns(
         cen = censored_cells(inp, numbers[j], marked[:, j])
         if numbers[j] in plan.limits:  # the plan's limit stands in where the sheet gave none
             cen.limit[cen.mask & np.isnan(cen.limit) & (cen.side != ">")] = plan.limits[numbers[j]]
+        # stand-ins are rounded like the column's fills (similarity-only columns too)
+        places = column_decimals(plan.decimals, plan.rounding, numbers[j], inp.decimals.get(numbers[j]))
+        cen = replace(cen, decimals=places)
         if rank is not None:  # fitted to the values left visible, so a hidden cell cannot help
             hidden = hide is not None and hide[:, position[numbers[j]]]
             seen = np.where(hidden, np.nan, block[:, j])
@@ -246,6 +250,8 @@ def prepare_input(
     kinds = {c: ("number" if kinds_all[c] == "number" else "category") for c in (*sim, *fill)}
     raise_if_cancelled(cancel)  # each step takes about a second on a sheet of ten million cells
     features, warnings, has_values = scaled_features(cols, resolved, kinds, scale)
+    if resolved.rounding_note:  # an old plan: its fill is redone as it was, and said so
+        warnings.insert(0, resolved.rounding_note)
     if resolved.neighbour_weighting == "inverse_distance" and resolved.numeric_rule == "median":
         warnings.append(
             "numeric_rule 'median' is not used with inverse-distance weighting (weighted mean used)"
@@ -275,6 +281,9 @@ def prepare_input(
         else:
             values[col] = cols.codes[col]
             observed[col] = cols.codes[col] >= 0
+    for col, cen in cols.censored.items():  # stand-ins of similarity-only columns are rounded too
+        if cen.decimals is not None:
+            decimals.setdefault(col, cen.decimals)
     if scale and features.total_weight <= 0 and any(o.any() and not o.all() for o in observed.values()):
         raise PlanError(
             "no similarity column can compare rows: every one is constant, empty or weighted 0; "

@@ -54,9 +54,11 @@ class FillResult:
     calibration : Calibration or None
         How the intervals were calibrated (None when ``plan.interval_level`` is None).
     decimals : dict of str to int
-        Per numeric fill column that was rounded, the decimals of its filled numbers
-        (the plan's ``decimals``, else the sheet's measured precision under
-        ``plan.rounding``); interval bounds are rounded outward to the same decimals.
+        Per numeric column whose written numbers were rounded (fills, and the stand-ins
+        of censored entries), its decimals (the plan's ``decimals``, else the sheet's
+        measured precision under ``plan.rounding``); interval bounds are rounded outward
+        to the same decimals, and a stand-in keeps at least two significant digits
+        (:func:`~imputer_app.plan_rounding.round_stand_ins`).
     search : str
         Which neighbour search found the donors (all pairs in blocks, or k-d trees per
         gap pattern for long sheets with few similarity columns); both are exact.

@@ -62,8 +62,10 @@ class PreparedTable:
         Per fill column: empty cells that are not gaps (a formula's error result,
         unless the plan fills those); never targets, never donors.
     decimals : dict of str to int
-        Per numeric fill column that is rounded: the decimals its filled numbers get
-        (the plan's ``decimals``, else the measured precision under its ``rounding``).
+        Per numeric fill column that is rounded, and per number column whose censored
+        entries' stand-ins are rounded: the decimals its filled numbers get (the plan's
+        ``decimals``, else the measured precision under its ``rounding``); stand-ins
+        keep at least two significant digits beyond them.
     """
 
     n_rows: int

@@ -56,7 +56,9 @@ class PlanFiles:
             self._show_error(str(exc))
             return
         self._session.set_plan(plan)
-        self._status.showMessage(f"Plan {path.name} loaded.", 5000)
+        # an older plan is read as it filled then: say so
+        note = f" Note: {plan.rounding_note}." if plan.rounding_note else ""
+        self._status.showMessage(f"Plan {path.name} loaded.{note}", 15000 if note else 5000)
 
     def save(self, path: str | Path | None = None) -> Path | None:
         """Save the session's plan as ``*.plan.toml``; return the file written (None: not saved).

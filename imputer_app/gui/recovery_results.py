@@ -100,6 +100,17 @@ class ResultsArea(QWidget):
         """
         return QSize(super().sizeHint().width(), self.minimumSizeHint().height())
 
+    def hasHeightForWidth(self) -> bool:
+        """False: the panel's layout then asks :meth:`sizeHint` (the minimum), not the tab's wish.
+
+        A tab whose page wraps text (the per-column note) has a height for each width,
+        and a box layout asks such an item for its *preferred* height at the panel's
+        width: the page's table would claim its full preferred height and push the
+        panel past its scroll area (a scroll bar at 1400 x 900 after "Use each
+        column's best k"). The area keeps its stretch and takes the height left over.
+        """
+        return False
+
     def focus_chain(self) -> list[QWidget]:
         """The tabs and every view's controls, in tab order."""
         return [

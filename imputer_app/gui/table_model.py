@@ -31,6 +31,7 @@ from imputer_app.gui.markers import (
     WEAK_SYMBOL,
     palette_is_dark,
 )
+from imputer_app.plan_rounding import stand_in_decimals
 from imputer_app.words import STATE_WORDS
 
 if TYPE_CHECKING:
@@ -257,7 +258,7 @@ class SheetTableModel(FlatTableModel):
         symbol = MARKERS[CODE_MARKERS[code]].symbol
         original = self._notes.get((row, col), "")
         if code == CENSORED and value:  # a substituted number (limit, limit/2, ...): shown exactly
-            value = f"{float(self._values[col][row]):.6g}"
+            value = self._stand_in(row, col)
             return f"{symbol} {value} ({original})" if original else f"{symbol} {value}"
         return f"{symbol} {original}" if original else symbol
 
@@ -272,7 +273,7 @@ class SheetTableModel(FlatTableModel):
                 return (
                     self._format(row, col, False) if short else f"{self._format(row, col, False)} (measured)"
                 )
-            value = self._format(row, col, True)
+            value = self._stand_in(row, col) if code == CENSORED else self._format(row, col, True)
             return f"{state}; stands for {value}" if value else state
         words = "proposed fill" if self._layer_kind == "preview" else "filled"
         text = f"{words} {self._format(row, col, True, full=True)}, was a {state}"
@@ -288,6 +289,11 @@ class SheetTableModel(FlatTableModel):
             text += "\nNot applied yet: Fill > Apply writes it into the working table."
         return f"{self._names[col]}, row {self.row_label(row)}: {text}"
 
+    def _stand_in(self, row: int, col: int) -> str:
+        """A censored entry's stand-in as the engine rounded it (0.012, not 0.01), or ""."""
+        value = self._values[col][row]
+        return "" if self._values[col].dtype.kind != "f" or math.isnan(value) else f"{float(value):.6g}"
+
     def _format(self, row: int, col: int, shown_value: bool, full: bool = False) -> str:
         values = self._values[col] if shown_value else self._base_values[col]
         value = values[row]
@@ -296,6 +302,8 @@ class SheetTableModel(FlatTableModel):
                 return ""
             filled = shown_value and self._codes[row, col] != OBSERVED
             decimals = self._fill_decimals[col] if filled else self._decimals[col]
+            if filled and self._codes[row, col] == CENSORED:  # below a limit: 2 significant digits kept
+                decimals = int(stand_in_decimals(np.array([value]), decimals)[0])
             return _format_number(float(value), decimals, full)
         if value is None or (isinstance(value, float) and math.isnan(value)) or value is pd.NA:
             return ""

@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 
 from imputer_app import CAUTIONS, __version__
-from imputer_app.words import SUBSTITUTION_PHRASES
+from imputer_app.words import STAND_IN_ROUNDING, SUBSTITUTION_PHRASES
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
@@ -277,14 +277,30 @@ def _interval_sentences(result: FillResult, cites: list[str]) -> list[str]:
 
 def _rounding_sentence(result: FillResult) -> str:
     """How filled numbers were rounded, when any was ('' when none was)."""
-    if not getattr(result, "decimals", None):
+    rounded = dict(getattr(result, "decimals", None) or {})
+    if not rounded:
         return ""
     if getattr(result.plan, "rounding", "") == "measured":
-        return (
+        text = (
             "Filled numbers were rounded to the precision measured in their column (the most "
             "decimals among its measured values), interval bounds outward to the same decimals."
         )
-    return "Filled numbers were rounded to the decimals the plan names for their column."
+    else:
+        text = "Filled numbers were rounded to the decimals the plan names for their column."
+    if _rounded_stand_ins(result.log, rounded):
+        text += f" Values standing for below-limit entries were {STAND_IN_ROUNDING}."
+    return text
+
+
+def _rounded_stand_ins(log: pd.DataFrame, rounded: Mapping[str, int]) -> bool:
+    """Whether the log holds a below-limit entry's stand-in in a rounded column."""
+    if not len(log) or "original_state" not in log.columns:
+        return False
+    cells = log[log["original_state"].astype(str) == "censored"]
+    stand_in = cells["method"].astype(str).isin(list(SUBSTITUTION_PHRASES))
+    if "original_text" in cells.columns:  # an above-range entry stands for its limit, unrounded
+        stand_in &= ~cells["original_text"].astype(str).str.lstrip().str.startswith(">")
+    return bool((stand_in & cells["column"].astype(str).isin(list(rounded))).any())
 
 
 def _listing(items: Sequence[str]) -> str:

@@ -89,7 +89,9 @@ def solid_fill(colour: str) -> str:
     return f"<fill>{pattern}</fill>"
 
 
-def add_marked(xml: str, bases: Sequence[int], colour: str) -> tuple[str, dict[int, int]]:
+def add_marked(
+    xml: str, bases: Sequence[int], colour: str, *, general: bool = False
+) -> tuple[str, dict[int, int]]:
     """Add one style per base style: the same number format, font and border, with a fill.
 
     Parameters
@@ -100,6 +102,10 @@ def add_marked(xml: str, bases: Sequence[int], colour: str) -> tuple[str, dict[i
         Indices into ``cellXfs`` (0 is the default style).
     colour : str
         The mark's fill colour.
+    general : bool, default=False
+        Use the General number format instead of the base's (a censored entry's
+        stand-in may need more decimals than its column's format shows: 0.012 under
+        ``0.00`` would read 0.01).
 
     Returns
     -------
@@ -113,7 +119,8 @@ def add_marked(xml: str, bases: Sequence[int], colour: str) -> tuple[str, dict[i
     clones = []
     for base in bases:
         xf = xfs[base] if 0 <= base < len(xfs) else '<xf numFmtId="0" fontId="0" fillId="0" borderId="0"/>'
-        clones.append(set_attr(set_attr(xf, "fillId", str(fill)), "applyFill", "1"))
+        xf = set_attr(set_attr(xf, "fillId", str(fill)), "applyFill", "1")
+        clones.append(set_attr(xf, "numFmtId", "0") if general else xf)
     xml, first = append(xml, "cellXfs", clones)
     return xml, {base: first + k for k, base in enumerate(bases)}
 

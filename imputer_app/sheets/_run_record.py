@@ -22,7 +22,7 @@ import pandas as pd
 from imputer_app import CAUTIONS, __version__
 from imputer_app.charts import ErrorVsK
 from imputer_app.sheets._methods_text import methods_paragraph
-from imputer_app.words import CHOICE_WORDS
+from imputer_app.words import CHOICE_WORDS, STAND_IN_ROUNDING
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
@@ -165,7 +165,10 @@ def _rounding(result: FillResult) -> dict[str, Any]:
     """The rounding rule and the decimals each rounded column's filled numbers got."""
     rule = CHOICE_WORDS["rounding"][result.plan.rounding]
     decimals = dict(getattr(result, "decimals", {}))
-    return {"rule": f"{rule.label}: {rule.explanation}", "decimals": decimals}
+    out: dict[str, Any] = {"rule": f"{rule.label}: {rule.explanation}", "decimals": decimals}
+    if decimals:
+        out["below_limit_stand_ins"] = STAND_IN_ROUNDING
+    return out
 
 
 def _input(sheet: Sheet | None) -> dict[str, Any]:

@@ -242,7 +242,8 @@ def _workbook_record(
         "row_numbers": "every row and column keeps its place in the input workbook; " + _label_note(True),
         "filled_cells": f"fill colour {_write_xlsx.FILLED_COLOUR} on the column's number format and font",
         "censored_cells": (
-            f"fill colour {_write_xlsx.CENSORED_COLOUR} where the plan wrote a value; "
+            f"fill colour {_write_xlsx.CENSORED_COLOUR} where the plan wrote a value, on the column's "
+            "number format (General where the value has more decimals than that format shows); "
             "otherwise left as they were"
         ),
         "formulas": "kept as formulas; stored results removed, recalculated when the file is opened",

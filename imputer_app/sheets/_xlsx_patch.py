@@ -29,6 +29,7 @@ from typing import TYPE_CHECKING, Any
 from xml.etree import ElementTree
 
 import numpy as np
+import pandas as pd
 
 from imputer_app.errors import ExportError
 from imputer_app.sheets import _patch_cells as cells
@@ -226,17 +227,20 @@ def _patch(
         )
     bases = {key: column_style.get(key[1], own.get(key, 0)) for key in at}
     style_xml = parts["xl/styles.xml"].decode("utf-8")
+    # a stand-in with more decimals than its column's (0.012 under "0.00") shows in General
+    wide = _wide_stand_ins(content)
+    kinds = {key: _WIDE if ij in wide else int(content.marks[ij]) for key, ij in at.items()}
     marked: dict[int, dict[int, int]] = {}
-    for mark, colour in ((FILLED, FILLED_COLOUR), (CENSORED, CENSORED_COLOUR)):
-        used = sorted({bases[key] for key, (i, j) in at.items() if content.marks[i, j] == mark})
-        style_xml, marked[mark] = styles.add_marked(style_xml, used, colour)
+    for mark, colour in ((FILLED, FILLED_COLOUR), (CENSORED, CENSORED_COLOUR), (_WIDE, CENSORED_COLOUR)):
+        used = sorted({bases[key] for key, kind in kinds.items() if kind == mark})
+        style_xml, marked[mark] = styles.add_marked(style_xml, used, colour, general=mark == _WIDE)
     changed["xl/styles.xml"] = style_xml.encode("utf-8")
     frame = content.frame
     for (row, col), (i, j) in at.items():
         value = frame.iat[i, j]
         value = value.item() if isinstance(value, np.generic) else value
         ref = f"{column_letter(col)}{row}"
-        style = marked[int(content.marks[i, j])][bases[(row, col)]]
+        style = marked[kinds[(row, col)]][bases[(row, col)]]
         by_row[row][col] = value_cell(ref, value, f' s="{style}"') or f'<c r="{ref}"/>'
     xml = cells.set_cells(xml, by_row)
     counts = {"cells": len(at), "notes": 0}
@@ -247,6 +251,29 @@ def _patch(
     changed[plan.data_part] = xml.encode("utf-8")
     _recalculate(parts, changed)
     return changed, counts
+
+
+#: Style group of censored stand-ins that need more decimals than their column has.
+_WIDE = -1
+
+
+def _wide_stand_ins(content: ExportContent) -> set[tuple[int, int]]:
+    """(row, column) positions of censored stand-ins with more decimals than their column's.
+
+    A stand-in keeps two significant digits below its column's decimals
+    (:func:`~imputer_app.plan_rounding.round_stand_ins`); the column's number format
+    would hide them (0.012 under ``0.00`` reads 0.01).
+    """
+    out: set[tuple[int, int]] = set()
+    for j, places in enumerate(content.decimals or []):
+        rows = np.flatnonzero(content.marks[:, j] == CENSORED)
+        if places is None or not rows.size:
+            continue
+        values = pd.to_numeric(content.frame.iloc[rows, j], errors="coerce").to_numpy(dtype=np.float64)
+        with np.errstate(invalid="ignore"):
+            wide = np.isfinite(values) & (np.abs(np.round(values, places) - values) > 1e-12 * np.abs(values))
+        out.update((int(i), j) for i in rows[wide].tolist())
+    return out
 
 
 def _add_notes(
