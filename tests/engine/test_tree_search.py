@@ -227,3 +227,28 @@ def test_unknown_path_is_refused() -> None:
     table = prepare(random_frame(50, 3, 0.1, seed=13), FillPlan())
     with pytest.raises(ValueError, match="path"):
         nearest_donors(table, kmax=3, path="fast")
+
+
+def test_recovery_test_takes_the_same_path_and_scores(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The recovery test searches through the same choice of path, and both paths score alike."""
+    from imputer_app.validation import recovery_test
+
+    _lower_limits(monkeypatch)
+    frame = random_frame(500, 4, 0.1, seed=11)
+    plan = FillPlan(scaling="none")
+    runs: list[str] = []
+    run = _tree_search.TreeSearch.run
+
+    def spy(self: _tree_search.TreeSearch, *args: object) -> int:
+        runs.append("tree")
+        return run(self, *args)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(_tree_search.TreeSearch, "run", spy)
+    monkeypatch.setattr(_tree_search, "tree_pays", lambda *a: False)
+    block = recovery_test(frame, plan, ks=[1, 3], repeats=2, seed=4, masking="random")
+    assert runs == []
+    monkeypatch.setattr(_tree_search, "tree_pays", lambda *a: True)
+    tree = recovery_test(frame, plan, ks=[1, 3], repeats=2, seed=4, masking="random")
+    assert runs  # every search of the test (one per fold and repeat)
+    assert tree.best_k == block.best_k
+    pd.testing.assert_frame_equal(tree.scores, block.scores, rtol=1e-12)
