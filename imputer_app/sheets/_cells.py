@@ -32,6 +32,7 @@ import pandas as pd
 from imputer_app.sheets._fast_text import plain_number_values
 from imputer_app.sheets._grid import NO_VALUE as NO_VALUE_CELL
 from imputer_app.sheets._grid import FormulaError
+from imputer_app.sheets._string_cells import as_objects, is_string_array
 
 #: Cell classes found on reading (internal codes). FORMULA_ERROR is a cached formula
 #: error (``#DIV/0!``), NO_VALUE a formula cell saved without its result.
@@ -43,6 +44,13 @@ ERROR_TEXTS = frozenset(
 )
 #: Classes that hold no value for kind detection.
 NOT_VALUES = (BLANK, MARKER, FORMULA_ERROR, NO_VALUE)
+
+
+def in_codes(codes: np.ndarray, wanted: tuple[int, ...]) -> np.ndarray:
+    """``numpy.isin`` for small codes 0-255 (cell classes, states) by one table look-up."""
+    table = np.zeros(256, dtype=bool)
+    table[list(wanted)] = True
+    return table[codes.astype(np.uint8, copy=False)]
 
 #: Missing-value markers that apply unless the user says otherwise (trimmed, case-insensitive).
 DEFAULT_MARKERS: tuple[str, ...] = ("NA", "N/A", "-", "--", "?", "missing", "lost", "#N/A", "NaN")
@@ -143,8 +151,9 @@ class ParsedColumn:
 
     Attributes
     ----------
-    raw : ndarray of object, shape (n,)
-        The cells as read ("" for empty).
+    raw : ndarray of object or of StringDType, shape (n,)
+        The cells as read ("" for empty); a ``StringDType`` array for a long delimited
+        file split by :func:`~imputer_app.sheets._fast_text.split_plain_text`.
     cls : ndarray of int8, shape (n,)
         One of BLANK, MARKER, NUMBER, CENSORED, TEXT, DATE, BOOL per cell.
     number : ndarray of float, shape (n,)
@@ -247,6 +256,9 @@ def parse_column(raw: np.ndarray, decimal: str, markers: Markers) -> ParsedColum
         limit=np.full(n, np.nan),
         token=np.full(n, "", dtype=object),
     )
+    if is_string_array(raw):  # a long delimited file: every cell is text
+        _take_string_column(parsed, raw, decimal, markers)
+        return parsed
     where = np.flatnonzero(raw != "")
     values = raw[where]
     inferred = pd.api.types.infer_dtype(values, skipna=False)
@@ -286,9 +298,29 @@ def _take_strings(
         cells = where[plain]
         parsed.cls[cells] = np.where(marker, MARKER, NUMBER)
         parsed.number[cells[~marker]] = numbers[plain][~marker]
-    if plain.all():
-        return
-    where, values = where[~plain], values[~plain]
+    if not plain.all():
+        _take_texts(parsed, where[~plain], values[~plain], decimal, markers)
+
+
+def _take_string_column(parsed: ParsedColumn, raw: np.ndarray, decimal: str, markers: Markers) -> None:
+    """:func:`_take_strings` for a whole ``StringDType`` column, with masks instead of positions.
+
+    Plain numbers are read without making a Python ``str`` per cell; only the other
+    filled cells (markers, censored entries, text) become ``str`` for the careful pass.
+    """
+    numbers = _plain_numbers(raw, decimal)  # NaN for "" and every text that is not plain
+    plain = np.isfinite(numbers)
+    marker = plain & markers.match_numbers(numbers)
+    parsed.cls[plain] = NUMBER
+    parsed.cls[marker] = MARKER
+    np.copyto(parsed.number, numbers, where=plain & ~marker)
+    rest = ~plain & (raw != "")
+    if rest.any():
+        _take_texts(parsed, np.flatnonzero(rest), as_objects(raw[rest]), decimal, markers)
+
+
+def _take_texts(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, decimal: str, markers: Markers) -> None:
+    """Classify texts that are not plain numbers, once per distinct text."""
     codes, uniques = pd.factorize(values)
     texts = pd.Series(np.asarray(uniques, dtype=object), dtype=str).str.strip()
     found = _classify_texts(texts, decimal, markers)

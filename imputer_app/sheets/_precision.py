@@ -24,6 +24,7 @@ from imputer_app.plan_rounding import MAX_DECIMALS, float_decimals
 from imputer_app.sheets._cells import NUMBER, ParsedColumn
 from imputer_app.sheets._patch_cells import column_styles
 from imputer_app.sheets._patch_styles import children, get_attr
+from imputer_app.sheets._string_cells import as_objects, ascii_codes, is_string_array
 from imputer_app.sheets._xlsx_package import sheet_parts
 
 #: Built-in number formats (ECMA-376 Part 1, sec. 18.8.31) with fixed decimals.
@@ -59,16 +60,19 @@ def text_decimals(texts: np.ndarray, decimal: str) -> int | None:
 
     Parameters
     ----------
-    texts : ndarray of str of shape (n,)
+    texts : ndarray of str, object (str) or StringDType, shape (n,)
         Cells read as numbers, as written in the file.
     decimal : {".", ","}
         The file's decimal mark; a grouping mark (``1,234`` with ``.``) is no decimal.
     """
     if not texts.size:
         return None
-    text = np.asarray(texts, dtype=str)
     # one row of character codes per text: the digits after the last decimal mark
-    codes = text.view(np.uint32).reshape(len(text), -1)
+    codes = ascii_codes(texts) if is_string_array(texts) else None
+    text = texts
+    if codes is None:
+        text = np.asarray(as_objects(texts), dtype=str)
+        codes = text.view(np.uint32).reshape(len(text), -1)
     mark = codes == ord(decimal)
     last = codes.shape[1] - 1 - np.argmax(mark[:, ::-1], axis=1)
     digits = (codes >= ord("0")) & (codes <= ord("9")) & (np.arange(codes.shape[1]) > last[:, None])
