@@ -32,7 +32,7 @@ import pandas as pd
 from imputer_app.sheets._fast_text import plain_number_values
 from imputer_app.sheets._grid import NO_VALUE as NO_VALUE_CELL
 from imputer_app.sheets._grid import FormulaError
-from imputer_app.sheets._string_cells import as_objects, is_string_array
+from imputer_app.sheets._string_cells import as_objects, ascii_codes, is_string_array
 
 #: Cell classes found on reading (internal codes). FORMULA_ERROR is a cached formula
 #: error (``#DIV/0!``), NO_VALUE a formula cell saved without its result.
@@ -163,6 +163,11 @@ class ParsedColumn:
     side, limit, token : ndarray, shape (n,)
         For CENSORED cells: "<" or ">", the numeric limit (NaN when a word such as
         "LOD" was given) and that word's family ("LOD", "LOQ", "RL", "ULOQ" or "").
+    codes : ndarray of uint8, shape (width, n), or None
+        For a ``StringDType`` column: each cell's bytes padded with 0, one row per
+        position (UTF-8 bytes from the splitter, or
+        :func:`~imputer_app.sheets._string_cells.ascii_codes`), kept from classifying
+        for the column's measured precision; else None.
     """
 
     raw: np.ndarray
@@ -172,6 +177,7 @@ class ParsedColumn:
     side: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=object))
     limit: np.ndarray = field(default_factory=lambda: np.empty(0))
     token: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=object))
+    codes: np.ndarray | None = None
 
     def take(self, rows: np.ndarray) -> ParsedColumn:
         """The same column restricted to ``rows`` (increasing positions)."""
@@ -181,7 +187,8 @@ class ParsedColumn:
             *(
                 getattr(self, name)[rows]
                 for name in ("raw", "cls", "number", "text", "side", "limit", "token")
-            )
+            ),
+            codes=None if self.codes is None else self.codes[:, rows],
         )
 
 
@@ -244,8 +251,14 @@ def _plain_numbers(values: np.ndarray, decimal: str) -> np.ndarray:
     return plain_number_values(values, decimal)
 
 
-def parse_column(raw: np.ndarray, decimal: str, markers: Markers) -> ParsedColumn:
-    """Classify every cell of one column (see :class:`ParsedColumn`)."""
+def parse_column(
+    raw: np.ndarray, decimal: str, markers: Markers, codes: np.ndarray | None = None
+) -> ParsedColumn:
+    """Classify every cell of one column (see :class:`ParsedColumn`).
+
+    ``codes`` are the cells' bytes, one row per position, when the splitter kept them
+    (a long delimited file); else they are made here for a ``StringDType`` column.
+    """
     n = raw.shape[0]
     parsed = ParsedColumn(
         raw=raw,
@@ -257,7 +270,7 @@ def parse_column(raw: np.ndarray, decimal: str, markers: Markers) -> ParsedColum
         token=np.full(n, "", dtype=object),
     )
     if is_string_array(raw):  # a long delimited file: every cell is text
-        _take_string_column(parsed, raw, decimal, markers)
+        _take_string_column(parsed, raw, decimal, markers, codes)
         return parsed
     where = np.flatnonzero(raw != "")
     values = raw[where]
@@ -302,13 +315,16 @@ def _take_strings(
         _take_texts(parsed, where[~plain], values[~plain], decimal, markers)
 
 
-def _take_string_column(parsed: ParsedColumn, raw: np.ndarray, decimal: str, markers: Markers) -> None:
+def _take_string_column(
+    parsed: ParsedColumn, raw: np.ndarray, decimal: str, markers: Markers, codes: np.ndarray | None
+) -> None:
     """:func:`_take_strings` for a whole ``StringDType`` column, with masks instead of positions.
 
     Plain numbers are read without making a Python ``str`` per cell; only the other
     filled cells (markers, censored entries, text) become ``str`` for the careful pass.
     """
-    numbers = _plain_numbers(raw, decimal)  # NaN for "" and every text that is not plain
+    parsed.codes = codes if codes is not None else ascii_codes(raw)
+    numbers = plain_number_values(raw, decimal, parsed.codes)  # NaN for "" and every text not plain
     plain = np.isfinite(numbers)
     marker = plain & markers.match_numbers(numbers)
     parsed.cls[plain] = NUMBER

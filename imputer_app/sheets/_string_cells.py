@@ -13,6 +13,8 @@ import numpy as np
 
 #: The dtype of a column (or grid) of cell texts split from a long delimited file.
 STRING_DTYPE = np.dtypes.StringDType()
+#: Texts longer than this are not turned into byte codes (callers take their slower path).
+MAX_CODE_WIDTH = 64
 
 
 def is_string_array(values: np.ndarray) -> bool:
@@ -26,19 +28,23 @@ def as_objects(values: np.ndarray) -> np.ndarray:
 
 
 def ascii_codes(values: np.ndarray) -> np.ndarray | None:
-    """One row of byte codes per text of a ``StringDType`` array, padded with 0.
+    """The byte codes of the texts of a ``StringDType`` array, one row per character position.
 
     Returns
     -------
-    ndarray of uint8, shape (n, longest text), or None
-        None when some text holds a character outside ASCII (its code would not be
-        one byte).
+    ndarray of uint8, shape (longest text, n), or None
+        Column ``i`` holds text ``i``'s bytes padded with 0; row ``k`` the ``k``-th
+        character of every text, so a loop over the (few) positions works on long
+        contiguous rows. None when some text holds a character outside ASCII (its code
+        would not be one byte) or is longer than :data:`MAX_CODE_WIDTH`.
     """
     if not values.size:
-        return np.zeros((0, 1), dtype=np.uint8)
+        return np.zeros((1, 0), dtype=np.uint8)
     width = max(int(np.strings.str_len(values).max()), 1)
+    if width > MAX_CODE_WIDTH:  # a column of long notes: no block of bytes that wide
+        return None
     try:
         codes = values.astype(f"S{width}")
     except UnicodeEncodeError:
         return None
-    return codes.view(np.uint8).reshape(values.shape[0], width)
+    return np.ascontiguousarray(codes.view(np.uint8).reshape(values.shape[0], width).T)
