@@ -52,6 +52,7 @@ def in_codes(codes: np.ndarray, wanted: tuple[int, ...]) -> np.ndarray:
     table[list(wanted)] = True
     return table[codes.astype(np.uint8, copy=False)]
 
+
 #: Missing-value markers that apply unless the user says otherwise (trimmed, case-insensitive).
 DEFAULT_MARKERS: tuple[str, ...] = ("NA", "N/A", "-", "--", "?", "missing", "lost", "#N/A", "NaN")
 #: Markers that mean "not detected": below the limit of detection, a censored cell
@@ -184,10 +185,10 @@ class ParsedColumn:
         if rows.size == self.cls.shape[0]:
             return self
         return ParsedColumn(
-            *(
-                getattr(self, name)[rows]
+            **{
+                name: getattr(self, name)[rows]
                 for name in ("raw", "cls", "number", "text", "side", "limit", "token")
-            ),
+            },
             codes=None if self.codes is None else self.codes[:, rows],
         )
 
@@ -335,7 +336,9 @@ def _take_string_column(
         _take_texts(parsed, np.flatnonzero(rest), as_objects(raw[rest]), decimal, markers)
 
 
-def _take_texts(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, decimal: str, markers: Markers) -> None:
+def _take_texts(
+    parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, decimal: str, markers: Markers
+) -> None:
     """Classify texts that are not plain numbers, once per distinct text."""
     codes, uniques = pd.factorize(values)
     texts = pd.Series(np.asarray(uniques, dtype=object), dtype=str).str.strip()

@@ -27,8 +27,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from imputer_app.sheets._cells import CENSORED_PATTERN, Markers
-from imputer_app.sheets._string_cells import as_objects
 from imputer_app.sheets._grid import Merge, cell_text, is_filled
+from imputer_app.sheets._string_cells import as_objects
 
 ZONE_ROWS = 60
 LOOK_BELOW = 10

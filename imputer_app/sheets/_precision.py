@@ -96,8 +96,10 @@ def text_decimals(
 
 
 def _digits_after_mark(codes: np.ndarray, mark: int) -> tuple[np.ndarray, np.ndarray]:
-    """Per text (a column of ``codes``): the digits after its last ``mark``, and whether it
-    holds an ``e`` or ``E``. One pass per character position, each over every text."""
+    """Per text (a column of ``codes``): digits after its last ``mark``, and an ``e`` or ``E``.
+
+    One pass per character position, each over every text.
+    """
     after = np.zeros(codes.shape[1], dtype=np.int64)  # digits since the last mark
     seen = np.zeros(codes.shape[1], dtype=bool)
     exponent = np.zeros(codes.shape[1], dtype=bool)

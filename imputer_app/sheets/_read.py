@@ -221,8 +221,9 @@ def read_sheet(
         line_end=grid.line_end,
         limit_row=limit_row,
     )
-    # every cell as read (text untrimmed), so an export writes unfilled text cells unchanged
-    raw = np.stack([c.parsed.raw for c in columns], axis=1)
+    # every cell as read (text untrimmed), so an export writes unfilled text cells unchanged;
+    # stacked column after column (a cheaper copy for a StringDType grid), seen row by column
+    raw = np.stack([c.parsed.raw for c in columns], axis=0).T
     report(progress, PROGRESS_TOTAL, PROGRESS_TOTAL)
     return Sheet(
         frame=built.frame,
@@ -332,7 +333,9 @@ def _parse_body(
         raise_if_cancelled(cancel)
         codes = grid.codes[position] if grid.codes is not None else None
         column = body[:, position]
-        parsed.append(parse_column(column, decimal, markers, None if codes is None else codes[:, layout.data_start :]))
+        parsed.append(
+            parse_column(column, decimal, markers, None if codes is None else codes[:, layout.data_start :])
+        )
         report(
             progress,
             _GRID_DONE + (_COLUMNS_DONE - _GRID_DONE) * (position + 1) // max(width, 1),
