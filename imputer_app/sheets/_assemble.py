@@ -10,7 +10,7 @@ import numpy as np
 import pandas as pd
 
 from imputer_app.errors import SheetError
-from imputer_app.sheets._cells import CENSORED, MARKER, NO_VALUE, ParsedColumn
+from imputer_app.sheets._cells import CENSORED, MARKER, NO_VALUE, ParsedColumn, in_codes
 from imputer_app.sheets._grid import cell_text, column_letter
 from imputer_app.sheets._header import unit_from_name
 from imputer_app.sheets._kinds import (
@@ -154,7 +154,8 @@ def _limit_key(name: str) -> str:
 def _fill_limits(column: Column, numbers: Mapping[str, Column]) -> str | None:
     """Take limits of "<LOD"-style cells from a "<name> LOD" column of the same row."""
     parsed = column.parsed
-    open_cells = np.flatnonzero((parsed.cls == CENSORED) & np.isnan(parsed.limit) & (parsed.token != ""))
+    open_cells = np.flatnonzero(parsed.cls == CENSORED)  # few: test the rest on those only
+    open_cells = open_cells[np.isnan(parsed.limit[open_cells]) & (parsed.token[open_cells] != "")]
     if not open_cells.size:
         return None
     base = _limit_key(column.original or column.name)
@@ -181,8 +182,8 @@ def _fill_limits(column: Column, numbers: Mapping[str, Column]) -> str | None:
 def _cell_notes(column: Column, built: Built, rows: np.ndarray) -> pd.DataFrame:
     parsed = column.parsed
     noted = np.flatnonzero(
-        np.isin(parsed.cls, (MARKER, NO_VALUE))
-        | np.isin(built.states, (CENSORED_STATE, TEXT_IN_NUMBER, FORMULA_ERROR_STATE))
+        in_codes(parsed.cls, (MARKER, NO_VALUE))
+        | in_codes(built.states, (CENSORED_STATE, TEXT_IN_NUMBER, FORMULA_ERROR_STATE))
     )
     if not noted.size:
         return pd.DataFrame(columns=list(NOTE_COLUMNS))

@@ -32,6 +32,7 @@ import pandas as pd
 from imputer_app.sheets._fast_text import plain_number_values
 from imputer_app.sheets._grid import NO_VALUE as NO_VALUE_CELL
 from imputer_app.sheets._grid import FormulaError
+from imputer_app.sheets._string_cells import as_objects, ascii_codes, is_string_array
 
 #: Cell classes found on reading (internal codes). FORMULA_ERROR is a cached formula
 #: error (``#DIV/0!``), NO_VALUE a formula cell saved without its result.
@@ -43,6 +44,14 @@ ERROR_TEXTS = frozenset(
 )
 #: Classes that hold no value for kind detection.
 NOT_VALUES = (BLANK, MARKER, FORMULA_ERROR, NO_VALUE)
+
+
+def in_codes(codes: np.ndarray, wanted: tuple[int, ...]) -> np.ndarray:
+    """``numpy.isin`` for small codes 0-255 (cell classes, states) by one table look-up."""
+    table = np.zeros(256, dtype=bool)
+    table[list(wanted)] = True
+    return table[codes.astype(np.uint8, copy=False)]
+
 
 #: Missing-value markers that apply unless the user says otherwise (trimmed, case-insensitive).
 DEFAULT_MARKERS: tuple[str, ...] = ("NA", "N/A", "-", "--", "?", "missing", "lost", "#N/A", "NaN")
@@ -143,8 +152,9 @@ class ParsedColumn:
 
     Attributes
     ----------
-    raw : ndarray of object, shape (n,)
-        The cells as read ("" for empty).
+    raw : ndarray of object or of StringDType, shape (n,)
+        The cells as read ("" for empty); a ``StringDType`` array for a long delimited
+        file split by :func:`~imputer_app.sheets._fast_text.split_plain_text`.
     cls : ndarray of int8, shape (n,)
         One of BLANK, MARKER, NUMBER, CENSORED, TEXT, DATE, BOOL per cell.
     number : ndarray of float, shape (n,)
@@ -154,6 +164,11 @@ class ParsedColumn:
     side, limit, token : ndarray, shape (n,)
         For CENSORED cells: "<" or ">", the numeric limit (NaN when a word such as
         "LOD" was given) and that word's family ("LOD", "LOQ", "RL", "ULOQ" or "").
+    codes : ndarray of uint8, shape (width, n), or None
+        For a ``StringDType`` column: each cell's bytes padded with 0, one row per
+        position (UTF-8 bytes from the splitter, or
+        :func:`~imputer_app.sheets._string_cells.ascii_codes`), kept from classifying
+        for the column's measured precision; else None.
     """
 
     raw: np.ndarray
@@ -163,16 +178,18 @@ class ParsedColumn:
     side: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=object))
     limit: np.ndarray = field(default_factory=lambda: np.empty(0))
     token: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=object))
+    codes: np.ndarray | None = None
 
     def take(self, rows: np.ndarray) -> ParsedColumn:
         """The same column restricted to ``rows`` (increasing positions)."""
         if rows.size == self.cls.shape[0]:
             return self
         return ParsedColumn(
-            *(
-                getattr(self, name)[rows]
+            **{
+                name: getattr(self, name)[rows]
                 for name in ("raw", "cls", "number", "text", "side", "limit", "token")
-            )
+            },
+            codes=None if self.codes is None else self.codes[:, rows],
         )
 
 
@@ -235,8 +252,14 @@ def _plain_numbers(values: np.ndarray, decimal: str) -> np.ndarray:
     return plain_number_values(values, decimal)
 
 
-def parse_column(raw: np.ndarray, decimal: str, markers: Markers) -> ParsedColumn:
-    """Classify every cell of one column (see :class:`ParsedColumn`)."""
+def parse_column(
+    raw: np.ndarray, decimal: str, markers: Markers, codes: np.ndarray | None = None
+) -> ParsedColumn:
+    """Classify every cell of one column (see :class:`ParsedColumn`).
+
+    ``codes`` are the cells' bytes, one row per position, when the splitter kept them
+    (a long delimited file); else they are made here for a ``StringDType`` column.
+    """
     n = raw.shape[0]
     parsed = ParsedColumn(
         raw=raw,
@@ -247,6 +270,9 @@ def parse_column(raw: np.ndarray, decimal: str, markers: Markers) -> ParsedColum
         limit=np.full(n, np.nan),
         token=np.full(n, "", dtype=object),
     )
+    if is_string_array(raw):  # a long delimited file: every cell is text
+        _take_string_column(parsed, raw, decimal, markers, codes)
+        return parsed
     where = np.flatnonzero(raw != "")
     values = raw[where]
     inferred = pd.api.types.infer_dtype(values, skipna=False)
@@ -286,9 +312,34 @@ def _take_strings(
         cells = where[plain]
         parsed.cls[cells] = np.where(marker, MARKER, NUMBER)
         parsed.number[cells[~marker]] = numbers[plain][~marker]
-    if plain.all():
-        return
-    where, values = where[~plain], values[~plain]
+    if not plain.all():
+        _take_texts(parsed, where[~plain], values[~plain], decimal, markers)
+
+
+def _take_string_column(
+    parsed: ParsedColumn, raw: np.ndarray, decimal: str, markers: Markers, codes: np.ndarray | None
+) -> None:
+    """:func:`_take_strings` for a whole ``StringDType`` column, with masks instead of positions.
+
+    Plain numbers are read without making a Python ``str`` per cell; only the other
+    filled cells (markers, censored entries, text) become ``str`` for the careful pass.
+    """
+    parsed.codes = codes if codes is not None else ascii_codes(raw)
+    numbers = plain_number_values(raw, decimal, parsed.codes)  # NaN for "" and every text not plain
+    plain = np.isfinite(numbers)
+    marker = plain & markers.match_numbers(numbers)
+    parsed.cls[plain] = NUMBER
+    parsed.cls[marker] = MARKER
+    np.copyto(parsed.number, numbers, where=plain & ~marker)
+    rest = ~plain & (raw != "")
+    if rest.any():
+        _take_texts(parsed, np.flatnonzero(rest), as_objects(raw[rest]), decimal, markers)
+
+
+def _take_texts(
+    parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, decimal: str, markers: Markers
+) -> None:
+    """Classify texts that are not plain numbers, once per distinct text."""
     codes, uniques = pd.factorize(values)
     texts = pd.Series(np.asarray(uniques, dtype=object), dtype=str).str.strip()
     found = _classify_texts(texts, decimal, markers)

@@ -28,6 +28,7 @@ import numpy as np
 
 from imputer_app.sheets._cells import CENSORED_PATTERN, Markers
 from imputer_app.sheets._grid import Merge, cell_text, is_filled
+from imputer_app.sheets._string_cells import as_objects
 
 ZONE_ROWS = 60
 LOOK_BELOW = 10
@@ -112,7 +113,8 @@ def find_layout(
     the units row is still looked for under it.
     """
     zone_end = min(grid.shape[0], ZONE_ROWS + (header_row or 0) + 2)
-    classes = np.frompyfunc(lambda v: _zone_class(v, markers), 1, 1)(grid[:zone_end]).astype(np.int8)
+    zone = as_objects(grid[:zone_end])  # a long csv's StringDType grid: its first rows as str
+    classes = np.frompyfunc(lambda v: _zone_class(v, markers), 1, 1)(zone).astype(np.int8)
     if header_row is not None:
         header = header_row - 1 if header_row > 0 else None
         first = header + 1 if header is not None else 0

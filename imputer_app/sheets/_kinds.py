@@ -33,8 +33,10 @@ from imputer_app.sheets._cells import (
     NUMBER,
     TEXT,
     ParsedColumn,
+    in_codes,
 )
 from imputer_app.sheets._grid import cell_text
+from imputer_app.sheets._string_cells import as_objects, is_string_array
 
 #: State codes, positions in :data:`imputer_app.sheets._model.CELL_STATES`.
 OBSERVED, MISSING, CENSORED_STATE, TEXT_IN_NUMBER, FORMULA_ERROR_STATE = range(5)
@@ -85,11 +87,11 @@ class Built:
 
 def kind_of_parsed_column(parsed: ParsedColumn) -> Detected:
     """Detect the kind of one column as the reader parsed it (rules in the module docstring)."""
-    present = parsed.cls[~np.isin(parsed.cls, NOT_VALUES)]
+    present = parsed.cls[~in_codes(parsed.cls, NOT_VALUES)]
     total = present.size
     if total == 0:
         return Detected("empty")
-    numeric = int(np.isin(present, (NUMBER, CENSORED)).sum())
+    numeric = int(in_codes(present, (NUMBER, CENSORED)).sum())
     dates = int((present == DATE).sum())
     texts = int((present == TEXT).sum())
     if dates + texts >= DATE_SHARE * total:
@@ -128,7 +130,10 @@ def _zero_padded(parsed: ParsedColumn) -> bool:
     if not values.size or not np.array_equal(values, np.round(values)):
         return False
     texts = parsed.raw[numbers]  # numbers stored as numbers in a workbook carry no zeros
-    texts = texts[np.frompyfunc(lambda value: isinstance(value, str), 1, 1)(texts).astype(bool)]
+    if is_string_array(texts):  # a long delimited file: only texts starting with a 0 can match
+        texts = as_objects(texts[np.strings.startswith(np.strings.lstrip(texts), "0")])
+    else:
+        texts = texts[np.frompyfunc(lambda value: isinstance(value, str), 1, 1)(texts).astype(bool)]
     if texts.size <= NUMBER_SHARE * values.size:
         return False
     padded = pd.Series(texts, dtype=str).str.match(r"\s*0\d")
@@ -166,7 +171,7 @@ def _parse_dates(texts: np.ndarray, fmt: str) -> pd.Series:
 def category_text(parsed: ParsedColumn) -> np.ndarray:
     """Object array: the text of every present cell as a user sees it; NaN for gaps."""
     out = np.full(parsed.cls.shape[0], np.nan, dtype=object)
-    present = ~np.isin(parsed.cls, NOT_VALUES)
+    present = ~in_codes(parsed.cls, NOT_VALUES)
     from_text = present & (parsed.text != "")
     out[from_text] = parsed.text[from_text]
     others = np.flatnonzero(present & ~from_text)
@@ -186,14 +191,14 @@ def build(parsed: ParsedColumn, detected: Detected) -> Built:
     opening; writing a fill there would replace the lab's formula).
     """
     cls = parsed.cls
-    gaps = np.isin(cls, (BLANK, MARKER))
+    gaps = in_codes(cls, (BLANK, MARKER))
     states = np.full(cls.shape[0], OBSERVED, dtype=np.int8)
     states[gaps] = MISSING
     kind = detected.kind
     values: pd.Series | np.ndarray
     if kind == "number":
         states[cls == CENSORED] = CENSORED_STATE
-        states[np.isin(cls, (TEXT, DATE, BOOL))] = TEXT_IN_NUMBER
+        states[in_codes(cls, (TEXT, DATE, BOOL))] = TEXT_IN_NUMBER
         values = parsed.number.copy()
     elif kind == "date":
         values, readable = _date_values(parsed, detected.date_format)
@@ -202,7 +207,7 @@ def build(parsed: ParsedColumn, detected: Detected) -> Built:
         values = np.full(cls.shape[0], np.nan)
     else:
         values = category_text(parsed)
-    states[np.isin(cls, (FORMULA_ERROR, NO_VALUE))] = FORMULA_ERROR_STATE
+    states[in_codes(cls, (FORMULA_ERROR, NO_VALUE))] = FORMULA_ERROR_STATE
     return Built(values, states)
 
 

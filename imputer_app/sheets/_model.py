@@ -152,12 +152,15 @@ class Sheet:
         cells (else ""), ``limit`` the limit as float (NaN when unknown).
     problems : list of str
         Plain-words remarks for the user (renamed headers, text in number columns...).
-    raw_text : ndarray of object of shape (n_rows, n_columns), or None
+    raw_text : ndarray of shape (n_rows, n_columns), or None
         Every cell as read, so an export can write carried and observed cells back
         unchanged: for a delimited file each cell's text exactly as in the file (spaces
         kept); for a workbook each text cell's text untrimmed and other cells as the
-        parser gave them (numbers, dates). The same objects the parser made, so it costs
-        one pointer a cell. None for a sheet not read from a file.
+        parser gave them (numbers, dates). An object array holding the objects the
+        parser made, except for a long delimited file split from its bytes: there a
+        numpy ``StringDType`` array (about 16 bytes a cell, no Python object per cell)
+        whose elements come out as ``str`` when indexed or iterated. None for a sheet
+        not read from a file.
     markers : tuple of MarkerFound
         The marker texts found ("n.d.", "NA", "<LOD") with their meaning and count,
         most frequent first; ``read_sheet(..., markers={"n.d.": "missing"})`` changes

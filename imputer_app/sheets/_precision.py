@@ -24,6 +24,7 @@ from imputer_app.plan_rounding import MAX_DECIMALS, float_decimals
 from imputer_app.sheets._cells import NUMBER, ParsedColumn
 from imputer_app.sheets._patch_cells import column_styles
 from imputer_app.sheets._patch_styles import children, get_attr
+from imputer_app.sheets._string_cells import as_objects, ascii_codes, is_string_array
 from imputer_app.sheets._xlsx_package import sheet_parts
 
 #: Built-in number formats (ECMA-376 Part 1, sec. 18.8.31) with fixed decimals.
@@ -54,28 +55,36 @@ def format_decimals(code: str) -> int | None:
     return min(decimals + 2 * section.count("%"), MAX_DECIMALS)
 
 
-def text_decimals(texts: np.ndarray, decimal: str) -> int | None:
+def text_decimals(
+    texts: np.ndarray, decimal: str, codes: np.ndarray | None = None, rows: np.ndarray | None = None
+) -> int | None:
     """The most decimals among number texts (``"6.40"`` has 2, ``"1.5e-3"`` has 4).
 
     Parameters
     ----------
-    texts : ndarray of str of shape (n,)
+    texts : ndarray of str, object (str) or StringDType, shape (n,)
         Cells read as numbers, as written in the file.
     decimal : {".", ","}
         The file's decimal mark; a grouping mark (``1,234`` with ``.``) is no decimal.
+    codes : ndarray of uint8, shape (width, n), optional
+        The texts' bytes padded with 0, one row per character position
+        (:func:`~imputer_app.sheets._string_cells.ascii_codes`), when the caller has them.
+    rows : ndarray of bool, shape (n,), optional
+        The texts to look at; default all.
     """
-    if not texts.size:
+    if rows is None:
+        rows = np.ones(texts.shape[0], dtype=bool)
+    if not rows.any():
         return None
-    text = np.asarray(texts, dtype=str)
-    # one row of character codes per text: the digits after the last decimal mark
-    codes = text.view(np.uint32).reshape(len(text), -1)
-    mark = codes == ord(decimal)
-    last = codes.shape[1] - 1 - np.argmax(mark[:, ::-1], axis=1)
-    digits = (codes >= ord("0")) & (codes <= ord("9")) & (np.arange(codes.shape[1]) > last[:, None])
-    after = np.where(mark.any(axis=1), np.count_nonzero(digits, axis=1), 0)
-    exponent = ((codes == ord("e")) | (codes == ord("E"))).any(axis=1)
-    best = int(after[~exponent].max(initial=0))
-    for one in text[exponent].tolist():  # rare: 1.5e-3
+    if codes is None and is_string_array(texts):
+        codes = ascii_codes(texts)
+    if codes is None:  # one row of character codes per position
+        texts = np.asarray(as_objects(texts[rows]), dtype=str)
+        rows = np.ones(texts.shape[0], dtype=bool)
+        codes = texts.view(np.uint32).reshape(len(texts), -1).T
+    after, exponent = _digits_after_mark(codes, ord(decimal))
+    best = int(after[rows & ~exponent].max(initial=0))
+    for one in texts[rows & exponent].tolist():  # rare: 1.5e-3
         mantissa, _, power = one.strip().lower().partition("e")
         at = mantissa.rfind(decimal)
         places = len(mantissa) - at - 1 if at >= 0 else 0
@@ -84,6 +93,23 @@ def text_decimals(texts: np.ndarray, decimal: str) -> int | None:
         except ValueError:
             continue
     return min(max(best, 0), MAX_DECIMALS)
+
+
+def _digits_after_mark(codes: np.ndarray, mark: int) -> tuple[np.ndarray, np.ndarray]:
+    """Per text (a column of ``codes``): digits after its last ``mark``, and an ``e`` or ``E``.
+
+    One pass per character position, each over every text.
+    """
+    after = np.zeros(codes.shape[1], dtype=np.int64)  # digits since the last mark
+    seen = np.zeros(codes.shape[1], dtype=bool)
+    exponent = np.zeros(codes.shape[1], dtype=bool)
+    for position in codes:
+        at_mark = position == mark
+        seen |= at_mark
+        after *= ~at_mark
+        after += (position - ord("0")) < 10  # unsigned codes: below "0" wraps round
+        exponent |= (position | 0x20) == ord("e")
+    return np.where(seen, after, 0), exponent
 
 
 def column_decimals(parsed: ParsedColumn, from_text: bool, decimal: str, shown: int | None) -> int | None:
@@ -96,7 +122,7 @@ def column_decimals(parsed: ParsedColumn, from_text: bool, decimal: str, shown: 
     if not number.any():
         return None
     if from_text:
-        return text_decimals(parsed.raw[number], decimal)
+        return text_decimals(parsed.raw, decimal, parsed.codes, number)
     if shown is not None:
         return shown
     return float_decimals(parsed.number[number])

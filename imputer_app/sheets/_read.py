@@ -59,6 +59,8 @@ class _Grid:
     encoding: str | None = None
     line_end: str | None = None
     formulas: Mapping[int, np.ndarray] = field(default_factory=dict)
+    #: Per column, each cell's bytes (a long csv split from its bytes); else None.
+    codes: tuple[np.ndarray | None, ...] | None = None
 
 
 def list_sheets(path: str | PathLike[str]) -> list[str]:
@@ -183,9 +185,7 @@ def read_sheet(
         sample = grid.cells[layout.data_start : layout.data_start + _DECIMAL_SAMPLE_ROWS]
         decimal = _text.detect_decimal(sample, grid.delimiter)
     problems = _spread_data_merges(grid, layout.data_start)
-    columns, rows, row_problems = _parse_body(
-        grid.cells, layout, marker_set, decimal, where, progress, cancel
-    )
+    columns, rows, row_problems = _parse_body(grid, layout, marker_set, decimal, where, progress, cancel)
     columns, rows, limits, limit_row = take_limit_row(columns, rows)
     if limit_row is not None:
         row_problems.append(
@@ -221,8 +221,9 @@ def read_sheet(
         line_end=grid.line_end,
         limit_row=limit_row,
     )
-    # every cell as read (text untrimmed), so an export writes unfilled text cells unchanged
-    raw = np.stack([c.parsed.raw for c in columns], axis=1)
+    # every cell as read (text untrimmed), so an export writes unfilled text cells unchanged;
+    # stacked column after column (a cheaper copy for a StringDType grid), seen row by column
+    raw = np.stack([c.parsed.raw for c in columns], axis=0).T
     report(progress, PROGRESS_TOTAL, PROGRESS_TOTAL)
     return Sheet(
         frame=built.frame,
@@ -299,8 +300,8 @@ def _load_grid(
         raise SheetError(f"'{path.name}' is empty")
     separator = _text.normalise_delimiter(delimiter, path) if delimiter else _text.detect_delimiter(text, fmt)
     raise_if_cancelled(cancel)
-    cells = _text.parse_grid(text, separator, path, cancel)
-    return _Grid(cells, (), None, separator, used, _text.line_end(text))
+    cells, codes = _text.parse_grid(text, separator, path, cancel)
+    return _Grid(cells, (), None, separator, used, _text.line_end(text), codes=codes)
 
 
 def _spread_data_merges(grid: _Grid, data_start: int) -> list[str]:
@@ -316,7 +317,7 @@ def _spread_data_merges(grid: _Grid, data_start: int) -> list[str]:
 
 
 def _parse_body(
-    cells: np.ndarray,
+    grid: _Grid,
     layout: Layout,
     markers: Markers,
     decimal: str,
@@ -325,12 +326,16 @@ def _parse_body(
     cancel: CancelFlag | None,
 ) -> tuple[list[Column], np.ndarray, list[str]]:
     """Classify every data column, drop blank rows/columns; return columns and file rows."""
-    body = cells[layout.data_start :]
+    body = grid.cells[layout.data_start :]
     parsed: list[ParsedColumn] = []
     width = body.shape[1]
     for position in range(width):
         raise_if_cancelled(cancel)
-        parsed.append(parse_column(body[:, position], decimal, markers))
+        codes = grid.codes[position] if grid.codes is not None else None
+        column = body[:, position]
+        parsed.append(
+            parse_column(column, decimal, markers, None if codes is None else codes[:, layout.data_start :])
+        )
         report(
             progress,
             _GRID_DONE + (_COLUMNS_DONE - _GRID_DONE) * (position + 1) // max(width, 1),

@@ -161,16 +161,19 @@ def detect_delimiter(text: str, fmt: str) -> str:
     return best[2]
 
 
-def parse_grid(text: str, delimiter: str, path: Path, cancel: CancelFlag | None = None) -> np.ndarray:
-    """Split text into a 2-D object array of strings (short rows padded with "").
+def parse_grid(
+    text: str, delimiter: str, path: Path, cancel: CancelFlag | None = None
+) -> tuple[np.ndarray, tuple[np.ndarray | None, ...] | None]:
+    """Split text into a 2-D array of strings (short rows padded with "").
 
-    Long quote-free text with rows of equal width goes through pandas' C parser
-    (:func:`~imputer_app.sheets._fast_text.split_plain_text`); everything else through
-    ``csv.reader``.
+    Long quote-free text with rows of equal width is cut from its bytes into a numpy
+    ``StringDType`` array, with each column's bytes beside it
+    (:func:`~imputer_app.sheets._fast_text.split_plain_text`); everything else goes
+    through ``csv.reader`` into an object array, with None for the bytes.
     """
     fast = split_plain_text(text, delimiter)
     if fast is not None:
-        return fast
+        return fast.cells, fast.codes
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, strict=False)
     rows: list[list[str]] = []
     starts: list[int] = []  # first line of each row, kept only when quotes can span lines
@@ -190,7 +193,7 @@ def parse_grid(text: str, delimiter: str, path: Path, cancel: CancelFlag | None 
     grid = rows_to_grid(rows)
     if quoted:
         _refuse_unclosed_quote(grid, delimiter, starts, path)
-    return grid
+    return grid, None
 
 
 #: Lines holding the separator inside one quoted cell that mean its quote was never closed.

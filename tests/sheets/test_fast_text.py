@@ -49,8 +49,8 @@ def test_split_equals_csv_reader(always_fast: None, delimiter: str, line_end: st
         return
     assert fast is not None
     expected = _csv_reader_grid(text, delimiter)
-    assert fast.shape == expected.shape
-    assert (fast == expected).all()
+    assert fast.cells.shape == expected.shape
+    assert (fast.cells == expected).all()
 
 
 @pytest.mark.parametrize(
