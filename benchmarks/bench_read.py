@@ -2,8 +2,9 @@
 
 Goals (README "Benchmarks"): a 100,000 x 20 xlsx is read at least 4x faster than pandas with
 openpyxl and in at most 2x the time python-calamine alone takes to hand over the same
-sheet's values (the two timed in turns, pair by pair, wall clock and CPU); a 1,000,000 x 10 csv (5 % blank cells) in at most 5 s, printed beside
-``pandas.read_csv`` (which reads numbers only, with no cell states).
+sheet's values (the two timed in turns, pair by pair, wall clock and CPU); a 1,000,000 x 10
+csv (5 % blank cells) in at most 5 s, printed beside ``pandas.read_csv`` (which reads
+numbers only, with no cell states).
 
 The workbook (a sample ID column, a category column and 18 measurement
 columns with 5 % blank cells and a few markers and censored entries) is written once
