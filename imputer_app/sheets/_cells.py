@@ -180,20 +180,22 @@ _NUMERIC_INFERRED = ("floating", "integer", "mixed-integer-float")
 _DATE_TYPES = (dt.date, dt.time, dt.timedelta)
 _NUMBER_TYPES = (float, int, np.float64, np.int64, np.float32, np.int32)
 _STRING_TYPES = (str, np.str_)
+_TYPE_OF = np.frompyfunc(type, 1, 1)
 _NUMBER_CHARS = r"[-+\u2212]?[\d.,]*\d[\d.,]*(?:[eE][-+]?\d+)?"
 
 
-def parse_numbers(texts: pd.Series, decimal: str) -> np.ndarray:
+def parse_numbers(texts: pd.Series, decimal: str, first: np.ndarray | None = None) -> np.ndarray:
     """Parse trimmed text as numbers with the given decimal mark; NaN where it is not one.
 
     Thousands separators are removed only in the unambiguous grouped form
     (``1.234.567,8`` with decimal ``,``; ``1,234,567.8`` with decimal ``.``).
-    ``nan``, ``inf`` and overflowing text are not numbers.
+    ``nan``, ``inf`` and overflowing text are not numbers. ``first`` may give the
+    texts' first characters (:func:`_first_chars`) when the caller has them.
     """
     values = np.full(len(texts), np.nan)
     # only texts made of digits, marks, signs and an exponent can be numbers
     # the cheap first-character test spares the pattern on long lists of names and codes
-    candidate = _first_char_in(texts, _NUMBER_STARTS)
+    candidate = _first_char_in(_first_chars(texts) if first is None else first, _NUMBER_STARTS)
     if candidate.any():
         matches = texts[candidate].str.fullmatch(_NUMBER_CHARS)
         candidate[candidate] = matches.to_numpy(dtype=bool, na_value=False)
@@ -214,14 +216,22 @@ def parse_numbers(texts: pd.Series, decimal: str) -> np.ndarray:
 #: First characters of texts that :data:`_NUMBER_CHARS`, :data:`CENSORED_PATTERN` (case-
 #: insensitive: sides, "less than", "under", bare BDL-type words) and the formula error
 #: texts can match.
-_NUMBER_STARTS = frozenset("+-\u22120123456789.,")
-_CENSORED_STARTS = frozenset("<>\u2264\u2265bBaAlLgGuUoO")
-_ERROR_STARTS = frozenset("#")
+_NUMBER_STARTS = np.array(sorted("+-\u22120123456789.,"))
+_CENSORED_STARTS = np.array(sorted("<>\u2264\u2265bBaAlLgGuUoO"))
+_ERROR_STARTS = np.array(["#"])
+# per-text string methods called from numpy's loop (no Python-level loop over texts)
+_STRIP = np.frompyfunc(str.strip, 1, 1)
+_LOWER = np.frompyfunc(str.lower, 1, 1)
 
 
-def _first_char_in(texts: pd.Series, starts: frozenset[str]) -> np.ndarray:
-    """True where a text's first character is one of ``starts``."""
-    return np.array(texts.str[:1].isin(starts), dtype=bool)
+def _first_chars(texts: pd.Series) -> np.ndarray:
+    """Each text's first character ("" for an empty text), as a numpy array of one-character strings."""
+    return texts.to_numpy(dtype=object).astype("U1")
+
+
+def _first_char_in(first: np.ndarray, starts: np.ndarray) -> np.ndarray:
+    """True where a first character (see :func:`_first_chars`) is one of ``starts``."""
+    return np.isin(first, starts)
 
 
 def _plain_numbers(values: np.ndarray, decimal: str) -> np.ndarray:
@@ -236,33 +246,52 @@ def _plain_numbers(values: np.ndarray, decimal: str) -> np.ndarray:
 
 
 def parse_column(raw: np.ndarray, decimal: str, markers: Markers) -> ParsedColumn:
-    """Classify every cell of one column (see :class:`ParsedColumn`)."""
-    n = raw.shape[0]
+    """Classify every cell of one column (see :class:`ParsedColumn`).
+
+    One pass of ``infer_dtype`` over the column chooses the work: a column of numbers
+    only is taken whole; a column of text only goes to the text rules; any other column
+    is split by each cell's Python type, numbers stored as numbers taken in one
+    vectorised conversion, so that only its text and other cells meet per-text work.
+    """
     parsed = ParsedColumn(
         raw=raw,
-        cls=np.full(n, BLANK, dtype=np.int8),
-        number=np.full(n, np.nan),
-        text=np.full(n, "", dtype=object),
-        side=np.full(n, "", dtype=object),
-        limit=np.full(n, np.nan),
-        token=np.full(n, "", dtype=object),
+        cls=np.full(raw.shape[0], BLANK, dtype=np.int8),
+        number=np.full(raw.shape[0], np.nan),
+        text=np.full(raw.shape[0], "", dtype=object),
+        side=np.full(raw.shape[0], "", dtype=object),
+        limit=np.full(raw.shape[0], np.nan),
+        token=np.full(raw.shape[0], "", dtype=object),
     )
-    where = np.flatnonzero(raw != "")
-    values = raw[where]
-    inferred = pd.api.types.infer_dtype(values, skipna=False)
-    if inferred in _NUMERIC_INFERRED:
-        _take_numbers(parsed, where, values, markers)
+    inferred = pd.api.types.infer_dtype(raw, skipna=False)
+    if inferred in _NUMERIC_INFERRED:  # numbers only: no blank ("") cell among them
+        _take_numbers(parsed, np.arange(raw.shape[0]), raw, markers)
     elif inferred == "string":
-        _take_strings(parsed, where, values, decimal, markers)
-    elif values.size:
-        types = pd.Series(np.frompyfunc(type, 1, 1)(values))
-        numeric = types.isin(_NUMBER_TYPES).to_numpy()
-        strings = types.isin(_STRING_TYPES).to_numpy()
-        others = ~(numeric | strings)
-        _take_numbers(parsed, where[numeric], values[numeric], markers)
-        _take_strings(parsed, where[strings], values[strings], decimal, markers)
-        _take_others(parsed, where[others], values[others])
+        where = np.flatnonzero(raw != "")
+        _take_strings(parsed, where, raw[where], decimal, markers)
+    elif raw.size:
+        _take_by_type(parsed, raw, decimal, markers)
     return parsed
+
+
+def _take_by_type(parsed: ParsedColumn, raw: np.ndarray, decimal: str, markers: Markers) -> None:
+    """Classify a column that mixes Python types (numbers with blanks, markers, dates ...).
+
+    Floats, the common case, are told apart by one comparison of their type; only the
+    other cells are looked up among the number and text types.
+    """
+    types = _TYPE_OF(raw)
+    numeric = types == float  # noqa: E721 (elementwise over an array of types)
+    rest = np.flatnonzero(~numeric)
+    kinds = pd.Series(types[rest], dtype=object)
+    numeric[rest] = kinds.isin(_NUMBER_TYPES).to_numpy()
+    strings = rest[kinds.isin(_STRING_TYPES).to_numpy()]
+    strings = strings[raw[strings] != ""]
+    others = np.setdiff1d(rest[~numeric[rest]], strings, assume_unique=True)
+    others = others[raw[others] != ""]
+    where = np.flatnonzero(numeric)
+    _take_numbers(parsed, where, raw[where], markers)
+    _take_strings(parsed, strings, raw[strings], decimal, markers)
+    _take_others(parsed, others, raw[others])
 
 
 def _take_numbers(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, markers: Markers) -> None:
@@ -290,7 +319,7 @@ def _take_strings(
         return
     where, values = where[~plain], values[~plain]
     codes, uniques = pd.factorize(values)
-    texts = pd.Series(np.asarray(uniques, dtype=object), dtype=str).str.strip()
+    texts = pd.Series(_STRIP(np.asarray(uniques, dtype=object)), dtype=str)
     found = _classify_texts(texts, decimal, markers)
     for name, column in found.items():
         getattr(parsed, name)[where] = column[codes]
@@ -299,16 +328,17 @@ def _take_strings(
 def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[str, np.ndarray]:
     """Class, number, side, limit and limit family of each (trimmed) text."""
     blank = (texts == "").to_numpy()
-    lowered = texts.str.lower()
+    lowered = pd.Series(_LOWER(texts.to_numpy(dtype=object)), dtype=object)
     below = lowered.isin(markers.below).to_numpy() & ~blank
     marker = lowered.isin(markers.texts).to_numpy() & ~blank
-    numbers = parse_numbers(texts, decimal)
+    first = _first_chars(texts)
+    numbers = parse_numbers(texts, decimal, first)
     number = np.isfinite(numbers) & ~marker
     marker |= number & markers.match_numbers(numbers)
     number &= ~marker
     cls = np.where(blank, BLANK, np.where(marker, MARKER, np.where(number, NUMBER, TEXT))).astype(np.int8)
     # a formula error saved as text (a csv written by a spreadsheet program)
-    error = np.flatnonzero((cls == TEXT) & _first_char_in(texts, _ERROR_STARTS))
+    error = np.flatnonzero((cls == TEXT) & _first_char_in(first, _ERROR_STARTS))
     cls[error[texts.iloc[error].str.upper().isin(ERROR_TEXTS).to_numpy()]] = FORMULA_ERROR
     found = {
         "cls": cls,
@@ -324,7 +354,7 @@ def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[st
     found["side"][hits], found["token"][hits] = "<", "LOD"
     rest = np.flatnonzero(cls == TEXT)
     if rest.size:  # a censored entry starts with a side or a bare limit word: test only those
-        rest = rest[_first_char_in(texts.iloc[rest], _CENSORED_STARTS)]
+        rest = rest[_first_char_in(first[rest], _CENSORED_STARTS)]
     if rest.size:
         censored = _censored(texts.iloc[rest], decimal)
         hit = censored["side"].notna().to_numpy()

@@ -131,17 +131,20 @@ def to_numeric_values(values: np.ndarray, decimal: str) -> np.ndarray:
 
 
 def _plain_cells(values: np.ndarray, decimal: str) -> np.ndarray:
-    """True for texts made only of the characters of a plain number (judged on bytes)."""
-    joined = _SEPARATOR.join(values).encode("ascii", errors="replace")
-    good_byte = _ALLOWED[decimal][np.frombuffer(joined, np.uint8)]
-    if good_byte.all():
-        plain = np.ones(values.shape[0], dtype=bool)
-    else:
-        lengths = pd.Series(values, dtype=object).str.len().to_numpy(dtype=np.int64)
-        ends = np.cumsum(lengths + 1) - 1  # position of each cell's separator
-        bad = np.flatnonzero(~good_byte)
-        plain = np.ones(values.shape[0], dtype=bool)
-        plain[np.searchsorted(ends, bad, side="left")] = False
-    if (values == "").any():
-        plain &= values != ""
-    return plain
+    """True for non-empty texts made only of the characters of a plain number (judged on bytes)."""
+    joined = _SEPARATOR.join(values).encode("ascii", errors="replace")  # one byte per character
+    codes = np.frombuffer(joined, np.uint8)
+    good_byte = _ALLOWED[decimal][codes]
+    separators = np.flatnonzero(codes == 0)  # each text's end, if no text holds one itself
+    if separators.size == values.shape[0] - 1:
+        ends = np.append(separators, codes.size)
+        starts = np.concatenate([[0], ends[:-1] + 1])
+        if good_byte.all():
+            return ends > starts
+        bad = np.concatenate([[0], np.cumsum(~good_byte)])
+        return (bad[ends] == bad[starts]) & (ends > starts)
+    lengths = pd.Series(values, dtype=object).str.len().to_numpy(dtype=np.int64)
+    cell_ends = np.cumsum(lengths + 1) - 1  # position of each cell's separator
+    plain = np.ones(values.shape[0], dtype=bool)
+    plain[np.searchsorted(cell_ends, np.flatnonzero(~good_byte), side="left")] = False
+    return plain & (lengths > 0)
