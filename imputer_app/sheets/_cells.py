@@ -181,6 +181,8 @@ _DATE_TYPES = (dt.date, dt.time, dt.timedelta)
 _NUMBER_TYPES = (float, int, np.float64, np.int64, np.float32, np.int32)
 _STRING_TYPES = (str, np.str_)
 _TYPE_OF = np.frompyfunc(type, 1, 1)
+_IS_NUMBER_TYPE = np.frompyfunc(frozenset(_NUMBER_TYPES).__contains__, 1, 1)
+_IS_STRING_TYPE = np.frompyfunc(frozenset(_STRING_TYPES).__contains__, 1, 1)
 _NUMBER_CHARS = r"[-+\u2212]?[\d.,]*\d[\d.,]*(?:[eE][-+]?\d+)?"
 
 
@@ -245,13 +247,17 @@ def _plain_numbers(values: np.ndarray, decimal: str) -> np.ndarray:
     return plain_number_values(values, decimal)
 
 
-def parse_column(raw: np.ndarray, decimal: str, markers: Markers) -> ParsedColumn:
+def parse_column(
+    raw: np.ndarray, decimal: str, markers: Markers, known: KnownTexts | None = None
+) -> ParsedColumn:
     """Classify every cell of one column (see :class:`ParsedColumn`).
 
-    One pass of ``infer_dtype`` over the column chooses the work: a column of numbers
-    only is taken whole; a column of text only goes to the text rules; any other column
-    is split by each cell's Python type, numbers stored as numbers taken in one
-    vectorised conversion, so that only its text and other cells meet per-text work.
+    A column whose first cell is text and whose every cell is text (``infer_dtype``,
+    one pass) goes to the text rules. Any other column is split by each cell's Python
+    type, floats told apart by one comparison of their type and converted in one
+    vectorised step, so that only its text and other cells meet per-text work.
+    ``known`` (built with the same ``decimal`` and ``markers``) keeps the distinct
+    texts of earlier columns of the sheet, so that each is classified once.
     """
     parsed = ParsedColumn(
         raw=raw,
@@ -262,35 +268,42 @@ def parse_column(raw: np.ndarray, decimal: str, markers: Markers) -> ParsedColum
         limit=np.full(raw.shape[0], np.nan),
         token=np.full(raw.shape[0], "", dtype=object),
     )
-    inferred = pd.api.types.infer_dtype(raw, skipna=False)
-    if inferred in _NUMERIC_INFERRED:  # numbers only: no blank ("") cell among them
-        _take_numbers(parsed, np.arange(raw.shape[0]), raw, markers)
-    elif inferred == "string":
+    if not raw.size:
+        return parsed
+    if isinstance(raw[0], str) and pd.api.types.infer_dtype(raw, skipna=False) == "string":
         where = np.flatnonzero(raw != "")
-        _take_strings(parsed, where, raw[where], decimal, markers)
-    elif raw.size:
-        _take_by_type(parsed, raw, decimal, markers)
+        _take_strings(parsed, where, raw[where], decimal, markers, known)
+    else:
+        _take_by_type(parsed, raw, decimal, markers, known)
     return parsed
 
 
-def _take_by_type(parsed: ParsedColumn, raw: np.ndarray, decimal: str, markers: Markers) -> None:
-    """Classify a column that mixes Python types (numbers with blanks, markers, dates ...).
+def _take_by_type(
+    parsed: ParsedColumn, raw: np.ndarray, decimal: str, markers: Markers, known: KnownTexts | None
+) -> None:
+    """Classify a column by each cell's Python type (numbers with blanks, markers, dates ...).
 
     Floats, the common case, are told apart by one comparison of their type; only the
-    other cells are looked up among the number and text types.
+    other cells are looked up among the number and text types. Blank ("") cells are left
+    blank. When no text is left, a column that ``infer_dtype`` finds numeric (numpy
+    integers of any width among them) is read as numbers.
     """
     types = _TYPE_OF(raw)
     numeric = types == float  # noqa: E721 (elementwise over an array of types)
     rest = np.flatnonzero(~numeric)
-    kinds = pd.Series(types[rest], dtype=object)
-    numeric[rest] = kinds.isin(_NUMBER_TYPES).to_numpy()
-    strings = rest[kinds.isin(_STRING_TYPES).to_numpy()]
+    kinds = types[rest]
+    numeric[rest] = _IS_NUMBER_TYPE(kinds).astype(bool)
+    strings = rest[_IS_STRING_TYPE(kinds).astype(bool)]
     strings = strings[raw[strings] != ""]
     others = np.setdiff1d(rest[~numeric[rest]], strings, assume_unique=True)
     others = others[raw[others] != ""]
+    if others.size and not strings.size:
+        filled = np.union1d(np.flatnonzero(numeric), others)
+        if pd.api.types.infer_dtype(raw[filled], skipna=False) in _NUMERIC_INFERRED:
+            numeric[filled], others = True, others[:0]
     where = np.flatnonzero(numeric)
-    _take_numbers(parsed, where, raw[where], markers)
-    _take_strings(parsed, strings, raw[strings], decimal, markers)
+    _take_numbers(parsed, where, raw if where.size == raw.size else raw[where], markers)
+    _take_strings(parsed, strings, raw[strings], decimal, markers, known)
     _take_others(parsed, others, raw[others])
 
 
@@ -303,7 +316,12 @@ def _take_numbers(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, m
 
 
 def _take_strings(
-    parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, decimal: str, markers: Markers
+    parsed: ParsedColumn,
+    where: np.ndarray,
+    values: np.ndarray,
+    decimal: str,
+    markers: Markers,
+    known: KnownTexts | None = None,
 ) -> None:
     """Classify text cells: plain numbers in one vectorised pass, the rest per distinct text."""
     if not where.size:
@@ -319,10 +337,49 @@ def _take_strings(
         return
     where, values = where[~plain], values[~plain]
     codes, uniques = pd.factorize(values)
-    texts = pd.Series(_STRIP(np.asarray(uniques, dtype=object)), dtype=str)
-    found = _classify_texts(texts, decimal, markers)
+    uniques = np.asarray(uniques, dtype=object)
+    if known is not None and uniques.size <= KnownTexts.MOST:
+        found = known.classify(uniques)
+    else:
+        found = _classify_texts(pd.Series(_STRIP(uniques), dtype=str), decimal, markers)
     for name, column in found.items():
         getattr(parsed, name)[where] = column[codes]
+
+
+class KnownTexts:
+    """Distinct texts already classified while one sheet is read (one decimal mark, one marker set).
+
+    The same few texts (markers, censored entries) recur in column after column; each
+    is classified once, and a column with few distinct texts is answered from here.
+    """
+
+    #: Columns with more distinct texts (names, identifiers) are classified directly.
+    MOST = 256
+
+    def __init__(self, decimal: str, markers: Markers) -> None:
+        self.decimal, self.markers = decimal, markers
+        self._found: dict[str, tuple[object, ...]] = {}
+
+    def classify(self, uniques: np.ndarray) -> dict[str, np.ndarray]:
+        """What :func:`_classify_texts` returns for the (untrimmed) texts ``uniques``."""
+        new = [text for text in dict.fromkeys(uniques.tolist()) if text not in self._found]
+        if new:
+            found = _classify_texts(
+                pd.Series(_STRIP(np.array(new, dtype=object)), dtype=str), self.decimal, self.markers
+            )
+            each = zip(*(found[name].tolist() for name in _CLASSIFIED), strict=True)
+            self._found.update(zip(new, each, strict=True))
+        rows = [self._found[text] for text in uniques.tolist()]
+        return {
+            name: np.array([row[k] for row in rows], dtype=_CLASSIFIED[name])
+            for k, name in enumerate(_CLASSIFIED)
+        }
+
+
+#: The fields :func:`_classify_texts` returns, with their dtypes.
+_CLASSIFIED: dict[str, type] = {
+    "cls": np.int8, "number": float, "text": object, "side": object, "limit": float, "token": object,
+}  # fmt: skip
 
 
 def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[str, np.ndarray]:

@@ -23,6 +23,7 @@ from imputer_app.sheets._cells import (
     BLANK,
     DEFAULT_MARKERS,
     MARKER_MEANINGS,
+    KnownTexts,
     Markers,
     ParsedColumn,
     make_markers,
@@ -328,9 +329,10 @@ def _parse_body(
     body = cells[layout.data_start :]
     parsed: list[ParsedColumn] = []
     width = body.shape[1]
+    known = KnownTexts(decimal, markers)
     for position in range(width):
         raise_if_cancelled(cancel)
-        parsed.append(parse_column(body[:, position], decimal, markers))
+        parsed.append(parse_column(body[:, position], decimal, markers, known))
         report(
             progress,
             _GRID_DONE + (_COLUMNS_DONE - _GRID_DONE) * (position + 1) // max(width, 1),

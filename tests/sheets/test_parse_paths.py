@@ -29,7 +29,8 @@ _FIELDS = ("raw", "cls", "number", "text", "side", "limit", "token")
 
 
 def _general(raw: np.ndarray, decimal: str, markers: cells.Markers) -> ParsedColumn:
-    """The reference: non-blank cells, then number / text / other by one type lookup per cell."""
+    """The reference: the non-blank cells, all numbers or all text by ``infer_dtype``, else one
+    type lookup per cell."""
     n = raw.shape[0]
     parsed = ParsedColumn(
         raw=raw,
@@ -42,7 +43,12 @@ def _general(raw: np.ndarray, decimal: str, markers: cells.Markers) -> ParsedCol
     )
     where = np.flatnonzero(raw != "")
     values = raw[where]
-    if values.size:
+    inferred = pd.api.types.infer_dtype(values, skipna=False)
+    if inferred in ("floating", "integer", "mixed-integer-float"):
+        cells._take_numbers(parsed, where, values, markers)
+    elif inferred == "string":
+        cells._take_strings(parsed, where, values, decimal, markers)
+    elif values.size:
         types = pd.Series([type(v) for v in values], dtype=object)
         numeric = types.isin(cells._NUMBER_TYPES).to_numpy()
         strings = types.isin(cells._STRING_TYPES).to_numpy()
@@ -89,6 +95,10 @@ _COLUMNS = {
     "blank only": ["", "", ""],
     "empty": [],
     "booleans": [True, False, True],
+    "numpy integers": [np.int16(3), np.uint8(4), np.int8(-1)],
+    "numpy integers and blanks": [np.int16(3), "", np.uint8(4)],
+    "numpy integers and text": [np.int16(3), "x", 2.5],
+    "none first": [None, "a", "", "1.5"],
     "dates and times": [dt.datetime(2024, 1, 1), dt.date(2024, 1, 2), dt.time(8, 30), dt.timedelta(hours=2)],
     "everything": [
         1.5, "", " 7,5 ", "n.d.", True, dt.datetime(2024, 1, 1), 3, "<2", "x", None,
@@ -148,3 +158,19 @@ def test_small_dimension_does_not_hide_a_far_cell(tmp_path: Path) -> None:
     lying = lying_dimension(path, tmp_path / "lying.xlsx", "A1:A2")
     with pytest.raises(SheetError, match="XFD1048576"):
         read_sheet(lying)
+
+
+@pytest.mark.parametrize("decimal", [".", ","])
+def test_texts_known_from_earlier_columns_classify_the_same(awkward: Path, decimal: str) -> None:
+    # one KnownTexts for a whole sheet, as the reader keeps it: the same texts recur in
+    # column after column (untrimmed and numpy variants among them)
+    grid = read_workbook(awkward.read_bytes(), awkward, "xlsx", None).cells[1:]
+    columns = [grid[:, j] for j in range(grid.shape[1])]
+    for values in [*_COLUMNS.values(), [" n.d.", "n.d.", np.str_("n.d."), "<0,5", "< 0.5", "", 1.0]]:
+        raw = np.empty(len(values), dtype=object)
+        raw[:] = values
+        columns.append(raw)
+    markers = make_markers(["-999"], {"-": "below-limit"})
+    known = cells.KnownTexts(decimal, markers)
+    for raw in columns * 2:
+        _assert_same(parse_column(raw, decimal, markers, known), _general(raw, decimal, markers))
