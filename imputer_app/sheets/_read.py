@@ -222,8 +222,7 @@ def read_sheet(
         line_end=grid.line_end,
         limit_row=limit_row,
     )
-    # every cell as read (text untrimmed), so an export writes unfilled text cells unchanged
-    raw = np.stack([c.parsed.raw for c in columns], axis=1)
+    raw = _cells_as_read(grid.cells, columns, rows)
     report(progress, PROGRESS_TOTAL, PROGRESS_TOTAL)
     return Sheet(
         frame=built.frame,
@@ -257,6 +256,18 @@ def _info(
         group_like=kind == "number" and is_group_like(column.parsed),
         group_label=group,
     )
+
+
+def _cells_as_read(cells: np.ndarray, columns: list[Column], rows: np.ndarray) -> np.ndarray:
+    """Every kept cell as read (text untrimmed), so an export writes unfilled text cells unchanged.
+
+    When the table is one block of the grid (every column, no row left out between its
+    first and last row), that block itself, not a copy.
+    """
+    first, last = int(rows[0]) - 1, int(rows[-1]) - 1
+    if [c.position for c in columns] == list(range(cells.shape[1])) and last - first + 1 == rows.size:
+        return cells[first : last + 1]
+    return np.stack([c.parsed.raw for c in columns], axis=1)
 
 
 def _marker_set(markers: Iterable[str | float] | Mapping[str, str] | None) -> Markers:

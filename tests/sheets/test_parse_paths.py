@@ -174,3 +174,42 @@ def test_texts_known_from_earlier_columns_classify_the_same(awkward: Path, decim
     known = cells.KnownTexts(decimal, markers)
     for raw in columns * 2:
         _assert_same(parse_column(raw, decimal, markers, known), _general(raw, decimal, markers))
+
+
+_A_B = '<row r="1">' + text_cell("A1", "a") + text_cell("B1", "b") + "</row>"
+_A_B_D = _A_B.replace("</row>", text_cell("D1", "d") + "</row>")
+
+
+@pytest.mark.parametrize(
+    ("head", "body"),
+    [
+        # one block of the grid: every column, no row left out
+        (
+            _A_B,
+            "".join(
+                f'<row r="{r}">{number_cell(f"A{r}", r)}{text_cell(f"B{r}", f" t{r} ")}</row>'
+                for r in (2, 3, 4)
+            ),
+        ),
+        # a blank row inside the table and an empty column C between used ones
+        (
+            _A_B_D,
+            "".join(
+                f'<row r="{r}">{number_cell(f"A{r}", r)}{text_cell(f"D{r}", f" t{r} ")}</row>'
+                for r in (2, 4, 5)
+            ),
+        ),
+    ],
+)
+def test_cells_as_read_are_the_kept_cells_of_the_grid(tmp_path: Path, head: str, body: str) -> None:
+    # the reader hands out a block of its grid when it can, else the kept cells stacked;
+    # either way the cells of the kept rows and columns, text untrimmed
+    path = xlsx(tmp_path / "block.xlsx", head + body)
+    sheet = read_sheet(path)
+    grid = read_workbook(path.read_bytes(), path, "xlsx", None).cells
+    positions = [["a", "b", "c", "d"].index(name) for name in sheet.frame.columns]
+    expected = grid[np.ix_(sheet.frame.index.to_numpy() - 1, positions)]
+    assert sheet.raw_text is not None and sheet.raw_text.shape == expected.shape
+    assert [(type(x), x) for x in sheet.raw_text.ravel().tolist()] == [
+        (type(x), x) for x in expected.ravel().tolist()
+    ]
