@@ -301,18 +301,23 @@ def _take_by_type(
         filled = np.union1d(np.flatnonzero(numeric), others)
         if pd.api.types.infer_dtype(raw[filled], skipna=False) in _NUMERIC_INFERRED:
             numeric[filled], others = True, others[:0]
-    where = np.flatnonzero(numeric)
-    _take_numbers(parsed, where, raw if where.size == raw.size else raw[where], markers)
+    _take_number_cells(parsed, numeric, raw, markers)
     _take_strings(parsed, strings, raw[strings], decimal, markers, known)
     _take_others(parsed, others, raw[others])
 
 
-def _take_numbers(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, markers: Markers) -> None:
-    numbers = values.astype(float)
-    finite = np.isfinite(numbers)
-    marker = markers.match_numbers(numbers)
-    parsed.number[where[finite & ~marker]] = numbers[finite & ~marker]
-    parsed.cls[where] = np.where(marker, MARKER, np.where(finite, NUMBER, BLANK))
+def _take_number_cells(parsed: ParsedColumn, numeric: np.ndarray, raw: np.ndarray, markers: Markers) -> None:
+    """Take the cells where ``numeric`` is True, Python or numpy numbers, as numbers.
+
+    The values are converted in place, only where ``numeric`` is True (no copy of the
+    cells first); non-finite values are blank, numeric markers are markers.
+    """
+    number = parsed.number
+    np.copyto(number, raw, casting="unsafe", where=numeric)
+    finite = np.isfinite(number)
+    marker = markers.match_numbers(number) & finite
+    number[~finite | marker] = np.nan
+    parsed.cls[numeric] = np.where(marker, MARKER, np.where(finite, NUMBER, BLANK))[numeric]
 
 
 def _take_strings(

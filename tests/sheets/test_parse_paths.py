@@ -45,7 +45,7 @@ def _general(raw: np.ndarray, decimal: str, markers: cells.Markers) -> ParsedCol
     values = raw[where]
     inferred = pd.api.types.infer_dtype(values, skipna=False)
     if inferred in ("floating", "integer", "mixed-integer-float"):
-        cells._take_numbers(parsed, where, values, markers)
+        _numbers(parsed, where, values, markers)
     elif inferred == "string":
         cells._take_strings(parsed, where, values, decimal, markers)
     elif values.size:
@@ -53,10 +53,18 @@ def _general(raw: np.ndarray, decimal: str, markers: cells.Markers) -> ParsedCol
         numeric = types.isin(cells._NUMBER_TYPES).to_numpy()
         strings = types.isin(cells._STRING_TYPES).to_numpy()
         others = ~(numeric | strings)
-        cells._take_numbers(parsed, where[numeric], values[numeric], markers)
+        _numbers(parsed, where[numeric], values[numeric], markers)
         cells._take_strings(parsed, where[strings], values[strings], decimal, markers)
         cells._take_others(parsed, where[others], values[others])
     return parsed
+
+
+def _numbers(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, markers: cells.Markers) -> None:
+    numbers = values.astype(float)
+    finite = np.isfinite(numbers)
+    marker = markers.match_numbers(numbers)
+    parsed.number[where[finite & ~marker]] = numbers[finite & ~marker]
+    parsed.cls[where] = np.where(marker, cells.MARKER, np.where(finite, cells.NUMBER, cells.BLANK))
 
 
 def _assert_same(fast: ParsedColumn, general: ParsedColumn) -> None:
