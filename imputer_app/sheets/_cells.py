@@ -263,10 +263,10 @@ def parse_column(
         raw=raw,
         cls=np.full(raw.shape[0], BLANK, dtype=np.int8),
         number=np.full(raw.shape[0], np.nan),
-        text=np.full(raw.shape[0], "", dtype=object),
-        side=np.full(raw.shape[0], "", dtype=object),
+        text=_no_texts(raw.shape[0]),
+        side=_no_texts(raw.shape[0]),
         limit=np.full(raw.shape[0], np.nan),
-        token=np.full(raw.shape[0], "", dtype=object),
+        token=_no_texts(raw.shape[0]),
     )
     if not raw.size:
         return parsed
@@ -276,6 +276,13 @@ def parse_column(
     else:
         _take_by_type(parsed, raw, decimal, markers, known)
     return parsed
+
+
+def _no_texts(n: int) -> np.ndarray:
+    """An object array of ``n`` empty texts (``np.full`` takes several times as long for objects)."""
+    texts = np.empty(n, dtype=object)
+    texts.fill("")
+    return texts
 
 
 def _take_by_type(
@@ -348,7 +355,17 @@ def _take_strings(
     else:
         found = _classify_texts(pd.Series(_STRIP(uniques), dtype=str), decimal, markers)
     for name, column in found.items():
-        getattr(parsed, name)[where] = column[codes]
+        if name in _FILLED_AS or not _is_default(column, name):  # a column of defaults is already so
+            getattr(parsed, name)[where] = column[codes]
+
+
+def _is_default(column: np.ndarray, name: str) -> bool:
+    """True when every value is the field's starting value ("" for texts, NaN for numbers)."""
+    return bool(np.isnan(column).all()) if column.dtype == float else not (column != "").any()
+
+
+#: Fields always written (their starting value is not what the classes of text cells say).
+_FILLED_AS = ("cls", "text")
 
 
 class KnownTexts:
