@@ -197,20 +197,24 @@ _NUMERIC_INFERRED = ("floating", "integer", "mixed-integer-float")
 _DATE_TYPES = (dt.date, dt.time, dt.timedelta)
 _NUMBER_TYPES = (float, int, np.float64, np.int64, np.float32, np.int32)
 _STRING_TYPES = (str, np.str_)
+_TYPE_OF = np.frompyfunc(type, 1, 1)
+_IS_NUMBER_TYPE = np.frompyfunc(frozenset(_NUMBER_TYPES).__contains__, 1, 1)
+_IS_STRING_TYPE = np.frompyfunc(frozenset(_STRING_TYPES).__contains__, 1, 1)
 _NUMBER_CHARS = r"[-+\u2212]?[\d.,]*\d[\d.,]*(?:[eE][-+]?\d+)?"
 
 
-def parse_numbers(texts: pd.Series, decimal: str) -> np.ndarray:
+def parse_numbers(texts: pd.Series, decimal: str, first: np.ndarray | None = None) -> np.ndarray:
     """Parse trimmed text as numbers with the given decimal mark; NaN where it is not one.
 
     Thousands separators are removed only in the unambiguous grouped form
     (``1.234.567,8`` with decimal ``,``; ``1,234,567.8`` with decimal ``.``).
-    ``nan``, ``inf`` and overflowing text are not numbers.
+    ``nan``, ``inf`` and overflowing text are not numbers. ``first`` may give the
+    texts' first characters (:func:`_first_chars`) when the caller has them.
     """
     values = np.full(len(texts), np.nan)
     # only texts made of digits, marks, signs and an exponent can be numbers
     # the cheap first-character test spares the pattern on long lists of names and codes
-    candidate = _first_char_in(texts, _NUMBER_STARTS)
+    candidate = _first_char_in(_first_chars(texts) if first is None else first, _NUMBER_STARTS)
     if candidate.any():
         matches = texts[candidate].str.fullmatch(_NUMBER_CHARS)
         candidate[candidate] = matches.to_numpy(dtype=bool, na_value=False)
@@ -231,14 +235,22 @@ def parse_numbers(texts: pd.Series, decimal: str) -> np.ndarray:
 #: First characters of texts that :data:`_NUMBER_CHARS`, :data:`CENSORED_PATTERN` (case-
 #: insensitive: sides, "less than", "under", bare BDL-type words) and the formula error
 #: texts can match.
-_NUMBER_STARTS = frozenset("+-\u22120123456789.,")
-_CENSORED_STARTS = frozenset("<>\u2264\u2265bBaAlLgGuUoO")
-_ERROR_STARTS = frozenset("#")
+_NUMBER_STARTS = np.array(sorted("+-\u22120123456789.,"))
+_CENSORED_STARTS = np.array(sorted("<>\u2264\u2265bBaAlLgGuUoO"))
+_ERROR_STARTS = np.array(["#"])
+# per-text string methods called from numpy's loop (no Python-level loop over texts)
+_STRIP = np.frompyfunc(str.strip, 1, 1)
+_LOWER = np.frompyfunc(str.lower, 1, 1)
 
 
-def _first_char_in(texts: pd.Series, starts: frozenset[str]) -> np.ndarray:
-    """True where a text's first character is one of ``starts``."""
-    return np.array(texts.str[:1].isin(starts), dtype=bool)
+def _first_chars(texts: pd.Series) -> np.ndarray:
+    """Each text's first character ("" for an empty text), as a numpy array of one-character strings."""
+    return texts.to_numpy(dtype=object).astype("U1")
+
+
+def _first_char_in(first: np.ndarray, starts: np.ndarray) -> np.ndarray:
+    """True where a first character (see :func:`_first_chars`) is one of ``starts``."""
+    return np.isin(first, starts)
 
 
 def _plain_numbers(values: np.ndarray, decimal: str) -> np.ndarray:
@@ -253,54 +265,100 @@ def _plain_numbers(values: np.ndarray, decimal: str) -> np.ndarray:
 
 
 def parse_column(
-    raw: np.ndarray, decimal: str, markers: Markers, codes: np.ndarray | None = None
+    raw: np.ndarray,
+    decimal: str,
+    markers: Markers,
+    known: KnownTexts | None = None,
+    codes: np.ndarray | None = None,
 ) -> ParsedColumn:
     """Classify every cell of one column (see :class:`ParsedColumn`).
 
-    ``codes`` are the cells' bytes, one row per position, when the splitter kept them
-    (a long delimited file); else they are made here for a ``StringDType`` column.
+    A ``StringDType`` column (a long delimited file) is classified with masks; ``codes``
+    are its cells' bytes, one row per position, when the splitter kept them (else they
+    are made here). Of any other column, one whose first cell is text and whose every
+    cell is text (``infer_dtype``, one pass) goes to the text rules; the rest is split
+    by each cell's Python type, floats told apart by one comparison of their type and
+    converted in one vectorised step, so that only its text and other cells meet
+    per-text work. ``known`` (built with the same ``decimal`` and ``markers``) keeps the
+    distinct texts of earlier columns of the sheet, so that each is classified once.
     """
-    n = raw.shape[0]
     parsed = ParsedColumn(
         raw=raw,
-        cls=np.full(n, BLANK, dtype=np.int8),
-        number=np.full(n, np.nan),
-        text=np.full(n, "", dtype=object),
-        side=np.full(n, "", dtype=object),
-        limit=np.full(n, np.nan),
-        token=np.full(n, "", dtype=object),
+        cls=np.full(raw.shape[0], BLANK, dtype=np.int8),
+        number=np.full(raw.shape[0], np.nan),
+        text=_no_texts(raw.shape[0]),
+        side=_no_texts(raw.shape[0]),
+        limit=np.full(raw.shape[0], np.nan),
+        token=_no_texts(raw.shape[0]),
     )
-    if is_string_array(raw):  # a long delimited file: every cell is text
-        _take_string_column(parsed, raw, decimal, markers, codes)
+    if not raw.size:
         return parsed
-    where = np.flatnonzero(raw != "")
-    values = raw[where]
-    inferred = pd.api.types.infer_dtype(values, skipna=False)
-    if inferred in _NUMERIC_INFERRED:
-        _take_numbers(parsed, where, values, markers)
-    elif inferred == "string":
-        _take_strings(parsed, where, values, decimal, markers)
-    elif values.size:
-        types = pd.Series(np.frompyfunc(type, 1, 1)(values))
-        numeric = types.isin(_NUMBER_TYPES).to_numpy()
-        strings = types.isin(_STRING_TYPES).to_numpy()
-        others = ~(numeric | strings)
-        _take_numbers(parsed, where[numeric], values[numeric], markers)
-        _take_strings(parsed, where[strings], values[strings], decimal, markers)
-        _take_others(parsed, where[others], values[others])
+    if is_string_array(raw):  # a long delimited file: every cell is text
+        _take_string_column(parsed, raw, decimal, markers, codes, known)
+    elif isinstance(raw[0], str) and pd.api.types.infer_dtype(raw, skipna=False) == "string":
+        where = np.flatnonzero(raw != "")
+        _take_strings(parsed, where, raw[where], decimal, markers, known)
+    else:
+        _take_by_type(parsed, raw, decimal, markers, known)
     return parsed
 
 
-def _take_numbers(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, markers: Markers) -> None:
-    numbers = values.astype(float)
-    finite = np.isfinite(numbers)
-    marker = markers.match_numbers(numbers)
-    parsed.number[where[finite & ~marker]] = numbers[finite & ~marker]
-    parsed.cls[where] = np.where(marker, MARKER, np.where(finite, NUMBER, BLANK))
+def _no_texts(n: int) -> np.ndarray:
+    """An object array of ``n`` empty texts (``np.full`` takes several times as long for objects)."""
+    texts = np.empty(n, dtype=object)
+    texts.fill("")
+    return texts
+
+
+def _take_by_type(
+    parsed: ParsedColumn, raw: np.ndarray, decimal: str, markers: Markers, known: KnownTexts | None
+) -> None:
+    """Classify a column by each cell's Python type (numbers with blanks, markers, dates ...).
+
+    Floats, the common case, are told apart by one comparison of their type; only the
+    other cells are looked up among the number and text types. Blank ("") cells are left
+    blank. When no text is left, a column that ``infer_dtype`` finds numeric (numpy
+    integers of any width among them) is read as numbers.
+    """
+    types = _TYPE_OF(raw)
+    numeric = types == float  # noqa: E721 (elementwise over an array of types)
+    rest = np.flatnonzero(~numeric)
+    kinds = types[rest]
+    numeric[rest] = _IS_NUMBER_TYPE(kinds).astype(bool)
+    strings = rest[_IS_STRING_TYPE(kinds).astype(bool)]
+    strings = strings[raw[strings] != ""]
+    others = np.setdiff1d(rest[~numeric[rest]], strings, assume_unique=True)
+    others = others[raw[others] != ""]
+    if others.size and not strings.size:
+        filled = np.union1d(np.flatnonzero(numeric), others)
+        if pd.api.types.infer_dtype(raw[filled], skipna=False) in _NUMERIC_INFERRED:
+            numeric[filled], others = True, others[:0]
+    _take_number_cells(parsed, numeric, raw, markers)
+    _take_strings(parsed, strings, raw[strings], decimal, markers, known)
+    _take_others(parsed, others, raw[others])
+
+
+def _take_number_cells(parsed: ParsedColumn, numeric: np.ndarray, raw: np.ndarray, markers: Markers) -> None:
+    """Take the cells where ``numeric`` is True, Python or numpy numbers, as numbers.
+
+    The values are converted in place, only where ``numeric`` is True (no copy of the
+    cells first); non-finite values are blank, numeric markers are markers.
+    """
+    number = parsed.number
+    np.copyto(number, raw, casting="unsafe", where=numeric)
+    finite = np.isfinite(number)
+    marker = markers.match_numbers(number) & finite
+    number[~finite | marker] = np.nan
+    parsed.cls[numeric] = np.where(marker, MARKER, np.where(finite, NUMBER, BLANK))[numeric]
 
 
 def _take_strings(
-    parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, decimal: str, markers: Markers
+    parsed: ParsedColumn,
+    where: np.ndarray,
+    values: np.ndarray,
+    decimal: str,
+    markers: Markers,
+    known: KnownTexts | None = None,
 ) -> None:
     """Classify text cells: plain numbers in one vectorised pass, the rest per distinct text."""
     if not where.size:
@@ -313,11 +371,16 @@ def _take_strings(
         parsed.cls[cells] = np.where(marker, MARKER, NUMBER)
         parsed.number[cells[~marker]] = numbers[plain][~marker]
     if not plain.all():
-        _take_texts(parsed, where[~plain], values[~plain], decimal, markers)
+        _take_texts(parsed, where[~plain], values[~plain], decimal, markers, known)
 
 
 def _take_string_column(
-    parsed: ParsedColumn, raw: np.ndarray, decimal: str, markers: Markers, codes: np.ndarray | None
+    parsed: ParsedColumn,
+    raw: np.ndarray,
+    decimal: str,
+    markers: Markers,
+    codes: np.ndarray | None,
+    known: KnownTexts | None,
 ) -> None:
     """:func:`_take_strings` for a whole ``StringDType`` column, with masks instead of positions.
 
@@ -333,33 +396,88 @@ def _take_string_column(
     np.copyto(parsed.number, numbers, where=plain & ~marker)
     rest = ~plain & (raw != "")
     if rest.any():
-        _take_texts(parsed, np.flatnonzero(rest), as_objects(raw[rest]), decimal, markers)
+        _take_texts(parsed, np.flatnonzero(rest), as_objects(raw[rest]), decimal, markers, known)
 
 
 def _take_texts(
-    parsed: ParsedColumn, where: np.ndarray, values: np.ndarray, decimal: str, markers: Markers
+    parsed: ParsedColumn,
+    where: np.ndarray,
+    values: np.ndarray,
+    decimal: str,
+    markers: Markers,
+    known: KnownTexts | None,
 ) -> None:
     """Classify texts that are not plain numbers, once per distinct text."""
     codes, uniques = pd.factorize(values)
-    texts = pd.Series(np.asarray(uniques, dtype=object), dtype=str).str.strip()
-    found = _classify_texts(texts, decimal, markers)
+    uniques = np.asarray(uniques, dtype=object)
+    if known is not None and uniques.size <= KnownTexts.MOST:
+        found = known.classify(uniques)
+    else:
+        found = _classify_texts(pd.Series(_STRIP(uniques), dtype=str), decimal, markers)
     for name, column in found.items():
-        getattr(parsed, name)[where] = column[codes]
+        if name in _FILLED_AS or not _is_default(column, name):  # a column of defaults is already so
+            getattr(parsed, name)[where] = column[codes]
+
+
+def _is_default(column: np.ndarray, name: str) -> bool:
+    """True when every value is the field's starting value ("" for texts, NaN for numbers)."""
+    return bool(np.isnan(column).all()) if column.dtype == float else not (column != "").any()
+
+
+#: Fields always written (their starting value is not what the classes of text cells say).
+_FILLED_AS = ("cls", "text")
+
+
+class KnownTexts:
+    """Distinct texts already classified while one sheet is read (one decimal mark, one marker set).
+
+    The same few texts (markers, censored entries) recur in column after column; each
+    is classified once, and a column with few distinct texts is answered from here.
+    """
+
+    #: Columns with more distinct texts (names, identifiers) are classified directly.
+    MOST = 256
+
+    def __init__(self, decimal: str, markers: Markers) -> None:
+        self.decimal, self.markers = decimal, markers
+        self._found: dict[str, tuple[object, ...]] = {}
+
+    def classify(self, uniques: np.ndarray) -> dict[str, np.ndarray]:
+        """What :func:`_classify_texts` returns for the (untrimmed) texts ``uniques``."""
+        new = [text for text in dict.fromkeys(uniques.tolist()) if text not in self._found]
+        if new:
+            found = _classify_texts(
+                pd.Series(_STRIP(np.array(new, dtype=object)), dtype=str), self.decimal, self.markers
+            )
+            each = zip(*(found[name].tolist() for name in _CLASSIFIED), strict=True)
+            self._found.update(zip(new, each, strict=True))
+        rows = [self._found[text] for text in uniques.tolist()]
+        return {
+            name: np.array([row[k] for row in rows], dtype=_CLASSIFIED[name])
+            for k, name in enumerate(_CLASSIFIED)
+        }
+
+
+#: The fields :func:`_classify_texts` returns, with their dtypes.
+_CLASSIFIED: dict[str, type] = {
+    "cls": np.int8, "number": float, "text": object, "side": object, "limit": float, "token": object,
+}  # fmt: skip
 
 
 def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[str, np.ndarray]:
     """Class, number, side, limit and limit family of each (trimmed) text."""
     blank = (texts == "").to_numpy()
-    lowered = texts.str.lower()
+    lowered = pd.Series(_LOWER(texts.to_numpy(dtype=object)), dtype=object)
     below = lowered.isin(markers.below).to_numpy() & ~blank
     marker = lowered.isin(markers.texts).to_numpy() & ~blank
-    numbers = parse_numbers(texts, decimal)
+    first = _first_chars(texts)
+    numbers = parse_numbers(texts, decimal, first)
     number = np.isfinite(numbers) & ~marker
     marker |= number & markers.match_numbers(numbers)
     number &= ~marker
     cls = np.where(blank, BLANK, np.where(marker, MARKER, np.where(number, NUMBER, TEXT))).astype(np.int8)
     # a formula error saved as text (a csv written by a spreadsheet program)
-    error = np.flatnonzero((cls == TEXT) & _first_char_in(texts, _ERROR_STARTS))
+    error = np.flatnonzero((cls == TEXT) & _first_char_in(first, _ERROR_STARTS))
     cls[error[texts.iloc[error].str.upper().isin(ERROR_TEXTS).to_numpy()]] = FORMULA_ERROR
     found = {
         "cls": cls,
@@ -375,7 +493,7 @@ def _classify_texts(texts: pd.Series, decimal: str, markers: Markers) -> dict[st
     found["side"][hits], found["token"][hits] = "<", "LOD"
     rest = np.flatnonzero(cls == TEXT)
     if rest.size:  # a censored entry starts with a side or a bare limit word: test only those
-        rest = rest[_first_char_in(texts.iloc[rest], _CENSORED_STARTS)]
+        rest = rest[_first_char_in(first[rest], _CENSORED_STARTS)]
     if rest.size:
         censored = _censored(texts.iloc[rest], decimal)
         hit = censored["side"].notna().to_numpy()

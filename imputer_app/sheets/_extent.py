@@ -28,6 +28,7 @@ from xml.etree import ElementTree
 import numpy as np
 
 from imputer_app.errors import SheetError
+from imputer_app.sheets._far_cell import XmlBytes, far_cell
 from imputer_app.sheets._grid import column_letter
 from imputer_app.sheets._xlsx_package import sheet_parts
 
@@ -41,8 +42,6 @@ _CHUNK = 1 << 22
 _REF_FIRST = re.compile(rb'<c r="([A-Z]{1,4}\d{1,10})"')
 _REF = re.compile(rb'<c\s[^>]*?\br="([A-Z]{1,4}\d{1,10})"')
 _REF_WIDTH = 14
-_ROW_TAG = re.compile(rb'<row r="(\d{1,10})"')
-_LETTERS = {n: re.compile(rb'<c r="[A-Z]{%d}\d' % n) for n in (2, 3, 4)}
 _ERROR = re.compile(rb'<c\b[^>]*?\sr="([A-Z]{1,4})(\d{1,10})"[^>]*?\st="e"[^>]*>(.*?)</c>', re.S)
 _ERROR_VALUE = re.compile(rb"<v>([^<]*)</v>")
 _NO_VALUE = re.compile(
@@ -65,8 +64,7 @@ class Extent:
     Attributes
     ----------
     rows, columns : int
-        1-based last used row and column (0 for an empty sheet); for an ``.xlsx`` sheet
-        found within the limits by cheap bounds, an upper bound of them.
+        1-based last used row and column (0 for an empty sheet).
     far_row, far_column : str
         A cell in the last row and one in the last column ("A1" style).
     errors : dict of (int, int) to str
@@ -136,20 +134,13 @@ def check_extent(data: bytes | Path, path: Path, fmt: str, sheet: str | None) ->
             if fmt == "ods":
                 _scan_ods(package, sheet, path)
             elif sheet is not None and (part := sheet_parts(package).get(sheet)) in package.namelist():
-                exact = _scan_xlsx(package, str(part), extent)
-                if not exact and _too_large(extent):  # the bounds were not enough: measure each cell
-                    extent = Extent()
-                    _scan_xlsx(package, str(part), extent, exact=True)
+                _scan_xlsx(package, str(part), extent)
     except SheetError:
         raise
     except (zipfile.BadZipFile, KeyError, ElementTree.ParseError, EOFError, OSError, ValueError):
         return extent  # the parser gives its own message for a damaged part
     refuse_if_too_large(extent, path, sheet or "")
     return extent
-
-
-def _too_large(extent: Extent) -> bool:
-    return extent.rows > MAX_ROWS or extent.columns > MAX_COLUMNS or extent.rows * extent.columns > MAX_CELLS
 
 
 def refuse_if_too_large(extent: Extent, path: Path, sheet: str) -> None:
@@ -190,29 +181,32 @@ def _chunks(package: zipfile.ZipFile, part: str) -> Iterator[bytes]:
         yield tail
 
 
-def _scan_xlsx(package: zipfile.ZipFile, part: str, extent: Extent, exact: bool = False) -> bool:
-    """Measure the part; return False when some chunk gave only upper bounds (see :func:`_bounds`)."""
-    all_exact = True
+def _scan_xlsx(package: zipfile.ZipFile, part: str, extent: Extent) -> None:
+    """Measure the part: its farthest cell, its formula error cells and its formula cells."""
     for chunk in _chunks(package, part):
-        bounds = None if exact else _bounds(chunk)
-        if bounds is not None:
-            all_exact = False
-            extent.rows, extent.columns = max(extent.rows, bounds[0]), max(extent.columns, bounds[1])
-        else:
+        xml = XmlBytes(chunk)
+        found = far_cell(xml)
+        if found is not None:
+            row, row_ref, column, column_ref = found
+            if row > extent.rows:
+                extent.rows, extent.far_row = row, row_ref
+            if column > extent.columns:
+                extent.columns, extent.far_column = column, column_ref
+        else:  # a cell tag not in the plain form: list every reference
             refs = _REF_FIRST.findall(chunk)
             if len(refs) != chunk.count(b"<c "):
                 refs = _REF.findall(chunk)
             if refs:
                 _see_refs(extent, refs)
-        for letters, row_text, body in _ERROR.findall(chunk) if b't="e"' in chunk else ():
+        errors = xml.has(b'"e') and b't="e"' in chunk
+        for letters, row_text, body in _ERROR.findall(chunk) if errors else ():
             value = _ERROR_VALUE.search(body)
             text = value.group(1).decode("utf-8", "replace") if value else "#ERROR"
             extent.errors[(int(row_text) - 1, column_number(letters) - 1)] = text
-        if b"<f" in chunk:
+        if xml.has(b"<f"):
             for letters, row_text in _NO_VALUE.findall(chunk):
                 extent.no_value.add((int(row_text) - 1, column_number(letters) - 1))
             _see_formulas(extent, _FORMULA.findall(chunk))
-    return all_exact
 
 
 def _see_formulas(extent: Extent, found: list[tuple[bytes, bytes]]) -> None:
@@ -224,29 +218,6 @@ def _see_formulas(extent: Extent, found: list[tuple[bytes, bytes]]) -> None:
         old = extent.formulas.get(column)
         new = np.asarray(rows, dtype=np.int64)
         extent.formulas[column] = new if old is None else np.concatenate([old, new])
-
-
-def _bounds(chunk: bytes) -> tuple[int, int] | None:
-    """Upper bounds of the rows and columns a chunk's cells reach, without listing its cells.
-
-    Every cell must start ``<c r="``. The rows are below the next power of ten above the
-    longest ``<row r>`` number (no cell reference may have more digits); the columns are
-    bounded by the number of letters of the longest reference (26, 702, 18,278, ...).
-    None when the chunk does not allow this cheap answer.
-    """
-    cells = chunk.count(b"<c ")
-    if cells != chunk.count(b'<c r="'):
-        return None
-    tags = _ROW_TAG.findall(chunk)
-    if not tags:
-        return None if cells else (0, 0)
-    digits = max(map(len, tags))
-    if re.search(rb'<c r="[A-Z]{1,4}\d{%d}' % (digits + 1), chunk):
-        return None
-    letters = 1
-    if _LETTERS[2].search(chunk):  # rare: test longer references only then
-        letters = next(n for n in (4, 3, 2) if n == 2 or _LETTERS[n].search(chunk))
-    return 10**digits - 1, sum(26**k for k in range(1, letters + 1))
 
 
 def _see_refs(extent: Extent, refs: list[bytes]) -> None:

@@ -250,22 +250,25 @@ def _comma_to_point(values: np.ndarray) -> np.ndarray:
 
 
 def _plain_cells(values: np.ndarray, decimal: str, codes: np.ndarray | None = None) -> np.ndarray:
-    """True for texts made only of the characters of a plain number (judged on bytes)."""
+    """True for non-empty texts made only of the characters of a plain number (judged on bytes)."""
     if is_string_array(values):
         return _plain_strings(values, decimal, codes)
-    joined = _SEPARATOR.join(values).encode("ascii", errors="replace")
-    good_byte = _ALLOWED[decimal][np.frombuffer(joined, np.uint8)]
-    if good_byte.all():
-        plain = np.ones(values.shape[0], dtype=bool)
-    else:
-        lengths = pd.Series(values, dtype=object).str.len().to_numpy(dtype=np.int64)
-        ends = np.cumsum(lengths + 1) - 1  # position of each cell's separator
-        bad = np.flatnonzero(~good_byte)
-        plain = np.ones(values.shape[0], dtype=bool)
-        plain[np.searchsorted(ends, bad, side="left")] = False
-    if (values == "").any():
-        plain &= values != ""
-    return plain
+    joined = _SEPARATOR.join(values).encode("ascii", errors="replace")  # one byte per character
+    text_bytes = np.frombuffer(joined, np.uint8)
+    good_byte = _ALLOWED[decimal][text_bytes]
+    separators = np.flatnonzero(text_bytes == 0)  # each text's end, if no text holds one itself
+    if separators.size == values.shape[0] - 1:
+        ends = np.append(separators, text_bytes.size)
+        starts = np.concatenate([[0], ends[:-1] + 1])
+        if good_byte.all():
+            return ends > starts
+        bad = np.concatenate([[0], np.cumsum(~good_byte)])
+        return (bad[ends] == bad[starts]) & (ends > starts)
+    lengths = pd.Series(values, dtype=object).str.len().to_numpy(dtype=np.int64)
+    cell_ends = np.cumsum(lengths + 1) - 1  # position of each cell's separator
+    plain = np.ones(values.shape[0], dtype=bool)
+    plain[np.searchsorted(cell_ends, np.flatnonzero(~good_byte), side="left")] = False
+    return plain & (lengths > 0)
 
 
 def _plain_strings(values: np.ndarray, decimal: str, codes: np.ndarray | None) -> np.ndarray:

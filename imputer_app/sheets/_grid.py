@@ -54,11 +54,13 @@ Merge = tuple[tuple[int, int], tuple[int, int]]
 
 def rows_to_grid(rows: Sequence[Sequence[object]]) -> np.ndarray:
     """Return a 2-D object array of the rows, short rows padded with ""."""
-    width = max((len(row) for row in rows), default=0)
-    grid = np.full((len(rows), width), "", dtype=object)
-    if rows and all(len(row) == width for row in rows):
+    widths = set(map(len, rows))
+    width = max(widths, default=0)
+    if len(widths) == 1:  # every row as wide: no padding to write first
+        grid = np.empty((len(rows), width), dtype=object)
         grid[:, :] = rows
         return grid
+    grid = np.full((len(rows), width), "", dtype=object)
     for i, row in enumerate(rows):
         grid[i, : len(row)] = row
     return grid

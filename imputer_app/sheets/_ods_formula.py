@@ -70,4 +70,3 @@ def _reference(found: re.Match[str]) -> str:
     if second and second.lstrip("$") != (sheet or "").lstrip("$"):
         return "[" + found.group(0)  # a range over two sheets: left untranslated
     return f"{prefix}{first}:{last}"
-

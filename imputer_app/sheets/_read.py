@@ -23,6 +23,7 @@ from imputer_app.sheets._cells import (
     BLANK,
     DEFAULT_MARKERS,
     MARKER_MEANINGS,
+    KnownTexts,
     Markers,
     ParsedColumn,
     make_markers,
@@ -221,9 +222,7 @@ def read_sheet(
         line_end=grid.line_end,
         limit_row=limit_row,
     )
-    # every cell as read (text untrimmed), so an export writes unfilled text cells unchanged;
-    # stacked column after column (a cheaper copy for a StringDType grid), seen row by column
-    raw = np.stack([c.parsed.raw for c in columns], axis=0).T
+    raw = _cells_as_read(grid.cells, columns, rows)
     report(progress, PROGRESS_TOTAL, PROGRESS_TOTAL)
     return Sheet(
         frame=built.frame,
@@ -257,6 +256,19 @@ def _info(
         group_like=kind == "number" and is_group_like(column.parsed),
         group_label=group,
     )
+
+
+def _cells_as_read(cells: np.ndarray, columns: list[Column], rows: np.ndarray) -> np.ndarray:
+    """Every kept cell as read (text untrimmed), so an export writes unfilled text cells unchanged.
+
+    When the table is one block of the grid (every column, no row left out between its
+    first and last row), that block itself, not a copy. Else the kept columns are
+    stacked column after column (a cheaper copy for a ``StringDType`` grid), seen row by column.
+    """
+    first, last = int(rows[0]) - 1, int(rows[-1]) - 1
+    if [c.position for c in columns] == list(range(cells.shape[1])) and last - first + 1 == rows.size:
+        return cells[first : last + 1]
+    return np.stack([c.parsed.raw for c in columns], axis=0).T
 
 
 def _marker_set(markers: Iterable[str | float] | Mapping[str, str] | None) -> Markers:
@@ -329,13 +341,12 @@ def _parse_body(
     body = grid.cells[layout.data_start :]
     parsed: list[ParsedColumn] = []
     width = body.shape[1]
+    known = KnownTexts(decimal, markers)
     for position in range(width):
         raise_if_cancelled(cancel)
         codes = grid.codes[position] if grid.codes is not None else None
-        column = body[:, position]
-        parsed.append(
-            parse_column(column, decimal, markers, None if codes is None else codes[:, layout.data_start :])
-        )
+        codes = None if codes is None else codes[:, layout.data_start :]
+        parsed.append(parse_column(body[:, position], decimal, markers, known, codes))
         report(
             progress,
             _GRID_DONE + (_COLUMNS_DONE - _GRID_DONE) * (position + 1) // max(width, 1),

@@ -111,6 +111,19 @@ def test_plain_numbers_equal_to_numeric_on_random_texts(decimal: str) -> None:
     np.testing.assert_array_equal(plain_number_values(values, decimal), expected)
 
 
+@pytest.mark.parametrize(
+    "texts",
+    [["1", "2\x003", "", "4", "x"], ["\x00", "5"], ["", "", "7.5"], ["north", "", "6", "n.d."], [""]],
+)
+@pytest.mark.parametrize("decimal", [".", ","])
+def test_plain_numbers_with_blank_texts_and_separator_bytes(texts: list[str], decimal: str) -> None:
+    # reference: pandas.to_numeric; a NUL inside a text (the joining separator) and empty
+    # texts must not shift which text a byte belongs to
+    values = np.array(texts, dtype=object)
+    expected = _to_numeric_reference(values, decimal)
+    np.testing.assert_array_equal(plain_number_values(values, decimal), expected)
+
+
 def test_plain_numbers_equal_to_numeric_on_many_values() -> None:
     # reference: pandas.to_numeric; repr, 17 significant digits and exponent forms
     rng = np.random.default_rng(1)

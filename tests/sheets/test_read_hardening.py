@@ -127,8 +127,8 @@ def test_far_cell_found_whatever_the_row_tags_say(tmp_path: Path, far_cell: str,
 
 
 def test_wide_sheet_within_limits_is_read(tmp_path: Path) -> None:
-    # two-letter columns and five-digit rows: the cheap bound (99,999 x 702) is over the
-    # limit, so every cell reference is measured, and the sheet (A1:AB3) is read
+    # two-letter columns and five-digit rows: every cell reference is measured (the far
+    # cell is AB20000, well within the limits), and the sheet is read
     head = '<row r="1">' + "".join(text_cell(f"{c}1", f"n{c}") for c in ("A", "B", "AB")) + "</row>"
     body = "".join(
         f'<row r="{r}">' + "".join(number_cell(f"{c}{r}", r) for c in ("A", "B", "AB")) + "</row>"
