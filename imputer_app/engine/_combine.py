@@ -173,15 +173,25 @@ class Finish:
     def of(cls, table: PreparedTable, stack: Stack) -> Finish:
         """The plan's bounds, decimals and censored caps of every cell of ``stack``."""
         plan = table.plan
-        bounds = [plan.bounds.get(c, (None, None)) for c in stack.columns]
-        lower = np.array([np.nan if b[0] is None else b[0] for b in bounds], dtype=np.float64)[stack.col]
-        upper = np.array([np.nan if b[1] is None else b[1] for b in bounds], dtype=np.float64)[stack.col]
-        rounded = [table.decimals.get(c, plan.decimals.get(c, -1)) for c in stack.columns]
-        decimals = np.array(rounded, dtype=np.intp)[stack.col]
+        # per column, then per cell; only the columns the plan or the table names are
+        # looked at (a wide sheet stacks thousands of columns, most with none of these)
+        where = {c: i for i, c in enumerate(stack.columns)}
+        n_cols = len(stack.columns)
+        low, high = np.full(n_cols, np.nan), np.full(n_cols, np.nan)
+        for c, (lo, hi) in plan.bounds.items():
+            if c in where:
+                low[where[c]] = np.nan if lo is None else lo
+                high[where[c]] = np.nan if hi is None else hi
+        rounded = np.full(n_cols, -1, dtype=np.intp)
+        for c, d in (*plan.decimals.items(), *table.decimals.items()):  # the table's win
+            if c in where:
+                rounded[where[c]] = d
+        lower, upper, decimals = low[stack.col], high[stack.col], rounded[stack.col]
         cap_hi, cap_lo = np.full(len(stack.col), np.nan), np.full(len(stack.col), np.nan)
-        for i, c in enumerate(stack.columns):
-            if c not in table.cap_upper and c not in table.cap_lower:
+        for c in {*table.cap_upper, *table.cap_lower}:
+            if c not in where:
                 continue
+            i = where[c]
             cells = slice(stack.offsets[i], stack.offsets[i + 1])
             rows = stack.donors.rows[cells]
             if c in table.cap_upper:

@@ -296,14 +296,23 @@ class DistanceModel:
             return np.empty(0)
         n = np.int64(self._rows.shape[0])
         low, high = np.minimum(x, y).astype(np.int64), np.maximum(x, y).astype(np.int64)
-        pairs, back = np.unique(low * n + high, return_inverse=True)
+        pairs, back = _distinct(low * n + high, n * n)
         ux, uy = (part.astype(np.intp) for part in np.divmod(pairs, n))
         out = np.empty(len(pairs))
         step = self._pair_batch()
         for start in range(0, len(pairs), step):
             part = slice(start, start + step)
             out[part] = self._pairs(ux[part], uy[part], self._rows)
-        return out[back.reshape(-1)]
+        return out[back]
+
+    @cached_property
+    def _same_weight(self) -> float | None:
+        """The weight every numeric column has, when it is one power of two (else None)."""
+        w = self._w
+        if not len(w) or not (w == w[0]).all():
+            return None
+        mantissa = np.frexp(w[:1])[0]
+        return float(w[0]) if w[0] > 0 and mantissa[0] == 0.5 else None
 
     @cached_property
     def _rows(self) -> FloatArray:
@@ -322,7 +331,14 @@ class DistanceModel:
         sq -= np.take(z, y, axis=0)
         sq *= sq
         # 0 exactly when no column is shared (a float mask: a bool matrix product skips BLAS)
-        shared = self._w.sum() - dot(np.isnan(sq).astype(np.float64), self._w)
+        gaps = np.isnan(sq)
+        if self._same_weight is not None and values is not None:
+            # equal power-of-two weights: each partial sum of the row sums is exact, so
+            # weight x count gives the very same numbers without the float mask
+            lacking = self._same_weight * np.count_nonzero(gaps, axis=1)
+        else:
+            lacking = dot(gaps.astype(np.float64), self._w)
+        shared = self._w.sum() - lacking
         np.fmax(sq, 0.0, out=sq)  # a gap's NaN adds 0
         total = dot(sq, self._tw_w)
         if codes.shape[1]:
@@ -457,6 +473,31 @@ class DistanceModel:
         """
         d2 = self.block(self.targets(rows), self.candidates())
         return d2, np.isfinite(d2)
+
+
+#: :func:`_distinct` marks codes in a table instead of sorting them when there are at most
+#: this many possible codes per code given (the table is scanned once) ...
+DISTINCT_SPARSITY = 8
+#: ... and at most this many in all.
+DISTINCT_TABLE = 2**24
+
+
+def _distinct(codes: NDArray[np.int64], bound: np.int64) -> tuple[NDArray[np.int64], IntArray]:
+    """``np.unique(codes, return_inverse=True)`` for codes in ``0..bound-1``.
+
+    When ``bound`` is small next to the number of codes, they are marked in a table
+    and numbered in order: the same result without sorting (a wide sheet asks for
+    hundreds of thousands of codes that hold a few thousand distinct pairs).
+    """
+    if bound > min(DISTINCT_TABLE, DISTINCT_SPARSITY * len(codes)):
+        pairs, back = np.unique(codes, return_inverse=True)
+        return pairs, back.reshape(-1).astype(np.intp)
+    seen = np.zeros(int(bound), dtype=bool)
+    seen[codes] = True
+    pairs = np.flatnonzero(seen).astype(np.int64)
+    number = np.empty(int(bound), dtype=np.intp)
+    number[pairs] = np.arange(len(pairs))
+    return pairs, number[codes]
 
 
 def _product(rows: FloatArray, weights: FloatArray) -> FloatArray:

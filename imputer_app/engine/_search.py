@@ -265,12 +265,10 @@ def search_cells(
     raise_if_cancelled(cancel)
     n, names = table.n_rows, table.fill_columns
     wanted = table.targets() if targets is None else targets
-    want = np.zeros((n, len(names)), dtype=bool)
-    ok = np.zeros((n, len(names)), dtype=bool)
-    for j, name in enumerate(names):
-        if name in wanted:
-            want[:, j] = np.asarray(wanted[name], dtype=bool)
-        ok[:, j] = table.observed[name]
+    # one stack of columns, not a write per column (a wide sheet has thousands)
+    none = np.zeros(n, dtype=bool)
+    want = _columns([np.asarray(wanted[c], dtype=bool) if c in wanted else none for c in names], n)
+    ok = _columns([np.asarray(table.observed[c], dtype=bool) for c in names], n)
     if table.groups is not None:
         ok &= (table.groups >= 0)[:, None]
     keep = kmax + extra_donors(kmax)
@@ -293,6 +291,11 @@ def search_cells(
     found, col = cells.flat(model)
     found.path = "block" if tree is None else "tree"
     return found, col
+
+
+def _columns(vectors: list[BoolArray], n: int) -> BoolArray:
+    """``vectors`` (each of shape (n,)) as the columns of an (n, len(vectors)) array."""
+    return np.stack(vectors, axis=1) if vectors else np.zeros((n, 0), dtype=bool)
 
 
 def extra_donors(kmax: int) -> int:
