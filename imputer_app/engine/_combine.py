@@ -30,8 +30,19 @@ def _used(count: IntArray, k: int) -> IntArray:
 
 
 def donor_shares(donors: ColumnDonors, k: int) -> tuple[FloatArray, IntArray]:
-    """Each donor's weight for ``k`` places, and how many take part (:func:`._ties.shares`)."""
-    return shares(np.square(donors.distance), donors.count, k)
+    """Each donor's weight for ``k`` places, and how many take part (:func:`._ties.shares`).
+
+    Kept on ``donors`` for the last k asked (read-only): a fill asks for them for its
+    values, their spread and its log.
+    """
+    kept = donors.shares.get(int(k))
+    if kept is None:
+        kept = shares(np.square(donors.distance), donors.count, k)
+        for part in kept:
+            part.setflags(write=False)
+        donors.shares.clear()
+        donors.shares[int(k)] = kept
+    return kept
 
 
 def _taking_part(donors: ColumnDonors, k: int) -> tuple[FloatArray, int]:

@@ -189,7 +189,9 @@ def _with_interval(
         extra = _class_sets(piece, table, first, level, calibration.source)
     support[weak] = 2
     support[piece.k == 0] = 0
-    note = np.where(piece.note == "", extra, piece.note + "; " + extra)
+    note = np.array(extra, dtype=object)  # joined only where the cell has a note already
+    has = piece.note != ""
+    note[has] = piece.note[has] + "; " + note[has]
     return dataclasses.replace(piece, lower=lower, upper=upper, support=support, note=note)
 
 

@@ -65,6 +65,9 @@ class ColumnDonors:
         Number of real donors per target (may exceed kmax).
     path : {"block", "tree"}, default="block"
         Which search found them (:data:`~imputer_app.engine._tree_search.PATH_NAMES`).
+    shares : dict
+        The donors' weights for the k last asked (:func:`~imputer_app.engine._combine.donor_shares`
+        keeps them here: the values, their spread and the fill log all ask for them).
     """
 
     rows: IntArray
@@ -72,6 +75,7 @@ class ColumnDonors:
     distance: FloatArray
     count: IntArray
     path: str = "block"
+    shares: dict[int, tuple[FloatArray, IntArray]] = field(default_factory=dict, repr=False, compare=False)
 
 
 def first_positions(good: BoolArray, kmax: int) -> IntArray:
