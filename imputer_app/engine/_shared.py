@@ -21,6 +21,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
+from imputer_app.engine._bits import common_bits, packed_rows
 from imputer_app.engine._distance import Features
 
 FloatArray = NDArray[np.float64]
@@ -77,20 +78,11 @@ def _pair_counts(mask: NDArray[np.bool_], rows: IntArray, others: IntArray) -> F
 
 def _bit_counts(mask: NDArray[np.bool_], rows: IntArray, others: IntArray) -> FloatArray:
     """Columns of ``mask`` both rows have, counted on the rows' masks packed in 64-bit words."""
-    packed = np.packbits(mask, axis=1)
-    words = -(-packed.shape[1] // 8)
-    bits = np.zeros((len(mask), 8 * words), dtype=np.uint8)
-    bits[:, : packed.shape[1]] = packed
-    table = bits.view(np.uint64)  # (n, words)
+    words = packed_rows(mask)
     out = np.empty(others.shape)
     for a in range(0, len(rows), CHUNK):
         b = min(a + CHUNK, len(rows))
-        if words == 1:  # up to 64 columns: one word a row, no third axis
-            one = table[:, 0]
-            out[a:b] = np.bitwise_count(one[rows[a:b], None] & one[others[a:b]])
-            continue
-        both = table[rows[a:b]][:, None, :] & table[others[a:b]]
-        out[a:b] = np.bitwise_count(both).sum(axis=2, dtype=np.int64)
+        out[a:b] = common_bits(words, rows[a:b], others[a:b])
     return out
 
 
