@@ -117,7 +117,7 @@ def _constant_numbers(frame: pd.DataFrame, columns: list[str]) -> dict[str, str]
     if not columns:
         return {}
     # the whole frame when it is all asked for: selecting thousands of columns by name costs
-    part = frame if list(frame.columns) == columns else frame[columns]
+    part = frame if frame.columns.tolist() == columns else frame[columns]
     if all(d.kind in "fiu" for d in part.dtypes.tolist()):
         values = part.to_numpy(dtype=float, na_value=np.nan)  # one block: no per-column work
     else:
@@ -128,7 +128,7 @@ def _constant_numbers(frame: pd.DataFrame, columns: list[str]) -> dict[str, str]
     finite = values if present.all() else np.where(present, values, np.nan)
     low = np.fmin.reduce(finite, axis=0, initial=np.inf)  # fmin passes over the NaN gaps
     high = np.fmax.reduce(finite, axis=0, initial=-np.inf)
-    same = (present.sum(axis=0) >= 2) & (low == high)
+    same = (np.count_nonzero(present, axis=0) >= 2) & (low == high)
     return {columns[j]: f"constant (every filled cell is {low[j]:g})" for j in np.flatnonzero(same)}
 
 

@@ -471,7 +471,9 @@ class _Jobs:
 
     def _list_size(self, cols: IntArray, cand: IntArray) -> int:
         """Candidates kept per row so that nearly every cell finds kmax donors among them."""
-        share = float(self.ok[np.ix_(cand, cols)].mean(axis=0).min()) if len(cand) else 1.0
+        # the fewest donors of a column among the candidates, as a share of them
+        donors = np.take(np.take(self.ok, cand, axis=0), cols, axis=1)
+        share = int(np.count_nonzero(donors, axis=0).min(initial=len(cand))) / len(cand) if len(cand) else 1.0
         # expected donors in the list: share x length; a cell short of kmax is searched again
         return min(len(cand), math.ceil(self.keep / max(share, 1e-9) * 1.3) + 4)
 
