@@ -128,11 +128,11 @@ def spread(v: FloatArray, donors: ColumnDonors, k: int) -> FloatArray:
     w, cut = _taking_part(donors, k)
     used = _used(donors.count, k)
     out = np.full(len(used), np.nan)
-    many: slice | IntArray = np.flatnonzero(used >= 2)
-    if not len(many):
+    cells = np.flatnonzero(used >= 2)
+    if not len(cells):
         return out
-    if len(many) == len(used):  # the common case: views instead of copies
-        many = slice(None)
+    # the common case, every cell: views instead of copies
+    many: slice | IntArray = slice(None) if len(cells) == len(used) else cells
     wm, vm = w[many], np.where(w[many] > 0, v[many, :cut], 0.0)
     n = used[many].astype(np.float64)
     mean = (wm * vm).sum(axis=1) / n

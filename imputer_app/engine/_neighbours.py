@@ -113,7 +113,8 @@ def search_key(table: PreparedTable, targets: Mapping[str, BoolArray]) -> bytes:
             return
         digest.update(f"{array.dtype.str}{array.shape}".encode())
         # the values column after column, read in place (a prepared table's are stored so)
-        digest.update(np.asfortranarray(array).T if array.ndim == 2 else np.ascontiguousarray(array))
+        flat = np.asfortranarray(array).T if array.ndim == 2 else np.ascontiguousarray(array)
+        digest.update(flat.data)
 
     f = table.features
     for part in (f.numbers, f.number_weights, f.codes, f.code_weights, table.groups):

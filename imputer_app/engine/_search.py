@@ -132,33 +132,35 @@ def first_donors(
 class _Cells:
     """All target cells, sorted by (column, row), and their donors so far.
 
-    ``slot[col, row]`` is the position of cell (row, col) in that order (only written,
-    and read, where the cell is a target).
+    ``code`` is ``col * n_rows + row`` of each cell, ascending: a cell's position in
+    that order is found by a binary search.
     """
 
     col: IntArray
     row: IntArray
     index: IntArray
     d2: FloatArray
-    slot: IntArray
+    code: IntArray
+    n_rows: int
     wide: list[tuple[IntArray, IntArray, FloatArray]] = field(default_factory=list)
 
     @classmethod
     def of(cls, want: BoolArray, kmax: int) -> _Cells:
         flat = np.flatnonzero(want.T)
         col, row = np.divmod(flat, len(want))
-        slot = np.empty(want.shape[::-1], dtype=np.intp)
-        slot.ravel()[flat] = np.arange(len(flat))
         return cls(
             col,
             row,
             np.full((len(col), kmax), -1, dtype=np.intp),
             np.full((len(col), kmax), np.inf),
-            slot,
+            flat,
+            len(want),
         )
 
     def put(self, col: IntArray, row: IntArray, index: IntArray, d2: FloatArray) -> None:
-        at = self.slot[col, row]
+        # cells are in (column, row) order: a cell's place is found in their sorted codes
+        # (a table of every (column, row) would take n_rows x columns integers)
+        at = np.searchsorted(self.code, np.asarray(col, dtype=np.intp) * self.n_rows + row)
         if index.shape[1] > self.index.shape[1]:  # a widened search: kept aside until the end
             self.wide.append((at, index, d2))
             return
