@@ -31,8 +31,19 @@ def _used(count: IntArray, k: int) -> IntArray:
 
 
 def donor_shares(donors: ColumnDonors, k: int) -> tuple[FloatArray, IntArray]:
-    """Each donor's weight for ``k`` places, and how many take part (:func:`._ties.shares`)."""
-    return shares(np.square(donors.distance), donors.count, k)
+    """Each donor's weight for ``k`` places, and how many take part (:func:`._ties.shares`).
+
+    Kept on ``donors`` for the last k asked (read-only): a fill asks for them for its
+    values, their spread and its log.
+    """
+    kept = donors.shares.get(int(k))
+    if kept is None:
+        kept = shares(np.square(donors.distance), donors.count, k)
+        for part in kept:
+            part.setflags(write=False)
+        donors.shares.clear()
+        donors.shares[int(k)] = kept
+    return kept
 
 
 def _taking_part(donors: ColumnDonors, k: int) -> tuple[FloatArray, int]:
@@ -118,9 +129,11 @@ def spread(v: FloatArray, donors: ColumnDonors, k: int) -> FloatArray:
     w, cut = _taking_part(donors, k)
     used = _used(donors.count, k)
     out = np.full(len(used), np.nan)
-    many = np.flatnonzero(used >= 2)
-    if not len(many):
+    cells = np.flatnonzero(used >= 2)
+    if not len(cells):
         return out
+    # the common case, every cell: views instead of copies
+    many: slice | IntArray = slice(None) if len(cells) == len(used) else cells
     wm, vm = w[many], np.where(w[many] > 0, v[many, :cut], 0.0)
     n = used[many].astype(np.float64)
     mean = (wm * vm).sum(axis=1) / n
@@ -176,15 +189,25 @@ class Finish:
     def of(cls, table: PreparedTable, stack: Stack) -> Finish:
         """The plan's bounds, decimals and censored caps of every cell of ``stack``."""
         plan = table.plan
-        bounds = [plan.bounds.get(c, (None, None)) for c in stack.columns]
-        lower = np.array([np.nan if b[0] is None else b[0] for b in bounds], dtype=np.float64)[stack.col]
-        upper = np.array([np.nan if b[1] is None else b[1] for b in bounds], dtype=np.float64)[stack.col]
-        rounded = [table.decimals.get(c, plan.decimals.get(c, -1)) for c in stack.columns]
-        decimals = np.array(rounded, dtype=np.intp)[stack.col]
+        # per column, then per cell; only the columns the plan or the table names are
+        # looked at (a wide sheet stacks thousands of columns, most with none of these)
+        where = {c: i for i, c in enumerate(stack.columns)}
+        n_cols = len(stack.columns)
+        low, high = np.full(n_cols, np.nan), np.full(n_cols, np.nan)
+        for c, (lo, hi) in plan.bounds.items():
+            if c in where:
+                low[where[c]] = np.nan if lo is None else lo
+                high[where[c]] = np.nan if hi is None else hi
+        rounded = np.full(n_cols, -1, dtype=np.intp)
+        for c, d in (*plan.decimals.items(), *table.decimals.items()):  # the table's win
+            if c in where:
+                rounded[where[c]] = d
+        lower, upper, decimals = low[stack.col], high[stack.col], rounded[stack.col]
         cap_hi, cap_lo = np.full(len(stack.col), np.nan), np.full(len(stack.col), np.nan)
-        for i, c in enumerate(stack.columns):
-            if c not in table.cap_upper and c not in table.cap_lower:
+        for c in {*table.cap_upper, *table.cap_lower}:
+            if c not in where:
                 continue
+            i = where[c]
             cells = slice(stack.offsets[i], stack.offsets[i + 1])
             rows = stack.donors.rows[cells]
             if c in table.cap_upper:

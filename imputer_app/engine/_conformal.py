@@ -29,7 +29,14 @@ import numpy as np
 from numpy.typing import NDArray
 
 from imputer_app.engine._combine import number_values, spread, stack_values
-from imputer_app.engine._coverage import COVERAGE_SEED, CoverageChecks, crossfit, levels_with, row_quantile
+from imputer_app.engine._coverage import (
+    COVERAGE_SEED,
+    CoverageChecks,
+    crossfit,
+    levels_with,
+    row_quantile,
+    row_quantiles,
+)
 from imputer_app.engine._search import ColumnDonors
 from imputer_app.engine._stack import Stack
 from imputer_app.engine._table import PreparedTable
@@ -391,7 +398,7 @@ def _column_spread(table: PreparedTable, columns: Sequence[str]) -> tuple[FloatA
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)  # columns without values: NaN, said later
         sd[numbers] = np.where(n >= 2, np.nanstd(block, axis=0, ddof=1), np.nan)
-    lo, hi = row_quantile(block.T, 0.05), row_quantile(block.T, 0.95)
+    lo, hi = row_quantiles(block.T, (0.05, 0.95))  # one sort for both
     span[numbers] = np.where(n >= 2, hi - lo, np.nan)
     return sd, span
 

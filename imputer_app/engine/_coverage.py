@@ -76,18 +76,28 @@ def row_quantile(x: FloatArray, q: float) -> FloatArray:
 
     ``np.nanquantile(x, q, axis=1)`` without its loop over rows.
     """
-    ordered = np.sort(np.where(np.isfinite(x), x, np.inf), axis=1)
-    n = np.isfinite(x).sum(axis=1)
-    at = q * np.maximum(n - 1, 0)
-    lo = np.floor(at).astype(np.intp)
-    hi = np.minimum(lo + 1, np.maximum(n - 1, 0))
+    return row_quantiles(x, (q,))[0]
+
+
+def row_quantiles(x: FloatArray, qs: Sequence[float]) -> list[FloatArray]:
+    """:func:`row_quantile` for each of ``qs``, from one sort of the rows."""
+    finite = np.isfinite(x)
+    ordered = np.sort(np.where(finite, x, np.inf), axis=1)
+    n = finite.sum(axis=1)
     rows = np.arange(len(x))
-    if not x.shape[1]:
-        return np.full(len(x), np.nan)
-    a, b = ordered[rows, lo], ordered[rows, hi]
-    with np.errstate(invalid="ignore"):
-        out = a + (at - lo) * np.where(hi > lo, b - a, 0.0)
-    return np.where(n > 0, out, np.nan)
+    out = []
+    for q in qs:
+        at = q * np.maximum(n - 1, 0)
+        lo = np.floor(at).astype(np.intp)
+        hi = np.minimum(lo + 1, np.maximum(n - 1, 0))
+        if not x.shape[1]:
+            out.append(np.full(len(x), np.nan))
+            continue
+        a, b = ordered[rows, lo], ordered[rows, hi]
+        with np.errstate(invalid="ignore"):
+            got = a + (at - lo) * np.where(hi > lo, b - a, 0.0)
+        out.append(np.where(n > 0, got, np.nan))
+    return out
 
 
 def crossfit(

@@ -20,11 +20,14 @@ costs two products of shape (m, K) x (K, n).
 from __future__ import annotations
 
 import math
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
 from numpy.typing import NDArray
+
+from imputer_app.engine._bits import common_bits, distinct, packed_rows
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.intp]
@@ -39,6 +42,10 @@ SLAB = 1024
 NOISE = 1e-11
 #: More different column weights than this: :meth:`DistanceModel.gram` weighs per column.
 WEIGHT_GROUPS = 4
+#: Threads working out exact distances side by side (numpy lets go of the GIL) ...
+EXACT_THREADS = 2
+#: ... when there are at least this many values (pairs x numeric columns) to go through.
+THREADED_VALUES = 2**22
 
 
 @dataclass(frozen=True)
@@ -296,14 +303,75 @@ class DistanceModel:
             return np.empty(0)
         n = np.int64(self._rows.shape[0])
         low, high = np.minimum(x, y).astype(np.int64), np.maximum(x, y).astype(np.int64)
-        pairs, back = np.unique(low * n + high, return_inverse=True)
+        pairs, back = distinct(low * n + high, int(n * n))
         ux, uy = (part.astype(np.intp) for part in np.divmod(pairs, n))
         out = np.empty(len(pairs))
         step = self._pair_batch()
-        for start in range(0, len(pairs), step):
-            part = slice(start, start + step)
-            out[part] = self._pairs(ux[part], uy[part], self._rows)
-        return out[back.reshape(-1)]
+        starts = np.arange(0, len(pairs), step)
+
+        def run(some: IntArray) -> None:
+            # two buffers for every batch: fresh temporaries this size cost their page faults
+            buffers = np.empty((2, min(step, len(pairs)), self._p))
+            for start in some.tolist():
+                part = slice(start, start + step)
+                out[part] = self._exact_pairs(ux[part], uy[part], buffers)
+
+        if len(pairs) * max(self._p, 1) < THREADED_VALUES or len(starts) < EXACT_THREADS:
+            run(starts)
+        else:  # each pair's numbers are its own: threads may share the batches
+            with ThreadPoolExecutor(EXACT_THREADS, thread_name_prefix="kinfill-exact") as pool:
+                list(pool.map(run, np.array_split(starts, EXACT_THREADS)))
+        return out[back]
+
+    def _exact_pairs(self, x: IntArray, y: IntArray, buffers: FloatArray) -> FloatArray:
+        """Exact squared distances of the pairs (x[i], y[i]), worked in ``buffers`` (2, >= len(x), p).
+
+        Each pair's sums run over its own row of the buffers: the same numbers for a
+        pair whatever pairs come with it.
+        """
+        sq, other = buffers[0, : len(x)], buffers[1, : len(x)]
+        np.take(self._rows, x, axis=0, out=sq)
+        np.take(self._rows, y, axis=0, out=other)
+        sq -= other
+        sq *= sq  # NaN where either row lacks the column
+        bits = self._observed_bits
+        if self._same_weight is not None and bits is not None:
+            # equal power-of-two weights: every partial sum of the weights is exact, so
+            # weight x (columns not shared) is the very number the row sum gives; the
+            # columns shared are counted on the rows' packed masks
+            lacking = self._same_weight * (self._p - common_bits(bits, x, y))
+        else:
+            lacking = _row_sums(np.isnan(sq).astype(np.float64), self._w)
+        # 0 exactly when no column is shared
+        shared = self._w.sum() - lacking
+        np.fmax(sq, 0.0, out=sq)  # a gap's NaN adds 0
+        np.multiply(sq, self._tw_w, out=sq)
+        total = sq.sum(axis=1)
+        if self._codes.shape[1]:
+            cx, cy = np.take(self._codes, x, axis=0), np.take(self._codes, y, axis=0)
+            seen = (cx >= 0) & (cy >= 0)
+            total += _row_sums((seen & (cx != cy)).astype(np.float64), self._tw_cw)
+            shared += _row_sums(seen.astype(np.float64), self._cw)
+        return ratio(total, shared)
+
+    @cached_property
+    def _observed_bits(self) -> NDArray[np.uint64] | None:
+        """Each row's observed numeric columns packed in 64-bit words (None when a value is infinite).
+
+        Where both rows' bits are set, their difference is a number; elsewhere it is
+        NaN (an infinite value could make it NaN too: then the NaN are counted instead).
+        """
+        rows = self._rows
+        return None if np.isinf(rows).any() else packed_rows(~np.isnan(rows))
+
+    @cached_property
+    def _same_weight(self) -> float | None:
+        """The weight every numeric column has, when it is one power of two (else None)."""
+        w = self._w
+        if not len(w) or not (w == w[0]).all():
+            return None
+        mantissa = np.frexp(w[:1])[0]
+        return float(w[0]) if w[0] > 0 and mantissa[0] == 0.5 else None
 
     @cached_property
     def _rows(self) -> FloatArray:
@@ -313,23 +381,21 @@ class DistanceModel:
     def _pair_batch(self) -> int:
         return max(16, min(PAIR_BATCH, PAIR_VALUES // max(self._p, 1)))
 
-    def _pairs(self, x: IntArray, y: IntArray, values: FloatArray | None = None) -> FloatArray:
-        if values is None:
-            z, codes, dot = *self._values, _product
-        else:  # exact: a BLAS product's rounding varies with the number of pairs in the batch
-            z, codes, dot = values, self._codes, _row_sums
+    def _pairs(self, x: IntArray, y: IntArray) -> FloatArray:
+        """The search's squared distances of pairs (BLAS products: fast, rounding varies)."""
+        z, codes = self._values
         sq = np.take(z, x, axis=0)
         sq -= np.take(z, y, axis=0)
         sq *= sq
         # 0 exactly when no column is shared (a float mask: a bool matrix product skips BLAS)
-        shared = self._w.sum() - dot(np.isnan(sq).astype(np.float64), self._w)
+        shared = self._w.sum() - _product(np.isnan(sq).astype(np.float64), self._w)
         np.fmax(sq, 0.0, out=sq)  # a gap's NaN adds 0
-        total = dot(sq, self._tw_w)
+        total = _product(sq, self._tw_w)
         if codes.shape[1]:
             cx, cy = np.take(codes, x, axis=0), np.take(codes, y, axis=0)
             seen = (cx >= 0) & (cy >= 0)
-            total += dot((seen & (cx != cy)).astype(np.float64), self._tw_cw)
-            shared += dot(seen.astype(np.float64), self._cw)
+            total += _product((seen & (cx != cy)).astype(np.float64), self._tw_cw)
+            shared += _product(seen.astype(np.float64), self._cw)
         return ratio(total, shared)
 
     def block(self, targets: Targets, cand: Candidates, part: slice = slice(None)) -> FloatArray:

@@ -123,19 +123,41 @@ def exact_sorted(
         The re-sort: ``index`` is ``take_along_axis(given index, order)``.
     """
     valid = index >= 0
-    if approx is None:
-        exact = np.full(index.shape, np.inf)
-        r, c = np.nonzero(valid)
+    if approx is None:  # every entry: the whole matrix at once, pads as the pair (0, 0)
+        some = not valid.all()
+        x = np.where(valid, rows[:, None], 0) if some else np.broadcast_to(rows[:, None], index.shape)
+        y = np.where(valid, index, 0) if some else index
+        exact = model.exact(x.ravel(), y.ravel()).reshape(index.shape)
+        if some:
+            exact[~valid] = np.inf
     else:
         exact = np.where(valid, np.maximum(approx, 0.0), np.inf)
         r, c = np.nonzero(valid & rounding_matters(approx, model.noise))
-    exact[r, c] = model.exact(rows[r], index[r, c])
-    order = np.lexsort((np.where(valid, index, np.iinfo(np.intp).max), exact), axis=-1)
-    return (
-        np.take_along_axis(np.where(valid, index, -1), order, axis=1),
-        np.take_along_axis(exact, order, axis=1),
-        order,
-    )
+        exact[r, c] = model.exact(rows[r], index[r, c])
+    index = np.where(valid, index, -1)
+    order = sort_order(exact, np.where(valid, index, np.iinfo(np.intp).max))
+    if order is None:  # already in order, as nearly every list is
+        return index, exact, np.broadcast_to(np.arange(index.shape[1]), index.shape)
+    return np.take_along_axis(index, order, axis=1), np.take_along_axis(exact, order, axis=1), order
+
+
+def sort_order(d2: FloatArray, index: IntArray) -> IntArray | None:
+    """Per line, the stable order of (``d2``, ``index``) as ``np.lexsort`` gives it.
+
+    None when every line is in order already, as nearly every list of a search is:
+    only the lines out of order are sorted.
+    """
+    if d2.shape[1] < 2:
+        return None
+    with np.errstate(invalid="ignore"):  # inf - inf between pads
+        ahead = d2[:, 1:] > d2[:, :-1]
+        level = (d2[:, 1:] == d2[:, :-1]) & (index[:, 1:] >= index[:, :-1])
+    redo = np.flatnonzero(~(ahead | level).all(axis=1))
+    if not len(redo):
+        return None
+    order = np.broadcast_to(np.arange(d2.shape[1]), d2.shape).copy()
+    order[redo] = np.lexsort((index[redo], d2[redo]), axis=-1)
+    return order
 
 
 def exact_lists(

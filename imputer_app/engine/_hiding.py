@@ -71,7 +71,7 @@ def calibration_masks(
     sim = np.array([where[c] for c in table.similarity_columns if table.plan.weight(c) > 0], dtype=np.intp)
     fill = np.array([where[c] for c in table.fill_columns], dtype=np.intp)
     visible_sim = ~gaps[:, sim]
-    n_visible = visible_sim.sum(axis=1)
+    n_visible = np.count_nonzero(visible_sim, axis=1)
     usable, totals = _usable(table, fill, sim, gaps, keep, n_visible)
     wanted = int(totals.sum()) / max(ROUND_ROWS * table.n_rows, 1.0)
     if wanted > WIDE_FROM:
@@ -84,14 +84,18 @@ def calibration_masks(
     rounds: Rounds = [(np.zeros(gaps.shape, dtype=bool), {}) for _ in range(n_rounds)]
     patterned = False
     busy = np.zeros((n_rounds, table.n_rows), dtype=np.intp)
+    # a column at a time, read in place
+    gaps_by_column, usable_by_column = np.ascontiguousarray(gaps.T), np.ascontiguousarray(usable.T)
+    seen = n_visible >= 1
+    columns = _as_run(sim)
     for i in rng.permutation(len(table.fill_columns)).tolist():
         col, j, total = table.fill_columns[i], int(fill[i]), int(totals[i])
         own = sim == j
-        other = n_visible - (own.any() & ~gaps[:, j]) >= 1  # keeps another similarity value
-        sources = np.flatnonzero(gaps[:, j] & other)
+        # rows whose gap pattern may be copied: a gap in this column and a similarity value
+        sources = np.flatnonzero(gaps_by_column[j] & seen)
         taken = np.zeros(table.n_rows, dtype=bool)
         for r, (hide, chosen) in enumerate(rounds):
-            free = np.flatnonzero(usable[:, i] & (busy[r] < per_row) & ~taken)
+            free = np.flatnonzero(usable_by_column[i] & (busy[r] < per_row) & ~taken)
             n = min(len(free), total // n_rounds + (1 if r < total % n_rounds else 0))
             pick = np.sort(rng.choice(free, size=n, replace=False)) if n > 0 else free[:0]
             busy[r, pick] += 1
@@ -103,7 +107,7 @@ def calibration_masks(
             # nearly all its similarity values: then only the scored cells are hidden
             if per_row == 1 and len(sources) and len(pick):
                 patterned |= _copy_patterns(
-                    hide, pick, sim, own, gaps[rng.choice(sources, size=len(pick))][:, sim], visible_sim
+                    hide, pick, columns, own, gaps[rng.choice(sources, size=len(pick))][:, sim], visible_sim
                 )
     return rounds, patterned
 
@@ -128,11 +132,12 @@ def _usable(
         known[:, i] = table.observed[col]
         if col in keep:
             known[:, i] &= ~np.asarray(keep[col], dtype=bool)
-    own = (~gaps[:, fill] & np.isin(fill, sim)[None, :]).astype(np.intp)
-    usable = known & (n_visible[:, None] - own >= 1)
+    own = ~gaps[:, fill] & np.isin(fill, sim)[None, :]
+    # another similarity value once the cell is hidden: two, or one that is not the cell's
+    usable = known & ((n_visible >= 2)[:, None] | ((n_visible >= 1)[:, None] & ~own))
     ks = np.array([table.plan.k_for(c) for c in table.fill_columns], dtype=np.intp)
-    share = np.floor(CAL_SHARE * known.sum(axis=0) + 0.5).astype(np.intp)
-    totals = np.minimum(np.minimum(CAL_MAX, share), np.maximum(usable.sum(axis=0) - ks, 0))
+    share = np.floor(CAL_SHARE * np.count_nonzero(known, axis=0) + 0.5).astype(np.intp)
+    totals = np.minimum(np.minimum(CAL_MAX, share), np.maximum(np.count_nonzero(usable, axis=0) - ks, 0))
     return usable, totals.astype(np.intp)
 
 
@@ -168,10 +173,17 @@ def _wide_rounds(
     return rounds
 
 
+def _as_run(columns: IntArray) -> IntArray | slice:
+    """``columns`` as a slice when they are a run of consecutive positions (cheaper to index)."""
+    if len(columns) and (np.diff(columns) == 1).all():
+        return slice(int(columns[0]), int(columns[-1]) + 1)
+    return columns
+
+
 def _copy_patterns(
     hide: BoolArray,
     pick: IntArray,
-    sim: IntArray,
+    sim: IntArray | slice,
     own: BoolArray,
     pattern: BoolArray,
     visible: BoolArray,
@@ -181,7 +193,10 @@ def _copy_patterns(
     ok = (visible[pick] & ~pattern & ~own).any(axis=1)
     rows = pick[ok]
     if len(rows):
-        hide[np.ix_(rows, sim)] |= pattern[ok]
+        if isinstance(sim, slice):
+            hide[rows, sim] |= pattern[ok]
+        else:
+            hide[np.ix_(rows, sim)] |= pattern[ok]
     return bool(len(rows))
 
 

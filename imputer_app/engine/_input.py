@@ -159,23 +159,26 @@ def state_masks(inp: Input, columns: list[str], words: tuple[str, ...]) -> dict[
     the sheet reader gives) are compared by code, column by column: far faster than
     turning the whole table of states into text.
     """
-    out = {word: np.zeros((len(inp.frame), len(columns)), dtype=bool) for word in words}
-    if inp.states is None:
-        return out
+    n = len(inp.frame)
+    if inp.states is None or not columns:
+        return {word: np.zeros((n, len(columns)), dtype=bool) for word in words}
+    none = np.zeros(n, dtype=bool)
+    parts: dict[str, list[NDArray[np.bool_]]] = {word: [none] * len(columns) for word in words}
     for j, col in enumerate(columns):
         if col not in inp.states.columns:
             continue
         series = inp.states[col]
         if isinstance(series.dtype, pd.CategoricalDtype):
-            codes, classes = series.cat.codes.to_numpy(), series.cat.categories
+            codes, classes = np.asarray(series.array.codes), series.dtype.categories
             for word in words:
                 if word in classes:
-                    out[word][:, j] = codes == classes.get_loc(word)
+                    parts[word][j] = codes == classes.get_loc(word)
         else:
             text = series.astype(object).to_numpy()
             for word in words:
-                out[word][:, j] = text == word
-    return out
+                parts[word][j] = text == word
+    # the columns stacked once: writing them one by one into a row-major array is slower
+    return {word: np.stack(cols, axis=1) for word, cols in parts.items()}
 
 
 def censored_cells(inp: Input, col: str, mask: NDArray[np.bool_]) -> Censored:

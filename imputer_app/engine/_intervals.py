@@ -44,6 +44,7 @@ from imputer_app.engine._log import KNN, KNN_CAPPED, LogPiece, Records
 from imputer_app.engine._prepare import prepare_input
 from imputer_app.engine._reuse import HiddenCells
 from imputer_app.engine._search import ColumnDonors, nearest_donors
+from imputer_app.engine._shared import shared_weights
 from imputer_app.engine._table import PreparedTable
 from imputer_app.work import CancelFlag, raise_if_cancelled
 
@@ -56,12 +57,9 @@ WIDE_RANGE = 1.5
 FAR = 3.0
 #: Donors sharing on average less than this share of the cell's similarity weight: weak.
 FEW_SHARED = 0.5
-_CHUNK = 50_000
 #: A donor search per fill column, called like :func:`~imputer_app.engine.nearest_donors`
 #: (``search(table, kmax=..., targets=..., cancel=...)``).
 ColumnSearch = Callable[..., Mapping[str, ColumnDonors]]
-#: Up to this many rows, the shared weight of every pair of rows is one matrix product.
-_PAIRS_ROWS = 4_000
 
 
 def calibrate(
@@ -191,7 +189,9 @@ def _with_interval(
         extra = _class_sets(piece, table, first, level, calibration.source)
     support[weak] = 2
     support[piece.k == 0] = 0
-    note = np.where(piece.note == "", extra, piece.note + "; " + extra)
+    note = np.array(extra, dtype=object)  # joined only where the cell has a note already
+    has = piece.note != ""
+    note[has] = piece.note[has] + "; " + note[has]
     return dataclasses.replace(piece, lower=lower, upper=upper, support=support, note=note)
 
 
@@ -264,22 +264,11 @@ def _class_sets(
 
 def _shared_share(features: Features, piece: LogPiece) -> FloatArray:
     """Per cell, the mean share of all similarity weight that it and a used donor both have."""
-    fin = np.hstack([np.isfinite(features.numbers), features.codes >= 0]).astype(np.float64)
-    w = np.concatenate([features.number_weights, features.code_weights])
     out = np.ones(len(piece.pos))
     width = piece.donors.shape[1]
-    if not width or not fin.shape[1]:
+    if not width or not len(piece.pos) or not features.numbers.shape[1] + features.codes.shape[1]:
         return out
     total = features.total_weight if features.total_weight > 0 else 1.0
     first = np.arange(width)[None, :] < piece.k[:, None]
-    if fin.shape[0] <= _PAIRS_ROWS:  # every pair of rows at once, by one matrix product
-        pairs = (fin * w) @ fin.T
-        shared = pairs[piece.pos[:, None], np.maximum(piece.donors, 0)]
-        return np.asarray((shared * first).sum(axis=1) / np.maximum(piece.k, 1) / total)
-    for a in range(0, len(piece.pos), _CHUNK):
-        b = min(a + _CHUNK, len(piece.pos))
-        own = fin[piece.pos[a:b]] * w  # (m, p)
-        donors = fin[np.maximum(piece.donors[a:b], 0)]  # (m, width, p)
-        shared = np.einsum("mp,mip->mi", own, donors)
-        out[a:b] = (shared * first[a:b]).sum(axis=1) / np.maximum(piece.k[a:b], 1) / total
-    return out
+    shared = shared_weights(features, piece.pos, piece.donors)
+    return np.asarray((shared * first).sum(axis=1) / np.maximum(piece.k, 1) / total)

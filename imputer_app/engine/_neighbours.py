@@ -104,14 +104,17 @@ def search_key(table: PreparedTable, targets: Mapping[str, BoolArray]) -> bytes:
         weights, the total weight and the mismatch factor, the groups, and per fill
         column (in order) its donor cells and its targets.
     """
-    digest = hashlib.blake2b(digest_size=20)
+    # SHA-256 reads these arrays about twice as fast as BLAKE2b here (CPU instructions)
+    digest = hashlib.sha256()
 
     def add(array: NDArray[Any] | None) -> None:
         if array is None:
             digest.update(b"none")
             return
         digest.update(f"{array.dtype.str}{array.shape}".encode())
-        digest.update(np.ascontiguousarray(array).tobytes())
+        # the values column after column, read in place (a prepared table's are stored so)
+        flat = np.asfortranarray(array).T if array.ndim == 2 else np.ascontiguousarray(array)
+        digest.update(flat.data)
 
     f = table.features
     for part in (f.numbers, f.number_weights, f.codes, f.code_weights, table.groups):

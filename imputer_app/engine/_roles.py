@@ -116,18 +116,19 @@ def _constant_numbers(frame: pd.DataFrame, columns: list[str]) -> dict[str, str]
     """
     if not columns:
         return {}
-    part = frame[columns]
-    if all(kind in "fiu" for kind in part.dtypes.map(lambda d: d.kind)):
+    # the whole frame when it is all asked for: selecting thousands of columns by name costs
+    part = frame if frame.columns.tolist() == columns else frame[columns]
+    if all(d.kind in "fiu" for d in part.dtypes.tolist()):
         values = part.to_numpy(dtype=float, na_value=np.nan)  # one block: no per-column work
     else:
         values = np.column_stack(
             [pd.to_numeric(part[c], errors="coerce").to_numpy(dtype=float, na_value=np.nan) for c in columns]
         )
     present = np.isfinite(values)
-    with np.errstate(invalid="ignore"):
-        low = np.where(present, values, np.inf).min(axis=0)
-        high = np.where(present, values, -np.inf).max(axis=0)
-    same = (present.sum(axis=0) >= 2) & (low == high)
+    finite = values if present.all() else np.where(present, values, np.nan)
+    low = np.fmin.reduce(finite, axis=0, initial=np.inf)  # fmin passes over the NaN gaps
+    high = np.fmax.reduce(finite, axis=0, initial=-np.inf)
+    same = (np.count_nonzero(present, axis=0) >= 2) & (low == high)
     return {columns[j]: f"constant (every filled cell is {low[j]:g})" for j in np.flatnonzero(same)}
 
 

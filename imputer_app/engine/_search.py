@@ -65,6 +65,9 @@ class ColumnDonors:
         Number of real donors per target (may exceed kmax).
     path : {"block", "tree"}, default="block"
         Which search found them (:data:`~imputer_app.engine._tree_search.PATH_NAMES`).
+    shares : dict
+        The donors' weights for the k last asked (:func:`~imputer_app.engine._combine.donor_shares`
+        keeps them here: the values, their spread and the fill log all ask for them).
     """
 
     rows: IntArray
@@ -72,6 +75,7 @@ class ColumnDonors:
     distance: FloatArray
     count: IntArray
     path: str = "block"
+    shares: dict[int, tuple[FloatArray, IntArray]] = field(default_factory=dict, repr=False, compare=False)
 
 
 def first_positions(good: BoolArray, kmax: int) -> IntArray:
@@ -128,33 +132,35 @@ def first_donors(
 class _Cells:
     """All target cells, sorted by (column, row), and their donors so far.
 
-    ``slot[col, row]`` is the position of cell (row, col) in that order (only written,
-    and read, where the cell is a target).
+    ``code`` is ``col * n_rows + row`` of each cell, ascending: a cell's position in
+    that order is found by a binary search.
     """
 
     col: IntArray
     row: IntArray
     index: IntArray
     d2: FloatArray
-    slot: IntArray
+    code: IntArray
+    n_rows: int
     wide: list[tuple[IntArray, IntArray, FloatArray]] = field(default_factory=list)
 
     @classmethod
     def of(cls, want: BoolArray, kmax: int) -> _Cells:
         flat = np.flatnonzero(want.T)
         col, row = np.divmod(flat, len(want))
-        slot = np.empty(want.shape[::-1], dtype=np.intp)
-        slot.ravel()[flat] = np.arange(len(flat))
         return cls(
             col,
             row,
             np.full((len(col), kmax), -1, dtype=np.intp),
             np.full((len(col), kmax), np.inf),
-            slot,
+            flat,
+            len(want),
         )
 
     def put(self, col: IntArray, row: IntArray, index: IntArray, d2: FloatArray) -> None:
-        at = self.slot[col, row]
+        # cells are in (column, row) order: a cell's place is found in their sorted codes
+        # (a table of every (column, row) would take n_rows x columns integers)
+        at = np.searchsorted(self.code, np.asarray(col, dtype=np.intp) * self.n_rows + row)
         if index.shape[1] > self.index.shape[1]:  # a widened search: kept aside until the end
             self.wide.append((at, index, d2))
             return
@@ -265,12 +271,10 @@ def search_cells(
     raise_if_cancelled(cancel)
     n, names = table.n_rows, table.fill_columns
     wanted = table.targets() if targets is None else targets
-    want = np.zeros((n, len(names)), dtype=bool)
-    ok = np.zeros((n, len(names)), dtype=bool)
-    for j, name in enumerate(names):
-        if name in wanted:
-            want[:, j] = np.asarray(wanted[name], dtype=bool)
-        ok[:, j] = table.observed[name]
+    # one stack of columns, not a write per column (a wide sheet has thousands)
+    none = np.zeros(n, dtype=bool)
+    want = _columns([np.asarray(wanted[c], dtype=bool) if c in wanted else none for c in names], n)
+    ok = _columns([np.asarray(table.observed[c], dtype=bool) for c in names], n)
     if table.groups is not None:
         ok &= (table.groups >= 0)[:, None]
     keep = kmax + extra_donors(kmax)
@@ -293,6 +297,11 @@ def search_cells(
     found, col = cells.flat(model)
     found.path = "block" if tree is None else "tree"
     return found, col
+
+
+def _columns(vectors: list[BoolArray], n: int) -> BoolArray:
+    """``vectors`` (each of shape (n,)) as the columns of an (n, len(vectors)) array."""
+    return np.stack(vectors, axis=1) if vectors else np.zeros((n, 0), dtype=bool)
 
 
 def extra_donors(kmax: int) -> int:
@@ -464,7 +473,9 @@ class _Jobs:
 
     def _list_size(self, cols: IntArray, cand: IntArray) -> int:
         """Candidates kept per row so that nearly every cell finds kmax donors among them."""
-        share = float(self.ok[np.ix_(cand, cols)].mean(axis=0).min()) if len(cand) else 1.0
+        # the fewest donors of a column among the candidates, as a share of them
+        donors = np.take(np.take(self.ok, cand, axis=0), cols, axis=1)
+        share = int(np.count_nonzero(donors, axis=0).min(initial=len(cand))) / len(cand) if len(cand) else 1.0
         # expected donors in the list: share x length; a cell short of kmax is searched again
         return min(len(cand), math.ceil(self.keep / max(share, 1e-9) * 1.3) + 4)
 

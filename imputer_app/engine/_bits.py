@@ -1,0 +1,58 @@
+"""Rows of a bool mask packed into 64-bit words, and distinct codes without sorting (numpy only).
+
+Two rows' masks ANDed word by word and their bits counted (``np.bitwise_count``) give
+the number of columns both rows have: whole numbers, the same however the pairs are
+grouped, at a 64th of the reads of the mask itself.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numpy.typing import NDArray
+
+IntArray = NDArray[np.intp]
+
+#: :func:`distinct` marks codes in a table instead of sorting them when there are at most
+#: this many possible codes per code given (the table is scanned once) ...
+DISTINCT_SPARSITY = 8
+#: ... and at most this many in all.
+DISTINCT_TABLE = 2**24
+
+
+def packed_rows(mask: NDArray[np.bool_]) -> NDArray[np.uint64]:
+    """``mask`` (n, p) packed row by row into ``ceil(p / 64)`` words of 64 bits, zero padded."""
+    packed = np.packbits(mask, axis=1)
+    words = np.zeros((len(mask), 8 * -(-packed.shape[1] // 8)), dtype=np.uint8)
+    words[:, : packed.shape[1]] = packed
+    return words.view(np.uint64)
+
+
+def common_bits(words: NDArray[np.uint64], rows: IntArray, others: IntArray) -> IntArray:
+    """Bits set in both ``words[rows]`` and ``words[others]``: shape of ``others``.
+
+    ``rows`` has one dimension fewer than ``others`` (each row against its others) or
+    the same shape (pair by pair).
+    """
+    if others.ndim > rows.ndim:
+        rows = rows[..., None]
+    if words.shape[1] == 1:  # up to 64 columns: one word a row
+        return np.bitwise_count(words[rows, 0] & words[others, 0]).astype(np.intp)
+    return np.bitwise_count(words[rows] & words[others]).sum(axis=-1, dtype=np.intp)
+
+
+def distinct(codes: NDArray[np.int64], bound: int) -> tuple[NDArray[np.int64], IntArray]:
+    """``np.unique(codes, return_inverse=True)`` for codes in ``0..bound-1``.
+
+    When ``bound`` is small next to the number of codes, they are marked in a table
+    and numbered in order: the same result without sorting (a wide sheet asks for
+    hundreds of thousands of codes that hold a few thousand distinct pairs).
+    """
+    if bound > min(DISTINCT_TABLE, DISTINCT_SPARSITY * len(codes)):
+        pairs, back = np.unique(codes, return_inverse=True)
+        return pairs, back.reshape(-1).astype(np.intp)
+    seen = np.zeros(int(bound), dtype=bool)
+    seen[codes] = True
+    pairs = np.flatnonzero(seen).astype(np.int64)
+    number = np.empty(int(bound), dtype=np.intp)
+    number[pairs] = np.arange(len(pairs))
+    return pairs, number[codes]
