@@ -25,10 +25,9 @@ from PySide6.QtWidgets import (
 )
 
 from imputer_app.gui.column_menu import role_menu
-from imputer_app.gui.fill_navigation import RowBar, filter_actions, next_cell, weak_fills
+from imputer_app.gui.fill_navigation import RowBar, filter_actions, next_position
 from imputer_app.gui.gap_map import GapMap
 from imputer_app.gui.legend import Legend
-from imputer_app.gui.markers import CENSORED, MISSING, TEXT
 from imputer_app.gui.read_bar import ReadBar
 from imputer_app.gui.row_filter import RowFilterModel
 from imputer_app.gui.table_model import SheetTableModel
@@ -221,8 +220,9 @@ class DataView(QWidget):
         self.row_bar.setVisible(shown)
         for key, action in self.filter_actions.items():
             action.setEnabled(shown or key == "all")  # without a fill, no row has one
+        model = self.model
         self.row_bar.show_counts(
-            self.rows.mode, self.rows.rowCount(), self.model.rowCount(), self.model.fill_codes
+            self.rows.mode, self.rows.rowCount(), model.rowCount(), int(model.weak_cells.size), model.n_filled
         )
 
     def source_index(self, index: QModelIndex) -> QModelIndex:
@@ -256,28 +256,23 @@ class DataView(QWidget):
 
     def next_gap(self) -> None:
         """Go to the next gap, unreadable or censored cell after the current one (wraps around)."""
-        codes = self.model.codes
-        shown = self.rows.shown_rows()
-        marked = (codes == MISSING) | (codes == TEXT) | (codes == CENSORED)
-        self._go_to_next(marked, shown, backwards=False)
+        self._go_to_next(self.model.gap_cells, self.rows.shown_rows() if self.rows.mode != "all" else None)
 
     def next_weak_fill(self, backwards: bool = False) -> None:
         """Go to the next (or previous) cell filled with weak support, wrapping around."""
-        if not self._go_to_next(weak_fills(self.model.fill_codes), None, backwards):
+        if not self._go_to_next(self.model.weak_cells, None, backwards):
             self.row_bar.say("No weak fills in the fill shown.")
 
     def previous_weak_fill(self) -> None:
         """Go to the previous cell filled with weak support."""
         self.next_weak_fill(backwards=True)
 
-    def _go_to_next(self, mask: np.ndarray, shown: np.ndarray | None, backwards: bool) -> bool:
-        if mask.size == 0:
-            return False
-        if shown is not None and shown.size < mask.shape[0]:
-            kept = np.zeros_like(mask)
-            kept[shown] = mask[shown]  # only the rows the filter shows
-            mask = kept
-        found = next_cell(mask, self.current_position(), backwards)
+    def _go_to_next(self, hits: np.ndarray, shown: np.ndarray | None, backwards: bool = False) -> bool:
+        """Go to the next of the cells at flat positions ``hits`` (only in the ``shown`` rows, if given)."""
+        shape = self.model.codes.shape
+        if shown is not None and hits.size:
+            hits = hits[np.isin(hits // max(shape[1], 1), shown)]  # only the rows the filter shows
+        found = next_position(hits, shape, self.current_position(), backwards)
         if found is None:
             return False
         self.select_position(*found)
@@ -291,8 +286,7 @@ class DataView(QWidget):
             self.gap_map.set_viewport(0, -1)
             return
         first, last = max(first, 0), last if last >= 0 else shown - 1
-        rows = self.rows.shown_rows()
-        self.gap_map.set_viewport(int(rows[first]), int(rows[last]))
+        self.gap_map.set_viewport(self.rows.source_row(first), self.rows.source_row(last))
 
     # ------------------------------------------------------------------- menus
     def add_table_actions(self, actions: list[QAction]) -> None:

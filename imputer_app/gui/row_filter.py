@@ -78,6 +78,10 @@ class RowFilterModel(QAbstractProxyModel):
         """Sheet rows shown, in order (a copy)."""
         return self._rows.copy()
 
+    def source_row(self, row: int) -> int:
+        """The sheet row shown at position ``row``."""
+        return int(self._rows[row])
+
     def proxy_row(self, source_row: int) -> int:
         """The shown position of a sheet row, or -1 when the filter hides it."""
         pos = int(np.searchsorted(self._rows, source_row))

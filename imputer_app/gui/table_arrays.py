@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 
 from imputer_app.gui.gap_map import MarkedCells, marked_cells
-from imputer_app.gui.markers import FILL_WEAK, OBSERVED, STATE_CODES
+from imputer_app.gui.markers import CENSORED, FILL_WEAK, MISSING, OBSERVED, STATE_CODES, TEXT
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
@@ -46,6 +46,11 @@ class SheetArrays:
         ``(row, column) -> original text`` of cells read as a gap or a limit.
     marked : MarkedCells
         The cells the gap map marks (no fill layer).
+    gap_cells : ndarray of intp
+        Flat positions (``row * n_columns + column``, ascending) of the gaps, unreadable
+        and censored cells: where "next gap" goes.
+    code_counts : ndarray of int64
+        How many cells have each code.
     """
 
     names: list[str]
@@ -57,6 +62,8 @@ class SheetArrays:
     codes: np.ndarray
     notes: dict[tuple[int, int], str]
     marked: MarkedCells
+    gap_cells: np.ndarray
+    code_counts: np.ndarray
 
 
 @dataclass(frozen=True)
@@ -73,12 +80,18 @@ class LayerArrays:
         The cells the gap map marks, drawn as a preview (see :meth:`MarkedCells.as_kind`).
     log_cells : ndarray of int64
         For each fill-log entry, its cell as ``row * n_columns + column`` (-1: not in the table).
+    weak_cells : ndarray of intp
+        Flat positions (ascending) of the cells filled with weak support.
+    n_filled : int
+        Cells the fill wrote.
     """
 
     values: list[np.ndarray]
     fill: np.ndarray
     marked: MarkedCells
     log_cells: np.ndarray
+    weak_cells: np.ndarray
+    n_filled: int
 
 
 def sheet_arrays(sheet: Sheet) -> SheetArrays:
@@ -99,6 +112,8 @@ def sheet_arrays(sheet: Sheet) -> SheetArrays:
         codes=codes,
         notes=_note_texts(sheet, frame.index, names),
         marked=marked_cells(codes, np.zeros_like(codes), ""),
+        gap_cells=np.flatnonzero(np.isin(codes, (MISSING, TEXT, CENSORED))),
+        code_counts=np.bincount(codes.ravel().astype(np.intp), minlength=len(STATE_CODES) + 1),
     )
 
 
@@ -111,6 +126,8 @@ def layer_arrays(result: FillResult, base: SheetArrays) -> LayerArrays:
         fill=fill,
         marked=marked_cells(base.codes, fill, "preview"),
         log_cells=_log_cells(result, base),
+        weak_cells=np.flatnonzero(fill == FILL_WEAK),
+        n_filled=int(np.count_nonzero(fill)),
     )
 
 

@@ -200,6 +200,29 @@ class SheetTableModel(FlatTableModel):
         return self._arrays
 
     @property
+    def gap_cells(self) -> np.ndarray:
+        """Flat positions (``row * n_columns + column``, ascending) of gaps, unreadable and censored cells."""
+        return self._arrays.gap_cells if self._arrays is not None else np.zeros(0, dtype=np.intp)
+
+    @property
+    def weak_cells(self) -> np.ndarray:
+        """Flat positions (ascending) of the cells the layer filled with weak support."""
+        arrays = self._layer_arrays
+        return arrays.weak_cells if arrays is not None else np.zeros(0, dtype=np.intp)
+
+    @property
+    def n_filled(self) -> int:
+        """Cells the layer filled."""
+        return self._layer_arrays.n_filled if self._layer_arrays is not None else 0
+
+    def code_count(self, *codes: int) -> int:
+        """Cells with any of these cell ``codes`` (counted once per sheet, off the window's thread)."""
+        if self._arrays is None:
+            return 0
+        counts = self._arrays.code_counts
+        return int(sum(counts[c] for c in codes if c < counts.size))
+
+    @property
     def marked(self) -> MarkedCells | None:
         """The cells the gap map marks, with the fill layer (None without a sheet)."""
         return self._marked
