@@ -35,11 +35,11 @@ from imputer_app.gui.setup_model import (
     ROLES,
     ColumnChoice,
     ColumnListModel,
-    choices_for_sheet,
     choices_from_plan,
     detail_line,
     plan_from_choices,
 )
+from imputer_app.gui.sheet_facts import column_choices
 from imputer_app.gui.state import Session
 from imputer_app.gui.widgets import buddy, compact, named, row_height, text_label
 from imputer_app.plan import FillPlan
@@ -298,16 +298,8 @@ class ColumnSetup(QWidget):
             self.plan_changed.emit(self.session.plan)
 
     def _show_sheet(self, sheet: Sheet) -> None:
-        roles, self._roles = self._roles, None
-        facts, self._facts = self._facts, None
-        if roles is None and facts is not None and facts.sheet is sheet:
-            roles, self._choices = facts.roles, list(facts.choices)
-        else:
-            if roles is None:
-                from imputer_app.engine import default_roles
-
-                roles = default_roles(sheet)
-            self._choices = choices_for_sheet(sheet, roles)
+        (roles, self._roles), (facts, self._facts) = (self._roles, None), (self._facts, None)
+        roles, self._choices = column_choices(sheet, facts, roles)
         self._defaults = dict(roles)
         self._quiet = True
         try:

@@ -54,6 +54,22 @@ def sheet_facts(sheet: Sheet) -> SheetFacts:
     return SheetFacts(sheet, roles, choices_for_sheet(sheet, roles), sheet_arrays(sheet))
 
 
+def column_choices(
+    sheet: Sheet, facts: SheetFacts | None, roles: dict[str, str] | None = None
+) -> tuple[dict[str, str], list[ColumnChoice]]:
+    """The default roles and setup rows of ``sheet``: from ``facts`` if made for it, else made now.
+
+    ``roles`` given (a caller's own defaults) are used instead of the engine's.
+    """
+    if roles is None and facts is not None and facts.sheet is sheet:
+        return facts.roles, list(facts.choices)
+    if roles is None:
+        from imputer_app.engine import default_roles
+
+        roles = default_roles(sheet)
+    return roles, choices_for_sheet(sheet, roles)
+
+
 def with_sheet_facts(
     job: Callable[[Progress, CancelFlag], tuple[Sheet | None, list[str]]],
 ) -> Callable[[Progress, CancelFlag], tuple[Sheet | None, list[str], SheetFacts | None]]:
