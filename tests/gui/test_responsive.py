@@ -77,6 +77,39 @@ def open_sheet(window, qtbot, path: str) -> None:
         window.open_path(path)
 
 
+def test_the_sheet_and_fill_arrays_are_made_off_the_window_thread(window, qtbot, tmp_path, monkeypatch):
+    import threading
+
+    from imputer_app.gui import sheet_facts, table_model
+
+    made: list[tuple[str, bool]] = []  # (what, on the window's thread)
+
+    def recorded(name, function):
+        def call(*args):
+            made.append((name, threading.current_thread() is threading.main_thread()))
+            return function(*args)
+
+        return call
+
+    for module in (sheet_facts, table_model):
+        for name in ("sheet_arrays", "layer_arrays"):
+            monkeypatch.setattr(module, name, recorded(f"{module.__name__}.{name}", getattr(module, name)))
+    rng = np.random.default_rng(1)
+    values = rng.normal(10, 2, (300, 4)).round(2)
+    values[rng.random(values.shape) < 0.05] = np.nan
+    path = tmp_path / "short.csv"
+    pd.DataFrame(values, columns=list("abcd")).to_csv(path, index=False)
+    open_sheet(window, qtbot, str(path))
+    with qtbot.waitSignal(window.preview_ready, timeout=60_000):
+        window.preview_fill()
+    window.apply_fill()
+    window.undo()
+    window.redo()
+    worker = "imputer_app.gui.sheet_facts"
+    assert made == [(f"{worker}.sheet_arrays", False), (f"{worker}.layer_arrays", False)]
+    assert window.table_model.n_filled == int(np.isnan(values).sum())
+
+
 def test_opening_previewing_and_applying_a_long_sheet_leaves_the_window_free(window, qtbot, long_csv):
     path, blanks = long_csv
     meter = StallMeter()
