@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 
 from imputer_app.gui.gap_map import MarkedCells, marked_cells
-from imputer_app.gui.markers import CENSORED, FILL_WEAK, MISSING, OBSERVED, STATE_CODES, TEXT
+from imputer_app.gui.markers import FILL_WEAK, OBSERVED, STATE_CODES
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
@@ -102,6 +102,7 @@ def sheet_arrays(sheet: Sheet) -> SheetArrays:
     kinds = [info[n].kind if n in info else _kind_of(frame[n]) for n in names]
     values = [_column_array(frame[n], kind) for n, kind in zip(names, kinds, strict=True)]
     codes = state_codes(sheet.states, names)
+    marked = marked_cells(codes, np.zeros_like(codes), "")
     return SheetArrays(
         names=names,
         kinds=kinds,
@@ -111,8 +112,9 @@ def sheet_arrays(sheet: Sheet) -> SheetArrays:
         decimals=[_decimals_of(v) if v.dtype.kind == "f" else 0 for v in values],
         codes=codes,
         notes=_note_texts(sheet, frame.index, names),
-        marked=marked_cells(codes, np.zeros_like(codes), ""),
-        gap_cells=np.flatnonzero(np.isin(codes, (MISSING, TEXT, CENSORED))),
+        marked=marked,
+        # every cell the map marks without a fill is a gap, unreadable or censored cell
+        gap_cells=marked.rows * len(names) + marked.columns,
         code_counts=np.bincount(codes.ravel().astype(np.intp), minlength=len(STATE_CODES) + 1),
     )
 

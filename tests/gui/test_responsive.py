@@ -123,7 +123,10 @@ def worst_stall_of_a_fill(window, qtbot, path: str) -> int:
     qtbot.wait(200)
     window.apply_fill()
     qtbot.wait(200)
-    return meter.stop()
+    worst = meter.stop()
+    assert window.session.applied is not None
+    window.session.mark_exported()  # the next sheet opens without asking about this fill
+    return worst
 
 
 def test_opening_previewing_and_applying_a_long_sheet_leaves_the_window_free(
@@ -138,7 +141,7 @@ def test_opening_previewing_and_applying_a_long_sheet_leaves_the_window_free(
     baseline = worst_stall_of_a_fill(window, qtbot, str(short))
     worst = worst_stall_of_a_fill(window, qtbot, path)
     applied = window.session.applied
-    assert applied is not None and int(applied.filled.to_numpy().sum()) == blanks
+    assert int(applied.filled.to_numpy().sum()) == blanks
     assert window.table_model.n_filled == blanks and window.table_model.rowCount() == ROWS
     bound = max(WORST_GAP_MS, 2 * baseline)
     assert worst < bound, f"the window stood still for {worst} ms (2,000 rows: {baseline} ms)"
