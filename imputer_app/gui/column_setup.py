@@ -35,17 +35,18 @@ from imputer_app.gui.setup_model import (
     ROLES,
     ColumnChoice,
     ColumnListModel,
-    choices_for_sheet,
     choices_from_plan,
     detail_line,
     plan_from_choices,
 )
+from imputer_app.gui.sheet_facts import column_choices
 from imputer_app.gui.state import Session
 from imputer_app.gui.widgets import buddy, compact, named, row_height, text_label
 from imputer_app.plan import FillPlan
 from imputer_app.words import CHOICE_WORDS, SETTING_TIPS
 
 if TYPE_CHECKING:
+    from imputer_app.gui.sheet_facts import SheetFacts
     from imputer_app.sheets import Sheet
 
 _MULTIPLE = "(several)"
@@ -70,6 +71,7 @@ class ColumnSetup(QWidget):
         self._choices: list[ColumnChoice] = []
         self._defaults: dict[str, str] = {}
         self._roles: dict[str, str] | None = None
+        self._facts: SheetFacts | None = None  # made while the sheet was read
         self._group: str | None = None
         self._quiet = False
         self._writing = False  # True while this panel writes the plan (no redraw of its own edit)
@@ -252,6 +254,10 @@ class ColumnSetup(QWidget):
         self._roles = roles
         self.session.load(sheet, plan=plan)
 
+    def use_facts(self, facts: SheetFacts | None) -> None:
+        """Take the column list of the sheet about to be loaded, made in the reading worker."""
+        self._facts = facts
+
     def set_plan(self, plan: FillPlan) -> None:
         """Make ``plan`` the session's plan (its column settings are matched by name)."""
         self.session.set_plan(plan)  # the panel redraws and writes back the plan as resolved
@@ -292,13 +298,9 @@ class ColumnSetup(QWidget):
             self.plan_changed.emit(self.session.plan)
 
     def _show_sheet(self, sheet: Sheet) -> None:
-        roles, self._roles = self._roles, None
-        if roles is None:
-            from imputer_app.engine import default_roles
-
-            roles = default_roles(sheet)
+        (roles, self._roles), (facts, self._facts) = (self._roles, None), (self._facts, None)
+        roles, self._choices = column_choices(sheet, facts, roles)
         self._defaults = dict(roles)
-        self._choices = choices_for_sheet(sheet, roles)
         self._quiet = True
         try:
             self.k_spin.setMaximum(max(1, len(sheet.frame) - 1))

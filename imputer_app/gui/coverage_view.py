@@ -17,6 +17,7 @@ import pandas as pd
 from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
 from matplotlib.figure import Figure
 from PySide6.QtCore import Qt
+from PySide6.QtGui import QShowEvent
 from PySide6.QtWidgets import QSizePolicy, QVBoxLayout, QWidget
 
 from imputer_app.charts import plot_coverage
@@ -80,6 +81,7 @@ class CoverageView(QWidget):
         self.setObjectName("recoveryCoverageView")
         self.session = session
         self.rows: pd.DataFrame | None = None
+        self._stale = False  # a chart to draw once the view is shown
         self.figure = Figure(figsize=(3.0, 3.0), layout="constrained")
         self.canvas = named(
             FigureCanvasQTAgg(self.figure),
@@ -116,9 +118,22 @@ class CoverageView(QWidget):
             return
         plan = getattr(result, "plan", None)
         self.note.setText(coverage_sentence(self.rows, getattr(plan, "interval_level", None)))
+        # drawn when the view is shown: a chart costs the window a few tenths of a second
+        self._stale = not self.isVisible()
+        if not self._stale:
+            self._draw(self.rows)
+
+    def showEvent(self, event: QShowEvent) -> None:
+        """Draw the chart of the current fill if it changed while the view was hidden."""
+        super().showEvent(event)
+        if self._stale and self.rows is not None:
+            self._stale = False
+            self._draw(self.rows)
+
+    def _draw(self, rows: pd.DataFrame) -> None:
         with palette_style(self.palette()):
             try:
-                plot_coverage(self.rows, figure=self.figure)
+                plot_coverage(rows, figure=self.figure)
             except KinfillError as exc:  # a malformed table: say so rather than draw nonsense
                 self.canvas.setVisible(False)
                 self.note.setText(f"Interval coverage cannot be drawn: {exc}")

@@ -13,25 +13,37 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 from PySide6.QtCore import QItemSelectionModel, QModelIndex, QPoint, Qt, Signal
 from PySide6.QtGui import QAction
-from PySide6.QtWidgets import QAbstractItemView, QLabel, QMenu, QSplitter, QTableView, QVBoxLayout, QWidget
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QHeaderView,
+    QLabel,
+    QMenu,
+    QSplitter,
+    QTableView,
+    QVBoxLayout,
+    QWidget,
+)
 
 from imputer_app.gui.column_menu import role_menu
-from imputer_app.gui.fill_navigation import RowBar, filter_actions, next_cell, weak_fills
+from imputer_app.gui.fill_navigation import RowBar, filter_actions, next_position
 from imputer_app.gui.gap_map import GapMap
 from imputer_app.gui.legend import Legend
-from imputer_app.gui.markers import CENSORED, MISSING, TEXT
 from imputer_app.gui.read_bar import ReadBar
 from imputer_app.gui.row_filter import RowFilterModel
 from imputer_app.gui.table_model import SheetTableModel
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
+    from imputer_app.gui.sheet_facts import SheetFacts
     from imputer_app.gui.state import Session
     from imputer_app.sheets import Sheet
 
 
 #: Text as wide as the marks in front of a filled value (fill symbol, weak support).
 FILL_MARK_ROOM = "\u25c7 ? "
+#: Rows whose text sets a column's width; pixels either side of a cell's text; widest column.
+WIDTH_SAMPLE, MARGIN, MAX_WIDTH = 50, 6, 400
+
 
 class DataView(QWidget):
     """The sheet as a table with a fill layer, its legend, and the map of gaps.
@@ -52,6 +64,7 @@ class DataView(QWidget):
         self.setObjectName("dataArea")
         self.setAccessibleName("Data")
         self.session = session
+        self._facts: SheetFacts | None = None
         layout = QVBoxLayout(self)
         layout.setContentsMargins(0, 0, 0, 0)
         self.read_bar = ReadBar(self)
@@ -86,7 +99,9 @@ class DataView(QWidget):
         self.table.setTabKeyNavigation(False)
         self.table.setWordWrap(False)
         # column widths measured on 50 rows: quick on any length of sheet
-        self.table.horizontalHeader().setResizeContentsPrecision(50)
+        self.table.horizontalHeader().setResizeContentsPrecision(WIDTH_SAMPLE)
+        # every row as high as the next: the view never measures a million rows
+        self.table.verticalHeader().setSectionResizeMode(QHeaderView.ResizeMode.Fixed)
         self.table.verticalHeader().setDefaultSectionSize(self.fontMetrics().height() + 6)
         self.table.horizontalHeader().setDefaultSectionSize(96)
         self.table.verticalScrollBar().valueChanged.connect(lambda _v: self._update_viewport())
@@ -118,17 +133,34 @@ class DataView(QWidget):
             session.subscribe(self._on_session)
 
     # ------------------------------------------------------------------ content
+    def use_facts(self, facts: SheetFacts | None) -> None:
+        """Take the table arrays of the sheet about to be shown, made in the reading worker."""
+        self._facts = facts
+
     def set_sheet(self, sheet: Sheet | None) -> None:
-        """Show a new sheet (no fill layer)."""
-        self.model.set_sheet(sheet)
+        """Show a new sheet (no fill layer), from arrays made beforehand (:meth:`use_facts`) if any."""
+        facts, self._facts = self._facts, None
+        self.model.set_sheet(sheet, facts.arrays if facts is not None and facts.sheet is sheet else None)
         self.set_layer(None, "applied")
-        # widths from the sheet's own cells, once (measuring on every fill layer cost a
-        # quarter second a time on a long sheet, on the window's thread), with room for
-        # the mark a filled value carries in front ("◇ ?")
-        self.table.resizeColumnsToContents()
-        room = self.table.fontMetrics().horizontalAdvance(FILL_MARK_ROOM)
+        self._fit_columns()
+
+    def _fit_columns(self) -> None:
+        """Widths from the header and the first rows' text, with room for a fill's marks ("◇ ?").
+
+        Measured here rather than by the view, which asks the model for every role of
+        every cell it measures (a tenth of a second on the window's thread), and once
+        per sheet rather than per fill layer.
+        """
+        metrics = self.table.fontMetrics()
+        header = self.table.horizontalHeader().fontMetrics()
+        room = metrics.horizontalAdvance(FILL_MARK_ROOM) + 2 * MARGIN
+        rows = range(min(self.model.rowCount(), WIDTH_SAMPLE))
         for column in range(self.model.columnCount()):
-            self.table.setColumnWidth(column, self.table.columnWidth(column) + room)
+            title = str(self.model.headerData(column, Qt.Orientation.Horizontal) or "")
+            texts = (self.model.display_text(r, column) for r in rows)
+            widest = max((metrics.horizontalAdvance(text) for text in texts), default=0)
+            named = max((header.horizontalAdvance(line) for line in title.splitlines()), default=0)
+            self.table.setColumnWidth(column, min(MAX_WIDTH, max(widest + room, named + 3 * MARGIN)))
 
     def set_layer(self, result: FillResult | None, kind: str) -> None:
         """Draw a fill over the sheet as ``"preview"`` or ``"applied"``; redraw the map."""
@@ -164,7 +196,12 @@ class DataView(QWidget):
     def _draw_map(self) -> None:
         model = self.model
         self.gap_map.set_cells(
-            model.codes, model.fill_codes, model.layer_kind, model.column_names(), self.map_columns()
+            model.codes,
+            model.fill_codes,
+            model.layer_kind,
+            model.column_names(),
+            self.map_columns(),
+            marked=model.marked,
         )
 
     # ------------------------------------------------------------------ rows
@@ -183,8 +220,9 @@ class DataView(QWidget):
         self.row_bar.setVisible(shown)
         for key, action in self.filter_actions.items():
             action.setEnabled(shown or key == "all")  # without a fill, no row has one
+        model = self.model
         self.row_bar.show_counts(
-            self.rows.mode, self.rows.rowCount(), self.model.rowCount(), self.model.fill_codes
+            self.rows.mode, self.rows.rowCount(), model.rowCount(), int(model.weak_cells.size), model.n_filled
         )
 
     def source_index(self, index: QModelIndex) -> QModelIndex:
@@ -218,28 +256,23 @@ class DataView(QWidget):
 
     def next_gap(self) -> None:
         """Go to the next gap, unreadable or censored cell after the current one (wraps around)."""
-        codes = self.model.codes
-        shown = self.rows.shown_rows()
-        marked = (codes == MISSING) | (codes == TEXT) | (codes == CENSORED)
-        self._go_to_next(marked, shown, backwards=False)
+        self._go_to_next(self.model.gap_cells, self.rows.shown_rows() if self.rows.mode != "all" else None)
 
     def next_weak_fill(self, backwards: bool = False) -> None:
         """Go to the next (or previous) cell filled with weak support, wrapping around."""
-        if not self._go_to_next(weak_fills(self.model.fill_codes), None, backwards):
+        if not self._go_to_next(self.model.weak_cells, None, backwards):
             self.row_bar.say("No weak fills in the fill shown.")
 
     def previous_weak_fill(self) -> None:
         """Go to the previous cell filled with weak support."""
         self.next_weak_fill(backwards=True)
 
-    def _go_to_next(self, mask: np.ndarray, shown: np.ndarray | None, backwards: bool) -> bool:
-        if mask.size == 0:
-            return False
-        if shown is not None and shown.size < mask.shape[0]:
-            kept = np.zeros_like(mask)
-            kept[shown] = mask[shown]  # only the rows the filter shows
-            mask = kept
-        found = next_cell(mask, self.current_position(), backwards)
+    def _go_to_next(self, hits: np.ndarray, shown: np.ndarray | None, backwards: bool = False) -> bool:
+        """Go to the next of the cells at flat positions ``hits`` (only in the ``shown`` rows, if given)."""
+        shape = self.model.codes.shape
+        if shown is not None and hits.size:
+            hits = hits[np.isin(hits // max(shape[1], 1), shown)]  # only the rows the filter shows
+        found = next_position(hits, shape, self.current_position(), backwards)
         if found is None:
             return False
         self.select_position(*found)
@@ -253,8 +286,7 @@ class DataView(QWidget):
             self.gap_map.set_viewport(0, -1)
             return
         first, last = max(first, 0), last if last >= 0 else shown - 1
-        rows = self.rows.shown_rows()
-        self.gap_map.set_viewport(int(rows[first]), int(rows[last]))
+        self.gap_map.set_viewport(self.rows.source_row(first), self.rows.source_row(last))
 
     # ------------------------------------------------------------------- menus
     def add_table_actions(self, actions: list[QAction]) -> None:

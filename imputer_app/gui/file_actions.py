@@ -14,6 +14,7 @@ from PySide6.QtCore import QMimeData
 from PySide6.QtWidgets import QDialog, QFileDialog, QMessageBox, QWidget
 
 from imputer_app.files import same_file
+from imputer_app.gui.markers import CENSORED, MISSING, TEXT
 from imputer_app.gui.open_dialog import OpenDialog
 from imputer_app.gui.state import default_export_path
 from imputer_app.plan import PLAN_SUFFIX
@@ -159,16 +160,15 @@ def summary_text(model: SheetTableModel, session: Session) -> str:
     if codes.size == 0:
         return "No sheet open: File > Open, drop a file here, or pick a recent file."
     rows, cols = codes.shape
-    gaps = int(((codes == 1) | (codes == 3)).sum())
-    censored = int((codes == 2).sum())
+    gaps = model.code_count(MISSING, TEXT)
+    censored = model.code_count(CENSORED)
     text = f"{rows} rows × {cols} columns · {gaps} gaps ({100 * gaps / codes.size:.1f}%)"
     text += f" · {censored} beyond a limit" if censored else ""
-    fill = model.fill_codes
-    filled = int((fill > 0).sum())
+    filled = model.n_filled
     result = session.preview if session.preview is not None else session.applied
     if result is not None:
         left = len(result.unfilled) if result.unfilled is not None else 0
-        weak = int((fill == 2).sum())
+        weak = int(model.weak_cells.size)
         kind = "preview: {} proposed" if session.preview is not None else "applied: {} filled"
         text += f" · {kind.format(filled)}, {weak} weak, {left} left empty"
     return text

@@ -13,6 +13,7 @@ that outnumber the pixel columns are pooled the same way, so none drops out.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import dataclass
 
 import numpy as np
 from PySide6.QtCore import QEvent, QPoint, QRect, QSize, Qt, Signal
@@ -90,6 +91,67 @@ def bin_counts(classes: np.ndarray, n_bins: int) -> tuple[np.ndarray, np.ndarray
     return counts, starts
 
 
+@dataclass(frozen=True)
+class MarkedCells:
+    """The marked cells of a table (class 1..5, see :func:`cell_classes`); all others are measured.
+
+    Kept as lists of positions, so that binning and picking columns cost in proportion to
+    the marked cells, not to the rows of a long sheet.
+
+    Attributes
+    ----------
+    n_rows : int
+        Rows of the table.
+    rows, columns : ndarray of intp
+        Table positions of the marked cells, in row order.
+    classes : ndarray of int8
+        The class of each.
+    """
+
+    n_rows: int
+    rows: np.ndarray
+    columns: np.ndarray
+    classes: np.ndarray
+
+    def as_kind(self, layer_kind: str) -> MarkedCells:
+        """The same cells with fills drawn as ``layer_kind`` ("applied": filled, else preview)."""
+        fills, other = (2, 1) if layer_kind == "applied" else (1, 2)
+        if not np.any(self.classes == fills):
+            return self
+        classes = np.where(self.classes == fills, other, self.classes).astype(np.int8)
+        return MarkedCells(self.n_rows, self.rows, self.columns, classes)
+
+
+def marked_cells(codes: np.ndarray, fill: np.ndarray, layer_kind: str) -> MarkedCells:
+    """The marked cells of :func:`cell_classes` as position lists (O(rows); off the window's thread)."""
+    classes = cell_classes(codes, fill, layer_kind)
+    rows, columns = np.nonzero(classes)
+    return MarkedCells(codes.shape[0], rows, columns, classes[rows, columns])
+
+
+def bin_marked(marked: MarkedCells, columns: Sequence[int], n_bins: int) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`bin_counts` of the drawn ``columns`` (table positions), from the marked cells alone.
+
+    Returns the same ``counts`` and ``starts``: the cells of each bin that are not marked
+    are counted as measured.
+    """
+    n_rows, n_cols = marked.n_rows, len(columns)
+    starts = bin_starts(n_rows, max(1, n_bins))
+    counts = np.zeros((starts.size, n_cols, _N_CLASSES), dtype=np.int32)
+    if n_rows == 0 or n_cols == 0:
+        return counts, starts
+    drawn = np.full(max(int(marked.columns.max(initial=-1)), max(columns)) + 1, -1, dtype=np.intp)
+    drawn[np.asarray(columns, dtype=np.intp)] = np.arange(n_cols)
+    where = drawn[marked.columns]
+    keep = where >= 0
+    bins = np.searchsorted(starts, marked.rows[keep], side="right") - 1
+    keys = (bins * n_cols + where[keep]) * _N_CLASSES + marked.classes[keep]
+    counts += np.bincount(keys, minlength=counts.size).reshape(counts.shape).astype(np.int32)
+    sizes = np.diff(np.append(starts, n_rows))
+    counts[:, :, 0] = sizes[:, None] - counts[:, :, 1:].sum(axis=2)
+    return counts, starts
+
+
 def shade(counts: np.ndarray) -> np.ndarray:
     """Strength (0-1) of each bin's marking: 0 all measured, else at least :data:`SHADE_FLOOR`.
 
@@ -148,7 +210,7 @@ class GapMap(QWidget):
         self.setSizePolicy(QSizePolicy.Policy.Preferred, QSizePolicy.Policy.Expanding)
         self.setFocusPolicy(Qt.FocusPolicy.StrongFocus)
         self.setMouseTracking(True)
-        self._all = np.zeros((0, 0), dtype=np.int8)  # classes of every row, drawn columns only
+        self._marked = MarkedCells(0, *(np.zeros(0, dtype=np.intp),) * 2, np.zeros(0, dtype=np.int8))
         self._counts = np.zeros((0, 0, _N_CLASSES), dtype=np.int32)
         self._starts = np.zeros(0, dtype=np.intp)
         self._rows = 0
@@ -170,6 +232,7 @@ class GapMap(QWidget):
         layer_kind: str,
         names: list[str],
         columns: Sequence[int] | None = None,
+        marked: MarkedCells | None = None,
     ) -> None:
         """Redraw from the table's cell codes and fill layer.
 
@@ -184,15 +247,20 @@ class GapMap(QWidget):
         columns : sequence of int, optional
             Table positions of the columns to draw (the similarity and fill columns);
             all columns when omitted.
+        marked : MarkedCells, optional
+            The marked cells of every column, made beforehand (off the window's thread);
+            without them they are found here, in time proportional to the rows.
         """
         self._rows = codes.shape[0]
         self._columns = list(range(len(names))) if columns is None else [int(c) for c in columns]
         self._names = [names[c] for c in self._columns]
-        picked = np.asarray(self._columns, dtype=np.intp)
-        self._all = cell_classes(codes[:, picked], fill[:, picked], layer_kind)
+        if marked is None or marked.n_rows != self._rows:
+            marked = marked_cells(codes, fill, layer_kind)
+        self._marked = marked.as_kind(layer_kind)
         self._cursor = (min(self._cursor[0], max(self._rows - 1, 0)), 0)
         self._rebin()
-        open_gaps = int(np.count_nonzero(self._all >= min(GAP_CLASSES)))
+        drawn = np.isin(self._marked.columns, np.asarray(self._columns, dtype=np.intp))
+        open_gaps = int(np.count_nonzero(drawn & (self._marked.classes >= min(GAP_CLASSES))))
         self.setAccessibleDescription(
             f"{self._rows} rows by {len(self._names)} columns; {open_gaps} gaps not filled"
             if self._rows
@@ -208,7 +276,8 @@ class GapMap(QWidget):
 
     def _rebin(self) -> None:
         """Bin the rows to the plot's pixel rows and rebuild the image."""
-        self._counts, self._starts = bin_counts(self._all, max(1, self._plot_rect().height()))
+        n_bins = max(1, self._plot_rect().height())
+        self._counts, self._starts = bin_marked(self._marked, self._columns, n_bins)
         self._build_image()
 
     def _build_image(self) -> None:

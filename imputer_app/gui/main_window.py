@@ -35,6 +35,7 @@ from imputer_app.gui.preview_follow import PreviewFollower
 from imputer_app.gui.read_bar import read_job, worksheets
 from imputer_app.gui.recovery_panel import RecoveryPanel
 from imputer_app.gui.settings import AppSettings
+from imputer_app.gui.sheet_facts import SheetFacts, with_layer, with_sheet_facts
 from imputer_app.gui.start_view import StartView
 from imputer_app.gui.state import Session, export_fill
 from imputer_app.gui.status_text import fill_remarks, layer_note, plan_source, state_line
@@ -45,6 +46,7 @@ from imputer_app.plan import FillPlan
 
 if TYPE_CHECKING:
     from imputer_app.engine import FillResult
+    from imputer_app.gui.table_arrays import LayerArrays
     from imputer_app.sheets import Sheet
     from imputer_app.work import CancelFlag, Progress
 
@@ -209,19 +211,20 @@ class MainWindow(QMainWindow):
         options = dict(options or {})
         sheet = options.pop("_sheet", None)
         if sheet is not None:
-            self._show_sheet((sheet, worksheets(path)))
+            self._show_sheet((sheet, worksheets(path), None))
             return
 
-        def done(payload: tuple[Sheet | None, list[str]]) -> None:
-            sheet, names = payload
+        def done(payload: tuple[Sheet | None, list[str], SheetFacts | None]) -> None:
+            sheet, names, facts = payload
             if sheet is None:
                 chosen = fa.options_dialog(self, path, names)
                 if chosen is not None:
                     self.open_path(path, chosen, confirmed=True)
                 return
-            self._show_sheet((sheet, names))
+            self._show_sheet((sheet, names, facts))
 
-        self.run_job(f"Reading {path.name}…", read_job(path, options, guess), done)
+        # the sheet's column facts and table arrays are made in the worker too
+        self.run_job(f"Reading {path.name}…", with_sheet_facts(read_job(path, options, guess)), done)
 
     def open_dialog(self, with_options: bool = False) -> None:
         """File > Open (or Open with options): choose a sheet."""
@@ -235,8 +238,10 @@ class MainWindow(QMainWindow):
             return
         self.open_path(path, options, confirmed=True)
 
-    def _show_sheet(self, payload: tuple[Sheet, list[str]]) -> None:
-        sheet, names = payload
+    def _show_sheet(self, payload: tuple[Sheet, list[str], SheetFacts | None]) -> None:
+        sheet, names, facts = payload
+        self.setup.use_facts(facts)
+        self.data.use_facts(facts)
         self._last_plan = self.settings.sheet_plan(sheet.source.path)
         self.session.load(sheet)  # the panels show it and the setup writes the plan for its columns
         self.data.read_bar.show_sheet(sheet, names)
@@ -290,7 +295,10 @@ class MainWindow(QMainWindow):
         plan = self.session.plan
         job = self.session.preview_job(plan)  # re-combines the last search's lists when it can
 
-        def done(result: FillResult) -> None:
+        def done(payload: tuple[FillResult, LayerArrays | None]) -> None:
+            result, layer = payload
+            if layer is not None:
+                self.table_model.keep_layer(result, layer)
             if self.session.path is not None:
                 self.settings.set_sheet_plan(self.session.path, plan)  # offered when the file opens again
                 self._last_plan = plan
@@ -298,7 +306,8 @@ class MainWindow(QMainWindow):
                 self.session.set_preview(result)  # the status bar says so (see _on_session)
                 self.preview_ready.emit()
 
-        self.run_job("Computing the fill preview…", job, done)
+        # the table's layer arrays are made in the worker too
+        self.run_job("Computing the fill preview…", with_layer(job, self.table_model.arrays), done)
 
     def apply_fill(self) -> None:
         """Write the preview into the working table."""

@@ -24,6 +24,8 @@ ROW_FILTERS: dict[str, str] = {
     "fills": "Only rows with fills",
     "weak": "Only rows with weak fills",
 }
+#: What every shown cell allows (made once: asked for every painted cell).
+_CELL_FLAGS = Qt.ItemFlag.ItemIsSelectable | Qt.ItemFlag.ItemIsEnabled | Qt.ItemFlag.ItemNeverHasChildren
 #: Said in every column header's tooltip: the header's menu sets the column's role.
 HEADER_HINT = "Right-click to make it a similarity, fill or carried column."
 
@@ -76,6 +78,10 @@ class RowFilterModel(QAbstractProxyModel):
         """Sheet rows shown, in order (a copy)."""
         return self._rows.copy()
 
+    def source_row(self, row: int) -> int:
+        """The sheet row shown at position ``row``."""
+        return int(self._rows[row])
+
     def proxy_row(self, source_row: int) -> int:
         """The shown position of a sheet row, or -1 when the filter hides it."""
         pos = int(np.searchsorted(self._rows, source_row))
@@ -127,6 +133,17 @@ class RowFilterModel(QAbstractProxyModel):
         if not proxy_index.isValid() or proxy_index.row() >= self._rows.size:
             return QModelIndex()
         return self._source.index(int(self._rows[proxy_index.row()]), proxy_index.column())
+
+    def data(self, index: Index, role: int = Qt.ItemDataRole.DisplayRole) -> Any:
+        """The sheet model's data of a shown cell, asked by position (no index is made per call)."""
+        row = index.row()
+        if not index.isValid() or row >= self._rows.size:
+            return None
+        return self._source.cell_data(int(self._rows[row]), index.column(), role)
+
+    def flags(self, index: Index) -> Qt.ItemFlag:
+        """Every shown cell can be selected (the sheet model's flags, without asking it per cell)."""
+        return _CELL_FLAGS if index.isValid() else Qt.ItemFlag.NoItemFlags
 
     def mapFromSource(self, source_index: Index) -> QModelIndex:
         """The shown index of a sheet cell (invalid when the filter hides its row)."""

@@ -80,9 +80,7 @@ def fill_remarks(session: Session, reading: str) -> str:
     return "\n".join(parts)
 
 
-def plan_source(
-    plan: FillPlan, last: FillPlan | None, columns: list[str]
-) -> tuple[str, FillPlan | None]:
+def plan_source(plan: FillPlan, last: FillPlan | None, columns: list[str]) -> tuple[str, FillPlan | None]:
     """Say where the sheet's settings come from, and which plan to offer instead (or None).
 
     ``last`` is the plan of the file's last fill; it is offered only when it fits the

@@ -8,15 +8,18 @@ every marked cell shows a symbol and a colour (see :mod:`imputer_app.gui.markers
 
 from __future__ import annotations
 
+import functools
 import math
+import weakref
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
 from PySide6.QtCore import QObject, Qt
-from PySide6.QtGui import QFont
+from PySide6.QtGui import QColor, QFont
 
 from imputer_app.gui.flat_model import FlatTableModel, Index
+from imputer_app.gui.gap_map import MarkedCells
 from imputer_app.gui.markers import (
     CENSORED,
     CODE_MARKERS,
@@ -26,11 +29,11 @@ from imputer_app.gui.markers import (
     MISSING,
     NO_FILL,
     OBSERVED,
-    STATE_CODES,
     TEXT,
     WEAK_SYMBOL,
     palette_is_dark,
 )
+from imputer_app.gui.table_arrays import MAX_DECIMALS, LayerArrays, SheetArrays, layer_arrays, sheet_arrays
 from imputer_app.plan_rounding import stand_in_decimals
 from imputer_app.words import STATE_WORDS
 
@@ -45,7 +48,23 @@ _STATE_WORDS = {
     TEXT: "text in a number column",
     FORMULA: STATE_WORDS["formula_error"],
 }
-_MAX_DECIMALS = 6
+_MAX_DECIMALS = MAX_DECIMALS
+# Roles as plain numbers: compared for every painted cell.
+_DISPLAY, _BACKGROUND, _FOREGROUND, _TOOLTIP, _ACCESSIBLE, _ALIGNMENT, _FONT = (
+    int(r)
+    for r in (
+        Qt.ItemDataRole.DisplayRole,
+        Qt.ItemDataRole.BackgroundRole,
+        Qt.ItemDataRole.ForegroundRole,
+        Qt.ItemDataRole.ToolTipRole,
+        Qt.ItemDataRole.AccessibleTextRole,
+        Qt.ItemDataRole.TextAlignmentRole,
+        Qt.ItemDataRole.FontRole,
+    )
+)
+_SERVED = frozenset((_DISPLAY, _BACKGROUND, _FOREGROUND, _TOOLTIP, _ACCESSIBLE, _ALIGNMENT, _FONT))
+_ALIGN_NUMBER = int(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
+_ALIGN_TEXT = int(Qt.AlignmentFlag.AlignLeft | Qt.AlignmentFlag.AlignVCenter)
 
 
 class SheetTableModel(FlatTableModel):
@@ -58,6 +77,9 @@ class SheetTableModel(FlatTableModel):
     def __init__(self, parent: QObject | None = None) -> None:
         super().__init__(parent)
         self._dark = palette_is_dark()
+        self._colours: dict[tuple[str, bool], tuple[QColor, QColor]] = {}
+        #: Layer arrays made in the fill's worker, by fill (identity; dropped with the fill).
+        self._prepared: list[tuple[weakref.ref[FillResult], LayerArrays]] = []
         self._clear()
 
     # ------------------------------------------------------------------ loading
@@ -66,7 +88,7 @@ class SheetTableModel(FlatTableModel):
         self._units: list[str] = []
         self._kinds: list[str] = []
         self._labels: np.ndarray = np.empty(0, dtype=object)
-        self._label_pos: dict[Any, int] | None = None
+        self._label_index: pd.Index | None = None
         self._base_values: list[np.ndarray] = []
         self._values: list[np.ndarray] = []
         self._decimals: list[int] = []
@@ -76,32 +98,51 @@ class SheetTableModel(FlatTableModel):
         self._notes: dict[tuple[int, int], str] = {}
         self._layer: FillResult | None = None
         self._layer_kind = ""
-        self._log_pos: dict[tuple[int, int], int] | None = None
+        self._layer_arrays: LayerArrays | None = None
+        self._arrays: SheetArrays | None = None
+        self._marked: MarkedCells | None = None
 
-    def set_sheet(self, sheet: Sheet | None) -> None:
-        """Show ``sheet`` as read (no fill layer)."""
+    def set_sheet(self, sheet: Sheet | None, arrays: SheetArrays | None = None) -> None:
+        """Show ``sheet`` as read (no fill layer).
+
+        ``arrays`` are the sheet's :func:`~imputer_app.gui.table_arrays.sheet_arrays`
+        made beforehand (off the window's thread); without them they are made here.
+        """
         self.beginResetModel()
         self._clear()
         if sheet is not None:
-            self._load(sheet)
+            self._load(arrays if arrays is not None else sheet_arrays(sheet))
         self.endResetModel()
 
-    def _load(self, sheet: Sheet) -> None:
-        frame = sheet.frame
-        self._names = [str(c) for c in frame.columns]
-        info = {c.name: c for c in sheet.columns}
-        self._kinds = [info[n].kind if n in info else _kind_of(frame[n]) for n in self._names]
-        self._units = [(info[n].unit or "") if n in info else "" for n in self._names]
-        self._labels = frame.index.to_numpy()
-        self._base_values = [
-            _column_array(frame[n], kind) for n, kind in zip(self._names, self._kinds, strict=True)
-        ]
+    def _load(self, arrays: SheetArrays) -> None:
+        self._arrays = arrays
+        self._names = list(arrays.names)
+        self._kinds = list(arrays.kinds)
+        self._units = list(arrays.units)
+        self._labels = arrays.labels
+        self._base_values = list(arrays.values)
         self._values = list(self._base_values)
-        self._decimals = [_decimals_of(v) if v.dtype.kind == "f" else 0 for v in self._base_values]
+        self._decimals = list(arrays.decimals)
         self._fill_decimals = [d + 1 for d in self._decimals]
-        self._codes = state_codes(sheet.states, self._names)
+        self._codes = arrays.codes
         self._fill = np.zeros(self._codes.shape, dtype=np.int8)
-        self._notes = _note_texts(sheet, frame.index, self._names)
+        self._notes = arrays.notes
+        self._marked = arrays.marked
+
+    def keep_layer(self, result: FillResult, arrays: LayerArrays) -> None:
+        """Keep the :func:`~imputer_app.gui.table_arrays.layer_arrays` of ``result`` for :meth:`set_layer`.
+
+        They are kept while ``result`` lives (a preview, an applied fill, one to redo).
+        """
+        try:
+            ref = weakref.ref(result)
+        except TypeError:  # a stand-in result without weak references: nothing kept
+            return
+        alive = [(r, a) for r, a in self._prepared if r() is not None and r() is not result]
+        self._prepared = [*alive, (ref, arrays)]
+
+    def _kept(self, result: FillResult) -> LayerArrays | None:
+        return next((a for r, a in self._prepared if r() is result), None)
 
     def set_layer(self, result: FillResult | None, kind: str = "preview") -> None:
         """Draw ``result`` over the sheet as a ``"preview"`` or the ``"applied"`` fill."""
@@ -109,15 +150,21 @@ class SheetTableModel(FlatTableModel):
             raise ValueError(f"layer kind must be 'preview' or 'applied'; got {kind!r}")
         self._layer = result
         self._layer_kind = kind if result is not None else ""
-        self._log_pos = None
-        if result is None or not self._names:
+        self._layer_arrays = None
+        if result is None or self._arrays is None:
             self._values = list(self._base_values)
             self._fill = np.zeros(self._codes.shape, dtype=np.int8)
             self._fill_decimals = [d + 1 for d in self._decimals]
+            self._marked = self._arrays.marked if self._arrays is not None else None
         else:
-            frame = result.frame
-            self._values = [_column_array(frame[n], k) for n, k in zip(self._names, self._kinds, strict=True)]
-            self._fill = _fill_codes(result, self._names)
+            arrays = self._kept(result)
+            if arrays is None:  # not made in the fill's worker: made now
+                arrays = layer_arrays(result, self._arrays)
+                self.keep_layer(result, arrays)
+            self._layer_arrays = arrays
+            self._values = list(arrays.values)
+            self._fill = arrays.fill
+            self._marked = arrays.marked.as_kind(kind)
             # a rounded column shows its fills at the decimals they were rounded to; one
             # computed as is shows one decimal more than its measured values
             rounded = dict(getattr(result, "decimals", {}) or {})
@@ -149,6 +196,39 @@ class SheetTableModel(FlatTableModel):
         return self._layer_kind
 
     @property
+    def arrays(self) -> SheetArrays | None:
+        """The sheet's arrays (None without a sheet): what a fill's worker needs for its layer."""
+        return self._arrays
+
+    @property
+    def gap_cells(self) -> np.ndarray:
+        """Flat positions (``row * n_columns + column``, ascending) of gaps, unreadable and censored cells."""
+        return self._arrays.gap_cells if self._arrays is not None else np.zeros(0, dtype=np.intp)
+
+    @property
+    def weak_cells(self) -> np.ndarray:
+        """Flat positions (ascending) of the cells the layer filled with weak support."""
+        arrays = self._layer_arrays
+        return arrays.weak_cells if arrays is not None else np.zeros(0, dtype=np.intp)
+
+    @property
+    def n_filled(self) -> int:
+        """Cells the layer filled."""
+        return self._layer_arrays.n_filled if self._layer_arrays is not None else 0
+
+    def code_count(self, *codes: int) -> int:
+        """Cells with any of these cell ``codes`` (counted once per sheet, off the window's thread)."""
+        if self._arrays is None:
+            return 0
+        counts = self._arrays.code_counts
+        return int(sum(counts[c] for c in codes if c < counts.size))
+
+    @property
+    def marked(self) -> MarkedCells | None:
+        """The cells the gap map marks, with the fill layer (None without a sheet)."""
+        return self._marked
+
+    @property
     def codes(self) -> np.ndarray:
         """int8 array (n_rows, n_columns) of cell codes (see :mod:`markers`)."""
         return self._codes
@@ -169,14 +249,22 @@ class SheetTableModel(FlatTableModel):
 
     def find(self, label: Any, column: str) -> tuple[int, int] | None:
         """Return ``(row, column)`` positions of a row label and column name, or None."""
-        if self._label_pos is None:
-            self._label_pos = {self.row_label(i): i for i in range(len(self._labels))}
-        row = self._label_pos.get(label)
-        if row is None and isinstance(label, str) and label.strip().lstrip("-").isdigit():
-            row = self._label_pos.get(int(label))
-        if row is None or column not in self._names:
+        if column not in self._names:
             return None
-        return row, self._names.index(column)
+        row = self._row_of(label)
+        if row is None and isinstance(label, str) and label.strip().lstrip("-").isdigit():
+            row = self._row_of(int(label))
+        return None if row is None else (row, self._names.index(column))
+
+    def _row_of(self, label: Any) -> int | None:
+        if self._label_index is None:  # built once per sheet, in C (a dict of a million labels is not)
+            self._label_index = pd.Index(self._labels)
+        try:
+            found = self._label_index.get_indexer(pd.Index([label]))
+        except (TypeError, ValueError, pd.errors.InvalidIndexError):  # labels repeated: the last one
+            same = np.flatnonzero(self._labels == label)
+            return int(same[-1]) if same.size else None
+        return int(found[0]) if found[0] >= 0 else None
 
     def is_filled(self, row: int, column: int) -> bool:
         """True when the layer wrote a value into this cell."""
@@ -200,27 +288,34 @@ class SheetTableModel(FlatTableModel):
         """Return the cell's text, colours, font, tooltip or accessible text."""
         if not index.isValid():
             return None
-        row, col = index.row(), index.column()
-        if role == Qt.ItemDataRole.DisplayRole:
+        return self.cell_data(index.row(), index.column(), role)
+
+    def cell_data(self, row: int, col: int, role: int = Qt.ItemDataRole.DisplayRole) -> Any:
+        """:meth:`data` of a cell by position (the row filter calls it without making an index).
+
+        Painting asks seven roles of every visible cell: the roles are compared as plain
+        numbers and the colours and the italic font made once, to keep each call short.
+        """
+        if role not in _SERVED:
+            return None
+        if role == _DISPLAY:
             return self.display_text(row, col)
-        if role in (Qt.ItemDataRole.BackgroundRole, Qt.ItemDataRole.ForegroundRole):
+        if role in (_BACKGROUND, _FOREGROUND):
             key = self.marker_key(row, col)
             if key is None:
                 return None
-            bg, fg = MARKERS[key].colours(self._dark)
-            return bg if role == Qt.ItemDataRole.BackgroundRole else fg
-        if role == Qt.ItemDataRole.ToolTipRole:
+            colours = self._colours.get((key, self._dark))
+            if colours is None:
+                colours = self._colours[(key, self._dark)] = MARKERS[key].colours(self._dark)
+            return colours[0] if role == _BACKGROUND else colours[1]
+        if role == _TOOLTIP:
             return self.describe(row, col)
-        if role == Qt.ItemDataRole.AccessibleTextRole:
+        if role == _ACCESSIBLE:
             return f"row {self.row_label(row)}, {self._names[col]}: {self.describe(row, col, short=True)}"
-        if role == Qt.ItemDataRole.TextAlignmentRole:
-            numeric = self._values[col].dtype.kind == "f"
-            horizontal = Qt.AlignmentFlag.AlignRight if numeric else Qt.AlignmentFlag.AlignLeft
-            return int(horizontal | Qt.AlignmentFlag.AlignVCenter)
-        if role == Qt.ItemDataRole.FontRole and self._layer_kind == "preview" and self.is_filled(row, col):
-            font = QFont()
-            font.setItalic(True)
-            return font
+        if role == _ALIGNMENT:
+            return _ALIGN_NUMBER if self._values[col].dtype.kind == "f" else _ALIGN_TEXT
+        if self._layer_kind == "preview" and self.is_filled(row, col):  # the font
+            return _italic()
         return None
 
     def headerData(
@@ -323,91 +418,19 @@ class SheetTableModel(FlatTableModel):
         return text
 
     def _log_entry(self, row: int, col: int) -> dict[str, Any] | None:
-        layer = self._layer
-        if layer is None or layer.log is None or len(layer.log) == 0:
+        layer, arrays = self._layer, self._layer_arrays
+        if layer is None or arrays is None or layer.log is None or len(layer.log) == 0:
             return None
-        if self._log_pos is None:
-            log = layer.log
-            rows = _label_positions(pd.Index(self._labels), log["row"])
-            cols = pd.Index(self._names).get_indexer(pd.Index(log["column"]))
-            self._log_pos = {(int(r), int(c)): i for i, (r, c) in enumerate(zip(rows, cols, strict=True))}
-        i = self._log_pos.get((row, col))
-        return None if i is None else dict(layer.log.iloc[i])
+        found = np.flatnonzero(arrays.log_cells == row * len(self._names) + col)  # one pass, no dict
+        return dict(layer.log.iloc[int(found[0])]) if found.size else None
 
 
 # ------------------------------------------------------------------- helpers
-def state_codes(states: pd.DataFrame, names: list[str]) -> np.ndarray:
-    """Return int8 cell codes of shape (n_rows, n_columns) from a sheet's states."""
-    codes = np.zeros((len(states), len(names)), dtype=np.int8)
-    for j, name in enumerate(names):
-        cat = pd.Categorical(states[name]) if name in states else pd.Categorical([])
-        if len(cat) == 0:
-            continue
-        lut = np.array(
-            [STATE_CODES.get(str(c), OBSERVED) for c in cat.categories] + [OBSERVED], dtype=np.int8
-        )
-        codes[:, j] = lut[cat.codes]  # code -1 (NaN state) picks the trailing OBSERVED
-    return codes
-
-
-def _fill_codes(result: FillResult, names: list[str]) -> np.ndarray:
-    filled = result.filled.reindex(columns=names, fill_value=False).to_numpy(dtype=bool)
-    fill = filled.astype(np.int8)
-    log = result.log
-    if log is not None and len(log) and "support" in log:
-        weak = log[log["support"] == "weak"]
-        rows = _label_positions(result.filled.index, weak["row"])
-        cols = pd.Index(names).get_indexer(pd.Index(weak["column"]))
-        ok = (rows >= 0) & (cols >= 0)
-        fill[rows[ok], cols[ok]] = np.where(filled[rows[ok], cols[ok]], FILL_WEAK, fill[rows[ok], cols[ok]])
-    return fill
-
-
-def _label_positions(index: pd.Index, labels: Any) -> np.ndarray:
-    positions = index.get_indexer(pd.Index(list(labels)))
-    return np.asarray(positions, dtype=np.intp)
-
-
-def _note_texts(sheet: Sheet, index: pd.Index, names: list[str]) -> dict[tuple[int, int], str]:
-    notes = getattr(sheet, "cell_notes", None)
-    if notes is None or len(notes) == 0:
-        return {}
-    rows = _label_positions(index, notes["row"])
-    cols = pd.Index(names).get_indexer(pd.Index(notes["column"]))
-    texts = notes["text"].astype(object).to_numpy()
-    return {
-        (int(r), int(c)): str(t)
-        for r, c, t in zip(rows, cols, texts, strict=True)
-        if r >= 0 and c >= 0 and isinstance(t, str) and t
-    }
-
-
-def _kind_of(series: pd.Series) -> str:
-    return "number" if pd.api.types.is_numeric_dtype(series) else "category"
-
-
-def _column_array(series: pd.Series, kind: str) -> np.ndarray:
-    """One column as a numpy array: float for numbers, formatted text for dates, objects else."""
-    if pd.api.types.is_bool_dtype(series):
-        return series.astype(object).to_numpy()
-    if pd.api.types.is_numeric_dtype(series):
-        return series.to_numpy(dtype=float, na_value=np.nan)
-    if pd.api.types.is_datetime64_any_dtype(series):
-        stamps = series.to_numpy(dtype="datetime64[ns]")
-        midnight = bool(np.all(np.isnat(stamps) | (stamps == stamps.astype("datetime64[D]"))))
-        text = np.datetime_as_string(stamps, unit="D" if midnight else "m")
-        return np.where(np.isnat(stamps), "", text).astype(object)
-    return series.astype(object).to_numpy()
-
-
-def _decimals_of(values: np.ndarray) -> int:
-    """Most decimals used by the column's measured numbers (checked on a sample, at most 6)."""
-    sample = values[np.isfinite(values)][:2000]
-    for d in range(_MAX_DECIMALS + 1):
-        scaled = sample * 10.0**d
-        if np.all(np.abs(scaled - np.round(scaled)) < 1e-6 * np.maximum(1.0, np.abs(scaled))):
-            return d
-    return _MAX_DECIMALS
+@functools.cache
+def _italic() -> QFont:
+    font = QFont()
+    font.setItalic(True)
+    return font
 
 
 def _format_number(value: float, decimals: int, full: bool = False) -> str:

@@ -146,5 +146,3 @@ def window(qtbot, boxes, demo):
     yield w
     w.session.mark_exported()
     w.close()
-
-

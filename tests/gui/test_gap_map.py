@@ -13,7 +13,16 @@ import pandas as pd
 import pytest
 from PySide6.QtCore import QPoint, Qt
 
-from imputer_app.gui.gap_map import SHADE_FLOOR, GapMap, bin_counts, cell_classes, shade, shaded_rgb
+from imputer_app.gui.gap_map import (
+    SHADE_FLOOR,
+    GapMap,
+    bin_counts,
+    bin_marked,
+    cell_classes,
+    marked_cells,
+    shade,
+    shaded_rgb,
+)
 from imputer_app.gui.markers import CENSORED, FILL, MISSING, NO_FILL, OBSERVED, TEXT
 
 
@@ -226,3 +235,19 @@ def test_more_columns_than_pixels_are_pooled_and_no_gap_drops_out(qtbot):
     measured = image.pixelColor(0, 0)
     marked = [(x, y) for x in range(40) for y in range(image.height()) if image.pixelColor(x, y) != measured]
     assert marked == [(39, 10)]  # the last pixel column holds column 59; row 10 is its own pixel row
+
+
+@pytest.mark.parametrize(
+    ("n_rows", "n_bins", "columns"), [(53, 7, [0, 1, 2, 3]), (53, 80, [3, 1]), (10_007, 400, [2])]
+)
+def test_binning_the_marked_cells_alone_counts_as_binning_every_cell(n_rows, n_bins, columns):
+    rng = np.random.default_rng(5)
+    codes = rng.choice([OBSERVED, OBSERVED, OBSERVED, MISSING, TEXT, CENSORED], size=(n_rows, 4)).astype(
+        np.int8
+    )
+    fill = np.where((codes == MISSING) & (rng.random(codes.shape) < 0.5), FILL, NO_FILL).astype(np.int8)
+    for kind in ("preview", "applied"):
+        expected, starts = bin_counts(cell_classes(codes[:, columns], fill[:, columns], kind), n_bins)
+        # marks made once as a preview, drawn as either kind
+        got, got_starts = bin_marked(marked_cells(codes, fill, "preview").as_kind(kind), columns, n_bins)
+        assert np.array_equal(got_starts, starts) and np.array_equal(got, expected)

@@ -221,7 +221,10 @@ def test_coverage_chart_draws_the_sheet_rows_beside_the_level(qtbot):
     session.load(make_sheet(frame, {}))
     result = SimpleNamespace(coverage=coverage_table(), plan=FillPlan(interval_level=0.9))
     session.set_preview(result)
-    assert not view.canvas.isHidden()
+    assert not view.canvas.isHidden() and not view.figure.axes  # hidden: drawn once shown
+    panel.show()
+    panel.results.views.setCurrentWidget(view)
+    qtbot.waitUntil(lambda: bool(view.figure.axes), timeout=3000)
     observed = next(line for line in view.figure.axes[0].lines if line.get_gid() == "observed")
     assert list(observed.get_xdata()) == [0.8, 0.9] and list(observed.get_ydata()) == [0.78, 0.87]
     assert view.figure.axes[0].get_title() == "Coverage (120 cells)"
