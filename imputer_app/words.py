@@ -118,7 +118,7 @@ CHOICE_WORDS: dict[str, dict[str, ChoiceWords]] = {
     },
     "rounding": {
         "measured": ChoiceWords(
-            "measured precision",
+            "as measured",
             "Each filled number gets as many decimals as the column's measured values show "
             "(a 2-decimal pH gets 6.42); a column's own decimals setting wins.",
         ),

@@ -144,12 +144,13 @@ class DataView(QWidget):
         self.set_layer(None, "applied")
         self._fit_columns()
 
-    def _fit_columns(self) -> None:
+    def _fit_columns(self, grow_only: bool = False) -> None:
         """Widths from the header and the first rows' text, with room for a fill's marks ("◇ ?").
 
         Measured here rather than by the view, which asks the model for every role of
-        every cell it measures (a tenth of a second on the window's thread), and once
-        per sheet rather than per fill layer.
+        every cell it measures (a tenth of a second on the window's thread), on the same
+        few rows for a sheet and for each fill layer; ``grow_only`` (a fill layer) only
+        widens, so that a stand-in shown beside its entry ("▼ 0.012 (<0.02)") is not cut.
         """
         metrics = self.table.fontMetrics()
         header = self.table.horizontalHeader().fontMetrics()
@@ -160,11 +161,15 @@ class DataView(QWidget):
             texts = (self.model.display_text(r, column) for r in rows)
             widest = max((metrics.horizontalAdvance(text) for text in texts), default=0)
             named = max((header.horizontalAdvance(line) for line in title.splitlines()), default=0)
-            self.table.setColumnWidth(column, min(MAX_WIDTH, max(widest + room, named + 3 * MARGIN)))
+            width = min(MAX_WIDTH, max(widest + room, named + 3 * MARGIN))
+            if not grow_only or width > self.table.columnWidth(column):
+                self.table.setColumnWidth(column, width)
 
     def set_layer(self, result: FillResult | None, kind: str) -> None:
         """Draw a fill over the sheet as ``"preview"`` or ``"applied"``; redraw the map."""
         self.model.set_layer(result, kind)
+        if result is not None:
+            self._fit_columns(grow_only=True)
         if result is None and self.rows.mode != "all":
             self.set_row_filter("all")  # no fill: a filter on fills would hide every row
         self._draw_map()

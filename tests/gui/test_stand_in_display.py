@@ -81,3 +81,25 @@ def test_a_censored_cell_filled_by_knn_shows_its_two_significant_digits(qapp, tm
     model.set_sheet(sheet)
     model.set_layer(result, "preview")
     assert model.display_text(2, 2).endswith(f" {value:.3f}")
+
+
+def test_a_fill_layer_widens_a_column_to_show_its_stand_ins_whole(qtbot, tmp_path) -> None:
+    """Widths are measured on the sheet, then grown (never shrunk) when a fill is drawn."""
+    from imputer_app.gui.data_view import DataView
+    from imputer_app.gui.state import Session
+
+    sheet = read_sheet(_river(tmp_path / "river.csv"))
+    result = impute(sheet, FillPlan(k=3, censored="limit_sqrt2", interval_level=None))
+    session = Session()
+    view = DataView(session=session)
+    qtbot.addWidget(view)
+    session.load(sheet)
+    view.set_sheet(sheet)
+    col = list(sheet.frame.columns).index("Nitrate")
+    widths = [view.table.columnWidth(c) for c in range(len(sheet.frame.columns))]
+    view.set_layer(result, "preview")
+    text = view.model.display_text(3, col)
+    assert text.endswith("0.071 (<0.10)")
+    assert view.table.columnWidth(col) >= view.table.fontMetrics().horizontalAdvance(text)
+    assert view.table.columnWidth(col) > widths[col]
+    assert all(view.table.columnWidth(c) >= w for c, w in enumerate(widths))
