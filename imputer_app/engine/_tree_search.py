@@ -236,9 +236,10 @@ class TreeSearch:
         The share of donors is the least, over the fill columns the pattern asks for, among
         the candidates searched for it; when every candidate is a donor no spare place is kept.
         """
-        rows = sum(len(r) for _, r in self._candidates(*key))
-        gives = sum((self._gives[key[0], c] for c, _ in self._candidates(*key)), np.zeros(1, np.intp))
-        share = float(gives[self._asks[key]].min()) / max(rows, 1) if rows else 1.0
+        searched = list(self._candidates(*key))
+        rows = sum(len(r) for _, r in searched)
+        gives = sum((self._gives[key[0], c] for c, _ in searched), np.zeros(1, np.intp))
+        share = float(gives[self._asks[key]].min()) / rows if rows else 1.0
         spare = 0 if share >= 1.0 else 2
         return math.ceil((self.keep + 1) / max(share, DENSE_SHARE)) + spare
 
