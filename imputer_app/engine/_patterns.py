@@ -26,11 +26,12 @@ MAX_COLUMNS = 15
 MIN_ROWS = 20_000
 #: A target pattern with fewer rows (in its group) goes to the block search.
 MIN_TARGETS = 256
-#: A candidate pattern with fewer rows is compared directly (one matrix product for all of
-#: them) instead of through a tree of its own. A bounded query of even a small tree costs
-#: less than comparing its rows with every target (measured on 100,000 x 10 with 5 % gaps:
-#: the search took 0.8x the CPU time at 256 as at 8,192, on normal and on correlated columns).
-MIN_TREE = 256
+#: A candidate pattern with fewer rows is compared directly (a sweep along one column and
+#: small matrix products for all of them) instead of through a tree of its own. Measured on
+#: 300,000 x 10 with 5 % gaps: the station log's search took 0.8x the CPU time at 4,096 as
+#: at 256 (bounded queries of a few hundred rows' tree cost about 1 us per target row
+#: however little they find); normal columns took the same time at both.
+MIN_TREE = 4096
 #: Work of one tree query in the block search's pair comparisons, per power of two of the
 #: dimension (measured on normal rows with 9 columns: 0.4 ms per query in 600,000 rows, about
 #: 1.3 ms in 60,000 rows on a busy machine where the block search took 64 ns per pair).

@@ -18,12 +18,12 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Iterator, Mapping
 from concurrent.futures import ThreadPoolExecutor
-from contextlib import AbstractContextManager, nullcontext
 from dataclasses import dataclass, field
 
 import numpy as np
 from numpy.typing import NDArray
 
+from imputer_app.engine._blas import one_blas_thread
 from imputer_app.engine._distance import DistanceModel
 from imputer_app.engine._exact import exact_cells, exact_lists, exact_sorted, still_open
 from imputer_app.engine._nearest import BlockSearch, _pad, chunks, top_l
@@ -309,20 +309,6 @@ def extra_donors(kmax: int) -> int:
     return 1 + kmax // 8
 
 
-def _one_blas_thread() -> AbstractContextManager[object]:
-    """Run BLAS on one thread while worker threads search chunks side by side.
-
-    Each worker alternates modest matrix products with numpy work; BLAS threads of their
-    own would compete with the workers (and, idle between products, spin on the cores:
-    measured 2-3x slower on a busy two-core machine).
-    """
-    try:
-        from threadpoolctl import threadpool_limits  # installed with scikit-learn
-    except ImportError:  # pragma: no cover - then BLAS keeps its own setting
-        return nullcontext()
-    return threadpool_limits(limits=1, user_api="blas")
-
-
 @dataclass(frozen=True)
 class _Job:
     """One search: target ``rows`` for the fill columns ``cols``.
@@ -379,7 +365,7 @@ class _Jobs:
             report(progress, done, total)
 
         short: list[tuple[IntArray, IntArray]] = []
-        with _one_blas_thread():
+        with one_blas_thread():
             pool = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="kinfill-search")
             try:
                 for job in jobs:

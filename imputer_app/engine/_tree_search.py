@@ -21,19 +21,21 @@ whether the trees are used.
 from __future__ import annotations
 
 import math
-from collections import Counter
+from collections import Counter, deque
 from collections.abc import Callable, Iterator
-from concurrent.futures import ThreadPoolExecutor
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
 from numpy.typing import NDArray
 from scipy.spatial import cKDTree
 
+from imputer_app.engine._blas import one_blas_thread
 from imputer_app.engine._distance import DistanceModel
 from imputer_app.engine._exact import exact_cells, still_open
 from imputer_app.engine._patterns import MIN_TARGETS, MIN_TREE, Layout, by_pattern, layout, tree_pays
 from imputer_app.engine._table import PreparedTable
+from imputer_app.engine._tree_direct import direct_hits
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
 IntArray = NDArray[np.intp]
@@ -47,6 +49,8 @@ Block = Callable[[BoolArray], object]
 First = Callable[[BoolArray, int], IntArray]
 #: Settled cells: column, row, donor rows, squared distances.
 _Cellset = tuple[IntArray, IntArray, IntArray, FloatArray]
+#: A batch's answer: the cells settled, and the cells (row, column) still open.
+_Answer = tuple[list[_Cellset], tuple[IntArray, IntArray]]
 
 #: Target rows per batch (progress and cancel between batches; bounds the memory).
 BATCH = 4096
@@ -54,8 +58,6 @@ BATCH = 4096
 ROUNDS = 3
 #: Rows per bounded tree query (rows sorted by bound, so that one bound fits them all).
 SUB = 128
-#: Candidate rows per direct comparison block.
-DIRECT = 4096
 #: A fill column whose donors are fewer than this share of the candidates goes to the block search.
 DENSE_SHARE = 0.3
 #: Batches searched side by side (tree queries and numpy release the GIL).
@@ -157,32 +159,49 @@ class TreeSearch:
         self._uses = Counter(t for key in common for t in self._treeby_pattern(*key))
         for key in common:
             redo[np.ix_(common[key], np.flatnonzero(dense))] = False
-        total = sum(math.ceil(len(v) / BATCH) for v in common.values()) + 2
-        done = 0
-        pool = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="kinfill-trees")
-        try:  # batches side by side: tree queries and numpy release the GIL
-            for key, rows in common.items():
-                list(pool.map(self._tree, self._treeby_pattern(*key)))
-                batches = [rows[i : i + BATCH] for i in range(0, len(rows), BATCH)]
-                keys = [key] * len(batches)
-                for found, (line, col) in pool.map(self._batch, keys, batches, [cancel] * len(batches)):
-                    for cells in found:
-                        self.put(*cells)
-                    redo[line, col] = True
-                    done += 1
-                    report(progress, done, total)
+        total = sum(len(_batches(v)) for v in common.values()) + 2
+        done, keys = 0, list(common)
+        left = {key: len(_batches(common[key])) for key in keys}
+        pending: deque[tuple[tuple[int, int], Future[_Answer]]] = deque()
+
+        def settle() -> None:  # the oldest batch's answer: store it, free its pattern's trees
+            nonlocal done
+            key, future = pending.popleft()
+            found, (line, col) = future.result()
+            for cells in found:
+                self.put(*cells)
+            redo[line, col] = True
+            left[key] -= 1
+            if not left[key]:
                 self._release(key)
+            done += 1
+            report(progress, done, total)
+
+        pool = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="kinfill-trees")
+        builder = ThreadPoolExecutor(max_workers=1, thread_name_prefix="kinfill-tree-build")
+        try:  # batches side by side (tree queries and numpy release the GIL), and across
+            # patterns; the next pattern's trees are built meanwhile (one pattern ahead: memory)
+            ahead = builder.submit(self._build, keys[0]) if keys else None
+            for n, key in enumerate(keys):
+                assert ahead is not None
+                ahead.result()
+                ahead = builder.submit(self._build, keys[n + 1]) if n + 1 < len(keys) else None
+                for batch in _batches(common[key]):
+                    pending.append((key, pool.submit(self._batch, key, batch, cancel)))
+                    while len(pending) > WORKERS:
+                        settle()
+            while pending:
+                settle()
         finally:  # on an error or a cancel, batches not started are dropped
             pool.shutdown(wait=True, cancel_futures=True)
+            builder.shutdown(wait=True, cancel_futures=True)
         if redo.any():  # rare patterns, and cells whose ties run past their lists
             raise_if_cancelled(cancel)
             self.block(redo)
         report(progress, total - 1, total)
         return total
 
-    def _batch(
-        self, key: tuple[int, int], batch: IntArray, cancel: CancelFlag | None
-    ) -> tuple[list[_Cellset], tuple[IntArray, IntArray]]:
+    def _batch(self, key: tuple[int, int], batch: IntArray, cancel: CancelFlag | None) -> _Answer:
         """Donors of the cells of ``batch``, widening the lists of open cells :data:`ROUNDS` times.
 
         Returns the cells found (column, row, donors, squared distances) and the cells
@@ -202,6 +221,11 @@ class TreeSearch:
             size *= 4
         line, col = np.nonzero(want)
         return found, (batch[line], col)
+
+    def _build(self, key: tuple[int, int]) -> None:
+        """Build the trees a target pattern asks (those not built yet)."""
+        for t in self._treeby_pattern(*key):
+            self._tree(t)
 
     def _candidates(self, g: int, bits: int) -> Iterator[tuple[int, IntArray]]:
         """(pattern, rows) of candidate patterns sharing a column with a target pattern and donating to it."""
@@ -264,71 +288,46 @@ class TreeSearch:
         tree, rows = self._tree(t)
         cols, factor = self.lay.columns(t[2]), self.lay.factor(t[2])
         size = min(lists.d2.shape[1] + int(same), len(rows))  # one more: the row itself may be among them
-        bound = lists.bound
+        bound, ks, coords = lists.bound, list(range(1, size + 1)), self.lay.x[np.ix_(batch, cols)]
+        # each part's bound is read before any merge: the parts' answers are handled once, together
+        parts, found_e, found_i, uppers = [], [], [], []
         for part in _parts(bound, SUB):
             reach = float(bound[part[-1]])  # the largest bound of the part (sorted)
-            upper = math.sqrt(reach / factor) * (1 + 1e-9) + 1e-300 if math.isfinite(reach) else np.inf
-            e, i = tree.query(
-                self.lay.x[np.ix_(batch[part], cols)],
-                k=list(range(1, size + 1)),
-                distance_upper_bound=upper,
-            )
-            found = np.isfinite(e)
-            index = np.where(found, rows[np.minimum(i, len(rows) - 1)], -1)
-            d2 = np.where(found, factor * e * e, np.inf)
-            d2[index == batch[part][:, None]] = np.inf  # never the row itself
-            # a candidate not returned is at least as far as the last returned, or past the bound
-            full = found[:, -1] & (size < len(rows))
-            past = np.where(
-                full, factor * e[:, -1] ** 2, factor * upper**2 if math.isfinite(upper) else np.inf
-            )
-            lists.merge(part, index, d2, past)
+            radius = math.sqrt(reach / factor) * (1 + 1e-9) + 1e-300 if math.isfinite(reach) else np.inf
+            e, i = tree.query(coords[part], k=ks, distance_upper_bound=radius)
+            parts.append(part)
+            found_e.append(e)
+            found_i.append(i)
+            uppers.append(np.full(len(part), radius))
+        if not parts:
+            return
+        at, e, i, upper = (np.concatenate(a) for a in (parts, found_e, found_i, uppers))
+        found = np.isfinite(e)
+        index = np.where(found, rows[np.minimum(i, len(rows) - 1)], -1)
+        d2 = np.where(found, factor * e * e, np.inf)
+        d2[index == batch[at][:, None]] = np.inf  # never the row itself
+        # a candidate not returned is at least as far as the last returned, or past the bound
+        full = found[:, -1] & (size < len(rows))
+        past = np.where(full, factor * e[:, -1] ** 2, factor * upper**2)
+        lists.merge(at, index, d2, past)
 
     def _direct(self, bits: int, batch: IntArray, rows: IntArray, lists: _Lists) -> None:
         """Compare ``batch`` with the rows of small candidate patterns directly (one pattern of targets).
 
-        One matrix product per block gives Dixon's ``d^2`` in product form:
-        ``[t^2 | t | 1] . f [m | -2c | sum c^2]`` (gaps 0), with each candidate's factor
-        ``f = W_all / W_S`` folded into its side, so one comparison with each row's reach
-        keeps the few pairs that matter. They are merged once, after every block.
+        The pairs within each row's reach (:func:`~imputer_app.engine._tree_direct.direct_hits`)
+        are merged once.
         """
-        lay, noise = self.lay, self.model.noise
-        cols = lay.columns(bits)
-        t = lay.x[np.ix_(batch, cols)]
-        left = np.hstack([t * t, t, np.ones((len(batch), 1))])
-        size = lists.d2.shape[1]
-        reach = (lists.bound + noise)[:, None]
-        wide = np.flatnonzero(~np.isfinite(reach[:, 0]))  # lists not full: the nearest ``size`` per block
-        at = np.searchsorted(rows, batch)  # where each target row sits among the candidates
-        at_in = (at < len(rows)) & (rows[np.minimum(at, len(rows) - 1)] == batch)
-        hits: list[tuple[IntArray, IntArray, FloatArray]] = []
-        for start in range(0, len(rows), DIRECT):
-            cand = rows[start : start + DIRECT]
-            c, m = lay.x[np.ix_(cand, cols)], lay.mask[np.ix_(cand, cols)]
-            f = lay.total / (m @ lay.weights[cols])  # the rows share a column (by pattern)
-            right = np.hstack([m, -2.0 * c, np.einsum("ij,ij->i", c, c)[:, None]])
-            d2 = left @ (right * f[:, None]).T
-            own = np.flatnonzero(at_in & (at >= start) & (at < start + len(cand)))
-            d2[own, at[own] - start] = np.inf  # never the row itself
-            near = d2 <= reach
-            if len(wide):
-                kth = min(size, d2.shape[1]) - 1
-                cut = np.partition(d2[wide], kth, axis=1)[:, kth : kth + 1] + noise
-                near[wide] = d2[wide] <= cut
-            r, j = np.divmod(np.flatnonzero(near), near.shape[1])  # quicker than nonzero when few
-            if len(r):
-                hits.append((r, cand[j], np.maximum(d2[r, j], 0.0)))
-        if not hits:
+        noise = self.model.noise
+        r, index, d2 = direct_hits(self.lay, bits, batch, rows, lists.bound + noise, lists.d2.shape[1], noise)
+        if not len(r):
             return
-        r = np.concatenate([h[0] for h in hits])
         order = np.argsort(r, kind="stable")
         r = r[order]
         pos = np.arange(len(r)) - np.searchsorted(r, r)
-        index = np.full((len(batch), int(pos.max()) + 1), -1, dtype=np.intp)
-        dist = np.full(index.shape, np.inf)
-        index[r, pos] = np.concatenate([h[1] for h in hits])[order]
-        dist[r, pos] = np.concatenate([h[2] for h in hits])[order]
-        lists.merge(np.arange(len(batch)), index, dist, np.full(len(batch), np.inf))
+        wide = np.full((len(batch), int(pos.max()) + 1), -1, dtype=np.intp)
+        dist = np.full(wide.shape, np.inf)
+        wide[r, pos], dist[r, pos] = index[order], d2[order]
+        lists.merge(np.arange(len(batch)), wide, dist, np.full(len(batch), np.inf))
 
     def _cells(
         self, batch: IntArray, want: BoolArray, lists: _Lists
@@ -349,6 +348,12 @@ class TreeSearch:
         open_ = still_open(d2, count, self.kmax, beyond, self.model.noise)
         done = ~open_
         return (col[done], batch[r[done]], idx[done], d2[done]), (r[open_], col[open_])
+
+
+def _batches(rows: IntArray) -> list[IntArray]:
+    """``rows`` in batches of at most :data:`BATCH`, and at least one per worker (all busy)."""
+    count = min(max(math.ceil(len(rows) / BATCH), WORKERS), len(rows))
+    return np.array_split(rows, count)
 
 
 def _parts(bound: FloatArray, size: int) -> Iterator[IntArray]:
@@ -387,4 +392,5 @@ def tree_search(
     lay = None if path == "block" else layout(table.features, table.groups)
     if lay is None or (path == "auto" and not tree_pays(lay, want, np.asarray(ok.any(axis=1), dtype=bool))):
         return None
-    return TreeSearch(lay, model, want, ok, kmax, keep, put, block, first).run(progress, cancel)
+    with one_blas_thread():  # small products side by side: one BLAS thread each
+        return TreeSearch(lay, model, want, ok, kmax, keep, put, block, first).run(progress, cancel)

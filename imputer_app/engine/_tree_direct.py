@@ -1,0 +1,118 @@
+"""The tree path's direct comparison with the rows of small candidate patterns (numpy only).
+
+Candidate patterns too small for a k-d tree of their own are compared with a batch of
+target rows (one target pattern) directly: a matrix product gives Dixon's ``d^2`` in
+product form, ``[t^2 | t | 1] . f [m | -2c | sum c^2]`` (gaps 0), with each candidate's
+factor ``f = W_all / W_S`` folded into its side, and one comparison with each row's reach
+keeps the few pairs that matter.
+
+Most pairs are never formed. Along one column ``a`` that target and candidate both have,
+``d^2 = f x sum_S (x_j - y_j)^2 >= (x_a - y_a)^2`` (coordinates are scaled by
+``sqrt(w_j)`` and ``f >= 1``), so a candidate further than ``sqrt(reach)`` from a target
+along ``a`` cannot be within its reach. Candidates are sorted along ``a`` and targets,
+in blocks sorted along ``a`` too, meet only the window of candidates their block can
+reach (the sort-and-sweep of computational geometry; common practice, no source).
+Candidates without ``a`` meet every target.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+
+import numpy as np
+from numpy.typing import NDArray
+
+from imputer_app.engine._patterns import Layout
+
+IntArray = NDArray[np.intp]
+FloatArray = NDArray[np.float64]
+
+#: Target rows per block (sorted along the sweep column: a block's window stays narrow).
+TARGETS = 128
+#: Candidate rows per matrix product (the product stays in the processor's cache).
+CANDIDATES = 2048
+
+
+def direct_hits(
+    lay: Layout, bits: int, batch: IntArray, rows: IntArray, reach: FloatArray, size: int, noise: float
+) -> tuple[IntArray, IntArray, FloatArray]:
+    """The pairs of ``batch`` (target rows of pattern ``bits``) and ``rows`` within reach.
+
+    Parameters
+    ----------
+    lay : Layout
+        The similarity columns as coordinates.
+    bits : int
+        The targets' pattern (their observed similarity columns).
+    batch : ndarray of int
+        Target rows.
+    rows : ndarray of int, ascending
+        Candidate rows (each shares a column with the targets).
+    reach : ndarray of float, shape (len(batch),)
+        Each target's largest ``d^2`` of interest; ``inf`` asks for the nearest ``size``
+        of every block of candidates instead.
+    size : int
+        Places in each target's list (for the targets without a reach).
+    noise : float
+        Rounding allowance of the product form (added to the ``size``-th distance).
+
+    Returns
+    -------
+    at, index, d2 : ndarray
+        Target position in ``batch``, candidate row and ``d^2`` (product form, at least 0)
+        of each pair kept; never a row with itself.
+    """
+    cols = lay.columns(bits)
+    t = lay.x[np.ix_(batch, cols)]
+    left = np.hstack([t * t, t, np.ones((len(batch), 1))])
+    c, m = lay.x[np.ix_(rows, cols)], lay.mask[np.ix_(rows, cols)]
+    f = lay.total / (m @ lay.weights[cols])  # the rows share a column (by pattern)
+    right = np.hstack([m, -2.0 * c, np.einsum("ij,ij->i", c, c)[:, None]]) * f[:, None]
+    a = int(np.argmax(m.sum(axis=0)))  # the sweep column: the one most candidates have
+    has, rest = np.flatnonzero(m[:, a]), np.flatnonzero(~m[:, a])
+    order = np.concatenate([has[np.argsort(c[has, a], kind="stable")], rest])
+    key, right, cand = c[order[: len(has)], a], right[order], rows[order]
+    # each target row's own place among the candidates (sweep order), or -1
+    at = np.searchsorted(rows, batch)
+    inside = (at < len(rows)) & (rows[np.minimum(at, len(rows) - 1)] == batch)
+    place = np.empty(len(order), dtype=np.intp)
+    place[order] = np.arange(len(order))
+    own = np.where(inside, place[np.minimum(at, len(rows) - 1)], -1)
+    found: list[tuple[IntArray, IntArray, FloatArray]] = []
+    for block in _blocks(t[:, a], reach):
+        lim = float(reach[block].max())
+        if np.isfinite(lim):
+            half = np.sqrt(lim) * (1 + 1e-9) + 1e-300
+            lo = np.searchsorted(key, t[block, a].min() - half)
+            hi = np.searchsorted(key, t[block, a].max() + half, "right")
+        else:
+            lo, hi = 0, len(has)
+        span = np.r_[lo:hi, len(has) : len(order)]
+        for start in range(0, len(span), CANDIDATES):
+            part = span[start : start + CANDIDATES]
+            d2 = left[block] @ right[part].T
+            j = np.searchsorted(part, own[block])
+            j = np.minimum(j, len(part) - 1)
+            mine = np.flatnonzero((own[block] >= 0) & (part[j] == own[block]))
+            d2[mine, j[mine]] = np.inf  # never the row itself
+            if np.isfinite(lim):
+                near = d2 <= reach[block, None]
+            else:  # lists not full: the nearest ``size`` of this block of candidates
+                kth = min(size, d2.shape[1]) - 1
+                near = d2 <= np.partition(d2, kth, axis=1)[:, kth : kth + 1] + noise
+            r, k = np.divmod(np.flatnonzero(near), near.shape[1])  # quicker than nonzero when few
+            if len(r):
+                found.append((block[r], cand[part[k]], np.maximum(d2[r, k], 0.0)))
+    if not found:
+        empty = np.zeros(0, dtype=np.intp)
+        return empty, empty, np.zeros(0)
+    return tuple(np.concatenate(x) for x in zip(*found, strict=True))  # type: ignore[return-value]
+
+
+def _blocks(along: FloatArray, reach: FloatArray) -> Iterator[IntArray]:
+    """Target positions in blocks of :data:`TARGETS`: sorted along the sweep column, unbounded rows apart."""
+    bounded = np.isfinite(reach)
+    for group in (np.flatnonzero(bounded), np.flatnonzero(~bounded)):
+        group = group[np.argsort(along[group], kind="stable")]
+        for i in range(0, len(group), TARGETS):
+            yield group[i : i + TARGETS]

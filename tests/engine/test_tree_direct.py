@@ -1,0 +1,82 @@
+"""The sweep's direct comparison finds exactly the pairs within reach (against every pair, brute force)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from imputer_app.engine import _tree_direct
+from imputer_app.engine._patterns import Layout
+from imputer_app.engine._tree_direct import direct_hits
+
+
+def _layout(seed: int, n: int, p: int, gap: float) -> Layout:
+    rng = np.random.default_rng(seed)
+    values = rng.standard_normal((n, p)) * rng.uniform(0.5, 3.0, p)
+    mask = rng.random((n, p)) >= gap
+    mask[~mask.any(axis=1), 0] = True  # every row has a column
+    weights = rng.uniform(0.5, 2.0, p)
+    x = np.where(mask, values, 0.0) * np.sqrt(weights)
+    pattern = (mask.astype(np.intp) << np.arange(p)).sum(axis=1)
+    return Layout(x, mask, weights, float(weights.sum()), pattern, np.zeros(n, dtype=np.intp))
+
+
+def _all_pairs(lay: Layout, bits: int, batch: np.ndarray, rows: np.ndarray) -> np.ndarray:
+    """Dixon's d^2 of every (target, candidate) pair, one target at a time (inf: no shared column)."""
+    cols = lay.columns(bits)
+    out = np.full((len(batch), len(rows)), np.inf)
+    shared = lay.mask[np.ix_(rows, cols)]
+    w_shared = shared @ lay.weights[cols]
+    for i, t in enumerate(batch):
+        diff2 = np.where(shared, (lay.x[t, cols] - lay.x[np.ix_(rows, cols)]) ** 2, 0.0).sum(axis=1)
+        ok = (w_shared > 0) & (rows != t)
+        out[i, ok] = lay.total / w_shared[ok] * diff2[ok]
+    return out
+
+
+@pytest.mark.parametrize("targets", [1, 8])
+@pytest.mark.parametrize(
+    ("seed", "n", "p", "gap"), [(0, 300, 4, 0.2), (1, 400, 6, 0.35), (2, 250, 3, 0.5), (3, 300, 2, 0.1)]
+)
+def test_direct_hits_are_the_pairs_within_reach(
+    monkeypatch: pytest.MonkeyPatch, targets: int, seed: int, n: int, p: int, gap: float
+) -> None:
+    # small blocks, so that the sweep's windows, block edges and own rows all come into play
+    monkeypatch.setattr(_tree_direct, "TARGETS", targets)
+    monkeypatch.setattr(_tree_direct, "CANDIDATES", 16)
+    lay = _layout(seed, n, p, gap)
+    bits = int(np.bincount(lay.pattern).argmax())  # the commonest pattern's rows are the targets
+    batch = np.flatnonzero(lay.pattern == bits)
+    rows = np.flatnonzero(lay.mask[:, lay.columns(bits)].any(axis=1))  # targets among them: never self
+    d2 = _all_pairs(lay, bits, batch, rows)
+    # reaches halfway between the 3rd and 4th nearest (no pair near the edge), a few rows unbounded
+    near = np.sort(d2, axis=1)
+    reach = (near[:, 2] + near[:, 3]) / 2
+    reach[::7] = np.inf
+    at, index, got = direct_hits(lay, bits, batch, rows, reach, size=4, noise=1e-9)
+    found = {(int(a), int(c)): float(d) for a, c, d in zip(at, index, got, strict=True)}
+    assert all(batch[a] != c for a, c in found)
+    for i in np.flatnonzero(np.isfinite(reach)):
+        want = {int(c) for c in rows[d2[i] <= reach[i]]}
+        assert {c for a, c in found if a == i} == want
+    for i in np.flatnonzero(~np.isfinite(reach)):
+        mine = {c for a, c in found if a == i}
+        assert {int(c) for c in rows[np.argsort(d2[i], kind="stable")[:4]]} <= mine  # the 4 nearest at least
+    pos = {int(c): j for j, c in enumerate(rows)}
+    for (a, c), d in found.items():
+        assert d == pytest.approx(d2[a, pos[c]], rel=1e-9, abs=1e-12)
+
+
+def test_candidates_without_the_sweep_column_meet_every_target(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(_tree_direct, "TARGETS", 4)
+    lay = _layout(5, 120, 3, 0.0)
+    lay.mask[60:, 0] = False  # half the candidates lack column 0 (the sweep column is column 1 or 2)
+    lay.mask[90:, :] = [False, True, False]  # ... and some have only column 1
+    lay.x[~lay.mask] = 0.0
+    batch, rows = np.arange(0, 30), np.arange(30, 120)
+    d2 = _all_pairs(lay, 0b111, batch, rows)
+    reach = np.median(d2, axis=1)
+    at, index, _ = direct_hits(lay, 0b111, batch, rows, reach, size=4, noise=1e-9)
+    assert sorted(zip(at.tolist(), index.tolist(), strict=True)) == sorted(
+        (i, int(rows[j])) for i, j in zip(*np.nonzero(d2 <= reach[:, None]), strict=True)
+    )
