@@ -8,12 +8,15 @@ returning ``bool``, is accepted as a cancel flag.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from typing import Protocol, runtime_checkable
 
 from imputer_app.errors import Cancelled
 
 Progress = Callable[[int, int], None]
+
+#: Rows per slice of work on a long column (see :func:`row_slices`).
+SLICE_ROWS = 100_000
 
 
 @runtime_checkable
@@ -53,3 +56,21 @@ def report(progress: Progress | None, done: int, total: int) -> None:
     """Call ``progress(done, total)`` when a callback was given."""
     if progress is not None:
         progress(done, total)
+
+
+def row_slices(n: int, step: int | None = None) -> Iterator[slice]:
+    """Consecutive slices covering ``range(n)``, each at most ``step`` (default :data:`SLICE_ROWS`) long.
+
+    One numpy call on a million texts or Python objects (a cast, a comparison, a list
+    made from an array) holds Python's global lock from start to end, a tenth of a
+    second or more; the app's window, on another thread, cannot repaint meanwhile. The
+    same call made slice by slice gives other threads their turn between slices.
+
+    Examples
+    --------
+    >>> [(s.start, s.stop) for s in row_slices(250_000)]
+    [(0, 100000), (100000, 200000), (200000, 250000)]
+    """
+    step = step or SLICE_ROWS  # read at each call, so that a test can make slices short
+    for start in range(0, n, step):
+        yield slice(start, min(start + step, n))

@@ -10,6 +10,8 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
+from imputer_app.work import row_slices
+
 IntArray = NDArray[np.intp]
 
 #: :func:`distinct` marks codes in a table instead of sorting them when there are at most
@@ -21,10 +23,23 @@ DISTINCT_TABLE = 2**24
 
 def packed_rows(mask: NDArray[np.bool_]) -> NDArray[np.uint64]:
     """``mask`` (n, p) packed row by row into ``ceil(p / 64)`` words of 64 bits, zero padded."""
-    packed = np.packbits(mask, axis=1)
-    words = np.zeros((len(mask), 8 * -(-packed.shape[1] // 8)), dtype=np.uint8)
-    words[:, : packed.shape[1]] = packed
+    n_bytes = -(-mask.shape[1] // 8)
+    words = np.zeros((len(mask), 8 * -(-n_bytes // 8)), dtype=np.uint8)
+    for part in row_slices(len(mask)):  # packbits holds Python's lock: a long mask in slices
+        words[part, :n_bytes] = np.packbits(mask[part], axis=1)
     return words.view(np.uint64)
+
+
+def count_distinct(*rows: IntArray) -> int:
+    """How many distinct row numbers (0 or more) the arrays ``rows`` hold together.
+
+    ``len(np.union1d(a, b))`` by marking a table: the same count, without the hashed
+    unique that holds Python's lock for a tenth of a second at a million rows.
+    """
+    seen = np.zeros(max((int(r.max(initial=-1)) for r in rows), default=-1) + 1, dtype=bool)
+    for r in rows:
+        seen[r] = True
+    return int(np.count_nonzero(seen))
 
 
 def common_bits(words: NDArray[np.uint64], rows: IntArray, others: IntArray) -> IntArray:

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from imputer_app.engine._bits import count_distinct
 from imputer_app.engine._distance import Candidates, DistanceModel, Targets
 from imputer_app.work import CancelFlag, raise_if_cancelled
 
@@ -151,7 +152,7 @@ class BlockSearch:
         up to 16 blocks of that size live at once, 8 of them per worker's sums and
         products).
         """
-        n = len(np.union1d(rows, cand))
+        n = count_distinct(rows, cand)
         return 16 * 8 * n * n <= self.budget and n * n <= 2 * len(rows) * len(cand)
 
     def among(

@@ -8,7 +8,6 @@ so that Euclidean distance in a pattern's columns is Dixon's weighted sum) and
 
 from __future__ import annotations
 
-from collections import Counter
 from dataclasses import dataclass
 
 import numpy as np
@@ -92,17 +91,25 @@ def layout(features: Features, groups: IntArray | None) -> Layout | None:
     )
 
 
+def _keys(lay: Layout, rows: IntArray) -> NDArray[np.int64]:
+    """One integer per row of ``rows`` for its (group, pattern)."""
+    return lay.group[rows].astype(np.int64) * (1 << 20) + lay.pattern[rows]
+
+
+def _pair(key: int) -> tuple[int, int]:
+    """The (group, pattern) of a key of :func:`_keys`."""
+    return key >> 20, key & ((1 << 20) - 1)
+
+
 def by_pattern(lay: Layout, rows: IntArray) -> dict[tuple[int, int], IntArray]:
     """``rows`` by (group, pattern), each ascending."""
     if not len(rows):
         return {}
-    key = lay.group[rows].astype(np.int64) * (1 << 20) + lay.pattern[rows]
+    key = _keys(lay, rows)
     order = np.argsort(key, kind="stable")
     uniq, start = np.unique(key[order], return_index=True)
     parts = np.split(rows[order], start[1:])
-    return {
-        (int(u >> 20), int(u & ((1 << 20) - 1))): part for u, part in zip(uniq.tolist(), parts, strict=True)
-    }
+    return {_pair(u): part for u, part in zip(uniq.tolist(), parts, strict=True)}
 
 
 def tree_pays(lay: Layout, want: BoolArray, candidates: BoolArray) -> bool:
@@ -119,7 +126,9 @@ def tree_pays(lay: Layout, want: BoolArray, candidates: BoolArray) -> bool:
     rows = np.flatnonzero(want.any(axis=1))
     if n_cand < MIN_ROWS or not len(rows):
         return False
-    by_cand = Counter(zip(lay.group[candidates].tolist(), lay.pattern[candidates].tolist(), strict=True))
+    # (group, pattern) counted by a sort: a Counter over a million pairs holds Python's lock
+    keys, counts = np.unique(_keys(lay, np.flatnonzero(candidates)), return_counts=True)
+    by_cand = {_pair(u): n for u, n in zip(keys.tolist(), counts.tolist(), strict=True)}
     cost = 0.0
     for (g, bits), part in by_pattern(lay, rows).items():
         if len(part) < MIN_TARGETS:

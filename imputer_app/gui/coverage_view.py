@@ -81,6 +81,7 @@ class CoverageView(QWidget):
         self.setObjectName("recoveryCoverageView")
         self.session = session
         self.rows: pd.DataFrame | None = None
+        self._shown: FillResult | None = None  # the fill whose coverage is shown
         self._stale = False  # a chart to draw once the view is shown
         self.figure = Figure(figsize=(3.0, 3.0), layout="constrained")
         self.canvas = named(
@@ -105,12 +106,14 @@ class CoverageView(QWidget):
         self.refresh()
 
     def _on_session(self, event: str) -> None:
-        if event in ("sheet", "preview", "applied"):
-            self.refresh()
+        shown = self.session.preview if self.session.preview is not None else self.session.applied
+        if event == "sheet" or (event in ("preview", "applied") and shown is not self._shown):
+            self.refresh()  # (Apply says both that the preview went and that a fill was applied)
 
     def refresh(self) -> None:
         """Draw the coverage of the preview if there is one, else of the applied fill."""
         result = self.session.preview if self.session.preview is not None else self.session.applied
+        self._shown = result
         self.rows = sheet_coverage(result)
         self.canvas.setVisible(self.rows is not None)
         if self.rows is None:

@@ -79,6 +79,9 @@ class MainWindow(QMainWindow):
         #: What to do once the export under way has been written (quit, open another sheet).
         self._after_export: Callable[[], object] | None = None
         self._reading_remarks = ""
+        #: The (preview, applied) fills the table was last drawn with: Apply says both that
+        #: the preview went and that a fill was applied, and one drawing serves both.
+        self._drawn: tuple[FillResult | None, FillResult | None] | None = None
         #: The plan of the last fill of the open file (offered, never imposed), or None.
         self._last_plan: FillPlan | None = None
         self.setAcceptDrops(True)
@@ -410,9 +413,14 @@ class MainWindow(QMainWindow):
     # ------------------------------------------------------------------ session
     def _on_session(self, event: str) -> None:
         if event == "sheet":
+            self._drawn = None
             self.data.set_sheet(self.session.sheet)
             self.pages.setCurrentWidget(self.splitter if self.session.has_sheet else self.start)
-        if event in ("sheet", "preview", "applied"):
+        drawn = (self.session.preview, self.session.applied)
+        if event in ("sheet", "preview", "applied") and not (
+            self._drawn is not None and all(a is b for a, b in zip(drawn, self._drawn, strict=True))
+        ):
+            self._drawn = drawn
             self._refresh_layer()
         if event == "plan":
             self._show_plan_source()

@@ -9,7 +9,6 @@ A :class:`RecoveryRequest` is the immutable set of choices a user makes in the p
 from __future__ import annotations
 
 import math
-import weakref
 from collections.abc import Callable
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
@@ -123,22 +122,10 @@ def k_ceiling(data: Sheet | pd.DataFrame, plan: FillPlan) -> int:
     ``donors`` is the most a hidden cell can have: the known cells of the best-filled
     tested column, less the hidden cell itself. At least 1.
     """
-    counts = _known_counts(frame_of(data))
+    counts = validation.known_counts(frame_of(data))
     known = [int(counts[c]) for c in tested_columns(data, plan)]
     donors = max(known, default=1) - 1
     return max(1, min(K_LIMIT, donors))
-
-
-#: The last frame counted and its known cells per column: the panel asks on every change
-#: of plan, and counting a million rows each time would hold up the window.
-_counted: tuple[weakref.ref[pd.DataFrame], pd.Series] | None = None
-
-
-def _known_counts(frame: pd.DataFrame) -> pd.Series:
-    global _counted
-    if _counted is None or _counted[0]() is not frame:
-        _counted = (weakref.ref(frame), frame.notna().sum())
-    return _counted[1]
 
 
 # ---------------------------------------------------------------------- per-k table

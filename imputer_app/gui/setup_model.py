@@ -109,6 +109,22 @@ class ColumnChoice:
         return 100.0 * self.gaps / self.rows if self.rows else 0.0
 
 
+def state_counts(column_states: pd.Series) -> dict[str, int]:
+    """How many cells of a column are in each state (its ``Sheet.states`` column).
+
+    A sheet's states are categorical: counted from their integer codes, which takes a
+    few milliseconds at a million rows, where comparing a million texts would hold
+    Python's lock (and stall the window) for a tenth of a second.
+    """
+    if isinstance(column_states.dtype, pd.CategoricalDtype):
+        codes = column_states.cat.codes.to_numpy()
+        categories = column_states.cat.categories
+        counts = np.bincount(codes[codes >= 0], minlength=len(categories))
+        return {str(state): int(count) for state, count in zip(categories, counts, strict=True)}
+    texts = column_states.astype(str)
+    return {str(state): int(count) for state, count in texts.value_counts().items()}
+
+
 def choices_for_sheet(sheet: Sheet, roles: Mapping[str, str]) -> list[ColumnChoice]:
     """One :class:`ColumnChoice` per sheet column with the engine's default ``roles`` and reasons."""
     from imputer_app.engine import default_role_reasons  # the engine loads on first use
@@ -118,11 +134,9 @@ def choices_for_sheet(sheet: Sheet, roles: Mapping[str, str]) -> list[ColumnChoi
     info = {c.name: c for c in sheet.columns}
     out = []
     for name in map(str, sheet.frame.columns):
-        column_states = states[name].astype(str) if name in states else None
-        gaps = (
-            int(column_states.isin(["missing", "text_in_number"]).sum()) if column_states is not None else 0
-        )
-        censored = int((column_states == "censored").sum()) if column_states is not None else 0
+        counts = state_counts(states[name]) if name in states else {}
+        gaps = counts.get("missing", 0) + counts.get("text_in_number", 0)
+        censored = counts.get("censored", 0)
         col = info.get(name)
         out.append(
             ColumnChoice(

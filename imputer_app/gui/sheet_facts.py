@@ -49,8 +49,10 @@ class SheetFacts:
 def sheet_facts(sheet: Sheet) -> SheetFacts:
     """Everything the window derives from ``sheet`` alone (O(rows): call it off the window's thread)."""
     from imputer_app.engine import default_roles
+    from imputer_app.validation import known_counts
 
     roles = default_roles(sheet)
+    known_counts(sheet.frame)  # counted here once; the window asks for them on every change of plan
     return SheetFacts(sheet, roles, choices_for_sheet(sheet, roles), sheet_arrays(sheet))
 
 

@@ -7,6 +7,8 @@ describes a state that is gone.
 
 from __future__ import annotations
 
+import contextlib
+import weakref
 from typing import TYPE_CHECKING
 
 from imputer_app.errors import KinfillError
@@ -17,8 +19,20 @@ if TYPE_CHECKING:
     from imputer_app.gui.state import Session
 
 
+#: The last fill counted and its count: the status line is written on every change of
+#: the session, and counting a million rows' cells each time would hold up the window.
+_counted: tuple[weakref.ref[FillResult], int] | None = None
+
+
 def _count(result: FillResult) -> int:
-    return int(result.filled.to_numpy().sum())
+    global _counted
+    counted = _counted
+    if counted is not None and counted[0]() is result:
+        return counted[1]
+    count = int(result.filled.to_numpy().sum())
+    with contextlib.suppress(TypeError):  # a stand-in without weak references: counted each time
+        _counted = (weakref.ref(result), count)
+    return count
 
 
 def layer_note(session: Session) -> str:

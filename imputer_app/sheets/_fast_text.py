@@ -28,6 +28,7 @@ import pandas as pd
 from numpy.lib.stride_tricks import sliding_window_view
 
 from imputer_app.sheets._string_cells import STRING_DTYPE, as_objects, ascii_codes, is_string_array
+from imputer_app.work import row_slices
 
 #: Texts shorter than this are split by ``csv.reader``: the vectorised start-up is not worth it.
 MIN_FAST_CHARS = 1 << 20
@@ -137,7 +138,9 @@ def _cut_column(
     width = max(min(longest, _LONG_CELL), 1)
     rows = sliding_window_view(padded, width)[starts]  # one row of bytes per cell
     rows *= np.arange(width) < np.where(lengths > width, 0, lengths)[:, None]  # long: cut below
-    np.copyto(out, rows.view(f"S{width}").ravel(), casting="unsafe")  # UTF-8 bytes to str
+    texts = rows.view(f"S{width}").ravel()
+    for part in row_slices(out.size):  # UTF-8 bytes to str, which holds Python's lock: in slices
+        np.copyto(out[part], texts[part], casting="unsafe")
     if longest <= width:
         return np.ascontiguousarray(rows.T)
     for i in np.flatnonzero(lengths > width).tolist():  # rare: cells over _LONG_CELL bytes

@@ -14,7 +14,7 @@ tabulates how rows with gaps differ from the others and which gap patterns occur
 
 from imputer_app.validation._advice import about_as_good, advice
 from imputer_app.validation._gaps import GapCheck, MCARTest, gap_check
-from imputer_app.validation._k_check import KCheck, check_k, fill_columns
+from imputer_app.validation._k_check import KCheck, check_k, fill_columns, known_counts
 from imputer_app.validation._per_column_k import choice_record, k_by_column, plan_with_k
 from imputer_app.validation._recovery import recovery_test
 from imputer_app.validation._report import RecoveryReport
@@ -34,6 +34,7 @@ __all__ = [
     "fill_columns",
     "gap_check",
     "k_by_column",
+    "known_counts",
     "one_se_rule",
     "plan_with_k",
     "recovery_test",

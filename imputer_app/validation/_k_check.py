@@ -8,6 +8,7 @@ fill, with the k that is in effect.
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass
 
 import pandas as pd
@@ -40,7 +41,8 @@ def fill_columns(data: pd.DataFrame | SheetLike, plan: FillPlan) -> list[str]:
             return [str(c) for c in frame.columns]
         excluded = {*plan.carried_columns, plan.group_column}
         similar = [c for c, role in roles.items() if role in ("similarity", "fill") and c not in excluded]
-    with_gaps = [c for c in similar if bool(frame[c].isna().any())]
+    known = known_counts(frame)
+    with_gaps = [c for c in similar if int(known[c]) < len(frame)]
     return with_gaps or similar
 
 
@@ -53,11 +55,38 @@ def most_donors(data: pd.DataFrame | SheetLike, plan: FillPlan) -> int:
     columns = fill_columns(data, plan)
     if not columns:
         return 0
-    known = frame[columns].notna()
     group = plan.group_column
     if group is not None and group in frame.columns:
+        known = frame[columns].notna()
         return int(known.groupby(frame[group].to_numpy(), dropna=False).sum().to_numpy().max(initial=0))
-    return int(known.sum().max())
+    return int(known_counts(frame)[columns].max())
+
+
+#: The last frame counted and its known cells per column: asked before every fill and
+#: on every change of plan, and counting a million rows each time would hold up the
+#: app's window (its reading worker counts a sheet's frame first).
+_counted: tuple[weakref.ref[pd.DataFrame], pd.Series] | None = None
+
+
+def known_counts(frame: pd.DataFrame) -> pd.Series:
+    """Known (not blank) cells of every column of ``frame``: ``frame.notna().sum()``.
+
+    The counts of the last frame asked are kept while it lives (a frame is never
+    changed in place once read), so that asking again costs nothing.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> known_counts(pd.DataFrame({"a": [1.0, None], "b": [1.0, 2.0]})).to_dict()
+    {'a': 1, 'b': 2}
+    """
+    global _counted
+    counted = _counted  # one read: another thread may count another frame meanwhile
+    if counted is not None and counted[0]() is frame:
+        return counted[1]
+    counts = frame.notna().sum()
+    _counted = (weakref.ref(frame), counts)
+    return counts
 
 
 @dataclass(frozen=True)

@@ -10,8 +10,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from imputer_app import work
 from imputer_app.engine import _distance, _shared
-from imputer_app.engine._bits import common_bits, distinct, packed_rows
+from imputer_app.engine._bits import common_bits, count_distinct, distinct, packed_rows
 from imputer_app.engine._distance import DistanceModel, Features
 from imputer_app.engine._exact import sort_order
 
@@ -34,6 +35,27 @@ def test_common_bits_count_the_columns_both_rows_have(n: int, p: int, seed: int)
     plain = (mask[rows][:, None, :] & mask[others]).sum(axis=2)
     assert np.array_equal(common_bits(packed_rows(mask), rows, others), plain)
     assert np.array_equal(common_bits(packed_rows(mask), rows, others[:, 0]), plain[:, 0])
+
+
+@pytest.mark.parametrize("slice_rows", [1, 3, 100])
+@pytest.mark.parametrize(("n", "p"), [(10, 3), (9, 64), (25, 130), (4, 0), (0, 5)])
+def test_packed_rows_in_slices_as_packbits(
+    monkeypatch: pytest.MonkeyPatch, slice_rows: int, n: int, p: int
+) -> None:
+    # a long mask is packed slice by slice (other threads get a turn between slices):
+    # the same words as numpy's packbits of the whole mask, zero padded to 64 bits
+    monkeypatch.setattr(work, "SLICE_ROWS", slice_rows)
+    mask = np.random.default_rng(n + p).random((n, p)) < 0.5
+    plain = np.packbits(mask, axis=1)
+    expected = np.zeros((n, 8 * -(-plain.shape[1] // 8)), dtype=np.uint8)
+    expected[:, : plain.shape[1]] = plain
+    assert np.array_equal(packed_rows(mask), expected.view(np.uint64))
+
+
+@pytest.mark.parametrize(("a", "b"), [([3, 1, 3], [0, 1, 7]), ([], [2, 2]), ([], []), ([5], [])])
+def test_count_distinct_as_numpy_union(a: list[int], b: list[int]) -> None:
+    rows, others = np.array(a, dtype=np.intp), np.array(b, dtype=np.intp)
+    assert count_distinct(rows, others) == len(np.union1d(rows, others))
 
 
 @pytest.mark.parametrize(("bound", "size", "seed"), [(50, 400, 0), (10**6, 300, 1), (1, 5, 2)])

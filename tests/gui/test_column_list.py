@@ -128,3 +128,21 @@ def test_a_category_column_keeps_no_bounds_in_the_plan():
         and as_category.decimals == {}
         and as_category.kinds == {"Station": "category"}
     )
+
+
+@pytest.mark.parametrize("blank", [None, "missing"])
+def test_state_counts_of_a_read_sheet_equal_counting_the_words(blank):
+    # a read sheet's states are categorical and counted from their codes; any other
+    # column of state words is counted word by word: the same numbers either way
+    from imputer_app.gui.setup_model import state_counts
+
+    words = ["observed", "missing", "censored", "observed", "text_in_number", "missing", "observed"]
+    if blank is None:
+        words[0] = None  # a cell with no state word at all counts for no state
+    categorical = pd.Series(
+        pd.Categorical(words, categories=["observed", "missing", "censored", "text_in_number"])
+    )
+    counted = state_counts(categorical)
+    assert counted == {"observed": 2 + (blank is not None), "missing": 2, "censored": 1, "text_in_number": 1}
+    plain = state_counts(pd.Series([w for w in words if w is not None], dtype=object))
+    assert plain == {state: n for state, n in counted.items() if n}

@@ -19,6 +19,27 @@ def test_version(capsys):
     assert stop.value.code == 0 and "kinfill-gui 0." in capsys.readouterr().out
 
 
+def test_startup_objects_are_frozen_and_later_cycles_still_collected():
+    # run apart: freezing is for the whole process, which the test session must not be
+    import subprocess
+    import sys
+
+    code = (
+        "import gc, weakref\n"
+        "from imputer_app.gui.launch import freeze_startup_objects\n"
+        "class Node: pass\n"
+        "kept = Node(); kept.me = kept\n"
+        "freeze_startup_objects()\n"
+        "frozen = gc.get_freeze_count()\n"
+        "later = Node(); later.me = later; gone = weakref.ref(later); del later\n"
+        "gc.collect()\n"
+        "print(frozen > 1_000 and len(gc.get_objects()) < frozen, gc.get_count()[2] == 0)\n"
+        "print(gone() is None, kept.me is kept)\n"
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert done.stdout.split() == ["True", "True", "True", "True"]
+
+
 def test_icon_comes_from_resources(qapp):
     icon = launch.app_icon()
     assert not icon.isNull() and icon.pixmap(64, 64).width() == 64

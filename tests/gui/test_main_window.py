@@ -250,3 +250,29 @@ def test_tab_order_runs_setup_then_table_then_panels(window):
     wanted = [*window.setup.focus_chain(), window.table, window.gap_map, window.tabs]
     positions = [stops.index(w) for w in wanted if w in stops]
     assert len(positions) == len(wanted) and positions == sorted(positions)
+
+
+def test_apply_undo_and_redo_draw_the_table_once_each(window, qtbot, monkeypatch):
+    # Apply says both that the preview went and that a fill was applied: one drawing of
+    # the table serves both, and the coverage of the fill shown stays as it is (a drawing
+    # costs the window time on a long sheet); each step shows the fill it leaves in force
+    from imputer_app.gui import coverage_view
+
+    with qtbot.waitSignal(window.preview_ready, timeout=30_000):
+        window.preview_fill()
+    drawn: list[tuple[object, str]] = []
+    draw = window.data.set_layer
+    monkeypatch.setattr(window.data, "set_layer", lambda r, kind: (drawn.append((r, kind)), draw(r, kind)))
+    covered: list[object] = []
+    cover = coverage_view.sheet_coverage
+    monkeypatch.setattr(coverage_view, "sheet_coverage", lambda r: (covered.append(r), cover(r))[1])
+    result = window.session.preview
+    window.apply_fill()
+    assert drawn == [(result, "applied")] and covered == []  # the preview's own coverage
+    assert window.table_model.layer is result and window.table_model.layer_kind == "applied"
+    window.undo()
+    assert drawn[1:] == [(None, "applied")] and covered == [None]
+    assert window.table_model.layer is None
+    window.redo()
+    assert drawn[2:] == [(result, "applied")] and covered == [None, result]
+    assert window.table_model.layer is result

@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 from imputer_app.plan import FillPlan
-from imputer_app.validation import check_k
+from imputer_app.validation import check_k, known_counts
 
 
 @pytest.mark.parametrize(
@@ -33,3 +33,13 @@ def test_the_k_in_effect_is_capped_by_the_known_cells(k, plan_extra, used):
     check = check_k(frame, plan)
     assert (check.asked, check.used, check.too_large) == (k, used, used < k)
     assert (check.message() == "") == (used == k)
+
+
+def test_known_counts_are_counted_once_per_frame() -> None:
+    frame = pd.DataFrame({"a": [1.0, np.nan, 3.0], "b": [np.nan, np.nan, 2.0], "c": ["x", None, "y"]})
+    first = known_counts(frame)
+    assert first.to_dict() == frame.notna().sum().to_dict() == {"a": 2, "b": 1, "c": 2}
+    assert known_counts(frame) is first  # the same frame again: not counted again
+    other = frame.fillna({"a": 0.0, "b": 0.0, "c": "z"})
+    assert known_counts(other).to_dict() == {"a": 3, "b": 3, "c": 3}
+    assert known_counts(frame).to_dict() == {"a": 2, "b": 1, "c": 2}  # and back
