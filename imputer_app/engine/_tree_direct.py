@@ -17,7 +17,7 @@ Candidates without ``a`` meet every target.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 
 import numpy as np
 from numpy.typing import NDArray
@@ -29,6 +29,8 @@ FloatArray = NDArray[np.float64]
 
 #: Target rows per block (sorted along the sweep column: a block's window stays narrow).
 TARGETS = 128
+#: Fewest target rows per block (a product of fewer rows costs more per pair than it saves).
+FEWEST = 8
 #: Candidate rows per matrix product (the product stays in the processor's cache).
 CANDIDATES = 2048
 
@@ -78,9 +80,21 @@ def direct_hits(
     place = np.empty(len(order), dtype=np.intp)
     place[order] = np.arange(len(order))
     own = np.where(inside, place[np.minimum(at, len(rows) - 1)], -1)
+
+    def products(block: IntArray, part: IntArray) -> FloatArray:
+        """``d^2`` of a block of targets and a run of candidates (sweep places); ``inf`` for a row itself."""
+        d2 = left[block] @ right[part].T
+        j = np.minimum(np.searchsorted(part, own[block]), len(part) - 1)
+        mine = np.flatnonzero((own[block] >= 0) & (part[j] == own[block]))
+        d2[mine, j[mine]] = np.inf
+        return d2
+
     found: list[tuple[IntArray, IntArray, FloatArray]] = []
     for block in _blocks(t[:, a], reach):
-        lim = float(reach[block].max())
+        near_reach = reach[block]
+        if not np.isfinite(near_reach).all():  # a list not full: its reach from the nearest along ``a``
+            near_reach = _seed(products, block, t[block, a], key, len(order), size, noise)
+        lim = float(near_reach.max())
         if np.isfinite(lim):
             half = np.sqrt(lim) * (1 + 1e-9) + 1e-300
             lo = np.searchsorted(key, t[block, a].min() - half)
@@ -90,14 +104,10 @@ def direct_hits(
         span = np.r_[lo:hi, len(has) : len(order)]
         for start in range(0, len(span), CANDIDATES):
             part = span[start : start + CANDIDATES]
-            d2 = left[block] @ right[part].T
-            j = np.searchsorted(part, own[block])
-            j = np.minimum(j, len(part) - 1)
-            mine = np.flatnonzero((own[block] >= 0) & (part[j] == own[block]))
-            d2[mine, j[mine]] = np.inf  # never the row itself
+            d2 = products(block, part)
             if np.isfinite(lim):
-                near = d2 <= reach[block, None]
-            else:  # lists not full: the nearest ``size`` of this block of candidates
+                near = d2 <= near_reach[:, None]
+            else:  # fewer candidates than places: the nearest ``size`` of each run
                 kth = min(size, d2.shape[1]) - 1
                 near = d2 <= np.partition(d2, kth, axis=1)[:, kth : kth + 1] + noise
             r, k = np.divmod(np.flatnonzero(near), near.shape[1])  # quicker than nonzero when few
@@ -109,10 +119,36 @@ def direct_hits(
     return tuple(np.concatenate(x) for x in zip(*found, strict=True))  # type: ignore[return-value]
 
 
+def _seed(
+    products: Callable[[IntArray, IntArray], FloatArray],
+    block: IntArray,
+    along: FloatArray,
+    key: FloatArray,
+    n: int,
+    size: int,
+    noise: float,
+) -> FloatArray:
+    """Each row's ``size``-th ``d^2`` among the :data:`CANDIDATES` candidates nearest its block along ``a``.
+
+    Any ``size`` candidates bound the ``size``-th nearest from above, so every candidate
+    the row needs is within this reach (``inf`` when there are no more than ``size``).
+    """
+    if n <= size + 1:
+        return np.full(len(block), np.inf)
+    mid = int(np.searchsorted(key, np.median(along)))
+    lo = max(0, min(mid - CANDIDATES // 2, len(key) - CANDIDATES))
+    part = np.r_[lo : min(lo + CANDIDATES, len(key)), len(key) : min(n, len(key) + CANDIDATES)]
+    if len(part) <= size + 1:  # a row itself may be among them
+        return np.full(len(block), np.inf)
+    return np.partition(products(block, part), size - 1, axis=1)[:, size - 1] + noise
+
+
 def _blocks(along: FloatArray, reach: FloatArray) -> Iterator[IntArray]:
-    """Target positions in blocks of :data:`TARGETS`: sorted along the sweep column, unbounded rows apart."""
+    """Target positions in blocks (at most :data:`TARGETS`) sorted along the sweep column; unbounded apart."""
     bounded = np.isfinite(reach)
     for group in (np.flatnonzero(bounded), np.flatnonzero(~bounded)):
         group = group[np.argsort(along[group], kind="stable")]
-        for i in range(0, len(group), TARGETS):
-            yield group[i : i + TARGETS]
+        # a few rows spread over the whole column make narrow windows only in small blocks
+        step = min(TARGETS, max(FEWEST, len(group) // 16))
+        for i in range(0, len(group), step):
+            yield group[i : i + step]
