@@ -12,7 +12,8 @@ Most pairs are never formed. Along one column ``a`` that target and candidate bo
 along ``a`` cannot be within its reach. Candidates are sorted along ``a`` and targets,
 in blocks sorted along ``a`` too, meet only the window of candidates their block can
 reach (the sort-and-sweep of computational geometry; common practice, no source).
-Candidates without ``a`` meet every target.
+Each candidate is swept along the first column it has, taking columns by how many
+candidates have them, so a candidate with gaps is windowed too.
 """
 
 from __future__ import annotations
@@ -70,16 +71,42 @@ def direct_hits(
     c, m = lay.x[np.ix_(rows, cols)], lay.mask[np.ix_(rows, cols)]
     f = lay.total / (m @ lay.weights[cols])  # the rows share a column (by pattern)
     right = np.hstack([m, -2.0 * c, np.einsum("ij,ij->i", c, c)[:, None]]) * f[:, None]
-    a = int(np.argmax(m.sum(axis=0)))  # the sweep column: the one most candidates have
-    has, rest = np.flatnonzero(m[:, a]), np.flatnonzero(~m[:, a])
-    order = np.concatenate([has[np.argsort(c[has, a], kind="stable")], rest])
-    key, right, cand = c[order[: len(has)], a], right[order], rows[order]
-    # each target row's own place among the candidates (sweep order), or -1
-    at = np.searchsorted(rows, batch)
-    inside = (at < len(rows)) & (rows[np.minimum(at, len(rows) - 1)] == batch)
-    place = np.empty(len(order), dtype=np.intp)
-    place[order] = np.arange(len(order))
-    own = np.where(inside, place[np.minimum(at, len(rows) - 1)], -1)
+    # each candidate is swept along the first column it has, columns taken by how many have them
+    by = np.argsort(-m.sum(axis=0), kind="stable")
+    sweep = by[np.argmax(m[:, by], axis=1)]
+    found: list[tuple[IntArray, IntArray, FloatArray]] = []
+    for a in by:
+        mine = np.flatnonzero(sweep == a)
+        if len(mine):
+            found += _sweep(left, t[:, a], right[mine], c[mine, a], rows[mine], batch, reach, size, noise)
+    if not found:
+        empty = np.zeros(0, dtype=np.intp)
+        return empty, empty, np.zeros(0)
+    return tuple(np.concatenate(x) for x in zip(*found, strict=True))  # type: ignore[return-value]
+
+
+def _sweep(
+    left: FloatArray,
+    along: FloatArray,
+    right: FloatArray,
+    key: FloatArray,
+    cand: IntArray,
+    batch: IntArray,
+    reach: FloatArray,
+    size: int,
+    noise: float,
+) -> list[tuple[IntArray, IntArray, FloatArray]]:
+    """The pairs within reach of the targets (``left`` rows) and candidates that all have the sweep column.
+
+    ``along`` and ``key`` are the targets' and candidates' values in it; ``right`` the
+    candidates' side of the product.
+    """
+    order = np.argsort(key, kind="stable")
+    key, right, cand = key[order], right[order], cand[order]
+    # each target row's own place among the candidates, or -1
+    by_row = np.argsort(cand, kind="stable")
+    at = np.minimum(np.searchsorted(cand[by_row], batch), len(cand) - 1)
+    own = np.where(cand[by_row[at]] == batch, by_row[at], -1)
 
     def products(block: IntArray, part: IntArray) -> FloatArray:
         """``d^2`` of a block of targets and a run of candidates (sweep places); ``inf`` for a row itself."""
@@ -90,20 +117,19 @@ def direct_hits(
         return d2
 
     found: list[tuple[IntArray, IntArray, FloatArray]] = []
-    for block in _blocks(t[:, a], reach):
+    for block in _blocks(along, reach):
         near_reach = reach[block]
         if not np.isfinite(near_reach).all():  # a list not full: its reach from the nearest along ``a``
-            near_reach = _seed(products, block, t[block, a], key, len(order), size, noise)
+            near_reach = _seed(products, block, along[block], key, size, noise)
         lim = float(near_reach.max())
         if np.isfinite(lim):
             half = np.sqrt(lim) * (1 + 1e-9) + 1e-300
-            lo = np.searchsorted(key, t[block, a].min() - half)
-            hi = np.searchsorted(key, t[block, a].max() + half, "right")
+            lo = np.searchsorted(key, along[block].min() - half)
+            hi = np.searchsorted(key, along[block].max() + half, "right")
         else:
-            lo, hi = 0, len(has)
-        span = np.r_[lo:hi, len(has) : len(order)]
-        for start in range(0, len(span), CANDIDATES):
-            part = span[start : start + CANDIDATES]
+            lo, hi = 0, len(key)
+        for start in range(lo, hi, CANDIDATES):
+            part = np.arange(start, min(start + CANDIDATES, hi))
             d2 = products(block, part)
             if np.isfinite(lim):
                 near = d2 <= near_reach[:, None]
@@ -113,10 +139,7 @@ def direct_hits(
             r, k = np.divmod(np.flatnonzero(near), near.shape[1])  # quicker than nonzero when few
             if len(r):
                 found.append((block[r], cand[part[k]], np.maximum(d2[r, k], 0.0)))
-    if not found:
-        empty = np.zeros(0, dtype=np.intp)
-        return empty, empty, np.zeros(0)
-    return tuple(np.concatenate(x) for x in zip(*found, strict=True))  # type: ignore[return-value]
+    return found
 
 
 def _seed(
@@ -124,7 +147,6 @@ def _seed(
     block: IntArray,
     along: FloatArray,
     key: FloatArray,
-    n: int,
     size: int,
     noise: float,
 ) -> FloatArray:
@@ -133,13 +155,11 @@ def _seed(
     Any ``size`` candidates bound the ``size``-th nearest from above, so every candidate
     the row needs is within this reach (``inf`` when there are no more than ``size``).
     """
-    if n <= size + 1:
+    if len(key) <= size:  # a row itself may be among them
         return np.full(len(block), np.inf)
     mid = int(np.searchsorted(key, np.median(along)))
     lo = max(0, min(mid - CANDIDATES // 2, len(key) - CANDIDATES))
-    part = np.r_[lo : min(lo + CANDIDATES, len(key)), len(key) : min(n, len(key) + CANDIDATES)]
-    if len(part) <= size + 1:  # a row itself may be among them
-        return np.full(len(block), np.inf)
+    part = np.arange(lo, min(lo + CANDIDATES, len(key)))
     return np.partition(products(block, part), size - 1, axis=1)[:, size - 1] + noise
 
 
