@@ -28,6 +28,7 @@ import pandas as pd
 from numpy.lib.stride_tricks import sliding_window_view
 
 from imputer_app.sheets._string_cells import STRING_DTYPE, as_objects, ascii_codes, is_string_array
+from imputer_app.sheets._word_numbers import pack_words, simple_word_values
 
 #: Texts shorter than this are split by ``csv.reader``: the vectorised start-up is not worth it.
 MIN_FAST_CHARS = 1 << 20
@@ -173,23 +174,31 @@ def plain_number_values(values: np.ndarray, decimal: str, codes: np.ndarray | No
     out = np.full(values.shape[0], np.nan)
     if not values.size:
         return out
-    plain = _plain_cells(values, decimal, codes)
-    if codes is not None and plain.any():
-        simple, found = _simple_values(codes, ord(decimal))
-        simple &= plain
-        np.copyto(out, found, where=simple)
-        plain &= ~simple  # the rest (exponents, spaces, long digits) as below
-    if plain.any():
+    words = None if codes is None else pack_words(codes)
+    if codes is not None and words is not None:  # texts of up to eight bytes: a word at a time
+        simple, out = simple_word_values(words, ord(decimal))
+        rest = np.flatnonzero(~simple & (words != 0))  # the other texts that are not empty
+        plain = rest[_plain_cells(values[rest], decimal, codes[:, rest])]
+    else:
+        plain = _plain_cells(values, decimal, codes)
+        if codes is not None and plain.any():
+            simple, found = _simple_values(codes, ord(decimal))
+            simple &= plain
+            np.copyto(out, found, where=simple)
+            plain &= ~simple  # the rest (exponents, spaces, long digits) as below
+        plain = np.flatnonzero(plain)
+    if plain.size:
         chosen = values[plain]
         if decimal == ",":
             chosen = _comma_to_point(chosen)
         try:
             # float() of each text, also for a StringDType array (numpy casts with it)
-            out[plain] = chosen.astype(float)
+            found = chosen.astype(float)
         except ValueError:  # "1e", "+-5", "5..": pandas judges these texts
-            out[plain] = to_numeric_values(values[plain], decimal)
+            found = to_numeric_values(values[plain], decimal)
+        # overflow ("1e400") is no finite number
+        out[plain] = np.where(np.isfinite(found), found, np.nan)
     # other texts (names, codes, markers, "<0.05") are left to the careful pass
-    out[~np.isfinite(out)] = np.nan
     return out
 
 
@@ -246,7 +255,10 @@ def to_numeric_values(values: np.ndarray, decimal: str) -> np.ndarray:
 def _comma_to_point(values: np.ndarray) -> np.ndarray:
     if is_string_array(values):
         return np.strings.replace(values, ",", ".")
-    return np.array(_SEPARATOR.join(values).replace(",", ".").split(_SEPARATOR), dtype=object)
+    pieces = _SEPARATOR.join(values).replace(",", ".").split(_SEPARATOR)
+    if len(pieces) != values.shape[0]:  # some text holds the separator itself
+        return np.strings.replace(values.astype(STRING_DTYPE), ",", ".").astype(object)
+    return np.array(pieces, dtype=object)
 
 
 def _plain_cells(values: np.ndarray, decimal: str, codes: np.ndarray | None = None) -> np.ndarray:

@@ -1,0 +1,111 @@
+"""Simple decimals of up to eight bytes read eight bytes at a time.
+
+A cell of a long csv column is mostly a short decimal (``"12.345"``). Its bytes, padded
+with zeros to eight, make one unsigned 64-bit word (first character in the lowest
+byte), and a few whole-word operations over a column of words check the form and give
+the digits' integer: the "SIMD within a register" tricks of Lamport 1975 ("Multiple
+byte processing with full-word instructions", CACM 18(8)) and the eight-digit
+conversion of Langdale and Lemire 2019 ("Parsing gigabytes of JSON per second", VLDB
+Journal 28(6), sec. 6: eight digits in three multiplications). Every operation is a
+numpy ufunc over the whole column (no Python per cell), so it runs outside the GIL.
+
+A simple decimal here is the same as in
+:func:`~imputer_app.sheets._fast_text.plain_number_values`: a sign or none, digits with
+at most one decimal mark, at least one digit, nothing else. With at most eight digits
+its integer and its power of ten are exact doubles, so one division gives the
+correctly rounded value (Clinger 1990, "How to read floating point numbers
+accurately": the fast path).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+#: Widest cell, in bytes, that fits one word.
+WORD_BYTES = 8
+_WORD = np.dtype("<u8")  # byte k of the word is character k on any machine
+_ONES = np.uint64(0x0101010101010101)
+_HIGH = np.uint64(0x8080808080808080)
+_LOW7 = np.uint64(0x7F7F7F7F7F7F7F7F)
+_POWERS_OF_TEN = np.array([float(10**k) for k in range(WORD_BYTES + 1)])  # exact doubles
+# the eight-digit conversion (Langdale and Lemire 2019)
+_PAIRS = np.uint64(0x000000FF000000FF)
+_MUL_HIGH = np.uint64(100 + (1_000_000 << 32))
+_MUL_LOW = np.uint64(1 + (10_000 << 32))
+_ZEROS = _ONES * np.uint64(ord("0"))
+_ABOVE_NINE = _ONES * np.uint64(0x80 - 10)
+_1, _7, _8, _16, _32, _64 = (np.uint64(k) for k in (1, 7, 8, 16, 32, 64))
+#: Words read at a time: the temporaries of one block stay in the processor's cache.
+BLOCK = 1 << 14
+
+
+def pack_words(codes: np.ndarray) -> np.ndarray | None:
+    """Each text's bytes as one word, or None when some text is longer than eight bytes.
+
+    Parameters
+    ----------
+    codes : ndarray of uint8, shape (width, n)
+        The texts' bytes padded with 0, one row per position.
+    """
+    width, n = codes.shape
+    if width > WORD_BYTES:
+        return None
+    rows = np.zeros((n, WORD_BYTES), dtype=np.uint8)
+    rows[:, :width] = codes.T
+    return rows.view(_WORD).reshape(n)
+
+
+def simple_word_values(words: np.ndarray, mark: int) -> tuple[np.ndarray, np.ndarray]:
+    """Which words hold a simple decimal, and its value (NaN elsewhere).
+
+    Parameters
+    ----------
+    words : ndarray of uint64, shape (n,)
+        Texts of up to eight bytes from :func:`pack_words`.
+    mark : int
+        The byte of the decimal mark.
+
+    Returns
+    -------
+    simple : ndarray of bool
+        True for a sign or none, then digits with at most one ``mark``, at least one
+        digit and nothing else (a zero byte inside a text is not padding).
+    values : ndarray of float
+        The correctly rounded value where ``simple`` (``"-0"`` is -0.0), NaN elsewhere.
+    """
+    simple = np.empty(words.shape[0], dtype=bool)
+    values = np.empty(words.shape[0])
+    marks = _ONES * np.uint64(mark)
+    for start in range(0, words.shape[0], BLOCK):
+        block = slice(start, start + BLOCK)
+        simple[block], values[block] = _block_values(words[block], marks)
+    return simple, values
+
+
+def _block_values(words: np.ndarray, marks: np.uint64) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`simple_word_values` for one block of words (``marks``: the mark in every byte)."""
+    first = words & np.uint64(0xFF)
+    negative = first == ord("-")
+    body = np.where(negative | (first == ord("+")), words >> _8, words)
+    # the high bit of every byte that is not zero (no carries between bytes)
+    filled = (((body & _LOW7) + _LOW7) | body) & _HIGH
+    spread = (filled >> _7) * np.uint64(0xFF)  # 0xFF for each filled byte
+    simple = (spread & (spread + _1)) == 0  # the filled bytes come first: no zero byte inside
+    at_mark = body ^ marks  # zero at the decimal mark
+    at_mark = ~((((at_mark & _LOW7) + _LOW7) | at_mark) | _LOW7)  # the high bit of a mark byte
+    n_marks = np.bitwise_count(at_mark)
+    simple &= n_marks <= 1
+    below = (at_mark >> _7) - _1  # the bytes before the mark; all when there is none
+    digits = (body & below) | ((body >> _8) & ~below)  # the mark taken out
+    count = (np.bitwise_count(filled) - n_marks).astype(np.uint64)  # digits
+    digits ^= _ZEROS & ((_1 << (count << np.uint64(3))) - _1)  # "0"-"9" to 0-9 (shift 64 gives 0)
+    simple &= ((digits | (digits + _ABOVE_NINE)) & _HIGH) == 0  # every byte 0-9, padding 0
+    simple &= count >= 1
+    digits <<= _64 - (count << np.uint64(3))  # leading zeros up to eight digits
+    digits = digits * np.uint64(10) + (digits >> _8)
+    digits = ((digits & _PAIRS) * _MUL_HIGH + ((digits >> _16) & _PAIRS) * _MUL_LOW) >> _32
+    places = np.bitwise_count(filled & ~below) - n_marks  # digits after the mark
+    found = digits.astype(float) / _POWERS_OF_TEN[np.minimum(places, WORD_BYTES)]
+    np.negative(found, out=found, where=negative)
+    found[~simple] = np.nan
+    return simple, found
