@@ -25,10 +25,10 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from numpy.lib.stride_tricks import sliding_window_view
 
+from imputer_app.sheets._byte_grid import ByteColumn, cut_columns
 from imputer_app.sheets._string_cells import STRING_DTYPE, as_objects, ascii_codes, is_string_array
-from imputer_app.sheets._word_numbers import pack_words, simple_word_values
+from imputer_app.sheets._word_numbers import WORD_BYTES, simple_word_values, words_of
 
 #: Texts shorter than this are split by ``csv.reader``: the vectorised start-up is not worth it.
 MIN_FAST_CHARS = 1 << 20
@@ -101,49 +101,34 @@ def split_plain_text(text: str, delimiter: str) -> SplitText | None:
         data = body.encode("utf-8")
     except UnicodeEncodeError:  # a lone surrogate
         return None
-    codes = np.frombuffer(data, dtype=np.uint8)
-    newline = codes == ord("\n")
-    bounds = np.flatnonzero(newline | (codes == ord(delimiter)))
-    row_ends = np.flatnonzero(newline[bounds])  # the boundaries that end a row
-    n_cells = bounds.size + 1
-    width = int(row_ends[0]) + 1 if row_ends.size else n_cells
-    if n_cells % width or not np.array_equal(row_ends, np.arange(width - 1, n_cells - 1, width)):
+    columns = cut_columns(data, ord(delimiter), _LONG_CELL)
+    if columns is None:
         return None  # some row is shorter or longer than the first
-    starts = np.concatenate(([0], bounds + 1))
-    ends = np.concatenate((bounds, [codes.size]))
-    ends[row_ends[codes[bounds[row_ends] - 1] == ord("\r")]] -= 1
-    lengths = (ends - starts).reshape(-1, width)
-    starts = starts.reshape(-1, width)
     # column after column in one block, so that each column is contiguous in memory
-    n_rows = lengths.shape[0]
-    cells = np.empty(lengths.size, dtype=STRING_DTYPE)
-    padded = np.concatenate((codes, np.zeros(_LONG_CELL, dtype=np.uint8)))
+    n_rows = columns[0].lengths.shape[0]
+    cells = np.empty(n_rows * len(columns), dtype=STRING_DTYPE)
     column_codes = tuple(
-        _cut_column(cells[j * n_rows : (j + 1) * n_rows], data, padded, starts[:, j], lengths[:, j])
-        for j in range(width)
+        _column_texts(cells[j * n_rows : (j + 1) * n_rows], data, column) for j, column in enumerate(columns)
     )
-    return SplitText(cells.reshape(width, n_rows).T, column_codes)
+    return SplitText(cells.reshape(len(columns), n_rows).T, column_codes)
 
 
-def _cut_column(
-    out: np.ndarray, data: bytes, padded: np.ndarray, starts: np.ndarray, lengths: np.ndarray
-) -> np.ndarray | None:
-    """Write the texts of one column, cut from the file's bytes, into ``out``; return its bytes.
+def _column_texts(out: np.ndarray, data: bytes, column: ByteColumn) -> np.ndarray | None:
+    """Write the texts of one column into ``out``; return its bytes one row per position.
 
-    ``padded`` is the file's bytes followed by :data:`_LONG_CELL` zeros, so that every
-    byte position read exists. The bytes come back one row per position (None when a
-    cell is longer than :data:`_LONG_CELL`: such cells are cut one by one).
+    The bytes of a column of cells of up to eight bytes are a view of its words (see
+    :func:`~imputer_app.sheets._word_numbers.words_of`); None when a cell is longer than
+    :data:`_LONG_CELL` (such cells are cut one by one).
     """
-    longest = int(lengths.max(initial=0))
-    width = max(min(longest, _LONG_CELL), 1)
-    rows = sliding_window_view(padded, width)[starts]  # one row of bytes per cell
-    rows *= np.arange(width) < np.where(lengths > width, 0, lengths)[:, None]  # long: cut below
-    np.copyto(out, rows.view(f"S{width}").ravel(), casting="unsafe")  # UTF-8 bytes to str
-    if longest <= width:
-        return np.ascontiguousarray(rows.T)
-    for i in np.flatnonzero(lengths > width).tolist():  # rare: cells over _LONG_CELL bytes
-        out[i] = data[starts[i] : starts[i] + lengths[i]].decode("utf-8")
-    return None
+    rows = column.rows
+    np.copyto(out, rows.view(f"S{rows.shape[1]}").ravel(), casting="unsafe")  # UTF-8 bytes to str
+    for i, start in column.long_cells:  # rare: cells over _LONG_CELL bytes
+        out[i] = data[start : start + int(column.lengths[i])].decode("utf-8")
+    if column.long_cells:
+        return None
+    if rows.shape[1] == WORD_BYTES:
+        return rows[:, : max(int(column.lengths.max(initial=0)), 1)].T
+    return np.ascontiguousarray(rows.T)
 
 
 def plain_number_values(values: np.ndarray, decimal: str, codes: np.ndarray | None = None) -> np.ndarray:
@@ -174,7 +159,7 @@ def plain_number_values(values: np.ndarray, decimal: str, codes: np.ndarray | No
     out = np.full(values.shape[0], np.nan)
     if not values.size:
         return out
-    words = None if codes is None else pack_words(codes)
+    words = None if codes is None else words_of(codes)
     if codes is not None and words is not None:  # texts of up to eight bytes: a word at a time
         simple, out = simple_word_values(words, ord(decimal))
         rest = np.flatnonzero(~simple & (words != 0))  # the other texts that are not empty

@@ -39,17 +39,32 @@ _1, _7, _8, _16, _32, _64 = (np.uint64(k) for k in (1, 7, 8, 16, 32, 64))
 BLOCK = 1 << 14
 
 
-def pack_words(codes: np.ndarray) -> np.ndarray | None:
+def words_of(codes: np.ndarray) -> np.ndarray | None:
     """Each text's bytes as one word, or None when some text is longer than eight bytes.
 
     Parameters
     ----------
     codes : ndarray of uint8, shape (width, n)
-        The texts' bytes padded with 0, one row per position.
+        The texts' bytes padded with 0, one row per position. When ``codes`` is a view
+        of rows of eight bytes (the splitter's layout: ``rows[:, :width].T`` of a
+        C-ordered ``rows`` of shape (m, 8), zeros past each text), those rows are the
+        words and nothing is copied.
     """
     width, n = codes.shape
     if width > WORD_BYTES:
         return None
+    owner = codes.base
+    if (
+        isinstance(owner, np.ndarray)
+        and owner.dtype == np.uint8
+        and owner.ndim == 2
+        and owner.shape[1] == WORD_BYTES
+        and owner.flags.c_contiguous
+        and codes.strides == (1, WORD_BYTES)
+    ):
+        skip, rest = divmod(codes.ctypes.data - owner.ctypes.data, WORD_BYTES)
+        if not rest and 0 <= skip <= owner.shape[0] - n:
+            return owner.view(_WORD).reshape(-1)[skip : skip + n]
     rows = np.zeros((n, WORD_BYTES), dtype=np.uint8)
     rows[:, :width] = codes.T
     return rows.view(_WORD).reshape(n)
@@ -61,7 +76,7 @@ def simple_word_values(words: np.ndarray, mark: int) -> tuple[np.ndarray, np.nda
     Parameters
     ----------
     words : ndarray of uint64, shape (n,)
-        Texts of up to eight bytes from :func:`pack_words`.
+        Texts of up to eight bytes from :func:`words_of`.
     mark : int
         The byte of the decimal mark.
 

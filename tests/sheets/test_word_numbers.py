@@ -13,7 +13,7 @@ import pytest
 
 from imputer_app.sheets._fast_text import _simple_values, plain_number_values
 from imputer_app.sheets._string_cells import STRING_DTYPE, ascii_codes
-from imputer_app.sheets._word_numbers import BLOCK, pack_words, simple_word_values
+from imputer_app.sheets._word_numbers import BLOCK, simple_word_values, words_of
 
 
 def _is_simple(text: str, mark: str) -> bool:
@@ -26,7 +26,7 @@ def _is_simple(text: str, mark: str) -> bool:
 def _words(texts: list[str]) -> tuple[np.ndarray, np.ndarray]:
     codes = ascii_codes(np.array(texts, dtype=STRING_DTYPE))
     assert codes is not None
-    words = pack_words(codes)
+    words = words_of(codes)
     assert words is not None
     return codes, words
 
@@ -69,7 +69,7 @@ def test_words_agree_with_the_byte_per_position_path(mark: str) -> None:
 
 def test_pack_refuses_texts_over_eight_bytes() -> None:
     codes = ascii_codes(np.array(["123456789", "1"], dtype=STRING_DTYPE))
-    assert codes is not None and pack_words(codes) is None
+    assert codes is not None and words_of(codes) is None
 
 
 @pytest.mark.parametrize("decimal", [".", ","])
@@ -80,7 +80,7 @@ def test_plain_numbers_through_words_equal_those_without_codes(decimal: str) -> 
              "1,234", "-0", "inf", "nan", "1e400", "0x10", "1_000", "+-5", "5..", "e5", "\t5"]  # fmt: skip
     values = np.array(texts, dtype=STRING_DTYPE)
     codes = ascii_codes(values)
-    assert codes is not None and pack_words(codes) is not None
+    assert codes is not None and words_of(codes) is not None
     with_words = plain_number_values(values, decimal, codes)
     without = plain_number_values(values.astype(object), decimal)
     np.testing.assert_array_equal(with_words, without)
