@@ -25,6 +25,7 @@ from imputer_app.sheets._cells import NUMBER, ParsedColumn
 from imputer_app.sheets._patch_cells import column_styles
 from imputer_app.sheets._patch_styles import children, get_attr
 from imputer_app.sheets._string_cells import as_objects, ascii_codes, is_string_array
+from imputer_app.sheets._word_numbers import word_digits_after_mark, words_of
 from imputer_app.sheets._xlsx_package import sheet_parts
 
 #: Built-in number formats (ECMA-376 Part 1, sec. 18.8.31) with fixed decimals.
@@ -82,7 +83,11 @@ def text_decimals(
         texts = np.asarray(as_objects(texts[rows]), dtype=str)
         rows = np.ones(texts.shape[0], dtype=bool)
         codes = texts.view(np.uint32).reshape(len(texts), -1).T
-    after, exponent = _digits_after_mark(codes, ord(decimal))
+    words = words_of(codes)
+    if words is not None:  # texts of up to eight bytes: a word at a time
+        after, exponent = word_digits_after_mark(words, ord(decimal))
+    else:
+        after, exponent = _digits_after_mark(codes, ord(decimal))
     best = int(after[rows & ~exponent].max(initial=0))
     for one in texts[rows & exponent].tolist():  # rare: 1.5e-3
         mantissa, _, power = one.strip().lower().partition("e")

@@ -33,7 +33,9 @@ _PAIRS = np.uint64(0x000000FF000000FF)
 _MUL_HIGH = np.uint64(100 + (1_000_000 << 32))
 _MUL_LOW = np.uint64(1 + (10_000 << 32))
 _ZEROS = _ONES * np.uint64(ord("0"))
-_ABOVE_NINE = _ONES * np.uint64(0x80 - 10)
+_ABOVE_NINE = _ONES * np.uint64(0x80 - 10)  # a byte 0-127 above 9 gets its high bit
+_LOWER = _ONES * np.uint64(0x20)  # ASCII letters to lower case
+_E = _ONES * np.uint64(ord("e"))
 _1, _7, _8, _16, _32, _64 = (np.uint64(k) for k in (1, 7, 8, 16, 32, 64))
 #: Words read at a time: the temporaries of one block stay in the processor's cache.
 BLOCK = 1 << 14
@@ -106,8 +108,7 @@ def _block_values(words: np.ndarray, marks: np.uint64) -> tuple[np.ndarray, np.n
     filled = (((body & _LOW7) + _LOW7) | body) & _HIGH
     spread = (filled >> _7) * np.uint64(0xFF)  # 0xFF for each filled byte
     simple = (spread & (spread + _1)) == 0  # the filled bytes come first: no zero byte inside
-    at_mark = body ^ marks  # zero at the decimal mark
-    at_mark = ~((((at_mark & _LOW7) + _LOW7) | at_mark) | _LOW7)  # the high bit of a mark byte
+    at_mark = _zero_bytes(body ^ marks)  # the high bit of a mark byte
     n_marks = np.bitwise_count(at_mark)
     simple &= n_marks <= 1
     below = (at_mark >> _7) - _1  # the bytes before the mark; all when there is none
@@ -124,3 +125,35 @@ def _block_values(words: np.ndarray, marks: np.uint64) -> tuple[np.ndarray, np.n
     np.negative(found, out=found, where=negative)
     found[~simple] = np.nan
     return simple, found
+
+
+def word_digits_after_mark(words: np.ndarray, mark: int) -> tuple[np.ndarray, np.ndarray]:
+    """Per word: the digits after its last ``mark`` (0 without one), and whether it holds ``e`` or ``E``.
+
+    The word form of :func:`~imputer_app.sheets._precision.text_decimals`' count of
+    decimals, for texts from :func:`words_of`.
+    """
+    after = np.empty(words.shape[0], dtype=np.int64)
+    exponent = np.empty(words.shape[0], dtype=bool)
+    marks = _ONES * np.uint64(mark)
+    for start in range(0, words.shape[0], BLOCK):
+        block = slice(start, start + BLOCK)
+        after[block], exponent[block] = _block_decimals(words[block], marks)
+    return after, exponent
+
+
+def _zero_bytes(words: np.ndarray) -> np.ndarray:
+    """The high bit of every zero byte, exactly (no carries between bytes)."""
+    return ~((((words & _LOW7) + _LOW7) | words) | _LOW7)
+
+
+def _block_decimals(words: np.ndarray, marks: np.uint64) -> tuple[np.ndarray, np.ndarray]:
+    at_mark = _zero_bytes(words ^ marks)
+    zeros = words ^ _ZEROS
+    digit = ~((((zeros & _LOW7) + _ABOVE_NINE) | zeros) | _LOW7)  # high bit of bytes "0"-"9"
+    upto = at_mark | (at_mark >> _8)  # every byte up to the last mark
+    upto |= upto >> _16
+    upto |= upto >> _32
+    after = np.where(at_mark != 0, np.bitwise_count(digit & ~upto), 0)
+    exponent = _zero_bytes((words | _LOWER) ^ _E) != 0
+    return after, exponent

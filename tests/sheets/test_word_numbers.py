@@ -11,9 +11,11 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from imputer_app.sheets._cells import in_codes
 from imputer_app.sheets._fast_text import _simple_values, plain_number_values
+from imputer_app.sheets._precision import _digits_after_mark
 from imputer_app.sheets._string_cells import STRING_DTYPE, ascii_codes
-from imputer_app.sheets._word_numbers import BLOCK, simple_word_values, words_of
+from imputer_app.sheets._word_numbers import BLOCK, simple_word_values, word_digits_after_mark, words_of
 
 
 def _is_simple(text: str, mark: str) -> bool:
@@ -84,3 +86,27 @@ def test_plain_numbers_through_words_equal_those_without_codes(decimal: str) -> 
     with_words = plain_number_values(values, decimal, codes)
     without = plain_number_values(values.astype(object), decimal)
     np.testing.assert_array_equal(with_words, without)
+
+
+@pytest.mark.parametrize("mark", [".", ","])
+def test_word_decimals_agree_with_the_byte_per_position_count(mark: str) -> None:
+    # the count of decimals (digits after the last mark, an exponent seen) both ways
+    rng = np.random.default_rng(13)
+    alphabet = [*"0123456789.,eE+- x"]
+    texts = ["".join(rng.choice(alphabet, rng.integers(0, 9))) for _ in range(2 * BLOCK + 5)]
+    texts += [t.replace(".", mark) for t in ["6.40", "1.5e-3", "7", "", "1.2.34", "E5", "12345678"]]
+    codes, words = _words(texts)
+    after, exponent = word_digits_after_mark(words, ord(mark))
+    old_after, old_exponent = _digits_after_mark(codes, ord(mark))
+    np.testing.assert_array_equal(after, old_after)
+    np.testing.assert_array_equal(exponent, old_exponent)
+    assert after[-7] == 2 and exponent[-6] and after[-3] == 2
+
+
+@pytest.mark.parametrize("wanted", [(), (0,), (1, 3, 8), (0, 15), (2, 16), (7, 200, 255)])
+@pytest.mark.parametrize("dtype", [np.int8, np.uint8])
+def test_in_codes_equals_isin(wanted: tuple[int, ...], dtype: type) -> None:
+    # reference: numpy.isin on every code 0-255 (as int8: -128..127 wrap round as before)
+    codes = np.arange(256).astype(np.uint8).astype(dtype)
+    expected = np.isin(codes.astype(np.uint8), list(wanted))
+    np.testing.assert_array_equal(in_codes(codes, wanted), expected)
