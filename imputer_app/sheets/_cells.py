@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+import threading
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 
@@ -402,9 +403,10 @@ def _take_string_column(
     parsed.cls[plain] = NUMBER
     parsed.cls[marker] = MARKER
     np.copyto(parsed.number, numbers, where=plain & ~marker)
-    rest = ~plain & (raw != "")
-    if rest.any():
-        _take_texts(parsed, np.flatnonzero(rest), as_objects(raw[rest]), decimal, markers, known)
+    rest = np.flatnonzero(~plain)
+    rest = rest[raw[rest] != ""]  # the filled cells that are no plain number: few
+    if rest.size:
+        _take_texts(parsed, rest, as_objects(raw[rest]), decimal, markers, known)
 
 
 def _take_texts(
@@ -449,17 +451,19 @@ class KnownTexts:
     def __init__(self, decimal: str, markers: Markers) -> None:
         self.decimal, self.markers = decimal, markers
         self._found: dict[str, tuple[object, ...]] = {}
+        self._lock = threading.Lock()  # columns may be classified in threads
 
     def classify(self, uniques: np.ndarray) -> dict[str, np.ndarray]:
         """What :func:`_classify_texts` returns for the (untrimmed) texts ``uniques``."""
-        new = [text for text in dict.fromkeys(uniques.tolist()) if text not in self._found]
-        if new:
-            found = _classify_texts(
-                pd.Series(_STRIP(np.array(new, dtype=object)), dtype=str), self.decimal, self.markers
-            )
-            each = zip(*(found[name].tolist() for name in _CLASSIFIED), strict=True)
-            self._found.update(zip(new, each, strict=True))
-        rows = [self._found[text] for text in uniques.tolist()]
+        with self._lock:
+            new = [text for text in dict.fromkeys(uniques.tolist()) if text not in self._found]
+            if new:
+                found = _classify_texts(
+                    pd.Series(_STRIP(np.array(new, dtype=object)), dtype=str), self.decimal, self.markers
+                )
+                each = zip(*(found[name].tolist() for name in _CLASSIFIED), strict=True)
+                self._found.update(zip(new, each, strict=True))
+            rows = [self._found[text] for text in uniques.tolist()]
         return {
             name: np.array([row[k] for row in rows], dtype=_CLASSIFIED[name])
             for k, name in enumerate(_CLASSIFIED)

@@ -10,6 +10,7 @@ The source file is only ever opened for reading.
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 from os import PathLike
 from pathlib import Path
@@ -43,6 +44,8 @@ PROGRESS_TOTAL = 1000
 _READ_DONE, _GRID_DONE, _COLUMNS_DONE = 150, 400, 900
 #: Workbook formats whose number formats are read for each column's measured precision.
 _XLSX_FORMATS = ("xlsx", "xlsm")
+#: Threads that classify the columns of a long csv side by side.
+_PARSE_WORKERS = 2
 #: Rows sampled to detect the decimal mark.
 _DECIMAL_SAMPLE_ROWS = 2000
 
@@ -342,16 +345,25 @@ def _parse_body(
     parsed: list[ParsedColumn] = []
     width = body.shape[1]
     known = KnownTexts(decimal, markers)
-    for position in range(width):
-        raise_if_cancelled(cancel)
+
+    def parse(position: int) -> ParsedColumn:
         codes = grid.codes[position] if grid.codes is not None else None
         codes = None if codes is None else codes[:, layout.data_start :]
-        parsed.append(parse_column(body[:, position], decimal, markers, known, codes))
-        report(
-            progress,
-            _GRID_DONE + (_COLUMNS_DONE - _GRID_DONE) * (position + 1) // max(width, 1),
-            PROGRESS_TOTAL,
-        )
+        return parse_column(body[:, position], decimal, markers, known, codes)
+
+    # a long csv's columns are classified side by side: their numpy work runs outside the GIL
+    # (a workbook's cells are Python objects: one thread)
+    workers = _PARSE_WORKERS if grid.codes is not None and width > 1 else 1
+    with ThreadPoolExecutor(workers, thread_name_prefix="kinfill-columns") as pool:
+        found = pool.map(parse, range(width))
+        for position in range(width):
+            raise_if_cancelled(cancel)
+            parsed.append(next(found))
+            report(
+                progress,
+                _GRID_DONE + (_COLUMNS_DONE - _GRID_DONE) * (position + 1) // max(width, 1),
+                PROGRESS_TOTAL,
+            )
     classes = np.stack([p.cls for p in parsed], axis=1) if parsed else np.empty((body.shape[0], 0))
     filled = classes != BLANK
     keep_rows, problems = _data_rows(filled, body, layout.data_start)
