@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
+from imputer_app.sheets._string_cells import STRING_DTYPE
 from imputer_app.sheets._word_numbers import WORD_BYTES
 
 #: Threads that cut pieces side by side.
@@ -39,7 +40,7 @@ class _Piece:
 
 @dataclass(frozen=True)
 class ByteColumn:
-    """One column's cells as bytes.
+    """One column's cells as bytes and as text.
 
     Attributes
     ----------
@@ -49,31 +50,45 @@ class ByteColumn:
         the limit is all zeros here.
     lengths : ndarray of int64, shape (n_rows,)
         Each cell's length in bytes.
+    texts : ndarray of StringDType, shape (n_rows,)
+        Each cell's text ("" for a cell over the limit: the caller cuts those).
     long_cells : list of (int, int)
-        (row, first byte in the text) of every cell over the limit, for the caller to cut.
+        (row, first byte in the text) of every cell over the limit.
     """
 
     rows: np.ndarray
     lengths: np.ndarray
+    texts: np.ndarray
     long_cells: list[tuple[int, int]] = field(default_factory=list)
 
 
-def cut_columns(data: bytes, delimiter: int, longest_kept: int) -> list[ByteColumn] | None:
-    """Each column's cell bytes, or None when the rows differ in width.
+def cut_columns(
+    data: bytes, begin: int, end: int, delimiter: int, longest_kept: int
+) -> tuple[np.ndarray, list[ByteColumn]] | None:
+    """The grid of texts and each column's cells, or None when the rows differ in width.
 
     Parameters
     ----------
     data : bytes
-        The text's UTF-8 bytes, without a line end at the very end; a line ends at a LF,
-        and a CR just before it belongs to the line end.
+        UTF-8 bytes; the text is ``data[begin:end]``, without a line end at its very
+        end. A line ends at a LF, and a CR just before it belongs to the line end.
+    begin, end : int
+        Where the text starts and stops in ``data``.
     delimiter : int
         The separator byte.
     longest_kept : int
         Cells longer than this many bytes are left as zeros in their rows and listed
         in :attr:`ByteColumn.long_cells`.
+
+    Returns
+    -------
+    (ndarray of StringDType, shape (n_rows, n_columns), list of ByteColumn) or None
+        The texts of all columns are one block, column after column, so that each
+        column is contiguous in memory (cells over the limit still ""). Byte positions
+        in :attr:`ByteColumn.long_cells` count from ``begin``.
     """
-    codes = np.frombuffer(data, dtype=np.uint8)
-    bounds = _piece_bounds(data)
+    codes = np.frombuffer(data, dtype=np.uint8, count=end - begin, offset=begin)
+    bounds = _piece_bounds(data, begin, end)
     with ThreadPoolExecutor(WORKERS, thread_name_prefix="kinfill-csv") as pool:
         pieces = list(pool.map(lambda b: _find_cells(codes, b[0], b[1], delimiter), bounds))
         found = [p for p in pieces if p is not None]
@@ -81,28 +96,31 @@ def cut_columns(data: bytes, delimiter: int, longest_kept: int) -> list[ByteColu
             return None  # some row is shorter or longer than the first
         offsets = np.cumsum([0] + [p.starts.shape[0] for p in found]).tolist()
         longest = np.max([p.lengths.max(axis=0) for p in found], axis=0).tolist()
+        n_rows = offsets[-1]
+        texts = np.empty(n_rows * len(longest), dtype=STRING_DTYPE)
         columns = [
             ByteColumn(
-                np.empty((offsets[-1], _row_width(most, longest_kept)), dtype=np.uint8),
-                np.empty(offsets[-1], dtype=np.int64),
+                np.empty((n_rows, _row_width(most, longest_kept)), dtype=np.uint8),
+                np.empty(n_rows, dtype=np.int64),
+                texts[j * n_rows : (j + 1) * n_rows],
             )
-            for most in longest
+            for j, most in enumerate(longest)
         ]
         list(pool.map(lambda k: _copy_cells(codes, found[k], offsets[k], columns), range(len(found))))
-    return columns
+    return texts.reshape(len(columns), n_rows).T, columns
 
 
 def _row_width(longest: int, longest_kept: int) -> int:
     return WORD_BYTES if longest <= WORD_BYTES else min(longest, longest_kept)
 
 
-def _piece_bounds(data: bytes) -> list[tuple[int, int]]:
-    """(start, stop) byte positions of pieces that each end just after a LF (the last at the end)."""
-    bounds, start = [], 0
-    while start < len(data):
-        at = data.find(b"\n", start + PIECE_BYTES) if start + PIECE_BYTES < len(data) else -1
-        stop = len(data) if at < 0 else at + 1
-        bounds.append((start, stop))
+def _piece_bounds(data: bytes, begin: int, end: int) -> list[tuple[int, int]]:
+    """(start, stop) from ``begin`` of pieces that each end just after a LF (the last at ``end``)."""
+    bounds, start = [], begin
+    while start < end:
+        at = data.find(b"\n", start + PIECE_BYTES, end) if start + PIECE_BYTES < end else -1
+        stop = end if at < 0 else at + 1
+        bounds.append((start - begin, stop - begin))
         start = stop
     return bounds
 
@@ -158,3 +176,5 @@ def _copy_cells(codes: np.ndarray, piece: _Piece, offset: int, columns: list[Byt
             column.long_cells.extend(
                 zip((over + offset).tolist(), (starts[over] + piece.start).tolist(), strict=True)
             )
+        # UTF-8 bytes to str (under the GIL, beside the other thread's numpy work)
+        np.copyto(column.texts[offset : offset + lines], out.view(f"S{width}").ravel(), casting="unsafe")

@@ -21,6 +21,7 @@ path, and hands everything else back to it.
 
 from __future__ import annotations
 
+import codecs
 from dataclasses import dataclass
 
 import numpy as np
@@ -67,7 +68,7 @@ class SplitText:
     codes: tuple[np.ndarray | None, ...]
 
 
-def split_plain_text(text: str, delimiter: str) -> SplitText | None:
+def split_plain_text(text: str, delimiter: str, utf8: bytes | None = None) -> SplitText | None:
     """Split long quote-free text with rows of equal width into a ``StringDType`` grid.
 
     The cells are cut straight from the UTF-8 bytes by the positions of separators and
@@ -79,6 +80,10 @@ def split_plain_text(text: str, delimiter: str) -> SplitText | None:
         The decoded file (no byte-order mark).
     delimiter : str
         One separator character.
+    utf8 : bytes, optional
+        The file's bytes when ``text`` was decoded from them as UTF-8 (a UTF-8
+        byte-order mark before them is skipped): they are cut as they are, without
+        encoding ``text`` again.
 
     Returns
     -------
@@ -89,41 +94,35 @@ def split_plain_text(text: str, delimiter: str) -> SplitText | None:
     """
     if len(text) < MIN_FAST_CHARS or '"' in text or len(delimiter) != 1 or not delimiter.isascii():
         return None
-    body = text.rstrip("\r\n")
-    if (
-        not body
-        or body[0] in "\r\n"
-        or "\x00" in body
-        or ("\r" in body and body.count("\r") != body.count("\r\n"))
-    ):
+    if text[0] in "\r\n" or "\x00" in text or ("\r" in text and text.count("\r") != text.count("\r\n")):
         return None
-    try:
-        data = body.encode("utf-8")
-    except UnicodeEncodeError:  # a lone surrogate
-        return None
-    columns = cut_columns(data, ord(delimiter), _LONG_CELL)
-    if columns is None:
+    if utf8 is None:
+        try:
+            utf8 = text.encode("utf-8")
+        except UnicodeEncodeError:  # a lone surrogate
+            return None
+    begin = len(codecs.BOM_UTF8) if utf8.startswith(codecs.BOM_UTF8) else 0
+    end = len(utf8)
+    while end > begin and utf8[end - 1] in b"\r\n":  # no line end after the last line
+        end -= 1
+    cut = cut_columns(utf8, begin, end, ord(delimiter), _LONG_CELL) if end > begin else None
+    if cut is None:
         return None  # some row is shorter or longer than the first
-    # column after column in one block, so that each column is contiguous in memory
-    n_rows = columns[0].lengths.shape[0]
-    cells = np.empty(n_rows * len(columns), dtype=STRING_DTYPE)
-    column_codes = tuple(
-        _column_texts(cells[j * n_rows : (j + 1) * n_rows], data, column) for j, column in enumerate(columns)
-    )
-    return SplitText(cells.reshape(len(columns), n_rows).T, column_codes)
+    cells, columns = cut
+    column_codes = tuple(_column_texts(utf8[begin:end] if c.long_cells else b"", c) for c in columns)
+    return SplitText(cells, column_codes)
 
 
-def _column_texts(out: np.ndarray, data: bytes, column: ByteColumn) -> np.ndarray | None:
-    """Write the texts of one column into ``out``; return its bytes one row per position.
+def _column_texts(data: bytes, column: ByteColumn) -> np.ndarray | None:
+    """Finish the texts of one column; return its bytes one row per position.
 
     The bytes of a column of cells of up to eight bytes are a view of its words (see
     :func:`~imputer_app.sheets._word_numbers.words_of`); None when a cell is longer than
-    :data:`_LONG_CELL` (such cells are cut one by one).
+    :data:`_LONG_CELL` (such cells are cut one by one from ``data``).
     """
     rows = column.rows
-    np.copyto(out, rows.view(f"S{rows.shape[1]}").ravel(), casting="unsafe")  # UTF-8 bytes to str
     for i, start in column.long_cells:  # rare: cells over _LONG_CELL bytes
-        out[i] = data[start : start + int(column.lengths[i])].decode("utf-8")
+        column.texts[i] = data[start : start + int(column.lengths[i])].decode("utf-8")
     if column.long_cells:
         return None
     if rows.shape[1] == WORD_BYTES:

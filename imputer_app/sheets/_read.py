@@ -311,11 +311,11 @@ def _load_grid(
     utf16 = _text.is_utf16(data) or _text.is_wide_codec(encoding)
     _guards.check_text_bytes(data, path, utf16)
     text, used = _text.decode(data, path, encoding)
-    if not text.strip():
+    if not text[: _guards.BLANK_HEAD].strip() and not text.strip():  # the start decides a long text
         raise SheetError(f"'{path.name}' is empty")
     separator = _text.normalise_delimiter(delimiter, path) if delimiter else _text.detect_delimiter(text, fmt)
     raise_if_cancelled(cancel)
-    cells, codes = _text.parse_grid(text, separator, path, cancel)
+    cells, codes = _text.parse_grid(text, separator, path, cancel, data if _text.is_utf8(used) else None)
     return _Grid(cells, (), None, separator, used, _text.line_end(text), codes=codes)
 
 

@@ -138,3 +138,33 @@ def test_long_sheet_same_through_both_paths(
     assert fast.raw_text.tolist() == exact.raw_text.tolist()
     assert fast.columns[0].kind == "identifier" or fast.columns[0].kind == "category"
     assert (fast.states["b"] == "censored").sum() > 100
+
+
+@pytest.mark.parametrize(
+    ("encoding", "prefix"), [("utf-8", b""), ("utf-8", b"\xef\xbb\xbf"), ("cp1252", b""), ("utf-16", b"")]
+)
+def test_file_bytes_cut_as_they_are_or_encoded_again(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, encoding: str, prefix: bytes
+) -> None:
+    # a UTF-8 file (with or without a byte-order mark) is cut from its own bytes, another
+    # encoding from its text encoded as UTF-8: the same sheet as csv.reader either way
+    lines = ["Größe;Wert;Einheit"] + [
+        f"{i},5;{i % 7},25;µg" if i % 9 else f"n.d.;<0,5;é{i}" for i in range(400)
+    ]
+    path = tmp_path / "enc.csv"
+    path.write_bytes(prefix + "\n".join(lines).encode(encoding))
+    monkeypatch.setattr(_byte_grid, "PIECE_BYTES", 100)
+    given: list[bool] = []
+    split = _text.split_plain_text
+    monkeypatch.setattr(_text, "split_plain_text", lambda *a: given.append(a[2] is not None) or split(*a))
+    monkeypatch.setattr(_fast_text, "MIN_FAST_CHARS", 0)
+    fast = read_sheet(path)
+    monkeypatch.setattr(_fast_text, "MIN_FAST_CHARS", 1 << 62)
+    exact = read_sheet(path)
+    assert given[0] == (encoding == "utf-8")
+    assert type(fast.raw_text.dtype) is np.dtypes.StringDType
+    pd.testing.assert_frame_equal(fast.frame, exact.frame)
+    pd.testing.assert_frame_equal(fast.states, exact.states)
+    assert fast.raw_text.tolist() == exact.raw_text.tolist()
+    assert fast.columns == exact.columns and fast.source == exact.source
+    assert list(fast.frame.columns) == ["Größe", "Wert", "Einheit"]
