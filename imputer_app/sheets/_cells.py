@@ -34,6 +34,7 @@ from imputer_app.sheets._fast_text import plain_number_values
 from imputer_app.sheets._grid import NO_VALUE as NO_VALUE_CELL
 from imputer_app.sheets._grid import FormulaError
 from imputer_app.sheets._string_cells import as_objects, ascii_codes, is_string_array
+from imputer_app.sheets._word_numbers import words_of
 
 #: Cell classes found on reading (internal codes). FORMULA_ERROR is a cached formula
 #: error (``#DIV/0!``), NO_VALUE a formula cell saved without its result.
@@ -403,8 +404,12 @@ def _take_string_column(
     parsed.cls[plain] = NUMBER
     parsed.cls[marker] = MARKER
     np.copyto(parsed.number, numbers, where=plain & ~marker)
-    rest = np.flatnonzero(~plain)
-    rest = rest[raw[rest] != ""]  # the filled cells that are no plain number: few
+    words = None if parsed.codes is None else words_of(parsed.codes)
+    if words is not None:  # a text without NUL (the splitter refuses them) is filled when its word is not 0
+        rest = np.flatnonzero(~plain & (words != 0))
+    else:
+        rest = np.flatnonzero(~plain)
+        rest = rest[raw[rest] != ""]  # the filled cells that are no plain number: few
     if rest.size:
         _take_texts(parsed, rest, as_objects(raw[rest]), decimal, markers, known)
 
