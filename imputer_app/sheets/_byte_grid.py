@@ -34,8 +34,8 @@ class _Piece:
 
     start: int
     stop: int
-    starts: np.ndarray  # int64 (lines, width)
-    lengths: np.ndarray  # int64 (lines, width)
+    starts: np.ndarray  # int64 (width, lines), from the piece's start: one row per column
+    lengths: np.ndarray  # int64 (width, lines)
 
 
 @dataclass(frozen=True)
@@ -48,18 +48,18 @@ class ByteColumn:
         Each cell's bytes padded with 0: eight bytes a row (one word) when no cell is
         longer, else as wide as the longest cell up to the caller's limit. A cell over
         the limit is all zeros here.
-    lengths : ndarray of int64, shape (n_rows,)
-        Each cell's length in bytes.
+    longest : int
+        The length in bytes of the longest cell.
     texts : ndarray of StringDType, shape (n_rows,)
         Each cell's text ("" for a cell over the limit: the caller cuts those).
-    long_cells : list of (int, int)
-        (row, first byte in the text) of every cell over the limit.
+    long_cells : list of (int, int, int)
+        (row, first byte in the text, length in bytes) of every cell over the limit.
     """
 
     rows: np.ndarray
-    lengths: np.ndarray
+    longest: int
     texts: np.ndarray
-    long_cells: list[tuple[int, int]] = field(default_factory=list)
+    long_cells: list[tuple[int, int, int]] = field(default_factory=list)
 
 
 def cut_columns(
@@ -92,16 +92,16 @@ def cut_columns(
     with ThreadPoolExecutor(WORKERS, thread_name_prefix="kinfill-csv") as pool:
         pieces = list(pool.map(lambda b: _find_cells(codes, b[0], b[1], delimiter), bounds))
         found = [p for p in pieces if p is not None]
-        if len(found) < len(pieces) or any(p.starts.shape[1] != found[0].starts.shape[1] for p in found):
+        if len(found) < len(pieces) or any(p.starts.shape[0] != found[0].starts.shape[0] for p in found):
             return None  # some row is shorter or longer than the first
-        offsets = np.cumsum([0] + [p.starts.shape[0] for p in found]).tolist()
-        longest = np.max([p.lengths.max(axis=0) for p in found], axis=0).tolist()
+        offsets = np.cumsum([0] + [p.starts.shape[1] for p in found]).tolist()
+        longest = np.max([p.lengths.max(axis=1) for p in found], axis=0).tolist()
         n_rows = offsets[-1]
         texts = np.empty(n_rows * len(longest), dtype=STRING_DTYPE)
         columns = [
             ByteColumn(
                 np.empty((n_rows, _row_width(most, longest_kept)), dtype=np.uint8),
-                np.empty(n_rows, dtype=np.int64),
+                most,
                 texts[j * n_rows : (j + 1) * n_rows],
             )
             for j, most in enumerate(longest)
@@ -139,13 +139,13 @@ def _find_cells(codes: np.ndarray, start: int, stop: int, delimiter: int) -> _Pi
     if ends.size % width or not np.array_equal(line_ends, np.arange(width - 1, ends.size, width)):
         return None
     starts = np.empty(ends.size, dtype=np.int64)
-    starts[0] = start
-    starts[1:] = ends[:-1] + (start + 1)
-    ends += start
-    crlf = line_ends[codes[ends[line_ends] - 1] == ord("\r")]
+    starts[0] = 0
+    starts[1:] = ends[:-1] + 1
+    crlf = line_ends[piece[ends[line_ends] - 1] == ord("\r")]
     ends[crlf] -= 1  # a CR before the LF belongs to the line end
     ends -= starts
-    return _Piece(start, stop, starts.reshape(-1, width), ends.reshape(-1, width))
+    # one contiguous row per column: the copies below read them column after column
+    return _Piece(start, stop, starts.reshape(-1, width).T.copy(), ends.reshape(-1, width).T.copy())
 
 
 def _copy_cells(codes: np.ndarray, piece: _Piece, offset: int, columns: list[ByteColumn]) -> None:
@@ -155,15 +155,13 @@ def _copy_cells(codes: np.ndarray, piece: _Piece, offset: int, columns: list[Byt
     source = codes[piece.start : end]
     if end - piece.stop < widest:  # the text's end: read zeros past it
         source = np.concatenate((source, np.zeros(widest, dtype=np.uint8)))
-    lines = piece.starts.shape[0]
+    lines = piece.starts.shape[1]
     # a word starting at every byte (unaligned, overlapping): one gather reads a cell's eight bytes
     at_every_byte = np.ndarray((source.size - WORD_BYTES + 1,), dtype=_WORD, buffer=source, strides=(1,))
     for j, column in enumerate(columns):
         width = column.rows.shape[1]
         out = column.rows[offset : offset + lines]
-        length = piece.lengths[:, j]
-        column.lengths[offset : offset + lines] = length
-        starts = piece.starts[:, j] - piece.start
+        length, starts = piece.lengths[j], piece.starts[j]
         if width == WORD_BYTES:  # the eight bytes from each cell's start, its own kept
             words = out.view(_WORD).reshape(lines)
             np.bitwise_and(
@@ -173,8 +171,7 @@ def _copy_cells(codes: np.ndarray, piece: _Piece, offset: int, columns: list[Byt
             out[...] = sliding_window_view(source, width)[starts]
             out *= np.arange(width) < np.where(length > width, 0, length)[:, None]
             over = np.flatnonzero(length > width)
-            column.long_cells.extend(
-                zip((over + offset).tolist(), (starts[over] + piece.start).tolist(), strict=True)
-            )
+            firsts, counts = (starts[over] + piece.start).tolist(), length[over].tolist()
+            column.long_cells.extend(zip((over + offset).tolist(), firsts, counts, strict=True))
         # UTF-8 bytes to str (under the GIL, beside the other thread's numpy work)
         np.copyto(column.texts[offset : offset + lines], out.view(f"S{width}").ravel(), casting="unsafe")

@@ -292,14 +292,15 @@ def parse_column(
     per-text work. ``known`` (built with the same ``decimal`` and ``markers``) keeps the
     distinct texts of earlier columns of the sheet, so that each is classified once.
     """
+    no_texts = _no_texts(raw.shape[0])  # shared and read-only until a field is written
     parsed = ParsedColumn(
         raw=raw,
         cls=np.full(raw.shape[0], BLANK, dtype=np.int8),
         number=np.full(raw.shape[0], np.nan),
-        text=_no_texts(raw.shape[0]),
-        side=_no_texts(raw.shape[0]),
+        text=no_texts,
+        side=no_texts,
         limit=np.full(raw.shape[0], np.nan),
-        token=_no_texts(raw.shape[0]),
+        token=no_texts,
     )
     if not raw.size:
         return parsed
@@ -314,10 +315,24 @@ def parse_column(
 
 
 def _no_texts(n: int) -> np.ndarray:
-    """An object array of ``n`` empty texts (``np.full`` takes several times as long for objects)."""
+    """A read-only object array of ``n`` empty texts (``np.full`` takes several times as long for objects).
+
+    The text fields of a column start as one such array; :func:`_writable` gives a field
+    its own copy before it is written.
+    """
     texts = np.empty(n, dtype=object)
     texts.fill("")
+    texts.flags.writeable = False
     return texts
+
+
+def _writable(parsed: ParsedColumn, name: str) -> np.ndarray:
+    """The field ``name`` of ``parsed``, copied first when it is the shared read-only start."""
+    values: np.ndarray = getattr(parsed, name)
+    if not values.flags.writeable:
+        values = values.copy()
+        setattr(parsed, name, values)
+    return values
 
 
 def _take_by_type(
@@ -431,7 +446,7 @@ def _take_texts(
         found = _classify_texts(pd.Series(_STRIP(uniques), dtype=str), decimal, markers)
     for name, column in found.items():
         if name in _FILLED_AS or not _is_default(column, name):  # a column of defaults is already so
-            getattr(parsed, name)[where] = column[codes]
+            _writable(parsed, name)[where] = column[codes]
 
 
 def _is_default(column: np.ndarray, name: str) -> bool:
@@ -545,7 +560,7 @@ def _take_others(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray) ->
     kinds = np.array([_other_class(v) for v in values], dtype=np.int8)
     parsed.cls[where] = kinds
     errors = np.flatnonzero(kinds == FORMULA_ERROR)
-    parsed.text[where[errors]] = [str(values[i]) for i in errors]
+    _writable(parsed, "text")[where[errors]] = [str(values[i]) for i in errors]
 
 
 def _other_class(value: object) -> int:

@@ -121,12 +121,12 @@ def _column_texts(data: bytes, column: ByteColumn) -> np.ndarray | None:
     :data:`_LONG_CELL` (such cells are cut one by one from ``data``).
     """
     rows = column.rows
-    for i, start in column.long_cells:  # rare: cells over _LONG_CELL bytes
-        column.texts[i] = data[start : start + int(column.lengths[i])].decode("utf-8")
+    for i, start, length in column.long_cells:  # rare: cells over _LONG_CELL bytes
+        column.texts[i] = data[start : start + length].decode("utf-8")
     if column.long_cells:
         return None
     if rows.shape[1] == WORD_BYTES:
-        return rows[:, : max(int(column.lengths.max(initial=0)), 1)].T
+        return rows[:, : max(column.longest, 1)].T
     return np.ascontiguousarray(rows.T)
 
 
