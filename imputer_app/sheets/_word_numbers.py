@@ -103,21 +103,21 @@ def _block_values(words: np.ndarray, marks: np.uint64) -> tuple[np.ndarray, np.n
     """:func:`simple_word_values` for one block of words (``marks``: the mark in every byte)."""
     first = words & np.uint64(0xFF)
     negative = first == ord("-")
-    body = np.where(negative | (first == ord("+")), words >> _8, words)
-    # the high bit of every byte that is not zero (no carries between bytes)
-    filled = (((body & _LOW7) + _LOW7) | body) & _HIGH
+    signed = negative | (first == ord("+"))
+    body = np.where(signed, words >> _8, words) if signed.any() else words
+    filled = ~_zero_bytes(body) & _HIGH  # the high bit of every byte that is not zero
     spread = (filled >> _7) * np.uint64(0xFF)  # 0xFF for each filled byte
-    simple = (spread & (spread + _1)) == 0  # the filled bytes come first: no zero byte inside
     at_mark = _zero_bytes(body ^ marks)  # the high bit of a mark byte
     n_marks = np.bitwise_count(at_mark)
-    simple &= n_marks <= 1
     below = (at_mark >> _7) - _1  # the bytes before the mark; all when there is none
     digits = (body & below) | ((body >> _8) & ~below)  # the mark taken out
     count = (np.bitwise_count(filled) - n_marks).astype(np.uint64)  # digits
-    digits ^= _ZEROS & ((_1 << (count << np.uint64(3))) - _1)  # "0"-"9" to 0-9 (shift 64 gives 0)
-    simple &= ((digits | (digits + _ABOVE_NINE)) & _HIGH) == 0  # every byte 0-9, padding 0
-    simple &= count >= 1
-    digits <<= _64 - (count << np.uint64(3))  # leading zeros up to eight digits
+    shift = _64 - (count << np.uint64(3))  # moves the digits to the top (64 for none)
+    digits ^= _ZEROS >> shift  # "0"-"9" to 0-9 in the digits' bytes (a shift of 64 gives 0)
+    # the filled bytes come first (no zero byte inside), and every digit byte is 0-9
+    bad = (spread & (spread + _1)) | ((digits | (digits + _ABOVE_NINE)) & _HIGH)
+    simple = (bad == 0) & (n_marks <= 1) & (count >= 1)
+    digits <<= shift  # leading zeros up to eight digits
     digits = digits * np.uint64(10) + (digits >> _8)
     digits = ((digits & _PAIRS) * _MUL_HIGH + ((digits >> _16) & _PAIRS) * _MUL_LOW) >> _32
     places = np.bitwise_count(filled & ~below) - n_marks  # digits after the mark
