@@ -18,10 +18,9 @@ import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
 from imputer_app.sheets._string_cells import STRING_DTYPE
+from imputer_app.sheets._threads import WORKERS
 from imputer_app.sheets._word_numbers import WORD_BYTES
 
-#: Threads that cut pieces side by side.
-WORKERS = 2
 #: Bytes of text per piece (a piece ends at the first line end after this many).
 PIECE_BYTES = 1 << 20
 _WORD = np.dtype("<u8")

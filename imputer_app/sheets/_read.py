@@ -36,6 +36,7 @@ from imputer_app.sheets._header import Layout, find_layout, unique_names
 from imputer_app.sheets._limits import markers_found, take_limit_row
 from imputer_app.sheets._model import ColumnInfo, Sheet, SourceInfo
 from imputer_app.sheets._precision import column_decimals, workbook_formats
+from imputer_app.sheets._threads import WORKERS, map_columns
 from imputer_app.sheets._workbook import list_workbook_sheets, read_workbook
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
@@ -44,8 +45,8 @@ PROGRESS_TOTAL = 1000
 _READ_DONE, _GRID_DONE, _COLUMNS_DONE = 150, 400, 900
 #: Workbook formats whose number formats are read for each column's measured precision.
 _XLSX_FORMATS = ("xlsx", "xlsm")
-#: Threads that classify the columns of a long csv side by side.
-_PARSE_WORKERS = 2
+#: Threads that work on the columns of a long csv side by side.
+_LONG_WORKERS = WORKERS
 #: Rows sampled to detect the decimal mark.
 _DECIMAL_SAMPLE_ROWS = 2000
 
@@ -197,7 +198,8 @@ def read_sheet(
             "taken as their limits, not as a sample"
         )
     forced = resolve_kinds(columns, kinds, where)
-    built = assemble(columns, rows, forced, workbook=grid.sheet is not None, cancel=cancel)
+    workers = _LONG_WORKERS if grid.codes is not None else 1  # a long csv: columns side by side
+    built = assemble(columns, rows, forced, workbook=grid.sheet is not None, cancel=cancel, workers=workers)
     groups = layout.groups or ("",) * grid.cells.shape[1]
     shown = (
         workbook_formats(data, grid.sheet, rows, [c.position for c in columns])
@@ -208,10 +210,12 @@ def read_sheet(
         _info(c, built.kinds[c.name], built.notes[c.name], rows, grid.formulas, groups[c.position])
         for c in columns
     ]
-    infos = [
-        replace(info, decimals=column_decimals(c.parsed, grid.sheet is None, decimal, shown.get(c.position)))
-        for info, c in zip(infos, columns, strict=True)
-    ]
+    decimals = map_columns(
+        lambda c: column_decimals(c.parsed, grid.sheet is None, decimal, shown.get(c.position)),
+        columns,
+        workers,
+    )
+    infos = [replace(info, decimals=d) for info, d in zip(infos, decimals, strict=True)]
     info = SourceInfo(
         path=source.absolute(),
         sheet=grid.sheet,
@@ -353,7 +357,7 @@ def _parse_body(
 
     # a long csv's columns are classified side by side: their numpy work runs outside the GIL
     # (a workbook's cells are Python objects: one thread)
-    workers = _PARSE_WORKERS if grid.codes is not None and width > 1 else 1
+    workers = _LONG_WORKERS if grid.codes is not None and width > 1 else 1
     with ThreadPoolExecutor(workers, thread_name_prefix="kinfill-columns") as pool:
         found = pool.map(parse, range(width))
         for position in range(width):
