@@ -63,6 +63,24 @@ def in_codes(codes: np.ndarray, wanted: tuple[int, ...]) -> np.ndarray:
     return table[small]
 
 
+def all_whole(values: np.ndarray) -> bool:
+    """True when every value equals its rounding (NaN never does).
+
+    The first values decide a column of measurements without a pass over all of them.
+    """
+    head = values[:_WHOLE_HEAD]
+    return bool(np.array_equal(head, np.round(head)) and np.array_equal(values, np.round(values)))
+
+
+#: Values looked at first by :func:`all_whole`.
+_WHOLE_HEAD = 1000
+
+
+def class_counts(cls: np.ndarray) -> np.ndarray:
+    """How many cells of each class (index = class code) ``cls`` holds, in one pass."""
+    return np.bincount(cls.astype(np.uint8, copy=False), minlength=16)
+
+
 #: Missing-value markers that apply unless the user says otherwise (trimmed, case-insensitive).
 DEFAULT_MARKERS: tuple[str, ...] = ("NA", "N/A", "-", "--", "?", "missing", "lost", "#N/A", "NaN")
 #: Markers that mean "not detected": below the limit of detection, a censored cell
