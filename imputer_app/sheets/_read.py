@@ -359,15 +359,19 @@ def _parse_body(
     # (a workbook's cells are Python objects: one thread)
     workers = _LONG_WORKERS if grid.codes is not None and width > 1 else 1
     with ThreadPoolExecutor(workers, thread_name_prefix="kinfill-columns") as pool:
-        found = pool.map(parse, range(width))
-        for position in range(width):
-            raise_if_cancelled(cancel)
-            parsed.append(next(found))
-            report(
-                progress,
-                _GRID_DONE + (_COLUMNS_DONE - _GRID_DONE) * (position + 1) // max(width, 1),
-                PROGRESS_TOTAL,
-            )
+        found = [pool.submit(parse, position) for position in range(width)]
+        try:
+            for position, future in enumerate(found):
+                raise_if_cancelled(cancel)
+                parsed.append(future.result())
+                report(
+                    progress,
+                    _GRID_DONE + (_COLUMNS_DONE - _GRID_DONE) * (position + 1) // max(width, 1),
+                    PROGRESS_TOTAL,
+                )
+        finally:
+            for future in found:  # after a cancel (or an error) the columns not yet begun are dropped
+                future.cancel()
     classes = np.stack([p.cls for p in parsed], axis=1) if parsed else np.empty((body.shape[0], 0))
     filled = classes != BLANK
     keep_rows, problems = _data_rows(filled, body, layout.data_start)

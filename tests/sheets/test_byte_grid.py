@@ -11,13 +11,15 @@ from __future__ import annotations
 
 import csv
 import io
+import threading
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 import pytest
 
-from imputer_app.sheets import _byte_grid, _fast_text, _text, read_sheet
+from imputer_app.errors import Cancelled
+from imputer_app.sheets import _byte_grid, _cells, _fast_text, _read, _text, read_sheet
 from imputer_app.sheets._fast_text import split_plain_text
 from imputer_app.sheets._grid import rows_to_grid
 from imputer_app.sheets._word_numbers import words_of
@@ -168,3 +170,37 @@ def test_file_bytes_cut_as_they_are_or_encoded_again(
     assert fast.raw_text.tolist() == exact.raw_text.tolist()
     assert fast.columns == exact.columns and fast.source == exact.source
     assert list(fast.frame.columns) == ["Größe", "Wert", "Einheit"]
+
+
+def test_cancel_while_columns_are_classified_in_threads(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # a cancel set while the columns of a long csv are classified side by side stops the
+    # read with Cancelled; the columns not yet begun are dropped
+    width = 12
+    path = tmp_path / "wide.csv"
+    rows = [",".join(f"{i * width + j}.5" for j in range(width)) for i in range(500)]
+    path.write_text("\n".join([",".join(f"c{j}" for j in range(width)), *rows]), encoding="utf-8")
+    monkeypatch.setattr(_fast_text, "MIN_FAST_CHARS", 0)
+    flag = threading.Event()
+    started: list[int] = []
+    parse = _cells.parse_column
+
+    def slow_parse(*args: object) -> object:
+        started.append(1)
+        if len(started) > 1:  # the later columns wait for the cancel
+            flag.wait(5)
+        return parse(*args)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(_read, "parse_column", slow_parse)
+    seen: list[int] = []
+
+    def progress(done: int, total: int) -> None:
+        seen.append(done)
+        if done > _read._GRID_DONE:  # the first column is classified: cancel
+            flag.set()
+
+    with pytest.raises(Cancelled):
+        read_sheet(path, progress=progress, cancel=flag)
+    assert seen == sorted(seen) and seen[-1] < _read._COLUMNS_DONE
+    assert len(started) < width // 2
