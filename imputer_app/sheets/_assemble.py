@@ -146,9 +146,10 @@ def assemble(
 
 
 def _series(built: Built, kind: str, index: pd.Index) -> pd.Series:
+    # the built values are the column's own new array: no copy (pandas copies arrays by default)
     if kind in ("category", "identifier"):
-        return pd.Series(built.values, index=index, dtype=object)
-    return pd.Series(built.values, index=index)
+        return pd.Series(built.values, index=index, dtype=object, copy=False)
+    return pd.Series(built.values, index=index, copy=False)
 
 
 def _limit_key(name: str) -> str:

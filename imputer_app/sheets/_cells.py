@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from imputer_app.sheets._fast_text import plain_number_values
+from imputer_app.sheets._fast_text import plain_number_parts, plain_number_values
 from imputer_app.sheets._grid import NO_VALUE as NO_VALUE_CELL
 from imputer_app.sheets._grid import FormulaError
 from imputer_app.sheets._string_cells import as_objects, ascii_codes, is_string_array
@@ -197,6 +197,10 @@ class ParsedColumn:
         position (UTF-8 bytes from the splitter, or
         :func:`~imputer_app.sheets._string_cells.ascii_codes`), kept from classifying
         for the column's measured precision; else None.
+    places : ndarray of int8, shape (n,), or None
+        For a column whose texts were read a word at a time: the digits after the mark
+        of each simple decimal text (-1 for other texts), for the measured precision;
+        else None.
     """
 
     raw: np.ndarray
@@ -207,6 +211,7 @@ class ParsedColumn:
     limit: np.ndarray = field(default_factory=lambda: np.empty(0))
     token: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=object))
     codes: np.ndarray | None = None
+    places: np.ndarray | None = None
 
     def take(self, rows: np.ndarray) -> ParsedColumn:
         """The same column restricted to ``rows`` (increasing positions)."""
@@ -218,6 +223,7 @@ class ParsedColumn:
                 for name in ("raw", "cls", "number", "text", "side", "limit", "token")
             },
             codes=None if self.codes is None else self.codes[:, rows],
+            places=None if self.places is None else self.places[rows],
         )
 
 
@@ -431,7 +437,7 @@ def _take_string_column(
     filled cells (markers, censored entries, text) become ``str`` for the careful pass.
     """
     parsed.codes = codes if codes is not None else ascii_codes(raw)
-    numbers = plain_number_values(raw, decimal, parsed.codes)  # NaN for "" and every text not plain
+    numbers, parsed.places = plain_number_parts(raw, decimal, parsed.codes)  # NaN for "" and texts not plain
     plain = np.isfinite(numbers)
     marker = plain & markers.match_numbers(numbers)
     parsed.cls[plain] = NUMBER

@@ -133,6 +133,16 @@ def _column_texts(data: bytes, column: ByteColumn) -> np.ndarray | None:
 def plain_number_values(values: np.ndarray, decimal: str, codes: np.ndarray | None = None) -> np.ndarray:
     """Values of texts that are plain decimal numbers; NaN for every other text.
 
+    The numbers of :func:`plain_number_parts` (see there).
+    """
+    return plain_number_parts(values, decimal, codes)[0]
+
+
+def plain_number_parts(
+    values: np.ndarray, decimal: str, codes: np.ndarray | None = None
+) -> tuple[np.ndarray, np.ndarray | None]:
+    """Values of texts that are plain decimal numbers (NaN for every other text) and known decimals.
+
     Parameters
     ----------
     values : ndarray of object (str) or of StringDType
@@ -154,13 +164,17 @@ def plain_number_values(values: np.ndarray, decimal: str, codes: np.ndarray | No
         for decimal ``,``); NaN elsewhere, including texts that overflow to infinity.
         Texts with other characters (``inf``, ``1_000``, ``1,234`` with decimal ``.``)
         are not finite numbers to ``pandas.to_numeric`` either.
+    ndarray of int8 or None
+        When the texts were read a word at a time: the digits after the mark of each
+        simple decimal (0 without a mark), -1 for every other text; else None.
     """
     out = np.full(values.shape[0], np.nan)
+    places = None
     if not values.size:
-        return out
+        return out, places
     words = None if codes is None else words_of(codes)
     if codes is not None and words is not None:  # texts of up to eight bytes: a word at a time
-        simple, out = simple_word_values(words, ord(decimal))
+        simple, out, places = simple_word_values(words, ord(decimal))
         rest = np.flatnonzero(~simple & (words != 0))  # the other texts that are not empty
         plain = rest[_plain_cells(values[rest], decimal, codes[:, rest])]
     else:
@@ -183,7 +197,7 @@ def plain_number_values(values: np.ndarray, decimal: str, codes: np.ndarray | No
         # overflow ("1e400") is no finite number
         out[plain] = np.where(np.isfinite(found), found, np.nan)
     # other texts (names, codes, markers, "<0.05") are left to the careful pass
-    return out
+    return out, places
 
 
 def _simple_values(codes: np.ndarray, mark: int) -> tuple[np.ndarray, np.ndarray]:

@@ -72,8 +72,8 @@ def words_of(codes: np.ndarray) -> np.ndarray | None:
     return rows.view(_WORD).reshape(n)
 
 
-def simple_word_values(words: np.ndarray, mark: int) -> tuple[np.ndarray, np.ndarray]:
-    """Which words hold a simple decimal, and its value (NaN elsewhere).
+def simple_word_values(words: np.ndarray, mark: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Which words hold a simple decimal, its value (NaN elsewhere) and its decimals.
 
     Parameters
     ----------
@@ -89,17 +89,20 @@ def simple_word_values(words: np.ndarray, mark: int) -> tuple[np.ndarray, np.nda
         digit and nothing else (a zero byte inside a text is not padding).
     values : ndarray of float
         The correctly rounded value where ``simple`` (``"-0"`` is -0.0), NaN elsewhere.
+    places : ndarray of int8
+        The digits after the mark where ``simple`` (0 without a mark), -1 elsewhere.
     """
     simple = np.empty(words.shape[0], dtype=bool)
     values = np.empty(words.shape[0])
+    places = np.empty(words.shape[0], dtype=np.int8)
     marks = _ONES * np.uint64(mark)
     for start in range(0, words.shape[0], BLOCK):
         block = slice(start, start + BLOCK)
-        simple[block], values[block] = _block_values(words[block], marks)
-    return simple, values
+        simple[block], values[block], places[block] = _block_values(words[block], marks)
+    return simple, values, places
 
 
-def _block_values(words: np.ndarray, marks: np.uint64) -> tuple[np.ndarray, np.ndarray]:
+def _block_values(words: np.ndarray, marks: np.uint64) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """:func:`simple_word_values` for one block of words (``marks``: the mark in every byte)."""
     first = words & np.uint64(0xFF)
     negative = first == ord("-")
@@ -124,7 +127,7 @@ def _block_values(words: np.ndarray, marks: np.uint64) -> tuple[np.ndarray, np.n
     found = digits.astype(float) / _POWERS_OF_TEN[np.minimum(places, WORD_BYTES)]
     np.negative(found, out=found, where=negative)
     found[~simple] = np.nan
-    return simple, found
+    return simple, found, np.where(simple, places, -1)
 
 
 def word_digits_after_mark(words: np.ndarray, mark: int) -> tuple[np.ndarray, np.ndarray]:

@@ -43,9 +43,13 @@ def test_simple_words_equal_float_on_random_texts(mark: str) -> None:
     texts += ["-0", "+0", "0", "5.", ".5", "-.5", "99999999", "-9999999", "0.000001", "1234567.", "-", "."]
     texts = [t.rstrip("\x00") for t in texts]  # trailing NULs are padding to numpy bytes
     _, words = _words(texts)
-    simple, values = simple_word_values(words, ord(mark))
+    simple, values, places = simple_word_values(words, ord(mark))
     expected_simple = np.array([_is_simple(t, mark) for t in texts])
     np.testing.assert_array_equal(simple, expected_simple)
+    expected_places = [
+        len(t.partition(mark)[2]) if s else -1 for t, s in zip(texts, expected_simple, strict=True)
+    ]
+    assert places.tolist() == expected_places
     expected = np.array(
         [float(t.replace(mark, ".")) if s else np.nan for t, s in zip(texts, expected_simple, strict=True)]
     )
@@ -63,7 +67,7 @@ def test_words_agree_with_the_byte_per_position_path(mark: str) -> None:
     texts = [f"{v:.{int(d)}f}".replace(".", mark) for v, d in zip(values, places, strict=True)]
     texts = [t for t in texts if len(t) <= 8] + ["", "1e3", " 7", "n.d.", "<0.05", "1.2.3", "1,2,3"]
     codes, words = _words(texts)
-    simple, found = simple_word_values(words, ord(mark))
+    simple, found, _ = simple_word_values(words, ord(mark))
     old_simple, old_found = _simple_values(codes, ord(mark))
     np.testing.assert_array_equal(simple, old_simple)
     np.testing.assert_array_equal(found[simple], old_found[simple])
