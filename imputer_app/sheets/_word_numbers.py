@@ -108,7 +108,7 @@ def _block_values(words: np.ndarray, marks: np.uint64) -> tuple[np.ndarray, np.n
     negative = first == ord("-")
     signed = negative | (first == ord("+"))
     body = np.where(signed, words >> _8, words) if signed.any() else words
-    filled = ~_zero_bytes(body) & _HIGH  # the high bit of every byte that is not zero
+    filled = (((body & _LOW7) + _LOW7) | body) & _HIGH  # the high bit of every byte that is not zero
     spread = (filled >> _7) * np.uint64(0xFF)  # 0xFF for each filled byte
     at_mark = _zero_bytes(body ^ marks)  # the high bit of a mark byte
     n_marks = np.bitwise_count(at_mark)
@@ -124,7 +124,8 @@ def _block_values(words: np.ndarray, marks: np.uint64) -> tuple[np.ndarray, np.n
     digits = digits * np.uint64(10) + (digits >> _8)
     digits = ((digits & _PAIRS) * _MUL_HIGH + ((digits >> _16) & _PAIRS) * _MUL_LOW) >> _32
     places = np.bitwise_count(filled & ~below) - n_marks  # digits after the mark
-    found = digits.astype(float) / _POWERS_OF_TEN[np.minimum(places, WORD_BYTES)]
+    # below 10**8: as signed integers (a faster conversion); places past 8 (not simple) clipped
+    found = digits.view(np.int64).astype(float) / np.take(_POWERS_OF_TEN, places, mode="clip")
     np.negative(found, out=found, where=negative)
     found[~simple] = np.nan
     return simple, found, np.where(simple, places, -1)
