@@ -6,17 +6,19 @@ object arrays cost 11-18 s on a 1,000,000 x 10 csv. Both paths here are
 path, and hands everything else back to it.
 
 - :func:`split_plain_text` cuts long text without quotes whose rows all have the same
-  number of fields straight from its UTF-8 bytes into a numpy ``StringDType`` grid,
-  keeping each column's bytes (one row per byte position) for the passes below. A
-  quote, a short or long row, a blank line or a lone carriage return makes it return
-  None, and the caller uses ``csv.reader`` (whose quote rules and padding are the
-  reference).
+  number of fields straight from its UTF-8 bytes (the file's own bytes when it is
+  UTF-8) into a numpy ``StringDType`` grid, keeping each column's bytes (one row per
+  byte position; a view of eight-byte words when no cell is longer,
+  :mod:`~imputer_app.sheets._byte_grid`) for the passes below. A quote, a short or
+  long row, a blank line or a lone carriage return makes it return None, and the
+  caller uses ``csv.reader`` (whose quote rules and padding are the reference).
 - :func:`plain_number_values` reads the texts made only of digits, one decimal mark,
-  signs, an exponent and white space: simple decimals (up to 15 digits, no exponent)
-  from their bytes by exact integer arithmetic and one division, the others with
-  Python's ``float`` (both correctly rounded, as ``pandas.to_numeric``); every other
-  text (names, codes, markers, censored entries) is left to the careful per-text pass
-  of the caller.
+  signs, an exponent and white space: simple decimals from their bytes by exact
+  integer arithmetic and one division (up to eight bytes a word at a time,
+  :mod:`~imputer_app.sheets._word_numbers`; else up to 15 digits one position at a
+  time), the others with Python's ``float`` (both correctly rounded, as
+  ``pandas.to_numeric``); every other text (names, codes, markers, censored entries)
+  is left to the careful per-text pass of the caller.
 """
 
 from __future__ import annotations
