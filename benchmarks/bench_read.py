@@ -6,6 +6,8 @@ sheet's values (the two timed in turns, pair by pair, wall clock and CPU); a 1,0
 csv (5 % blank cells) in at most 5 s, printed beside ``pandas.read_csv`` (which reads
 numbers only, with no cell states).
 
+``KINFILL_BENCH_READ_CASES=csv`` (or ``xlsx``) runs one of the two.
+
 The workbook (a sample ID column, a category column and 18 measurement
 columns with 5 % blank cells and a few markers and censored entries) is written once
 with xlsxwriter into the temp folder and reused by later runs.
@@ -13,6 +15,7 @@ with xlsxwriter into the temp folder and reused by later runs.
 
 from __future__ import annotations
 
+import os
 import tempfile
 import time
 from pathlib import Path
@@ -92,8 +95,11 @@ def csv_file() -> Path:
 
 
 def main() -> None:
-    _main_xlsx()
-    _main_csv()
+    cases = [c.strip() for c in os.environ.get("KINFILL_BENCH_READ_CASES", "xlsx,csv").split(",")]
+    if "xlsx" in cases:
+        _main_xlsx()
+    if "csv" in cases:
+        _main_csv()
 
 
 def _main_csv() -> None:

@@ -24,6 +24,7 @@ from imputer_app.sheets._kinds import (
     text_date_format,
 )
 from imputer_app.sheets._model import CELL_STATES, COLUMN_KINDS, NOTE_COLUMNS
+from imputer_app.sheets._threads import map_columns
 from imputer_app.work import CancelFlag, raise_if_cancelled
 
 #: The dtype of every column of ``Sheet.states``.
@@ -99,8 +100,12 @@ def assemble(
     forced: Mapping[str, str],
     workbook: bool,
     cancel: CancelFlag | None = None,
+    workers: int = 1,
 ) -> Assembled:
-    """Build frame, states, notes and problems for the data ``rows`` (1-based file rows)."""
+    """Build frame, states, notes and problems for the data ``rows`` (1-based file rows).
+
+    ``workers`` threads detect and build the columns side by side (a long sheet).
+    """
     index = pd.Index(rows, name="row")
     values: dict[str, object] = {}
     states: dict[str, pd.Categorical] = {}
@@ -108,12 +113,14 @@ def assemble(
     notes: dict[str, tuple[str, ...]] = {}
     note_frames: list[pd.DataFrame] = []
     problems: list[str] = []
-    detected = {column.name: detect(column, forced.get(column.name)) for column in columns}
+    found_kinds = map_columns(lambda column: detect(column, forced.get(column.name)), columns, workers)
+    detected = {column.name: found for column, found in zip(columns, found_kinds, strict=True)}
     numbers = {c.name: c for c in columns if detected[c.name].kind == "number"}
-    for column in columns:
+    # a column's frame values and states depend on it alone (limits are filled in after)
+    builds = map_columns(lambda column: build(column.parsed, detected[column.name]), columns, workers)
+    for column, built in zip(columns, builds, strict=True):
         raise_if_cancelled(cancel)
         found = detected[column.name]
-        built = build(column.parsed, found)
         limit_note = _fill_limits(column, numbers) if found.kind == "number" else None
         values[column.name] = _series(built, found.kind, index)
         states[column.name] = pd.Categorical.from_codes(built.states, dtype=STATES_DTYPE)
@@ -139,9 +146,10 @@ def assemble(
 
 
 def _series(built: Built, kind: str, index: pd.Index) -> pd.Series:
+    # the built values are the column's own new array: no copy (pandas copies arrays by default)
     if kind in ("category", "identifier"):
-        return pd.Series(built.values, index=index, dtype=object)
-    return pd.Series(built.values, index=index)
+        return pd.Series(built.values, index=index, dtype=object, copy=False)
+    return pd.Series(built.values, index=index, copy=False)
 
 
 def _limit_key(name: str) -> str:

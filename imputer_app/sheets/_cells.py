@@ -23,16 +23,18 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+import threading
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
-from imputer_app.sheets._fast_text import plain_number_values
+from imputer_app.sheets._fast_text import plain_number_parts, plain_number_values
 from imputer_app.sheets._grid import NO_VALUE as NO_VALUE_CELL
 from imputer_app.sheets._grid import FormulaError
 from imputer_app.sheets._string_cells import as_objects, ascii_codes, is_string_array
+from imputer_app.sheets._word_numbers import words_of
 
 #: Cell classes found on reading (internal codes). FORMULA_ERROR is a cached formula
 #: error (``#DIV/0!``), NO_VALUE a formula cell saved without its result.
@@ -47,10 +49,36 @@ NOT_VALUES = (BLANK, MARKER, FORMULA_ERROR, NO_VALUE)
 
 
 def in_codes(codes: np.ndarray, wanted: tuple[int, ...]) -> np.ndarray:
-    """``numpy.isin`` for small codes 0-255 (cell classes, states) by one table look-up."""
+    """``numpy.isin`` for small codes 0-255 (cell classes, states).
+
+    Wanted codes below 16 are bits of one number shifted by each code (a few times
+    faster than a table look-up); larger ones are looked up in a table.
+    """
+    small = codes.astype(np.uint8, copy=False)
+    if max(wanted, default=0) < 16:
+        bits = np.uint16(sum(1 << w for w in set(wanted)))
+        return ((bits >> small) & np.uint16(1)).astype(bool)  # a shift past 15 gives 0
     table = np.zeros(256, dtype=bool)
     table[list(wanted)] = True
-    return table[codes.astype(np.uint8, copy=False)]
+    return table[small]
+
+
+def all_whole(values: np.ndarray) -> bool:
+    """True when every value equals its rounding (NaN never does).
+
+    The first values decide a column of measurements without a pass over all of them.
+    """
+    head = values[:_WHOLE_HEAD]
+    return bool(np.array_equal(head, np.round(head)) and np.array_equal(values, np.round(values)))
+
+
+#: Values looked at first by :func:`all_whole`.
+_WHOLE_HEAD = 1000
+
+
+def class_counts(cls: np.ndarray) -> np.ndarray:
+    """How many cells of each class (index = class code) ``cls`` holds, in one pass."""
+    return np.bincount(cls.astype(np.uint8, copy=False), minlength=16)
 
 
 #: Missing-value markers that apply unless the user says otherwise (trimmed, case-insensitive).
@@ -169,6 +197,10 @@ class ParsedColumn:
         position (UTF-8 bytes from the splitter, or
         :func:`~imputer_app.sheets._string_cells.ascii_codes`), kept from classifying
         for the column's measured precision; else None.
+    places : ndarray of int8, shape (n,), or None
+        For a column whose texts were read a word at a time: the digits after the mark
+        of each simple decimal text (-1 for other texts), for the measured precision;
+        else None.
     """
 
     raw: np.ndarray
@@ -179,6 +211,7 @@ class ParsedColumn:
     limit: np.ndarray = field(default_factory=lambda: np.empty(0))
     token: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=object))
     codes: np.ndarray | None = None
+    places: np.ndarray | None = None
 
     def take(self, rows: np.ndarray) -> ParsedColumn:
         """The same column restricted to ``rows`` (increasing positions)."""
@@ -190,6 +223,7 @@ class ParsedColumn:
                 for name in ("raw", "cls", "number", "text", "side", "limit", "token")
             },
             codes=None if self.codes is None else self.codes[:, rows],
+            places=None if self.places is None else self.places[rows],
         )
 
 
@@ -282,14 +316,15 @@ def parse_column(
     per-text work. ``known`` (built with the same ``decimal`` and ``markers``) keeps the
     distinct texts of earlier columns of the sheet, so that each is classified once.
     """
+    no_texts = _no_texts(raw.shape[0])  # shared and read-only until a field is written
     parsed = ParsedColumn(
         raw=raw,
         cls=np.full(raw.shape[0], BLANK, dtype=np.int8),
         number=np.full(raw.shape[0], np.nan),
-        text=_no_texts(raw.shape[0]),
-        side=_no_texts(raw.shape[0]),
+        text=no_texts,
+        side=no_texts,
         limit=np.full(raw.shape[0], np.nan),
-        token=_no_texts(raw.shape[0]),
+        token=no_texts,
     )
     if not raw.size:
         return parsed
@@ -304,10 +339,24 @@ def parse_column(
 
 
 def _no_texts(n: int) -> np.ndarray:
-    """An object array of ``n`` empty texts (``np.full`` takes several times as long for objects)."""
+    """A read-only object array of ``n`` empty texts (``np.full`` takes several times as long for objects).
+
+    The text fields of a column start as one such array; :func:`_writable` gives a field
+    its own copy before it is written.
+    """
     texts = np.empty(n, dtype=object)
     texts.fill("")
+    texts.flags.writeable = False
     return texts
+
+
+def _writable(parsed: ParsedColumn, name: str) -> np.ndarray:
+    """The field ``name`` of ``parsed``, copied first when it is the shared read-only start."""
+    values: np.ndarray = getattr(parsed, name)
+    if not values.flags.writeable:
+        values = values.copy()
+        setattr(parsed, name, values)
+    return values
 
 
 def _take_by_type(
@@ -388,15 +437,20 @@ def _take_string_column(
     filled cells (markers, censored entries, text) become ``str`` for the careful pass.
     """
     parsed.codes = codes if codes is not None else ascii_codes(raw)
-    numbers = plain_number_values(raw, decimal, parsed.codes)  # NaN for "" and every text not plain
+    numbers, parsed.places = plain_number_parts(raw, decimal, parsed.codes)  # NaN for "" and texts not plain
     plain = np.isfinite(numbers)
     marker = plain & markers.match_numbers(numbers)
     parsed.cls[plain] = NUMBER
     parsed.cls[marker] = MARKER
     np.copyto(parsed.number, numbers, where=plain & ~marker)
-    rest = ~plain & (raw != "")
-    if rest.any():
-        _take_texts(parsed, np.flatnonzero(rest), as_objects(raw[rest]), decimal, markers, known)
+    words = None if parsed.codes is None else words_of(parsed.codes)
+    if words is not None:  # a text without NUL (the splitter refuses them) is filled when its word is not 0
+        rest = np.flatnonzero(~plain & (words != 0))
+    else:
+        rest = np.flatnonzero(~plain)
+        rest = rest[raw[rest] != ""]  # the filled cells that are no plain number: few
+    if rest.size:
+        _take_texts(parsed, rest, as_objects(raw[rest]), decimal, markers, known)
 
 
 def _take_texts(
@@ -416,7 +470,7 @@ def _take_texts(
         found = _classify_texts(pd.Series(_STRIP(uniques), dtype=str), decimal, markers)
     for name, column in found.items():
         if name in _FILLED_AS or not _is_default(column, name):  # a column of defaults is already so
-            getattr(parsed, name)[where] = column[codes]
+            _writable(parsed, name)[where] = column[codes]
 
 
 def _is_default(column: np.ndarray, name: str) -> bool:
@@ -441,17 +495,19 @@ class KnownTexts:
     def __init__(self, decimal: str, markers: Markers) -> None:
         self.decimal, self.markers = decimal, markers
         self._found: dict[str, tuple[object, ...]] = {}
+        self._lock = threading.Lock()  # columns may be classified in threads
 
     def classify(self, uniques: np.ndarray) -> dict[str, np.ndarray]:
         """What :func:`_classify_texts` returns for the (untrimmed) texts ``uniques``."""
-        new = [text for text in dict.fromkeys(uniques.tolist()) if text not in self._found]
-        if new:
-            found = _classify_texts(
-                pd.Series(_STRIP(np.array(new, dtype=object)), dtype=str), self.decimal, self.markers
-            )
-            each = zip(*(found[name].tolist() for name in _CLASSIFIED), strict=True)
-            self._found.update(zip(new, each, strict=True))
-        rows = [self._found[text] for text in uniques.tolist()]
+        with self._lock:
+            new = [text for text in dict.fromkeys(uniques.tolist()) if text not in self._found]
+            if new:
+                found = _classify_texts(
+                    pd.Series(_STRIP(np.array(new, dtype=object)), dtype=str), self.decimal, self.markers
+                )
+                each = zip(*(found[name].tolist() for name in _CLASSIFIED), strict=True)
+                self._found.update(zip(new, each, strict=True))
+            rows = [self._found[text] for text in uniques.tolist()]
         return {
             name: np.array([row[k] for row in rows], dtype=_CLASSIFIED[name])
             for k, name in enumerate(_CLASSIFIED)
@@ -528,7 +584,7 @@ def _take_others(parsed: ParsedColumn, where: np.ndarray, values: np.ndarray) ->
     kinds = np.array([_other_class(v) for v in values], dtype=np.int8)
     parsed.cls[where] = kinds
     errors = np.flatnonzero(kinds == FORMULA_ERROR)
-    parsed.text[where[errors]] = [str(values[i]) for i in errors]
+    _writable(parsed, "text")[where[errors]] = [str(values[i]) for i in errors]
 
 
 def _other_class(value: object) -> int:

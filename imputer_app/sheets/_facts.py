@@ -13,7 +13,7 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from imputer_app.sheets._cells import BLANK, NUMBER, ParsedColumn
+from imputer_app.sheets._cells import BLANK, NUMBER, ParsedColumn, all_whole
 
 #: Share of a column's filled cells that must be formulas for it to be computed.
 COMPUTED_SHARE = 0.5
@@ -44,7 +44,7 @@ def is_group_like(parsed: ParsedColumn) -> bool:
     """True for a number column of few distinct whole values each seen twice on average."""
     numbers = parsed.number[parsed.cls == NUMBER]
     numbers = numbers[np.isfinite(numbers)]
-    if numbers.size < 4 or not np.array_equal(numbers, np.round(numbers)):
+    if numbers.size < 4 or not all_whole(numbers):
         return False
     levels = np.unique(numbers).size
     return bool(2 <= levels <= MAX_GROUP_LEVELS and numbers.size >= 2 * levels)

@@ -6,29 +6,32 @@ object arrays cost 11-18 s on a 1,000,000 x 10 csv. Both paths here are
 path, and hands everything else back to it.
 
 - :func:`split_plain_text` cuts long text without quotes whose rows all have the same
-  number of fields straight from its UTF-8 bytes into a numpy ``StringDType`` grid,
-  keeping each column's bytes (one row per byte position) for the passes below. A
-  quote, a short or long row, a blank line or a lone carriage return makes it return
-  None, and the caller uses ``csv.reader`` (whose quote rules and padding are the
-  reference).
+  number of fields straight from its UTF-8 bytes (the file's own bytes when it is
+  UTF-8) into a numpy ``StringDType`` grid, keeping each column's bytes (one row per
+  byte position; a view of eight-byte words when no cell is longer,
+  :mod:`~imputer_app.sheets._byte_grid`) for the passes below. A quote, a short or
+  long row, a blank line or a lone carriage return makes it return None, and the
+  caller uses ``csv.reader`` (whose quote rules and padding are the reference).
 - :func:`plain_number_values` reads the texts made only of digits, one decimal mark,
-  signs, an exponent and white space: simple decimals (up to 15 digits, no exponent)
-  from their bytes by exact integer arithmetic and one division, the others with
-  Python's ``float`` (both correctly rounded, as ``pandas.to_numeric``); every other
-  text (names, codes, markers, censored entries) is left to the careful per-text pass
-  of the caller.
+  signs, an exponent and white space: simple decimals from their bytes by exact
+  integer arithmetic and one division (up to eight bytes a word at a time,
+  :mod:`~imputer_app.sheets._word_numbers`; else up to 15 digits one position at a
+  time), the others with Python's ``float`` (both correctly rounded, as
+  ``pandas.to_numeric``); every other text (names, codes, markers, censored entries)
+  is left to the careful per-text pass of the caller.
 """
 
 from __future__ import annotations
 
+import codecs
 from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from numpy.lib.stride_tricks import sliding_window_view
 
+from imputer_app.sheets._byte_grid import ByteColumn, cut_columns
 from imputer_app.sheets._string_cells import STRING_DTYPE, as_objects, ascii_codes, is_string_array
-from imputer_app.work import row_slices
+from imputer_app.sheets._word_numbers import WORD_BYTES, simple_word_values, words_of
 
 #: Texts shorter than this are split by ``csv.reader``: the vectorised start-up is not worth it.
 MIN_FAST_CHARS = 1 << 20
@@ -67,7 +70,7 @@ class SplitText:
     codes: tuple[np.ndarray | None, ...]
 
 
-def split_plain_text(text: str, delimiter: str) -> SplitText | None:
+def split_plain_text(text: str, delimiter: str, utf8: bytes | None = None) -> SplitText | None:
     """Split long quote-free text with rows of equal width into a ``StringDType`` grid.
 
     The cells are cut straight from the UTF-8 bytes by the positions of separators and
@@ -79,6 +82,10 @@ def split_plain_text(text: str, delimiter: str) -> SplitText | None:
         The decoded file (no byte-order mark).
     delimiter : str
         One separator character.
+    utf8 : bytes, optional
+        The file's bytes when ``text`` was decoded from them as UTF-8 (a UTF-8
+        byte-order mark before them is skipped): they are cut as they are, without
+        encoding ``text`` again.
 
     Returns
     -------
@@ -89,67 +96,54 @@ def split_plain_text(text: str, delimiter: str) -> SplitText | None:
     """
     if len(text) < MIN_FAST_CHARS or '"' in text or len(delimiter) != 1 or not delimiter.isascii():
         return None
-    body = text.rstrip("\r\n")
-    if (
-        not body
-        or body[0] in "\r\n"
-        or "\x00" in body
-        or ("\r" in body and body.count("\r") != body.count("\r\n"))
-    ):
+    if text[0] in "\r\n" or "\x00" in text or ("\r" in text and text.count("\r") != text.count("\r\n")):
         return None
-    try:
-        data = body.encode("utf-8")
-    except UnicodeEncodeError:  # a lone surrogate
-        return None
-    codes = np.frombuffer(data, dtype=np.uint8)
-    newline = codes == ord("\n")
-    bounds = np.flatnonzero(newline | (codes == ord(delimiter)))
-    row_ends = np.flatnonzero(newline[bounds])  # the boundaries that end a row
-    n_cells = bounds.size + 1
-    width = int(row_ends[0]) + 1 if row_ends.size else n_cells
-    if n_cells % width or not np.array_equal(row_ends, np.arange(width - 1, n_cells - 1, width)):
+    if utf8 is None:
+        try:
+            utf8 = text.encode("utf-8")
+        except UnicodeEncodeError:  # a lone surrogate
+            return None
+    begin = len(codecs.BOM_UTF8) if utf8.startswith(codecs.BOM_UTF8) else 0
+    end = len(utf8)
+    while end > begin and utf8[end - 1] in b"\r\n":  # no line end after the last line
+        end -= 1
+    cut = cut_columns(utf8, begin, end, ord(delimiter), _LONG_CELL) if end > begin else None
+    if cut is None:
         return None  # some row is shorter or longer than the first
-    starts = np.concatenate(([0], bounds + 1))
-    ends = np.concatenate((bounds, [codes.size]))
-    ends[row_ends[codes[bounds[row_ends] - 1] == ord("\r")]] -= 1
-    lengths = (ends - starts).reshape(-1, width)
-    starts = starts.reshape(-1, width)
-    # column after column in one block, so that each column is contiguous in memory
-    n_rows = lengths.shape[0]
-    cells = np.empty(lengths.size, dtype=STRING_DTYPE)
-    padded = np.concatenate((codes, np.zeros(_LONG_CELL, dtype=np.uint8)))
-    column_codes = tuple(
-        _cut_column(cells[j * n_rows : (j + 1) * n_rows], data, padded, starts[:, j], lengths[:, j])
-        for j in range(width)
-    )
-    return SplitText(cells.reshape(width, n_rows).T, column_codes)
+    cells, columns = cut
+    column_codes = tuple(_column_texts(utf8[begin:end] if c.long_cells else b"", c) for c in columns)
+    return SplitText(cells, column_codes)
 
 
-def _cut_column(
-    out: np.ndarray, data: bytes, padded: np.ndarray, starts: np.ndarray, lengths: np.ndarray
-) -> np.ndarray | None:
-    """Write the texts of one column, cut from the file's bytes, into ``out``; return its bytes.
+def _column_texts(data: bytes, column: ByteColumn) -> np.ndarray | None:
+    """Finish the texts of one column; return its bytes one row per position.
 
-    ``padded`` is the file's bytes followed by :data:`_LONG_CELL` zeros, so that every
-    byte position read exists. The bytes come back one row per position (None when a
-    cell is longer than :data:`_LONG_CELL`: such cells are cut one by one).
+    The bytes of a column of cells of up to eight bytes are a view of its words (see
+    :func:`~imputer_app.sheets._word_numbers.words_of`); None when a cell is longer than
+    :data:`_LONG_CELL` (such cells are cut one by one from ``data``).
     """
-    longest = int(lengths.max(initial=0))
-    width = max(min(longest, _LONG_CELL), 1)
-    rows = sliding_window_view(padded, width)[starts]  # one row of bytes per cell
-    rows *= np.arange(width) < np.where(lengths > width, 0, lengths)[:, None]  # long: cut below
-    texts = rows.view(f"S{width}").ravel()
-    for part in row_slices(out.size):  # UTF-8 bytes to str, which holds Python's lock: in slices
-        np.copyto(out[part], texts[part], casting="unsafe")
-    if longest <= width:
-        return np.ascontiguousarray(rows.T)
-    for i in np.flatnonzero(lengths > width).tolist():  # rare: cells over _LONG_CELL bytes
-        out[i] = data[starts[i] : starts[i] + lengths[i]].decode("utf-8")
-    return None
+    rows = column.rows
+    for i, start, length in column.long_cells:  # rare: cells over _LONG_CELL bytes
+        column.texts[i] = data[start : start + length].decode("utf-8")
+    if column.long_cells:
+        return None
+    if rows.shape[1] == WORD_BYTES:
+        return rows[:, : max(column.longest, 1)].T
+    return np.ascontiguousarray(rows.T)
 
 
 def plain_number_values(values: np.ndarray, decimal: str, codes: np.ndarray | None = None) -> np.ndarray:
     """Values of texts that are plain decimal numbers; NaN for every other text.
+
+    The numbers of :func:`plain_number_parts` (see there).
+    """
+    return plain_number_parts(values, decimal, codes)[0]
+
+
+def plain_number_parts(
+    values: np.ndarray, decimal: str, codes: np.ndarray | None = None
+) -> tuple[np.ndarray, np.ndarray | None]:
+    """Values of texts that are plain decimal numbers (NaN for every other text) and known decimals.
 
     Parameters
     ----------
@@ -172,28 +166,40 @@ def plain_number_values(values: np.ndarray, decimal: str, codes: np.ndarray | No
         for decimal ``,``); NaN elsewhere, including texts that overflow to infinity.
         Texts with other characters (``inf``, ``1_000``, ``1,234`` with decimal ``.``)
         are not finite numbers to ``pandas.to_numeric`` either.
+    ndarray of int8 or None
+        When the texts were read a word at a time: the digits after the mark of each
+        simple decimal (0 without a mark), -1 for every other text; else None.
     """
     out = np.full(values.shape[0], np.nan)
+    places = None
     if not values.size:
-        return out
-    plain = _plain_cells(values, decimal, codes)
-    if codes is not None and plain.any():
-        simple, found = _simple_values(codes, ord(decimal))
-        simple &= plain
-        np.copyto(out, found, where=simple)
-        plain &= ~simple  # the rest (exponents, spaces, long digits) as below
-    if plain.any():
+        return out, places
+    words = None if codes is None else words_of(codes)
+    if codes is not None and words is not None:  # texts of up to eight bytes: a word at a time
+        simple, out, places = simple_word_values(words, ord(decimal))
+        rest = np.flatnonzero(~simple & (words != 0))  # the other texts that are not empty
+        plain = rest[_plain_cells(values[rest], decimal, codes[:, rest])]
+    else:
+        plain = _plain_cells(values, decimal, codes)
+        if codes is not None and plain.any():
+            simple, found = _simple_values(codes, ord(decimal))
+            simple &= plain
+            np.copyto(out, found, where=simple)
+            plain &= ~simple  # the rest (exponents, spaces, long digits) as below
+        plain = np.flatnonzero(plain)
+    if plain.size:
         chosen = values[plain]
         if decimal == ",":
             chosen = _comma_to_point(chosen)
         try:
             # float() of each text, also for a StringDType array (numpy casts with it)
-            out[plain] = chosen.astype(float)
+            found = chosen.astype(float)
         except ValueError:  # "1e", "+-5", "5..": pandas judges these texts
-            out[plain] = to_numeric_values(values[plain], decimal)
+            found = to_numeric_values(values[plain], decimal)
+        # overflow ("1e400") is no finite number
+        out[plain] = np.where(np.isfinite(found), found, np.nan)
     # other texts (names, codes, markers, "<0.05") are left to the careful pass
-    out[~np.isfinite(out)] = np.nan
-    return out
+    return out, places
 
 
 def _simple_values(codes: np.ndarray, mark: int) -> tuple[np.ndarray, np.ndarray]:
@@ -249,7 +255,10 @@ def to_numeric_values(values: np.ndarray, decimal: str) -> np.ndarray:
 def _comma_to_point(values: np.ndarray) -> np.ndarray:
     if is_string_array(values):
         return np.strings.replace(values, ",", ".")
-    return np.array(_SEPARATOR.join(values).replace(",", ".").split(_SEPARATOR), dtype=object)
+    pieces = _SEPARATOR.join(values).replace(",", ".").split(_SEPARATOR)
+    if len(pieces) != values.shape[0]:  # some text holds the separator itself
+        return np.strings.replace(values.astype(STRING_DTYPE), ",", ".").astype(object)
+    return np.array(pieces, dtype=object)
 
 
 def _plain_cells(values: np.ndarray, decimal: str, codes: np.ndarray | None = None) -> np.ndarray:

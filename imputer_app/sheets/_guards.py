@@ -36,6 +36,9 @@ RATIO_CHECK_BYTES = 10 * 1024**2
 OLE_SIGNATURE = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
 ZIP_SIGNATURE = b"PK\x03\x04"
 _CHUNK = 4 * 1024**2
+#: Bytes (or characters) at the start of a file that decide whether it is blank: the whole is
+#: stripped only when they are.
+BLANK_HEAD = 1 << 16
 
 
 def file_format(path: Path) -> str:
@@ -95,9 +98,14 @@ def read_source(
             f"({done} of {expected} bytes); close the program writing it and try again"
         )
     data = b"".join(parts)
-    if not data.strip(b" \t\r\n\x00\xef\xbb\xbf\xff\xfe"):
+    if _is_blank(data, b" \t\r\n\x00\xef\xbb\xbf\xff\xfe"):
         raise SheetError(f"'{path.name}' is empty")
     return data, digest.hexdigest()
+
+
+def _is_blank(data: bytes, blanks: bytes) -> bool:
+    """True when ``data`` holds only ``blanks`` (the start decides a long file without a copy of it)."""
+    return not data[:BLANK_HEAD].strip(blanks) and not data.strip(blanks)
 
 
 def _os_error(path: Path, error: OSError) -> SheetError:

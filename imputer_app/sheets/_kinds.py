@@ -33,6 +33,8 @@ from imputer_app.sheets._cells import (
     NUMBER,
     TEXT,
     ParsedColumn,
+    all_whole,
+    class_counts,
     in_codes,
 )
 from imputer_app.sheets._grid import cell_text
@@ -87,13 +89,12 @@ class Built:
 
 def kind_of_parsed_column(parsed: ParsedColumn) -> Detected:
     """Detect the kind of one column as the reader parsed it (rules in the module docstring)."""
-    present = parsed.cls[~in_codes(parsed.cls, NOT_VALUES)]
-    total = present.size
+    counts = class_counts(parsed.cls)
+    total = int(counts.sum() - counts[list(NOT_VALUES)].sum())
     if total == 0:
         return Detected("empty")
-    numeric = int(in_codes(present, (NUMBER, CENSORED)).sum())
-    dates = int((present == DATE).sum())
-    texts = int((present == TEXT).sum())
+    numeric = int(counts[NUMBER] + counts[CENSORED])
+    dates, texts = int(counts[DATE]), int(counts[TEXT])
     if dates + texts >= DATE_SHARE * total:
         fmt, share, words = text_date_format(parsed.text[parsed.cls == TEXT]) if texts else (None, 0.0, "")
         if dates + share * texts >= DATE_SHARE * total:
@@ -118,7 +119,7 @@ def _running_number(parsed: ParsedColumn) -> bool:
     return bool(
         values.size >= MIN_RUNNING_ROWS
         and (parsed.cls == NUMBER).all()
-        and np.array_equal(values, np.round(values))
+        and all_whole(values)
         and np.array_equal(np.diff(values), np.ones(values.size - 1))
     )
 
@@ -127,7 +128,7 @@ def _zero_padded(parsed: ParsedColumn) -> bool:
     """True when most numbers are whole and written with leading zeros ("007"): codes, not amounts."""
     numbers = parsed.cls == NUMBER
     values = parsed.number[numbers]
-    if not values.size or not np.array_equal(values, np.round(values)):
+    if not values.size or not all_whole(values):
         return False
     texts = parsed.raw[numbers]  # numbers stored as numbers in a workbook carry no zeros
     if is_string_array(texts):  # a long delimited file: only texts starting with a 0 can match

@@ -25,6 +25,7 @@ from imputer_app.sheets._cells import NUMBER, ParsedColumn
 from imputer_app.sheets._patch_cells import column_styles
 from imputer_app.sheets._patch_styles import children, get_attr
 from imputer_app.sheets._string_cells import as_objects, ascii_codes, is_string_array
+from imputer_app.sheets._word_numbers import word_digits_after_mark, words_of
 from imputer_app.sheets._xlsx_package import sheet_parts
 
 #: Built-in number formats (ECMA-376 Part 1, sec. 18.8.31) with fixed decimals.
@@ -56,7 +57,11 @@ def format_decimals(code: str) -> int | None:
 
 
 def text_decimals(
-    texts: np.ndarray, decimal: str, codes: np.ndarray | None = None, rows: np.ndarray | None = None
+    texts: np.ndarray,
+    decimal: str,
+    codes: np.ndarray | None = None,
+    rows: np.ndarray | None = None,
+    places: np.ndarray | None = None,
 ) -> int | None:
     """The most decimals among number texts (``"6.40"`` has 2, ``"1.5e-3"`` has 4).
 
@@ -71,25 +76,41 @@ def text_decimals(
         (:func:`~imputer_app.sheets._string_cells.ascii_codes`), when the caller has them.
     rows : ndarray of bool, shape (n,), optional
         The texts to look at; default all.
+    places : ndarray of int8, shape (n,), optional
+        The decimals of texts already known from reading them (-1 where not known:
+        :attr:`~imputer_app.sheets._cells.ParsedColumn.places`); only the others are
+        counted here.
     """
     if rows is None:
         rows = np.ones(texts.shape[0], dtype=bool)
     if not rows.any():
         return None
+    if places is not None:
+        known = rows & (places >= 0)
+        best = int(places[known].max(initial=0))
+        others = np.flatnonzero(rows & ~known)
+        if others.size:
+            found = text_decimals(texts[others], decimal, None if codes is None else codes[:, others])
+            best = max(best, found or 0)
+        return min(best, MAX_DECIMALS)
     if codes is None and is_string_array(texts):
         codes = ascii_codes(texts)
     if codes is None:  # one row of character codes per position
         texts = np.asarray(as_objects(texts[rows]), dtype=str)
         rows = np.ones(texts.shape[0], dtype=bool)
         codes = texts.view(np.uint32).reshape(len(texts), -1).T
-    after, exponent = _digits_after_mark(codes, ord(decimal))
+    words = words_of(codes)
+    if words is not None:  # texts of up to eight bytes: a word at a time
+        after, exponent = word_digits_after_mark(words, ord(decimal))
+    else:
+        after, exponent = _digits_after_mark(codes, ord(decimal))
     best = int(after[rows & ~exponent].max(initial=0))
     for one in texts[rows & exponent].tolist():  # rare: 1.5e-3
         mantissa, _, power = one.strip().lower().partition("e")
         at = mantissa.rfind(decimal)
-        places = len(mantissa) - at - 1 if at >= 0 else 0
+        digits = len(mantissa) - at - 1 if at >= 0 else 0
         try:
-            best = max(best, places - int(power))
+            best = max(best, digits - int(power))
         except ValueError:
             continue
     return min(max(best, 0), MAX_DECIMALS)
@@ -122,7 +143,7 @@ def column_decimals(parsed: ParsedColumn, from_text: bool, decimal: str, shown: 
     if not number.any():
         return None
     if from_text:
-        return text_decimals(parsed.raw, decimal, parsed.codes, number)
+        return text_decimals(parsed.raw, decimal, parsed.codes, number, parsed.places)
     if shown is not None:
         return shown
     return float_decimals(parsed.number[number])

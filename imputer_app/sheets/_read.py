@@ -10,6 +10,7 @@ The source file is only ever opened for reading.
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 from os import PathLike
 from pathlib import Path
@@ -35,6 +36,7 @@ from imputer_app.sheets._header import Layout, find_layout, unique_names
 from imputer_app.sheets._limits import markers_found, take_limit_row
 from imputer_app.sheets._model import ColumnInfo, Sheet, SourceInfo
 from imputer_app.sheets._precision import column_decimals, workbook_formats
+from imputer_app.sheets._threads import WORKERS, map_columns
 from imputer_app.sheets._workbook import list_workbook_sheets, read_workbook
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
@@ -43,6 +45,8 @@ PROGRESS_TOTAL = 1000
 _READ_DONE, _GRID_DONE, _COLUMNS_DONE = 150, 400, 900
 #: Workbook formats whose number formats are read for each column's measured precision.
 _XLSX_FORMATS = ("xlsx", "xlsm")
+#: Threads that work on the columns of a long csv side by side.
+_LONG_WORKERS = WORKERS
 #: Rows sampled to detect the decimal mark.
 _DECIMAL_SAMPLE_ROWS = 2000
 
@@ -194,7 +198,8 @@ def read_sheet(
             "taken as their limits, not as a sample"
         )
     forced = resolve_kinds(columns, kinds, where)
-    built = assemble(columns, rows, forced, workbook=grid.sheet is not None, cancel=cancel)
+    workers = _LONG_WORKERS if grid.codes is not None else 1  # a long csv: columns side by side
+    built = assemble(columns, rows, forced, workbook=grid.sheet is not None, cancel=cancel, workers=workers)
     groups = layout.groups or ("",) * grid.cells.shape[1]
     shown = (
         workbook_formats(data, grid.sheet, rows, [c.position for c in columns])
@@ -205,10 +210,12 @@ def read_sheet(
         _info(c, built.kinds[c.name], built.notes[c.name], rows, grid.formulas, groups[c.position])
         for c in columns
     ]
-    infos = [
-        replace(info, decimals=column_decimals(c.parsed, grid.sheet is None, decimal, shown.get(c.position)))
-        for info, c in zip(infos, columns, strict=True)
-    ]
+    decimals = map_columns(
+        lambda c: column_decimals(c.parsed, grid.sheet is None, decimal, shown.get(c.position)),
+        columns,
+        workers,
+    )
+    infos = [replace(info, decimals=d) for info, d in zip(infos, decimals, strict=True)]
     info = SourceInfo(
         path=source.absolute(),
         sheet=grid.sheet,
@@ -308,11 +315,11 @@ def _load_grid(
     utf16 = _text.is_utf16(data) or _text.is_wide_codec(encoding)
     _guards.check_text_bytes(data, path, utf16)
     text, used = _text.decode(data, path, encoding)
-    if not text.strip():
+    if not text[: _guards.BLANK_HEAD].strip() and not text.strip():  # the start decides a long text
         raise SheetError(f"'{path.name}' is empty")
     separator = _text.normalise_delimiter(delimiter, path) if delimiter else _text.detect_delimiter(text, fmt)
     raise_if_cancelled(cancel)
-    cells, codes = _text.parse_grid(text, separator, path, cancel)
+    cells, codes = _text.parse_grid(text, separator, path, cancel, data if _text.is_utf8(used) else None)
     return _Grid(cells, (), None, separator, used, _text.line_end(text), codes=codes)
 
 
@@ -342,16 +349,29 @@ def _parse_body(
     parsed: list[ParsedColumn] = []
     width = body.shape[1]
     known = KnownTexts(decimal, markers)
-    for position in range(width):
-        raise_if_cancelled(cancel)
+
+    def parse(position: int) -> ParsedColumn:
         codes = grid.codes[position] if grid.codes is not None else None
         codes = None if codes is None else codes[:, layout.data_start :]
-        parsed.append(parse_column(body[:, position], decimal, markers, known, codes))
-        report(
-            progress,
-            _GRID_DONE + (_COLUMNS_DONE - _GRID_DONE) * (position + 1) // max(width, 1),
-            PROGRESS_TOTAL,
-        )
+        return parse_column(body[:, position], decimal, markers, known, codes)
+
+    # a long csv's columns are classified side by side: their numpy work runs outside the GIL
+    # (a workbook's cells are Python objects: one thread)
+    workers = _LONG_WORKERS if grid.codes is not None and width > 1 else 1
+    with ThreadPoolExecutor(workers, thread_name_prefix="kinfill-columns") as pool:
+        found = [pool.submit(parse, position) for position in range(width)]
+        try:
+            for position, future in enumerate(found):
+                raise_if_cancelled(cancel)
+                parsed.append(future.result())
+                report(
+                    progress,
+                    _GRID_DONE + (_COLUMNS_DONE - _GRID_DONE) * (position + 1) // max(width, 1),
+                    PROGRESS_TOTAL,
+                )
+        finally:
+            for future in found:  # after a cancel (or an error) the columns not yet begun are dropped
+                future.cancel()
     classes = np.stack([p.cls for p in parsed], axis=1) if parsed else np.empty((body.shape[0], 0))
     filled = classes != BLANK
     keep_rows, problems = _data_rows(filled, body, layout.data_start)

@@ -117,6 +117,11 @@ def _decode_as(data: bytes, path: Path, encoding: str) -> str:
         ) from None
 
 
+def is_utf8(encoding: str) -> bool:
+    """True for the name of the UTF-8 codec, with or without its byte-order mark."""
+    return codecs.lookup(encoding).name in ("utf-8", "utf-8-sig")
+
+
 def line_end(text: str) -> str:
     """The line ending the text uses: CR LF, LF or CR (judged on its start)."""
     sample = text[:_SAMPLE_CHARS]
@@ -162,16 +167,18 @@ def detect_delimiter(text: str, fmt: str) -> str:
 
 
 def parse_grid(
-    text: str, delimiter: str, path: Path, cancel: CancelFlag | None = None
+    text: str, delimiter: str, path: Path, cancel: CancelFlag | None = None, utf8: bytes | None = None
 ) -> tuple[np.ndarray, tuple[np.ndarray | None, ...] | None]:
     """Split text into a 2-D array of strings (short rows padded with "").
 
     Long quote-free text with rows of equal width is cut from its bytes into a numpy
     ``StringDType`` array, with each column's bytes beside it
     (:func:`~imputer_app.sheets._fast_text.split_plain_text`); everything else goes
-    through ``csv.reader`` into an object array, with None for the bytes.
+    through ``csv.reader`` into an object array, with None for the bytes. ``utf8`` is
+    the file's bytes when ``text`` was decoded from them as UTF-8 (the splitter cuts them
+    as they are).
     """
-    fast = split_plain_text(text, delimiter)
+    fast = split_plain_text(text, delimiter, utf8)
     if fast is not None:
         return fast.cells, fast.codes
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, strict=False)
