@@ -14,7 +14,6 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from imputer_app import work
 from imputer_app.sheets import _fast_text, _text, read_sheet
 from imputer_app.sheets._fast_text import plain_number_values, split_plain_text
 from imputer_app.sheets._grid import rows_to_grid
@@ -52,19 +51,6 @@ def test_split_equals_csv_reader(always_fast: None, delimiter: str, line_end: st
     expected = _csv_reader_grid(text, delimiter)
     assert fast.cells.shape == expected.shape
     assert (fast.cells == expected).all()
-
-
-@pytest.mark.parametrize("slice_rows", [1, 7, 40, 1000])
-def test_split_in_slices_equals_csv_reader(
-    always_fast: None, monkeypatch: pytest.MonkeyPatch, slice_rows: int
-) -> None:
-    # texts are cut slice by slice (the window's thread gets a turn between slices):
-    # every slice length gives the csv module's cells (reference: Python's csv module)
-    monkeypatch.setattr(work, "SLICE_ROWS", slice_rows)
-    text = _random_text(3, ",", "\n")
-    fast = split_plain_text(text, ",")
-    assert fast is not None
-    assert (fast.cells == _csv_reader_grid(text, ",")).all()
 
 
 @pytest.mark.parametrize(
