@@ -13,7 +13,7 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, TypeVar
 
-from PySide6.QtCore import QEvent, QModelIndex, Qt, Signal
+from PySide6.QtCore import QEvent, QModelIndex, Qt, QTimer, Signal
 from PySide6.QtGui import QAction, QCloseEvent, QDragEnterEvent, QDropEvent, QShowEvent
 from PySide6.QtWidgets import QMainWindow, QMenu, QSplitter, QStackedWidget, QToolBar, QWidget
 
@@ -398,6 +398,9 @@ class MainWindow(QMainWindow):
         else:
             self.donor_panel.clear()
 
+    def _show_current_cell(self) -> None:
+        self._on_current_cell(self.table.currentIndex(), QModelIndex())
+
     def show_panel(self, panel: QWidget) -> None:
         """Bring a panel's tab to the front."""
         self.tabs.show_panel(panel)
@@ -438,7 +441,9 @@ class MainWindow(QMainWindow):
         result = self.shown_result()
         self.unfilled_panel.set_result(result)
         self.donor_panel.clear()
-        self._on_current_cell(self.table.currentIndex(), QModelIndex())
+        # the current cell's story on the next turn of the event loop: a long sheet's
+        # table repaints first, so the window answers between the two
+        QTimer.singleShot(0, self, self._show_current_cell)
         self.summary.setText(fa.summary_text(self.table_model, self.session))
         self.data.set_layer_note(layer_note(self.session))
         self._show_remarks()
