@@ -10,7 +10,8 @@ import numpy as np
 import pandas as pd
 
 from imputer_app.errors import SheetError
-from imputer_app.sheets._cells import CENSORED, MARKER, NO_VALUE, ParsedColumn, in_codes
+from imputer_app.sheets._cell_classes import CENSORED, MARKER, NO_VALUE, in_codes
+from imputer_app.sheets._cells import ParsedColumn
 from imputer_app.sheets._grid import cell_text, column_letter
 from imputer_app.sheets._header import unit_from_name
 from imputer_app.sheets._kinds import (

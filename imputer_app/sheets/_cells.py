@@ -8,7 +8,8 @@ apart with one ``type`` call per cell only in columns that mix them.
 
 Missing markers
 ---------------
-:data:`DEFAULT_MARKERS` are missing markers and :data:`DEFAULT_BELOW_MARKERS` mean
+:data:`~imputer_app.sheets._markers.DEFAULT_MARKERS` are missing markers and
+:data:`~imputer_app.sheets._markers.DEFAULT_BELOW_MARKERS` mean
 "below the limit of detection" (compared trimmed and case-insensitively). A
 ``markers`` argument *extends* the missing set; ``meanings`` gives any marker text
 either meaning ("missing" or "below-limit"), overriding the defaults. A below-limit
@@ -22,156 +23,30 @@ only when the user passes it.
 from __future__ import annotations
 
 import datetime as dt
-import math
 import threading
-from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
+from imputer_app.sheets._cell_classes import (
+    BLANK,
+    BOOL,
+    CENSORED,
+    DATE,
+    ERROR_TEXTS,
+    FORMULA_ERROR,
+    MARKER,
+    NO_VALUE,
+    NUMBER,
+    TEXT,
+)
 from imputer_app.sheets._fast_text import plain_number_parts, plain_number_values
 from imputer_app.sheets._grid import NO_VALUE as NO_VALUE_CELL
 from imputer_app.sheets._grid import FormulaError
+from imputer_app.sheets._markers import BELOW_SIDES, CENSORED_PATTERN, LIMIT_FAMILIES, Markers
 from imputer_app.sheets._string_cells import as_objects, ascii_codes, is_string_array
 from imputer_app.sheets._word_numbers import words_of
-
-#: Cell classes found on reading (internal codes). FORMULA_ERROR is a cached formula
-#: error (``#DIV/0!``), NO_VALUE a formula cell saved without its result.
-BLANK, MARKER, NUMBER, CENSORED, TEXT, DATE, BOOL, FORMULA_ERROR, NO_VALUE = range(9)
-#: Formula error values as spreadsheet programs show them (common practice, no source).
-#: "#N/A" is also a missing marker, and a marker wins.
-ERROR_TEXTS = frozenset(
-    {"#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#NULL!", "#SPILL!", "#CALC!", "#FIELD!", "#N/A"}
-)
-#: Classes that hold no value for kind detection.
-NOT_VALUES = (BLANK, MARKER, FORMULA_ERROR, NO_VALUE)
-
-
-def in_codes(codes: np.ndarray, wanted: tuple[int, ...]) -> np.ndarray:
-    """``numpy.isin`` for small codes 0-255 (cell classes, states).
-
-    Wanted codes below 16 are bits of one number shifted by each code (a few times
-    faster than a table look-up); larger ones are looked up in a table.
-    """
-    small = codes.astype(np.uint8, copy=False)
-    if max(wanted, default=0) < 16:
-        bits = np.uint16(sum(1 << w for w in set(wanted)))
-        return ((bits >> small) & np.uint16(1)).astype(bool)  # a shift past 15 gives 0
-    table = np.zeros(256, dtype=bool)
-    table[list(wanted)] = True
-    return table[small]
-
-
-def all_whole(values: np.ndarray) -> bool:
-    """True when every value equals its rounding (NaN never does).
-
-    The first values decide a column of measurements without a pass over all of them.
-    """
-    head = values[:_WHOLE_HEAD]
-    return bool(np.array_equal(head, np.round(head)) and np.array_equal(values, np.round(values)))
-
-
-#: Values looked at first by :func:`all_whole`.
-_WHOLE_HEAD = 1000
-
-
-def class_counts(cls: np.ndarray) -> np.ndarray:
-    """How many cells of each class (index = class code) ``cls`` holds, in one pass."""
-    return np.bincount(cls.astype(np.uint8, copy=False), minlength=16)
-
-
-#: Missing-value markers that apply unless the user says otherwise (trimmed, case-insensitive).
-DEFAULT_MARKERS: tuple[str, ...] = ("NA", "N/A", "-", "--", "?", "missing", "lost", "#N/A", "NaN")
-#: Markers that mean "not detected": below the limit of detection, a censored cell
-#: (common practice in analytical labs, no source). "BDL", "<LOD" and "<LOQ" are read
-#: as censored entries by :data:`CENSORED_PATTERN` already.
-DEFAULT_BELOW_MARKERS: tuple[str, ...] = ("n.d.", "nd", "not detected")
-#: What a marker may mean.
-MARKER_MEANINGS = ("missing", "below-limit")
-
-#: Limit words a censored entry may give instead of a number, by family.
-LIMIT_FAMILIES: dict[str, str] = {
-    "lod": "LOD", "dl": "LOD", "mdl": "LOD", "d.l.": "LOD", "l.o.d.": "LOD", "l.o.d": "LOD",
-    "detection limit": "LOD", "limit of detection": "LOD", "bdl": "LOD", "blod": "LOD",
-    "loq": "LOQ", "lloq": "LOQ", "ql": "LOQ", "l.o.q.": "LOQ", "l.o.q": "LOQ",
-    "quantification limit": "LOQ", "limit of quantification": "LOQ", "bloq": "LOQ", "blq": "LOQ",
-    "bql": "LOQ", "rl": "RL", "mrl": "RL", "reporting limit": "RL", "uloq": "ULOQ",
-}  # fmt: skip
-
-_NUMBER = r"[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:[eE][+-]?\d+)?"
-_TOKENS = "|".join(sorted((t.replace(".", r"\.") for t in LIMIT_FAMILIES), key=len, reverse=True))
-_SIDES = r"<=|>=|<|>|≤|≥|below|above|less than|greater than|under|over"
-_BARE = r"bdl|blod|bloq|blq|bql"
-CENSORED_PATTERN = (
-    rf"(?i)^(?:(?P<side>{_SIDES})\s*(?:the\s+)?(?:(?P<num>{_NUMBER})|(?P<token>{_TOKENS}))"
-    rf"|(?P<bare>{_BARE}))$"
-)
-_BELOW = {"<", "<=", "≤", "below", "less than", "under"}
-
-
-@dataclass(frozen=True)
-class Markers:
-    """Missing markers split into text (case-folded) and numeric values."""
-
-    texts: frozenset[str]
-    numbers: frozenset[float]
-    below: frozenset[str] = frozenset()
-
-    @property
-    def number_array(self) -> np.ndarray:
-        """Numeric markers as a float array (for :func:`numpy.isin`)."""
-        return np.array(sorted(self.numbers), dtype=float)
-
-    def match_numbers(self, values: np.ndarray) -> np.ndarray:
-        """True where a value equals a numeric marker (none unless the user gave one)."""
-        if not self.numbers:
-            return np.zeros(values.shape, dtype=bool)
-        return np.isin(values, self.number_array)
-
-
-def make_markers(
-    extra: Iterable[str | float] | None = None, meanings: Mapping[str, str] | None = None
-) -> Markers:
-    """Build the marker sets: :data:`DEFAULT_MARKERS` plus ``extra``, with ``meanings`` applied.
-
-    Parameters
-    ----------
-    extra : iterable of str or float, optional
-        More missing markers. Text is compared trimmed and case-insensitively; a marker
-        that reads as a finite number (``-999``, ``"-999"``) is compared by numeric value.
-    meanings : mapping of str to {"missing", "below-limit"}, optional
-        The meaning of marker texts, overriding the defaults (``{"n.d.": "missing"}``).
-    """
-    if isinstance(extra, str | int | float):
-        extra = [extra]
-    texts: set[str] = set()
-    numbers: set[float] = set()
-    below = {m.lower() for m in DEFAULT_BELOW_MARKERS}
-    for marker in (*DEFAULT_MARKERS, *(extra or ())):
-        value = _finite_number(marker)
-        if value is not None:
-            numbers.add(value)
-        else:
-            texts.add(str(marker).strip().lower())
-    for marker, meaning in (meanings or {}).items():
-        key = str(marker).strip().lower()
-        value = _finite_number(marker)
-        if meaning == "missing":
-            below.discard(key)
-            (numbers.add(value) if value is not None else texts.add(key))
-        else:
-            texts.discard(key)
-            below.add(key)
-    return Markers(frozenset(texts - below), frozenset(numbers), frozenset(below))
-
-
-def _finite_number(marker: object) -> float | None:
-    try:
-        value = float(str(marker).strip().replace(",", ".")) if not isinstance(marker, bool) else math.nan
-    except ValueError:
-        return None
-    return value if math.isfinite(value) else None
 
 
 @dataclass
@@ -569,7 +444,8 @@ def _censored(texts: pd.Series, decimal: str) -> pd.DataFrame:
     limit = np.full(len(texts), np.nan)
     if matched.size:
         words = np.where(pd.isna(found["token"].to_numpy()), bare, found["token"].to_numpy())[matched]
-        side[matched] = ["<" if pd.isna(w) or str(w).lower() in _BELOW else ">" for w in side_word[matched]]
+        below = [pd.isna(w) or str(w).lower() in BELOW_SIDES for w in side_word[matched]]
+        side[matched] = ["<" if b else ">" for b in below]
         token[matched] = ["" if pd.isna(w) else LIMIT_FAMILIES.get(str(w).lower(), "") for w in words]
         numbers = pd.Series(found["num"].to_numpy()[matched], dtype=object).fillna("").astype(str)
         first = parse_numbers(numbers, decimal)

@@ -13,7 +13,8 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from imputer_app.sheets._cells import BLANK, NUMBER, ParsedColumn, all_whole
+from imputer_app.sheets._cell_classes import BLANK, NUMBER, all_whole
+from imputer_app.sheets._cells import ParsedColumn
 
 #: Share of a column's filled cells that must be formulas for it to be computed.
 COMPUTED_SHARE = 0.5

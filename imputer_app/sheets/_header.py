@@ -26,8 +26,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from imputer_app.sheets._cells import CENSORED_PATTERN, Markers
 from imputer_app.sheets._grid import Merge, cell_text, is_filled
+from imputer_app.sheets._markers import CENSORED_PATTERN, Markers
 from imputer_app.sheets._string_cells import as_objects
 
 ZONE_ROWS = 60

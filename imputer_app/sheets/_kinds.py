@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from imputer_app.sheets._cells import (
+from imputer_app.sheets._cell_classes import (
     BLANK,
     BOOL,
     CENSORED,
@@ -32,11 +32,11 @@ from imputer_app.sheets._cells import (
     NOT_VALUES,
     NUMBER,
     TEXT,
-    ParsedColumn,
     all_whole,
     class_counts,
     in_codes,
 )
+from imputer_app.sheets._cells import ParsedColumn
 from imputer_app.sheets._grid import cell_text
 from imputer_app.sheets._string_cells import as_objects, is_string_array
 

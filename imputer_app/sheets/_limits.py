@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 
 from imputer_app.sheets._assemble import Column
-from imputer_app.sheets._cells import CENSORED, NUMBER, TEXT
+from imputer_app.sheets._cell_classes import CENSORED, NUMBER, TEXT
 from imputer_app.sheets._model import MarkerFound
 
 #: Labels of a limit row (trimmed, case-insensitive; a unit in brackets may follow).

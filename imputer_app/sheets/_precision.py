@@ -21,7 +21,8 @@ from xml.etree import ElementTree
 import numpy as np
 
 from imputer_app.plan_rounding import MAX_DECIMALS, float_decimals
-from imputer_app.sheets._cells import NUMBER, ParsedColumn
+from imputer_app.sheets._cell_classes import NUMBER
+from imputer_app.sheets._cells import ParsedColumn
 from imputer_app.sheets._patch_cells import column_styles
 from imputer_app.sheets._patch_styles import children, get_attr
 from imputer_app.sheets._string_cells import as_objects, ascii_codes, is_string_array

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from imputer_app.sheets._cells import all_whole, class_counts
+from imputer_app.sheets._cell_classes import all_whole, class_counts
 
 
 @pytest.mark.parametrize(

@@ -19,8 +19,9 @@ import pytest
 from imputer_app.errors import SheetError
 from imputer_app.sheets import _cells as cells
 from imputer_app.sheets import read_sheet
-from imputer_app.sheets._cells import ParsedColumn, make_markers, parse_column
+from imputer_app.sheets._cells import ParsedColumn, parse_column
 from imputer_app.sheets._grid import NO_VALUE, FormulaError
+from imputer_app.sheets._markers import make_markers
 from imputer_app.sheets._workbook import read_workbook
 from tests.sheets.awkward_workbook import HEADER, build, lying_dimension
 from tests.sheets.package_support import number_cell, text_cell, xlsx

@@ -17,18 +17,9 @@ import pandas as pd
 import pytest
 
 from imputer_app.errors import Cancelled
-from imputer_app.sheets._cells import (
-    BLANK,
-    BOOL,
-    CENSORED,
-    DATE,
-    DEFAULT_MARKERS,
-    NUMBER,
-    TEXT,
-    make_markers,
-    parse_column,
-    parse_numbers,
-)
+from imputer_app.sheets._cell_classes import BLANK, BOOL, CENSORED, DATE, NUMBER, TEXT
+from imputer_app.sheets._cells import parse_column, parse_numbers
+from imputer_app.sheets._markers import DEFAULT_MARKERS, make_markers
 from imputer_app.sheets._model import CELL_STATES
 from imputer_app.sheets._read import read_sheet
 

@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from imputer_app.sheets._cells import in_codes
+from imputer_app.sheets._cell_classes import in_codes
 from imputer_app.sheets._fast_text import _simple_values, plain_number_values
 from imputer_app.sheets._precision import _digits_after_mark
 from imputer_app.sheets._string_cells import STRING_DTYPE, ascii_codes
