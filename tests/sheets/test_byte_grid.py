@@ -23,6 +23,7 @@ from imputer_app.sheets import _byte_grid, _cells, _fast_text, _read, _text, rea
 from imputer_app.sheets._fast_text import split_plain_text
 from imputer_app.sheets._grid import rows_to_grid
 from imputer_app.sheets._word_numbers import words_of
+from tests.sheets.both_paths import read_both_ways
 
 
 @pytest.fixture
@@ -125,14 +126,7 @@ def test_long_sheet_same_through_both_paths(
     monkeypatch.setattr(_byte_grid, "PIECE_BYTES", piece)
     path = tmp_path / "long.csv"
     path.write_bytes(_long_sheet_text(3000, 2700).encode("utf-8"))
-    taken: list[object] = []
-    split = _text.split_plain_text
-    monkeypatch.setattr(_text, "split_plain_text", lambda *a: taken.append(split(*a)) or taken[-1])
-    monkeypatch.setattr(_fast_text, "MIN_FAST_CHARS", 0)
-    fast = read_sheet(path)
-    assert taken and taken[0] is not None  # the fast path did the splitting
-    monkeypatch.setattr(_fast_text, "MIN_FAST_CHARS", 1 << 62)
-    exact = read_sheet(path)
+    fast, exact = read_both_ways(monkeypatch, path)
     pd.testing.assert_frame_equal(fast.frame, exact.frame)
     pd.testing.assert_frame_equal(fast.states, exact.states)
     pd.testing.assert_frame_equal(fast.cell_notes, exact.cell_notes)

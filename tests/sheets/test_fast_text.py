@@ -14,9 +14,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from imputer_app.sheets import _fast_text, _text, read_sheet
+from imputer_app.sheets import _fast_text
 from imputer_app.sheets._fast_text import plain_number_values, split_plain_text
 from imputer_app.sheets._grid import rows_to_grid
+from tests.sheets.both_paths import read_both_ways
 
 
 @pytest.fixture
@@ -149,14 +150,7 @@ def test_read_sheet_same_through_both_paths(tmp_path, monkeypatch: pytest.Monkey
     ]
     path = tmp_path / "long.csv"
     path.write_text("\r\n".join(lines) + "\r\n", encoding="utf-8")
-    monkeypatch.setattr(_fast_text, "MIN_FAST_CHARS", 0)
-    taken = []
-    split = _text.split_plain_text
-    monkeypatch.setattr(_text, "split_plain_text", lambda *a: taken.append(split(*a)) or taken[-1])
-    fast = read_sheet(path)
-    assert taken and taken[0] is not None  # the fast path did the splitting
-    monkeypatch.setattr(_fast_text, "MIN_FAST_CHARS", 1 << 62)
-    exact = read_sheet(path)
+    fast, exact = read_both_ways(monkeypatch, path)
     pd.testing.assert_frame_equal(fast.frame, exact.frame)
     pd.testing.assert_frame_equal(fast.states, exact.states)
     assert (fast.raw_text == exact.raw_text).all()
