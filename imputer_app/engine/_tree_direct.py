@@ -19,6 +19,7 @@ candidates have them, so a candidate with gaps is windowed too.
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator
+from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import NDArray
@@ -36,21 +37,59 @@ FEWEST = 8
 CANDIDATES = 2048
 
 
+@dataclass(frozen=True)
+class Run:
+    """Candidates swept along one column: sorted by their value in it."""
+
+    column: int  # position among the targets' columns
+    key: FloatArray  # the candidates' values in it, ascending
+    right: FloatArray  # their side of the product, same order
+    cand: IntArray  # their rows, same order
+    by_row: IntArray  # the order of ``cand`` by row (to find a target row among them)
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """The candidates of one target pattern, ready for every batch of its targets."""
+
+    columns: IntArray
+    runs: tuple[Run, ...]
+
+
+def sweep_of(lay: Layout, bits: int, rows: IntArray) -> Sweep:
+    """Prepare candidate ``rows`` (each sharing a column with pattern ``bits``) for :func:`direct_hits`.
+
+    Each candidate is swept along the first column it has, taking columns by how many
+    candidates have them.
+    """
+    cols = lay.columns(bits)
+    c, m = lay.x[np.ix_(rows, cols)], lay.mask[np.ix_(rows, cols)]
+    f = lay.total / (m @ lay.weights[cols])  # the rows share a column (by pattern)
+    right = np.hstack([m, -2.0 * c, np.einsum("ij,ij->i", c, c)[:, None]]) * f[:, None]
+    by = np.argsort(-m.sum(axis=0), kind="stable")
+    sweep = by[np.argmax(m[:, by], axis=1)]
+    runs = []
+    for a in by.tolist():
+        mine = np.flatnonzero(sweep == a)
+        if len(mine):
+            mine = mine[np.argsort(c[mine, a], kind="stable")]
+            runs.append(Run(a, c[mine, a], right[mine], rows[mine], np.argsort(rows[mine], kind="stable")))
+    return Sweep(cols, tuple(runs))
+
+
 def direct_hits(
-    lay: Layout, bits: int, batch: IntArray, rows: IntArray, reach: FloatArray, size: int, noise: float
+    lay: Layout, sweep: Sweep, batch: IntArray, reach: FloatArray, size: int, noise: float
 ) -> tuple[IntArray, IntArray, FloatArray]:
-    """The pairs of ``batch`` (target rows of pattern ``bits``) and ``rows`` within reach.
+    """The pairs of ``batch`` (target rows of one pattern) and the candidates of ``sweep`` within reach.
 
     Parameters
     ----------
     lay : Layout
         The similarity columns as coordinates.
-    bits : int
-        The targets' pattern (their observed similarity columns).
+    sweep : Sweep
+        The candidates (:func:`sweep_of`) of the targets' pattern.
     batch : ndarray of int
         Target rows.
-    rows : ndarray of int, ascending
-        Candidate rows (each shares a column with the targets).
     reach : ndarray of float, shape (len(batch),)
         Each target's largest ``d^2`` of interest; ``inf`` asks for the nearest ``size``
         of every block of candidates instead.
@@ -65,20 +104,11 @@ def direct_hits(
         Target position in ``batch``, candidate row and ``d^2`` (product form, at least 0)
         of each pair kept; never a row with itself.
     """
-    cols = lay.columns(bits)
-    t = lay.x[np.ix_(batch, cols)]
+    t = lay.x[np.ix_(batch, sweep.columns)]
     left = np.hstack([t * t, t, np.ones((len(batch), 1))])
-    c, m = lay.x[np.ix_(rows, cols)], lay.mask[np.ix_(rows, cols)]
-    f = lay.total / (m @ lay.weights[cols])  # the rows share a column (by pattern)
-    right = np.hstack([m, -2.0 * c, np.einsum("ij,ij->i", c, c)[:, None]]) * f[:, None]
-    # each candidate is swept along the first column it has, columns taken by how many have them
-    by = np.argsort(-m.sum(axis=0), kind="stable")
-    sweep = by[np.argmax(m[:, by], axis=1)]
     found: list[tuple[IntArray, IntArray, FloatArray]] = []
-    for a in by:
-        mine = np.flatnonzero(sweep == a)
-        if len(mine):
-            found += _sweep(left, t[:, a], right[mine], c[mine, a], rows[mine], batch, reach, size, noise)
+    for run in sweep.runs:
+        found += _sweep(left, t[:, run.column], run, batch, reach, size, noise)
     if not found:
         empty = np.zeros(0, dtype=np.intp)
         return empty, empty, np.zeros(0)
@@ -88,23 +118,15 @@ def direct_hits(
 def _sweep(
     left: FloatArray,
     along: FloatArray,
-    right: FloatArray,
-    key: FloatArray,
-    cand: IntArray,
+    run: Run,
     batch: IntArray,
     reach: FloatArray,
     size: int,
     noise: float,
 ) -> list[tuple[IntArray, IntArray, FloatArray]]:
-    """The pairs within reach of the targets (``left`` rows) and candidates that all have the sweep column.
-
-    ``along`` and ``key`` are the targets' and candidates' values in it; ``right`` the
-    candidates' side of the product.
-    """
-    order = np.argsort(key, kind="stable")
-    key, right, cand = key[order], right[order], cand[order]
+    """The pairs within reach of the targets (``left`` rows; ``along`` in the run's column) and a run."""
+    key, right, cand, by_row = run.key, run.right, run.cand, run.by_row
     # each target row's own place among the candidates, or -1
-    by_row = np.argsort(cand, kind="stable")
     at = np.minimum(np.searchsorted(cand[by_row], batch), len(cand) - 1)
     own = np.where(cand[by_row[at]] == batch, by_row[at], -1)
 

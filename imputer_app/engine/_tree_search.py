@@ -35,7 +35,7 @@ from imputer_app.engine._distance import DistanceModel
 from imputer_app.engine._exact import exact_cells, still_open
 from imputer_app.engine._patterns import MIN_TARGETS, MIN_TREE, Layout, by_pattern, layout, tree_pays
 from imputer_app.engine._table import PreparedTable
-from imputer_app.engine._tree_direct import direct_hits
+from imputer_app.engine._tree_direct import Sweep, direct_hits, sweep_of
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 
 IntArray = NDArray[np.intp]
@@ -141,6 +141,7 @@ class TreeSearch:
     _uses: Counter[tuple[int, int, int]] = field(default_factory=Counter)
     _asks: dict[tuple[int, int], BoolArray] = field(default_factory=dict)
     _gives: dict[tuple[int, int], IntArray] = field(default_factory=dict)
+    _sweeps: dict[tuple[int, int], Sweep | None] = field(default_factory=dict)
 
     def run(self, progress: Progress | None, cancel: CancelFlag | None) -> int:
         """Search every target cell; returns the progress steps (the last reported by the caller)."""
@@ -241,7 +242,8 @@ class TreeSearch:
                 yield g, cbits, bits & cbits
 
     def _release(self, key: tuple[int, int]) -> None:
-        """Drop the trees no later target pattern asks (one per pattern: they add up)."""
+        """Drop the trees no later target pattern asks (one per pattern: they add up), and its sweep."""
+        self._sweeps.pop(key, None)
         for t in self._treeby_pattern(*key):
             self._uses[t] -= 1
             if self._uses[t] <= 0:
@@ -274,9 +276,9 @@ class TreeSearch:
         trees = sorted(self._treeby_pattern(g, bits), key=lambda t: -len(self._cand[t[0], t[1]]))
         for t in trees:
             self._query(t, batch, lists, same=t[1] == bits)
-        small = [rows for _, rows in self._candidates(g, bits) if len(rows) < MIN_TREE]
-        if small:
-            self._direct(bits, batch, np.sort(np.concatenate(small)), lists)
+        sweep = self._sweep(key)
+        if sweep is not None:
+            self._direct(sweep, batch, lists)
         lists.past = np.minimum(lists.past, lists.bound)
         return lists
 
@@ -311,14 +313,21 @@ class TreeSearch:
         past = np.where(full, factor * e[:, -1] ** 2, factor * upper**2)
         lists.merge(at, index, d2, past)
 
-    def _direct(self, bits: int, batch: IntArray, rows: IntArray, lists: _Lists) -> None:
+    def _sweep(self, key: tuple[int, int]) -> Sweep | None:
+        """The small candidate patterns of a target pattern, prepared once for all its batches."""
+        if key not in self._sweeps:
+            small = [rows for _, rows in self._candidates(*key) if len(rows) < MIN_TREE]
+            self._sweeps[key] = sweep_of(self.lay, key[1], np.sort(np.concatenate(small))) if small else None
+        return self._sweeps[key]
+
+    def _direct(self, sweep: Sweep, batch: IntArray, lists: _Lists) -> None:
         """Compare ``batch`` with the rows of small candidate patterns directly (one pattern of targets).
 
         The pairs within each row's reach (:func:`~imputer_app.engine._tree_direct.direct_hits`)
         are merged once.
         """
         noise = self.model.noise
-        r, index, d2 = direct_hits(self.lay, bits, batch, rows, lists.bound + noise, lists.d2.shape[1], noise)
+        r, index, d2 = direct_hits(self.lay, sweep, batch, lists.bound + noise, lists.d2.shape[1], noise)
         if not len(r):
             return
         order = np.argsort(r, kind="stable")

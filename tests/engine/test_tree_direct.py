@@ -7,7 +7,7 @@ import pytest
 
 from imputer_app.engine import _tree_direct
 from imputer_app.engine._patterns import Layout
-from imputer_app.engine._tree_direct import direct_hits
+from imputer_app.engine._tree_direct import direct_hits, sweep_of
 
 
 def _layout(seed: int, n: int, p: int, gap: float) -> Layout:
@@ -53,7 +53,7 @@ def test_direct_hits_are_the_pairs_within_reach(
     near = np.sort(d2, axis=1)
     reach = (near[:, 2] + near[:, 3]) / 2
     reach[::7] = np.inf
-    at, index, got = direct_hits(lay, bits, batch, rows, reach, size=4, noise=1e-9)
+    at, index, got = direct_hits(lay, sweep_of(lay, bits, rows), batch, reach, size=4, noise=1e-9)
     found = {(int(a), int(c)): float(d) for a, c, d in zip(at, index, got, strict=True)}
     assert all(batch[a] != c for a, c in found)
     for i in np.flatnonzero(np.isfinite(reach)):
@@ -76,7 +76,7 @@ def test_candidates_without_the_sweep_column_meet_every_target(monkeypatch: pyte
     batch, rows = np.arange(0, 30), np.arange(30, 120)
     d2 = _all_pairs(lay, 0b111, batch, rows)
     reach = np.median(d2, axis=1)
-    at, index, _ = direct_hits(lay, 0b111, batch, rows, reach, size=4, noise=1e-9)
+    at, index, _ = direct_hits(lay, sweep_of(lay, 0b111, rows), batch, reach, size=4, noise=1e-9)
     assert sorted(zip(at.tolist(), index.tolist(), strict=True)) == sorted(
         (i, int(rows[j])) for i, j in zip(*np.nonzero(d2 <= reach[:, None]), strict=True)
     )
