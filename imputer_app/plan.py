@@ -19,10 +19,7 @@ Examples
 from __future__ import annotations
 
 import dataclasses
-import math
-import numbers
 import tomllib
-from collections import Counter
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -32,6 +29,21 @@ import tomli_w
 
 from imputer_app.errors import PlanError
 from imputer_app.files import write_text_atomic
+from imputer_app.plan_checks import (
+    INTERVAL_OFF,
+    Bound,
+    check_bounds,
+    check_decimals,
+    check_k,
+    check_k_by_column,
+    check_kinds,
+    check_level,
+    check_markers,
+    check_weights,
+    column_names,
+    column_names_or_none,
+    finite_number,
+)
 from imputer_app.plan_rounding import DEFAULT_ROUNDING, LEGACY_ROUNDING, ROUNDINGS
 from imputer_app.plan_text import (
     commented_toml,
@@ -60,24 +72,10 @@ CHOICES: dict[str, tuple[str, ...]] = {
     "rounding": ROUNDINGS,
 }
 
-#: Column kinds a plan may force on a column (overriding detection).
-KINDS = ("number", "category")
-
-#: What a marker text in a cell ("n.d.", "NA") may mean: a missing value (a gap to
-#: fill) or an entry below the limit of detection (a censored cell).
-MARKER_MEANINGS = ("missing", "below-limit")
-
-MAX_WEIGHT = 1000.0
-
-#: Default level of the interval of every filled number, and its allowed range.
+#: Default level of the interval of every filled number.
 DEFAULT_INTERVAL_LEVEL = 0.9
-INTERVAL_LEVELS = (0.5, 0.99)
-#: How a plan file says "no intervals" (TOML has no empty value).
-INTERVAL_OFF = "off"
 #: The k values a recovery test tries by default, in the app and on the command line alike.
 DEFAULT_KS = tuple(range(1, 31))
-
-Bound = tuple[float | None, float | None]
 
 
 @dataclass(frozen=True)
@@ -175,11 +173,11 @@ class FillPlan:
 
     def __post_init__(self) -> None:
         _set = object.__setattr__
-        _set(self, "k", _check_k(self.k))
-        _set(self, "similarity_columns", _names_or_none("similarity_columns", self.similarity_columns))
-        _set(self, "fill_columns", _names_or_none("fill_columns", self.fill_columns))
-        _set(self, "carried_columns", _names("carried_columns", self.carried_columns))
-        _set(self, "weights", _check_weights(self.weights))
+        _set(self, "k", check_k(self.k))
+        _set(self, "similarity_columns", column_names_or_none("similarity_columns", self.similarity_columns))
+        _set(self, "fill_columns", column_names_or_none("fill_columns", self.fill_columns))
+        _set(self, "carried_columns", column_names("carried_columns", self.carried_columns))
+        _set(self, "weights", check_weights(self.weights))
         for name, allowed in CHOICES.items():
             value = getattr(self, name)
             if value not in allowed:
@@ -188,17 +186,17 @@ class FillPlan:
             raise PlanError(
                 f"group_column must be a column name or empty; got {shown_value(self.group_column)}"
             )
-        _set(self, "bounds", _check_bounds(self.bounds))
-        _set(self, "decimals", _check_decimals(self.decimals))
-        _set(self, "kinds", _check_kinds(self.kinds))
-        _set(self, "k_by_column", _check_k_by_column(self.k_by_column))
-        _set(self, "interval_level", _check_level(self.interval_level))
+        _set(self, "bounds", check_bounds(self.bounds))
+        _set(self, "decimals", check_decimals(self.decimals))
+        _set(self, "kinds", check_kinds(self.kinds))
+        _set(self, "k_by_column", check_k_by_column(self.k_by_column))
+        _set(self, "interval_level", check_level(self.interval_level))
         if not isinstance(self.fill_formula_errors, bool):
             raise PlanError(
                 f"fill_formula_errors must be true or false; got {shown_value(self.fill_formula_errors)}"
             )
-        _set(self, "markers", _check_markers(self.markers))
-        _set(self, "limits", {str(c): _number("limit", c, v) for c, v in dict(self.limits).items()})
+        _set(self, "markers", check_markers(self.markers))
+        _set(self, "limits", {str(c): finite_number("limit", c, v) for c, v in dict(self.limits).items()})
         if self.id_column is not None and (not isinstance(self.id_column, str) or not self.id_column):
             raise PlanError(f"id_column must be a column name or empty; got {shown_value(self.id_column)}")
         self._check_roles()
@@ -349,142 +347,6 @@ class FillPlan:
             raise PlanError(f"the group column {shown_value(self.group_column)} cannot also be a fill column")
 
 
-def _check_k(k: object) -> int:
-    whole = "k must be a whole number of at least 1"
-    if isinstance(k, bool) or not isinstance(k, numbers.Real):
-        raise PlanError(f"{whole}; got {shown_value(k)}")
-    if isinstance(k, numbers.Integral):
-        number = int(k)
-    else:
-        value = float(k)  # nan and inf have no whole value
-        if not math.isfinite(value) or not value.is_integer():
-            raise PlanError(f"{whole}; got {shown_value(k)}")
-        number = int(value)
-    if number < 1:
-        raise PlanError(f"k must be at least 1; got {number}")
-    return number
-
-
-def _check_k_by_column(ks: Mapping[str, int]) -> dict[str, int]:
-    if not isinstance(ks, Mapping):
-        raise PlanError(f"k_by_column must be a table of column = k; got {shown_value(ks)}")
-    out: dict[str, int] = {}
-    for column, value in dict(ks).items():
-        if isinstance(value, bool) or not isinstance(value, numbers.Integral) or int(value) < 1:
-            raise PlanError(
-                f"k for column {shown_value(column)} must be a whole number of at least 1; "
-                f"got {shown_value(value)}"
-            )
-        out[str(column)] = int(value)
-    return out
-
-
-def _check_level(level: object) -> float | None:
-    if level is None or level == INTERVAL_OFF:
-        return None
-    low, high = INTERVAL_LEVELS
-    if isinstance(level, bool) or not isinstance(level, numbers.Real) or not low <= float(level) <= high:
-        raise PlanError(
-            f"interval_level must be a number from {low:g} to {high:g}, or {INTERVAL_OFF!r}; "
-            f"got {shown_value(level)}"
-        )
-    return float(level)
-
-
-def _names(setting: str, names: object) -> tuple[str, ...]:
-    if isinstance(names, str) or not isinstance(names, Sequence | set | frozenset):
-        raise PlanError(f"{setting} must be a list of column names; got {shown_value(names)}")
-    out = tuple(names)
-    bad = [n for n in out if not isinstance(n, str) or not n]
-    if bad:
-        raise PlanError(f"{setting} must hold column names (text); got {shown_value(bad[0])}")
-    if len(set(out)) != len(out):
-        counts = Counter(out)
-        dup = next(n for n in out if counts[n] > 1)
-        raise PlanError(f"{setting} names column {shown_value(dup)} twice")
-    return out
-
-
-def _names_or_none(setting: str, names: object) -> tuple[str, ...] | None:
-    return None if names is None else _names(setting, names)
-
-
-def _number(setting: str, column: str, value: object) -> float:
-    if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value):
-        raise PlanError(
-            f"{setting} for column {shown_value(column)} must be a finite number; got {shown_value(value)}"
-        )
-    return float(value)
-
-
-def _check_weights(weights: Mapping[str, float]) -> dict[str, float]:
-    out: dict[str, float] = {}
-    for column, value in dict(weights).items():
-        w = _number("weight", column, value)
-        if w < 0:
-            raise PlanError(f"weight for column {shown_value(column)} must be 0 or more; got {w:g}")
-        if w > MAX_WEIGHT:
-            raise PlanError(
-                f"weight for column {shown_value(column)} must be at most {MAX_WEIGHT:g}; got {w:g}"
-            )
-        out[str(column)] = w
-    return out
-
-
-def _check_bounds(bounds: Mapping[str, Any]) -> dict[str, Bound]:
-    out: dict[str, Bound] = {}
-    for column, pair in dict(bounds).items():
-        if not isinstance(pair, Sequence) or isinstance(pair, str) or len(pair) != 2:
-            raise PlanError(
-                f"bounds for column {shown_value(column)} must be (lower, upper); got {shown_value(pair)}"
-            )
-        lower, upper = (None if v is None else _number("bound", column, v) for v in pair)
-        if lower is not None and upper is not None and lower > upper:
-            raise PlanError(
-                f"bounds for column {shown_value(column)}: lower {lower:g} is above upper {upper:g}"
-            )
-        out[str(column)] = (lower, upper)
-    return out
-
-
-def _check_decimals(decimals: Mapping[str, int]) -> dict[str, int]:
-    out: dict[str, int] = {}
-    for column, value in dict(decimals).items():
-        if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value <= 15:
-            raise PlanError(
-                f"decimals for column {shown_value(column)} must be a whole number 0-15; "
-                f"got {shown_value(value)}"
-            )
-        out[str(column)] = value
-    return out
-
-
-def _check_markers(markers: Mapping[str, str]) -> dict[str, str]:
-    out: dict[str, str] = {}
-    for text, meaning in dict(markers).items():
-        if not isinstance(text, str) or not text.strip():
-            raise PlanError(f"a marker must be the text found in cells; got {shown_value(text)}")
-        if meaning not in MARKER_MEANINGS:
-            raise PlanError(
-                f"marker {shown_value(text)} must mean one of {', '.join(MARKER_MEANINGS)}; "
-                f"got {shown_value(meaning)}"
-            )
-        out[text.strip()] = meaning
-    return out
-
-
-def _check_kinds(kinds: Mapping[str, str]) -> dict[str, str]:
-    out: dict[str, str] = {}
-    for column, kind in dict(kinds).items():
-        if kind not in KINDS:
-            raise PlanError(
-                f"kind for column {shown_value(column)} must be one of {', '.join(KINDS)}; "
-                f"got {shown_value(kind)}"
-            )
-        out[str(column)] = kind
-    return out
-
-
 # ------------------------------------------------------------------ from TOML
 _SCALAR_KEYS: dict[str, tuple[type, ...]] = {
     "format": (int,),
@@ -505,10 +367,10 @@ _TABLE_KEYS = ("weights", "bounds", "decimals", "kinds", "k_by_column", "markers
 def _check_table_entries(data: Mapping[str, Any], *, source: str, text: str | None) -> None:
     """Validate each weights/decimals/kinds/bounds entry alone, to name its line."""
     checks: dict[str, Callable[[dict[str, Any]], object]] = {
-        "weights": _check_weights,
-        "decimals": _check_decimals,
-        "kinds": _check_kinds,
-        "k_by_column": _check_k_by_column,
+        "weights": check_weights,
+        "decimals": check_decimals,
+        "kinds": check_kinds,
+        "k_by_column": check_k_by_column,
     }
     for table, check in checks.items():
         for column, value in dict(data.get(table, {})).items():
@@ -578,7 +440,7 @@ def _plan_from_dict(data: Mapping[str, Any], *, source: str, text: str | None) -
             raise PlanError(f"{source}: bounds.{column} must be a table with lower and/or upper{where}")
         bounds[column] = (sides.get("lower"), sides.get("upper"))
         try:
-            _check_bounds({column: bounds[column]})
+            check_bounds({column: bounds[column]})
         except PlanError as exc:
             raise PlanError(f"{source}: {exc}{line_in_table(text, 'bounds', column)}") from None
     kwargs["bounds"] = bounds

@@ -15,7 +15,8 @@ from imputer_app.cli import commands
 from imputer_app.cli.evidence import k_option
 from imputer_app.cli.exit_codes import EXIT_USAGE
 from imputer_app.cli.progress import PROGRESS_MODES
-from imputer_app.plan import CHOICES, DEFAULT_KS, MARKER_MEANINGS, PLAN_SUFFIX, FillPlan
+from imputer_app.plan import CHOICES, DEFAULT_KS, PLAN_SUFFIX, FillPlan
+from imputer_app.plan_checks import MARKER_MEANINGS
 from imputer_app.words import CHOICE_WORDS, SETTING_TIPS
 
 

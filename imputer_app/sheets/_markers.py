@@ -19,9 +19,6 @@ DEFAULT_MARKERS: tuple[str, ...] = ("NA", "N/A", "-", "--", "?", "missing", "los
 #: (common practice in analytical labs, no source). "BDL", "<LOD" and "<LOQ" are read
 #: as censored entries by :data:`CENSORED_PATTERN` already.
 DEFAULT_BELOW_MARKERS: tuple[str, ...] = ("n.d.", "nd", "not detected")
-#: What a marker may mean.
-MARKER_MEANINGS = ("missing", "below-limit")
-
 #: Limit words a censored entry may give instead of a number, by family.
 LIMIT_FAMILIES: dict[str, str] = {
     "lod": "LOD", "dl": "LOD", "mdl": "LOD", "d.l.": "LOD", "l.o.d.": "LOD", "l.o.d": "LOD",

@@ -18,6 +18,7 @@ from pathlib import Path
 import numpy as np
 
 from imputer_app.errors import SheetError
+from imputer_app.plan_checks import MARKER_MEANINGS
 from imputer_app.sheets import _guards, _text
 from imputer_app.sheets._assemble import Column, assemble, resolve_kinds
 from imputer_app.sheets._cell_classes import BLANK
@@ -26,7 +27,7 @@ from imputer_app.sheets._facts import COMPUTED_REASON, is_computed, is_group_lik
 from imputer_app.sheets._grid import Merge
 from imputer_app.sheets._header import Layout, find_layout, unique_names
 from imputer_app.sheets._limits import markers_found, take_limit_row
-from imputer_app.sheets._markers import DEFAULT_MARKERS, MARKER_MEANINGS, Markers, make_markers
+from imputer_app.sheets._markers import DEFAULT_MARKERS, Markers, make_markers
 from imputer_app.sheets._model import ColumnInfo, Sheet, SourceInfo
 from imputer_app.sheets._precision import column_decimals, workbook_formats
 from imputer_app.sheets._threads import WORKERS, map_columns

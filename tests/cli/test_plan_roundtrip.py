@@ -11,7 +11,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from imputer_app.errors import PlanError
-from imputer_app.plan import CHOICES, KINDS, MAX_WEIGHT, FillPlan
+from imputer_app.plan import CHOICES, FillPlan
+from imputer_app.plan_checks import KINDS, MAX_WEIGHT
 
 # Column names as labs write them: spaces, units, accents, quotes, dots and brackets.
 NAMES = st.text(

@@ -10,7 +10,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from imputer_app.errors import PlanError
-from imputer_app.plan import CHOICES, KINDS, FillPlan
+from imputer_app.plan import CHOICES, FillPlan
+from imputer_app.plan_checks import KINDS
 from imputer_app.sheets import read_export_plan
 from imputer_app.sheets._export_plan import plan_from_about_rows
 from imputer_app.sheets._run_record import about_rows
