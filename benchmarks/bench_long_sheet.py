@@ -24,6 +24,7 @@ import time
 
 import numpy as np
 import pandas as pd
+from scipy.spatial import cKDTree
 
 from benchmarks.bench_engine import PLAN, _data, _peak_gb
 from benchmarks.station_log import station_log
@@ -33,6 +34,8 @@ from imputer_app.plan import FillPlan
 ROWS = int(os.environ.get("KINFILL_BENCH_LONG_ROWS", 1_048_576))
 CASES = os.environ.get("KINFILL_BENCH_LONG_CASES", "station,normal").split(",")
 SLICE = 100_000
+#: Target rows whose single tree query is timed for the floor.
+FLOOR_SAMPLE = 4096
 #: The station log's plan: its channels have different units, so z-scores (the default).
 STATION_PLAN = FillPlan(k=PLAN.k, interval_level=None)
 
@@ -88,12 +91,37 @@ def _wide_choice() -> str:
     return "tree" if _patterns.tree_pays(lay, want, np.ones(len(frame), bool)) else "block"
 
 
+def _tree_floor(case: str) -> None:
+    """Print what one exact k-d tree query per target row costs among the complete rows alone.
+
+    Every target row must be compared with the complete rows (the largest candidate
+    pattern), so this is a floor under any search that asks a tree per target row: it is
+    timed on a sample of the rows missing the first column only and scaled to all target rows.
+    """
+    frame, plan = _sheet(case, ROWS)
+    lay = _patterns.layout(prepare(frame, plan).features, None)
+    assert lay is not None
+    full = (1 << lay.x.shape[1]) - 1
+    shared = np.arange(1, lay.x.shape[1])
+    tree = cKDTree(lay.x[lay.pattern == full][:, shared], balanced_tree=False, compact_nodes=False)
+    sample = lay.x[lay.pattern == full ^ 1][:FLOOR_SAMPLE][:, shared]
+    start = time.thread_time()
+    tree.query(sample, k=PLAN.k + 1)
+    per_query = (time.thread_time() - start) / len(sample)
+    targets, cores = int((lay.pattern != full).sum()), os.cpu_count() or 1
+    print(f"      floor: one exact cKDTree query per target row among the {tree.n} complete rows "
+          f"alone: {per_query * 1e3:.3f} ms a query (sample of {len(sample)}) x {targets} target rows "
+          f"= {per_query * targets:.0f} CPU s, so at least {per_query * targets / cores:.0f} s "
+          f"on {cores} cores before any other work", flush=True)  # fmt: skip
+
+
 def _long_case(case: str) -> None:
     """The long fill of one sheet in a fresh process, beside the block search on a slice."""
     rows = min(SLICE, ROWS)
     t_block, _, c_block = _search_seconds(rows, case, "block")
     scale = (ROWS / rows) ** 2
     print(f"   {case} slice {rows} x 10: block search {t_block:.1f} s, {c_block:.1f} CPU s", flush=True)
+    _tree_floor(case)
     code = f"from benchmarks.bench_long_sheet import long_fill; long_fill({case!r})"
     out = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True).stdout
     print("\n".join(line for line in out.splitlines() if "seconds=" not in line), flush=True)
