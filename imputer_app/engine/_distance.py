@@ -20,32 +20,24 @@ costs two products of shape (m, K) x (K, n).
 from __future__ import annotations
 
 import math
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
 from numpy.typing import NDArray
 
-from imputer_app.engine._bits import common_bits, distinct, packed_rows
+from imputer_app.engine._dixon import ratio, shifted
+from imputer_app.engine._row_pairs import RowPairs
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.intp]
 
-#: Pairs per batch in :meth:`DistanceModel.pairs` (their temporaries stay in cache) ...
-PAIR_BATCH = 4096
-#: ... and at most this many values per temporary (a wide table takes fewer pairs per batch).
-PAIR_VALUES = 2**16
 #: Numeric columns per slab in :meth:`DistanceModel.gram` (bounds its temporaries).
 SLAB = 1024
 #: Relative size of the rounding noise allowed for in a product-form squared distance.
 NOISE = 1e-11
 #: More different column weights than this: :meth:`DistanceModel.gram` weighs per column.
 WEIGHT_GROUPS = 4
-#: Threads working out exact distances side by side (numpy lets go of the GIL) ...
-EXACT_THREADS = 2
-#: ... when there are at least this many values (pairs x numeric columns) to go through.
-THREADED_VALUES = 2**22
 
 
 @dataclass(frozen=True)
@@ -152,7 +144,7 @@ class DistanceModel:
         self.factor_width = self.width + p + q
         self._p = p
         self._codes = features.codes
-        self._w, self._tw_w = np.asarray(w, dtype=np.float64), w * tw
+        self._w = np.asarray(w, dtype=np.float64)
         mis = float(features.mismatch)
         self._cw, self._tw_cw = np.asarray(cw, dtype=np.float64), cw * (tw * mis)
         self._mis = mis
@@ -167,6 +159,7 @@ class DistanceModel:
         # bound on the rounding of a product-form d^2 (its terms are at most tw x max z^2 each,
         # shifted values are smaller still); the exact form decides, this only says how far to look
         self.noise = NOISE * tw * max(z2, mis, 1e-300)
+        self._row_pairs = RowPairs(x, w, features.codes, cw, tw, mis)
 
     @cached_property
     def _shifted(self) -> tuple[FloatArray, NDArray[np.bool_]]:
@@ -192,17 +185,6 @@ class DistanceModel:
         right[:, k : k + p] = mask
         right[:, k + p :] = self._cmask
         return right
-
-    @cached_property
-    def _values(self) -> tuple[FloatArray, IntArray]:
-        """Shifted numbers with NaN gaps and class codes, row-major, for :meth:`pairs`.
-
-        Built on first use (a search whose head covers every candidate never needs them).
-        """
-        z, mask = self._shifted
-        z = np.array(z, order="C")  # row-major: pairs gather rows
-        z[~mask] = np.nan  # a difference with a gap is NaN
-        return z, np.ascontiguousarray(self._codes, dtype=np.intp)
 
     def targets(self, rows: IntArray) -> Targets:
         """``rows`` with their left-hand factors."""
@@ -274,129 +256,20 @@ class DistanceModel:
     def pairs(self, targets: Targets, which: IntArray, others: IntArray) -> FloatArray:
         """Squared distances of the pairs (targets.rows[which[i]], others[i]), shape (len(which),).
 
-        Computed from the rows' values (``p`` numbers each) rather than their factors
-        (about ``5 p``): the search calls this for many pairs, and reading fewer numbers
-        per pair is what costs. Whole numbers with power-of-two weights give exactly the
-        block's values (ties stay ties); otherwise they agree up to rounding.
+        From the rows' values (:meth:`~imputer_app.engine._row_pairs.RowPairs.search`):
+        whole numbers with power-of-two weights give exactly the block's values (ties
+        stay ties); otherwise they agree up to rounding.
         """
-        x, y = targets.rows[which], np.asarray(others, dtype=np.intp)
-        out = np.empty(len(x))
-        step = self._pair_batch()
-        for start in range(0, len(x), step):  # batches small enough to stay in cache
-            part = slice(start, start + step)
-            out[part] = self._pairs(x[part], y[part])
-        return out
+        return self._row_pairs.search(targets.rows[which], others)
 
     def exact(self, x: IntArray, y: IntArray) -> FloatArray:
-        """Squared distances of the pairs (x[i], y[i]) from the rows' differences, shape (len(x),).
+        """Exact squared distances of the pairs (x[i], y[i]), shape (len(x),).
 
-        Dixon's weighted form with Gower's matching, summed from ``x_j - y_j`` of the
-        scaled values (not shifted, not from products): rows with equal values are at
-        distance exactly 0, and the result depends only on the two rows. Used for the
-        chosen candidates only, before ties, weights and the fill log. Each distinct pair
-        is computed once, in either order (``x - y`` and ``y - x`` square to the same
-        numbers): a row's cells in many fill columns share most of their donors (on a
-        wide sheet, thousands of cells per pair of rows).
+        Summed from the rows' differences (:meth:`~imputer_app.engine._row_pairs.RowPairs.exact`):
+        rows with equal values are at distance exactly 0 and the result depends only on
+        the two rows. Used for the chosen candidates only.
         """
-        x, y = np.asarray(x, dtype=np.intp), np.asarray(y, dtype=np.intp)
-        if not len(x):
-            return np.empty(0)
-        n = np.int64(self._rows.shape[0])
-        low, high = np.minimum(x, y).astype(np.int64), np.maximum(x, y).astype(np.int64)
-        pairs, back = distinct(low * n + high, int(n * n))
-        ux, uy = (part.astype(np.intp) for part in np.divmod(pairs, n))
-        out = np.empty(len(pairs))
-        step = self._pair_batch()
-        starts = np.arange(0, len(pairs), step)
-
-        def run(some: IntArray) -> None:
-            # two buffers for every batch: fresh temporaries this size cost their page faults
-            buffers = np.empty((2, min(step, len(pairs)), self._p))
-            for start in some.tolist():
-                part = slice(start, start + step)
-                out[part] = self._exact_pairs(ux[part], uy[part], buffers)
-
-        if len(pairs) * max(self._p, 1) < THREADED_VALUES or len(starts) < EXACT_THREADS:
-            run(starts)
-        else:  # each pair's numbers are its own: threads may share the batches
-            with ThreadPoolExecutor(EXACT_THREADS, thread_name_prefix="kinfill-exact") as pool:
-                list(pool.map(run, np.array_split(starts, EXACT_THREADS)))
-        return out[back]
-
-    def _exact_pairs(self, x: IntArray, y: IntArray, buffers: FloatArray) -> FloatArray:
-        """Exact squared distances of the pairs (x[i], y[i]), worked in ``buffers`` (2, >= len(x), p).
-
-        Each pair's sums run over its own row of the buffers: the same numbers for a
-        pair whatever pairs come with it.
-        """
-        sq, other = buffers[0, : len(x)], buffers[1, : len(x)]
-        np.take(self._rows, x, axis=0, out=sq)
-        np.take(self._rows, y, axis=0, out=other)
-        sq -= other
-        sq *= sq  # NaN where either row lacks the column
-        bits = self._observed_bits
-        if self._same_weight is not None and bits is not None:
-            # equal power-of-two weights: every partial sum of the weights is exact, so
-            # weight x (columns not shared) is the very number the row sum gives; the
-            # columns shared are counted on the rows' packed masks
-            lacking = self._same_weight * (self._p - common_bits(bits, x, y))
-        else:
-            lacking = _row_sums(np.isnan(sq).astype(np.float64), self._w)
-        # 0 exactly when no column is shared
-        shared = self._w.sum() - lacking
-        np.fmax(sq, 0.0, out=sq)  # a gap's NaN adds 0
-        np.multiply(sq, self._tw_w, out=sq)
-        total = sq.sum(axis=1)
-        if self._codes.shape[1]:
-            cx, cy = np.take(self._codes, x, axis=0), np.take(self._codes, y, axis=0)
-            seen = (cx >= 0) & (cy >= 0)
-            total += _row_sums((seen & (cx != cy)).astype(np.float64), self._tw_cw)
-            shared += _row_sums(seen.astype(np.float64), self._cw)
-        return ratio(total, shared)
-
-    @cached_property
-    def _observed_bits(self) -> NDArray[np.uint64] | None:
-        """Each row's observed numeric columns packed in 64-bit words (None when a value is infinite).
-
-        Where both rows' bits are set, their difference is a number; elsewhere it is
-        NaN (an infinite value could make it NaN too: then the NaN are counted instead).
-        """
-        rows = self._rows
-        return None if np.isinf(rows).any() else packed_rows(~np.isnan(rows))
-
-    @cached_property
-    def _same_weight(self) -> float | None:
-        """The weight every numeric column has, when it is one power of two (else None)."""
-        w = self._w
-        if not len(w) or not (w == w[0]).all():
-            return None
-        mantissa = np.frexp(w[:1])[0]
-        return float(w[0]) if w[0] > 0 and mantissa[0] == 0.5 else None
-
-    @cached_property
-    def _rows(self) -> FloatArray:
-        """The scaled numbers, row-major (a table read from a DataFrame is column-major)."""
-        return np.ascontiguousarray(self._x)
-
-    def _pair_batch(self) -> int:
-        return max(16, min(PAIR_BATCH, PAIR_VALUES // max(self._p, 1)))
-
-    def _pairs(self, x: IntArray, y: IntArray) -> FloatArray:
-        """The search's squared distances of pairs (BLAS products: fast, rounding varies)."""
-        z, codes = self._values
-        sq = np.take(z, x, axis=0)
-        sq -= np.take(z, y, axis=0)
-        sq *= sq
-        # 0 exactly when no column is shared (a float mask: a bool matrix product skips BLAS)
-        shared = self._w.sum() - _product(np.isnan(sq).astype(np.float64), self._w)
-        np.fmax(sq, 0.0, out=sq)  # a gap's NaN adds 0
-        total = _product(sq, self._tw_w)
-        if codes.shape[1]:
-            cx, cy = np.take(codes, x, axis=0), np.take(codes, y, axis=0)
-            seen = (cx >= 0) & (cy >= 0)
-            total += _product((seen & (cx != cy)).astype(np.float64), self._tw_cw)
-            shared += _product(seen.astype(np.float64), self._cw)
-        return ratio(total, shared)
+        return self._row_pairs.exact(x, y)
 
     def block(self, targets: Targets, cand: Candidates, part: slice = slice(None)) -> FloatArray:
         """Squared distances from ``rows`` to the candidates ``cand.index[part]``.
@@ -523,39 +396,6 @@ class DistanceModel:
         """
         d2 = self.block(self.targets(rows), self.candidates())
         return d2, np.isfinite(d2)
-
-
-def _product(rows: FloatArray, weights: FloatArray) -> FloatArray:
-    """``rows @ weights`` by BLAS: fast, its rounding depends on the number of rows."""
-    return np.asarray(rows @ weights, dtype=np.float64)
-
-
-def _row_sums(rows: FloatArray, weights: FloatArray) -> FloatArray:
-    """``rows @ weights`` summed row by row: the same numbers for a row whatever rows come with it."""
-    return np.asarray((rows * weights).sum(axis=1), dtype=np.float64)
-
-
-def shifted(x: FloatArray) -> tuple[FloatArray, NDArray[np.bool_]]:
-    """``x`` with each column shifted by its mean rounded to a whole number, gaps 0; and the observed mask.
-
-    A shift does not change a difference, keeps whole-number data whole (so products of
-    them are exact) and reduces rounding error when values are large compared with
-    their spread.
-    """
-    mask = np.isfinite(x)
-    z = np.where(mask, x, 0.0)
-    z -= np.round(z.sum(axis=0) / np.maximum(mask.sum(axis=0), 1))
-    z *= mask
-    return z, mask
-
-
-def ratio(total: FloatArray, shared: FloatArray, out: FloatArray | None = None) -> FloatArray:
-    """``total / shared`` clipped at 0, ``inf`` where no column is shared (0/0) or total is inf."""
-    with np.errstate(divide="ignore", invalid="ignore"):
-        d2 = np.divide(total, shared, out=out)
-    np.copyto(d2, np.inf, where=np.isnan(d2))
-    np.maximum(d2, 0.0, out=d2)
-    return d2
 
 
 def _onehot(codes: IntArray) -> tuple[FloatArray, FloatArray]:

@@ -11,10 +11,11 @@ import numpy as np
 import pytest
 
 from imputer_app import work
-from imputer_app.engine import _distance, _shared
+from imputer_app.engine import _row_pairs, _shared
 from imputer_app.engine._bits import common_bits, count_distinct, distinct, packed_rows
 from imputer_app.engine._distance import DistanceModel, Features
 from imputer_app.engine._exact import sort_order
+from imputer_app.engine._row_pairs import RowPairs
 
 
 def _features(n: int, p: int, seed: int, weights: np.ndarray | None = None, cats: int = 0) -> Features:
@@ -91,12 +92,12 @@ def test_exact_distances_the_same_by_every_path(
     fast = DistanceModel(features).exact(x, y)
     # by the row sums of NaN masks, one pair at a time, on one thread
     plain = DistanceModel(features)
-    monkeypatch.setattr(DistanceModel, "_same_weight", None)
-    monkeypatch.setattr(_distance, "THREADED_VALUES", 2**62)
+    monkeypatch.setattr(RowPairs, "_same_weight", None)
+    monkeypatch.setattr(_row_pairs, "THREADED_VALUES", 2**62)
     one = np.concatenate([plain.exact(x[i : i + 1], y[i : i + 1]) for i in range(len(x))])
     assert np.array_equal(fast, one)
-    monkeypatch.setattr(_distance, "THREADED_VALUES", 1)  # threads sharing many small batches
-    monkeypatch.setattr(_distance, "PAIR_BATCH", 64)
+    monkeypatch.setattr(_row_pairs, "THREADED_VALUES", 1)  # threads sharing many small batches
+    monkeypatch.setattr(_row_pairs, "PAIR_BATCH", 64)
     assert np.array_equal(DistanceModel(features).exact(x, y), one)
 
 
