@@ -38,9 +38,10 @@ import numpy as np
 from numpy.typing import NDArray
 
 from imputer_app.engine import _search
+from imputer_app.engine._block_jobs import extra_donors
 from imputer_app.engine._impute import Data, fill_with
 from imputer_app.engine._result import FillResult
-from imputer_app.engine._search import ColumnDonors, extra_donors
+from imputer_app.engine._search import ColumnDonors
 from imputer_app.engine._table import PreparedTable
 from imputer_app.engine._ties import tie_edges
 from imputer_app.plan import FillPlan

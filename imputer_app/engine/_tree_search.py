@@ -31,6 +31,7 @@ from numpy.typing import NDArray
 from scipy.spatial import cKDTree
 
 from imputer_app.engine._blas import one_blas_thread
+from imputer_app.engine._block_jobs import Put
 from imputer_app.engine._distance import DistanceModel
 from imputer_app.engine._exact import exact_cells, still_open
 from imputer_app.engine._patterns import MIN_TARGETS, MIN_TREE, Layout, by_pattern, layout, tree_pays
@@ -41,8 +42,6 @@ from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 IntArray = NDArray[np.intp]
 FloatArray = NDArray[np.float64]
 BoolArray = NDArray[np.bool_]
-#: Stores a cell's donors: column, row, donor rows, squared distances.
-Put = Callable[[IntArray, IntArray, IntArray, FloatArray], None]
 #: Runs the block search for the cells marked True (rows x fill columns).
 Block = Callable[[BoolArray], object]
 #: Picks the first ``n`` True entries per row: positions, -1 pads.
