@@ -22,7 +22,7 @@ from imputer_app.plan_checks import MARKER_MEANINGS
 from imputer_app.sheets import _guards, _text
 from imputer_app.sheets._assemble import Column, assemble, resolve_kinds
 from imputer_app.sheets._cell_classes import BLANK
-from imputer_app.sheets._cells import KnownTexts, ParsedColumn, parse_column
+from imputer_app.sheets._cells import ParsedColumn, parse_column
 from imputer_app.sheets._facts import COMPUTED_REASON, is_computed, is_group_like
 from imputer_app.sheets._grid import Merge
 from imputer_app.sheets._header import Layout, find_layout, unique_names
@@ -30,6 +30,7 @@ from imputer_app.sheets._limits import markers_found, take_limit_row
 from imputer_app.sheets._markers import DEFAULT_MARKERS, Markers, make_markers
 from imputer_app.sheets._model import ColumnInfo, Sheet, SourceInfo
 from imputer_app.sheets._precision import column_decimals, workbook_formats
+from imputer_app.sheets._text_classes import KnownTexts
 from imputer_app.sheets._threads import WORKERS, map_columns
 from imputer_app.sheets._workbook import list_workbook_sheets, read_workbook
 from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report

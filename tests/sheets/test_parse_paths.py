@@ -18,6 +18,7 @@ import pytest
 
 from imputer_app.errors import SheetError
 from imputer_app.sheets import _cells as cells
+from imputer_app.sheets import _text_classes as text_classes
 from imputer_app.sheets import read_sheet
 from imputer_app.sheets._cells import ParsedColumn, parse_column
 from imputer_app.sheets._grid import NO_VALUE, FormulaError
@@ -146,9 +147,9 @@ def test_text_helpers_equal_pandas_string_methods() -> None:
     # reference: pandas' .str.strip(), .str.lower() and .str[:1] on a str Series
     values = np.array([*_TEXTS, np.str_(" ab ")], dtype=object)
     series = pd.Series(values, dtype=str)
-    assert cells._STRIP(values).tolist() == series.str.strip().tolist()
-    assert cells._LOWER(values).tolist() == series.str.lower().tolist()
-    assert cells._first_chars(series).tolist() == series.str[:1].tolist()
+    assert text_classes.strip_texts(values).tolist() == series.str.strip().tolist()
+    assert text_classes._LOWER(values).tolist() == series.str.lower().tolist()
+    assert text_classes._first_chars(series).tolist() == series.str[:1].tolist()
 
 
 def test_lying_dimension_reads_the_same(awkward: Path, tmp_path: Path) -> None:
@@ -180,7 +181,7 @@ def test_texts_known_from_earlier_columns_classify_the_same(awkward: Path, decim
         raw[:] = values
         columns.append(raw)
     markers = make_markers(["-999"], {"-": "below-limit"})
-    known = cells.KnownTexts(decimal, markers)
+    known = text_classes.KnownTexts(decimal, markers)
     for raw in columns * 2:
         _assert_same(parse_column(raw, decimal, markers, known), _general(raw, decimal, markers))
 

@@ -18,10 +18,11 @@ import pytest
 
 from imputer_app.errors import Cancelled
 from imputer_app.sheets._cell_classes import BLANK, BOOL, CENSORED, DATE, NUMBER, TEXT
-from imputer_app.sheets._cells import parse_column, parse_numbers
+from imputer_app.sheets._cells import parse_column
 from imputer_app.sheets._markers import DEFAULT_MARKERS, make_markers
 from imputer_app.sheets._model import CELL_STATES
 from imputer_app.sheets._read import read_sheet
+from imputer_app.sheets._text_classes import parse_numbers
 
 
 def _one_cell(tmp_path: Path, cell: str, sep: str = ",", **options: Any) -> tuple[float, str, pd.DataFrame]:
