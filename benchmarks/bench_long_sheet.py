@@ -28,14 +28,12 @@ from scipy.spatial import cKDTree
 
 from benchmarks.bench_engine import PLAN, _data, _peak_gb
 from benchmarks.station_log import station_log
-from imputer_app.engine import _patterns, impute, nearest_donors, prepare
+from imputer_app.engine import _patterns, _tree_search, impute, nearest_donors, prepare
 from imputer_app.plan import FillPlan
 
 ROWS = int(os.environ.get("KINFILL_BENCH_LONG_ROWS", 1_048_576))
 CASES = os.environ.get("KINFILL_BENCH_LONG_CASES", "station,normal").split(",")
 SLICE = 100_000
-#: Target rows whose single tree query is timed for the floor.
-FLOOR_SAMPLE = 4096
 #: The station log's plan: its channels have different units, so z-scores (the default).
 STATION_PLAN = FillPlan(k=PLAN.k, interval_level=None)
 
@@ -95,24 +93,29 @@ def _tree_floor(case: str) -> None:
     """Print what one exact k-d tree query per target row costs among the complete rows alone.
 
     Every target row must be compared with the complete rows (the largest candidate
-    pattern), so this is a floor under any search that asks a tree per target row: it is
-    timed on a sample of the rows missing the first column only and scaled to all target rows.
+    pattern), so this is a floor under any search that asks a tree per target row. The
+    tree and the order of the queries are the engine's (rows stored in leaf order, target
+    rows in the order of their own tree's leaves); it is timed on the rows missing the
+    first column only and scaled to all target rows.
     """
     frame, plan = _sheet(case, ROWS)
     lay = _patterns.layout(prepare(frame, plan).features, None)
     assert lay is not None
     full = (1 << lay.x.shape[1]) - 1
     shared = np.arange(1, lay.x.shape[1])
-    tree = cKDTree(lay.x[lay.pattern == full][:, shared], balanced_tree=False, compact_nodes=False)
-    sample = lay.x[lay.pattern == full ^ 1][:FLOOR_SAMPLE][:, shared]
+    coords = lay.x[lay.pattern == full][:, shared]
+    coords = coords[_tree_search._leaf_order(coords, _tree_search.ORDER_LEAF)]
+    tree = cKDTree(coords, leafsize=_tree_search.LEAF, balanced_tree=False, compact_nodes=False)
+    sample = lay.x[lay.pattern == full ^ 1][:, shared]
+    sample = sample[_tree_search._leaf_order(sample, _tree_search.TARGET_LEAF)]
     start = time.thread_time()
-    tree.query(sample, k=PLAN.k + 1)
+    tree.query(sample, k=PLAN.k + 2)
     per_query = (time.thread_time() - start) / len(sample)
     targets, cores = int((lay.pattern != full).sum()), os.cpu_count() or 1
     print(f"      floor: one exact cKDTree query per target row among the {tree.n} complete rows "
-          f"alone: {per_query * 1e3:.3f} ms a query (sample of {len(sample)}) x {targets} target rows "
-          f"= {per_query * targets:.0f} CPU s, so at least {per_query * targets / cores:.0f} s "
-          f"on {cores} cores before any other work", flush=True)  # fmt: skip
+          f"alone: {per_query * 1e3:.3f} ms a query ({len(sample)} rows missing the first column) "
+          f"x {targets} target rows = {per_query * targets:.0f} CPU s, so at least "
+          f"{per_query * targets / cores:.0f} s on {cores} cores before any other work")  # fmt: skip
 
 
 def _long_case(case: str) -> None:

@@ -13,7 +13,10 @@ candidate patterns directly (one matrix product). The merged lists are handled l
 block search's: every cell keeps its first donors, their distances are made exact and
 re-sorted, and cells whose tie with the ``kmax``-th donor may run past the list, or
 short of donors, are searched again by the block search, as are target rows of rare
-patterns. Only numeric similarity columns, at most
+patterns. Target rows are taken in the order of a k-d tree's leaves over their own
+columns and a tree queried by many stores its rows in its leaves' order: near rows
+then share what is in cache (cKDTree reads its data through a permutation). Only
+numeric similarity columns, at most
 :data:`~imputer_app.engine._patterns.MAX_COLUMNS` of them; :func:`tree_search` says
 whether the trees are used.
 """
@@ -51,6 +54,13 @@ _Cellset = tuple[IntArray, IntArray, IntArray, FloatArray]
 #: A batch's answer: the cells settled, and the cells (row, column) still open.
 _Answer = tuple[list[_Cellset], tuple[IntArray, IntArray]]
 
+#: Target rows per leaf of the tree that orders them (:func:`_near_together`).
+TARGET_LEAF = 64
+#: Rows per leaf of a candidate pattern's tree, and of the tree that orders its rows first.
+LEAF = 32
+ORDER_LEAF = 16
+#: A tree's rows are put in leaf order first when its queries are at least its rows / this.
+ORDER_QUERIES = 64
 #: Target rows per batch (progress and cancel between batches; bounds the memory).
 BATCH = 4096
 #: Rounds of ever longer lists (x4 each) before an open cell goes to the block search.
@@ -138,6 +148,7 @@ class TreeSearch:
     _trees: dict[tuple[int, int, int], tuple[cKDTree, IntArray]] = field(default_factory=dict)
     _cand: dict[tuple[int, int], IntArray] = field(default_factory=dict)
     _uses: Counter[tuple[int, int, int]] = field(default_factory=Counter)
+    _asking: Counter[tuple[int, int, int]] = field(default_factory=Counter)
     _asks: dict[tuple[int, int], BoolArray] = field(default_factory=dict)
     _gives: dict[tuple[int, int], IntArray] = field(default_factory=dict)
     _sweeps: dict[tuple[int, int], Sweep | None] = field(default_factory=dict)
@@ -151,12 +162,18 @@ class TreeSearch:
         self.want = self.want & dense
         self._cand = by_pattern(self.lay, np.flatnonzero((self.ok & dense).any(axis=1)))
         targets = by_pattern(self.lay, np.flatnonzero(self.want.any(axis=1)))
-        common = {k: v for k, v in targets.items() if len(v) >= MIN_TARGETS and k[0] >= 0 and k[1]}
+        common = {
+            k: _near_together(self.lay, v, k[1])
+            for k, v in targets.items()
+            if len(v) >= MIN_TARGETS and k[0] >= 0 and k[1]
+        }
         # the fill columns each target pattern asks for and each candidate pattern can give:
         # a candidate pattern that gives none of them is never searched for those targets
         self._asks = {k: np.asarray(self.want[v].any(axis=0), dtype=bool) for k, v in common.items()}
         self._gives = {k: self.ok[v].sum(axis=0) for k, v in self._cand.items()}
         self._uses = Counter(t for key in common for t in self._treeby_pattern(*key))
+        for key, rows in common.items():  # target rows that will query each tree
+            self._asking.update(dict.fromkeys(self._treeby_pattern(*key), len(rows)))
         for key in common:
             redo[np.ix_(common[key], np.flatnonzero(dense))] = False
         total = sum(len(_batches(v)) for v in common.values()) + 2
@@ -252,7 +269,13 @@ class TreeSearch:
         if t not in self._trees:
             rows = self._cand[t[0], t[1]]
             coords = self.lay.x[np.ix_(rows, self.lay.columns(t[2]))]
-            self._trees[t] = (cKDTree(coords, balanced_tree=False, compact_nodes=False), rows)
+            # stored in its own leaves' order: a query reads each leaf's rows side by side
+            # (cKDTree reads its data through a permutation; measured among 628,000 rows in
+            # 9 columns: 0.45 -> 0.2 ms a query, for a second build: it pays for many queries)
+            if self._asking[t] * ORDER_QUERIES >= len(rows):
+                order = _leaf_order(coords, ORDER_LEAF)
+                rows, coords = rows[order], coords[order]
+            self._trees[t] = (cKDTree(coords, leafsize=LEAF, balanced_tree=False, compact_nodes=False), rows)
         return self._trees[t]
 
     def _size(self, key: tuple[int, int]) -> int:
@@ -356,6 +379,22 @@ class TreeSearch:
         open_ = still_open(d2, count, self.kmax, beyond, self.model.noise)
         done = ~open_
         return (col[done], batch[r[done]], idx[done], d2[done]), (r[open_], col[open_])
+
+
+def _leaf_order(coords: FloatArray, leafsize: int) -> IntArray:
+    """Positions of ``coords`` in the order of a k-d tree's leaves (near rows together)."""
+    tree = cKDTree(coords, leafsize=leafsize, balanced_tree=False, compact_nodes=False)
+    return np.asarray(tree.indices, dtype=np.intp)
+
+
+def _near_together(lay: Layout, rows: IntArray, bits: int) -> IntArray:
+    """``rows`` (of one gap pattern) in the order of a k-d tree's leaves over their columns.
+
+    Near rows come together in a batch: their queries walk the same branches of the
+    candidates' trees (which stay in cache), and their bounds, which set each part's
+    query radius, are alike (measured: 0.69 -> 0.44 ms a query among 628,000 rows).
+    """
+    return rows[_leaf_order(lay.x[np.ix_(rows, lay.columns(bits))], TARGET_LEAF)]
 
 
 def _batches(rows: IntArray) -> list[IntArray]:

@@ -131,6 +131,28 @@ def test_direct_comparison_matches_block_at_any_tree_size(
     _both(random_frame(500, 4, 0.1, seed=9), FillPlan(weights={"c0": 2.0, "c2": 0.25}), 3)
 
 
+@pytest.mark.parametrize("order_queries", [0, 10**9])
+def test_rows_in_leaf_order_give_the_same_donors(monkeypatch: pytest.MonkeyPatch, order_queries: int) -> None:
+    """Target rows taken in the order of their tree's leaves, and candidate rows stored in it
+    (every tree with 10**9, none with 0), change where rows sit, never the donors."""
+    _lower_limits(monkeypatch)
+    monkeypatch.setattr(_tree_search, "ORDER_QUERIES", order_queries)
+    built: list[tuple[object, np.ndarray]] = []
+    tree = _tree_search.TreeSearch._tree
+
+    def spy(self: _tree_search.TreeSearch, t: tuple[int, int, int]) -> tuple[object, np.ndarray]:
+        found = tree(self, t)
+        built.append((found[0], found[1]))
+        return found
+
+    monkeypatch.setattr(_tree_search.TreeSearch, "_tree", spy)
+    _both(random_frame(700, 5, 0.2, seed=11), FillPlan(scaling="none"), 4)
+    assert built
+    assert all(len(set(rows.tolist())) == len(rows) for _, rows in built)  # each row once
+    ascending = [bool((np.diff(rows) > 0).all()) for _, rows in built]
+    assert all(ascending) if order_queries == 0 else not all(ascending)
+
+
 def test_candidate_patterns_that_cannot_donate_are_not_searched(monkeypatch: pytest.MonkeyPatch) -> None:
     """Rows that lack a target's only gap column never give it a donor: their tree is not built."""
     _lower_limits(monkeypatch)
