@@ -32,11 +32,15 @@ MIN_TARGETS = 256
 #: however little they find); normal columns took the same time at both.
 MIN_TREE = 4096
 #: Work of one tree query in the block search's pair comparisons, per power of two of the
-#: dimension (measured on normal rows with 9 columns: 0.4 ms per query in 600,000 rows, about
-#: 1.3 ms in 60,000 rows on a busy machine where the block search took 64 ns per pair).
-QUERY = 180
-#: Work of one direct comparison, in the block search's pair comparisons (measured).
-DIRECT_PAIR = 0.75
+#: dimension. Measured on normal columns, 9 shared, in one run: a query among 628,000 rows
+#: stored in leaf order 0.22 ms, the block search 3.8 ns per pair (CPU time).
+QUERY = 110
+#: A bounded query of a further tree costs this fraction of the first (measured on the
+#: same rows: nine trees of 33,000 rows, 0.02 ms a query each).
+FURTHER = 0.1
+#: Work of one direct comparison, in the block search's pair comparisons (measured on the
+#: same rows, where the sweep saves nothing: about 4-6 ns a pair).
+DIRECT_PAIR = 1.0
 
 
 @dataclass(frozen=True)
@@ -118,7 +122,7 @@ def tree_pays(lay: Layout, want: BoolArray, candidates: BoolArray) -> bool:
     Costs are counted in the block search's pair comparisons: it compares every target
     row with every candidate. The trees cost, per target row of a common pattern ``T``,
     one query of its largest candidate pattern's tree (about ``QUERY x 2^|T|``, no more
-    than its rows), a bounded query of every further tree (a quarter of that) and
+    than its rows), a bounded query of every further tree (:data:`FURTHER` of that) and
     :data:`DIRECT_PAIR` per row of the small candidate patterns compared directly; rows
     of rare target patterns are compared with every candidate either way.
     """
@@ -138,6 +142,6 @@ def tree_pays(lay: Layout, want: BoolArray, candidates: BoolArray) -> bool:
         sizes = [n for (gc, cb), n in by_cand.items() if gc == g and cb & bits]
         trees = sorted((n for n in sizes if n >= MIN_TREE), reverse=True)
         small = sum(n for n in sizes if n < MIN_TREE)
-        tree_cost = sum(min(n, query if i == 0 else query / 4) for i, n in enumerate(trees))
+        tree_cost = sum(min(n, query if i == 0 else query * FURTHER) for i, n in enumerate(trees))
         cost += len(part) * (tree_cost + DIRECT_PAIR * small)
     return cost < 0.5 * len(rows) * n_cand
