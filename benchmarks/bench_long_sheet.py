@@ -104,9 +104,12 @@ def _tree_floor(case: str) -> None:
     full = (1 << lay.x.shape[1]) - 1
     shared = np.arange(1, lay.x.shape[1])
     coords = lay.x[lay.pattern == full][:, shared]
+    sample = lay.x[lay.pattern == full ^ 1][:, shared]
+    if not len(sample) or not len(coords):
+        print("      floor: no complete rows or no rows missing the first column only")
+        return
     coords = coords[_tree_search._leaf_order(coords, _tree_search.ORDER_LEAF)]
     tree = cKDTree(coords, leafsize=_tree_search.LEAF, balanced_tree=False, compact_nodes=False)
-    sample = lay.x[lay.pattern == full ^ 1][:, shared]
     sample = sample[_tree_search._leaf_order(sample, _tree_search.TARGET_LEAF)]
     start = time.thread_time()
     tree.query(sample, k=PLAN.k + 2)

@@ -128,9 +128,9 @@ class DistanceModel:
     ``x, y`` zero-filled and ``m`` the observed masks; the categorical mismatch is
     ``sum_j w_j m_x m_y - sum_j w_j [x_j == y_j]`` with one-hot class indicators; the
     shared weight is ``(w m_x) . m_y``. The total weight is folded into the left
-    factors. Each column is first shifted (:func:`shifted`). The factors are built on
-    first use: when targets and candidates are the same rows, :meth:`gram` works from
-    the numbers slab by slab instead.
+    factors. Each column is first shifted (:func:`~imputer_app.engine._dixon.shifted`).
+    The factors are built on first use: when targets and candidates are the same rows,
+    :meth:`gram` works from the numbers slab by slab instead.
     """
 
     def __init__(self, features: Features) -> None:
@@ -163,7 +163,7 @@ class DistanceModel:
 
     @cached_property
     def _shifted(self) -> tuple[FloatArray, NDArray[np.bool_]]:
-        """:func:`shifted` numbers of every column, and where they are observed."""
+        """:func:`~imputer_app.engine._dixon.shifted` numbers of every column, and where they are observed."""
         return shifted(self._x)
 
     @cached_property

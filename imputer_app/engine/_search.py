@@ -32,8 +32,6 @@ from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
 IntArray = NDArray[np.intp]
 FloatArray = NDArray[np.float64]
 BoolArray = NDArray[np.bool_]
-#: Cells of one chunk: column, row, donors, squared distances, short of kmax donors.
-_Found = tuple[IntArray, IntArray, IntArray, FloatArray, BoolArray]
 
 #: Bytes allowed for one distance block and its temporaries.
 BLOCK_BYTES = 64 * 2**20

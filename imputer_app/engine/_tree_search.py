@@ -56,8 +56,9 @@ _Answer = tuple[list[_Cellset], tuple[IntArray, IntArray]]
 
 #: Target rows per leaf of the tree that orders them (:func:`_near_together`).
 TARGET_LEAF = 64
-#: Rows per leaf of a candidate pattern's tree, and of the tree that orders its rows first.
+#: Rows per leaf of a candidate pattern's tree.
 LEAF = 32
+#: Rows per leaf of the tree that puts a candidate pattern's rows in leaf order first.
 ORDER_LEAF = 16
 #: A tree's rows are put in leaf order first when its queries are at least its rows / this.
 ORDER_QUERIES = 64
@@ -133,7 +134,7 @@ class TreeSearch:
         Places asked for; donors kept per cell.
     put, block, first : callables
         Store a cell's donors; run the block search for some cells; first True
-        positions per row (:func:`~imputer_app.engine._search.first_positions`).
+        positions per row (:func:`~imputer_app.engine._block_jobs.first_positions`).
     """
 
     lay: Layout
@@ -162,11 +163,11 @@ class TreeSearch:
         self.want = self.want & dense
         self._cand = by_pattern(self.lay, np.flatnonzero((self.ok & dense).any(axis=1)))
         targets = by_pattern(self.lay, np.flatnonzero(self.want.any(axis=1)))
-        common = {
-            k: _near_together(self.lay, v, k[1])
-            for k, v in targets.items()
-            if len(v) >= MIN_TARGETS and k[0] >= 0 and k[1]
-        }
+        common: dict[tuple[int, int], IntArray] = {}
+        for k, v in targets.items():
+            if len(v) >= MIN_TARGETS and k[0] >= 0 and k[1]:
+                raise_if_cancelled(cancel)
+                common[k] = _near_together(self.lay, v, k[1])
         # the fill columns each target pattern asks for and each candidate pattern can give:
         # a candidate pattern that gives none of them is never searched for those targets
         self._asks = {k: np.asarray(self.want[v].any(axis=0), dtype=bool) for k, v in common.items()}
