@@ -29,6 +29,7 @@ from scipy.spatial import cKDTree
 from benchmarks.bench_engine import PLAN, _data, _peak_gb
 from benchmarks.station_log import station_log
 from imputer_app.engine import _patterns, _tree_search, impute, nearest_donors, prepare
+from imputer_app.engine._block_jobs import extra_donors
 from imputer_app.plan import FillPlan
 
 ROWS = int(os.environ.get("KINFILL_BENCH_LONG_ROWS", 1_048_576))
@@ -112,7 +113,7 @@ def _tree_floor(case: str) -> None:
     tree = cKDTree(coords, leafsize=_tree_search.LEAF, balanced_tree=False, compact_nodes=False)
     sample = sample[_tree_search._leaf_order(sample, _tree_search.TARGET_LEAF)]
     start = time.thread_time()
-    tree.query(sample, k=PLAN.k + 2)
+    tree.query(sample, k=PLAN.k + extra_donors(PLAN.k) + 1)  # the engine's list: kept donors and one more
     per_query = (time.thread_time() - start) / len(sample)
     targets, cores = int((lay.pattern != full).sum()), os.cpu_count() or 1
     print(f"      floor: one exact cKDTree query per target row among the {tree.n} complete rows "

@@ -161,10 +161,10 @@ class DistanceModel:
         self.noise = NOISE * tw * max(z2, mis, 1e-300)
         self._row_pairs = RowPairs(x, w, features.codes, cw, tw, mis)
 
-    @cached_property
+    @property
     def _shifted(self) -> tuple[FloatArray, NDArray[np.bool_]]:
-        """:func:`~imputer_app.engine._dixon.shifted` numbers of every column, and where they are observed."""
-        return shifted(self._x)
+        """Shifted numbers of every column and where they are observed (worked out once, by the pairs)."""
+        return self._row_pairs.shifted_values
 
     @cached_property
     def right(self) -> FloatArray:

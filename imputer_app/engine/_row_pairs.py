@@ -56,12 +56,20 @@ class RowPairs:
         self._tw_cw = self._cw * (total_weight * mismatch)
 
     @cached_property
+    def shifted_values(self) -> tuple[FloatArray, NDArray[np.bool_]]:
+        """:func:`~imputer_app.engine._dixon.shifted` numbers of every column, and where they are observed.
+
+        Kept here for the owner's factor products too: the shift is worked out once.
+        """
+        return shifted(self._x)
+
+    @cached_property
     def _values(self) -> tuple[FloatArray, IntArray]:
         """Shifted numbers with NaN gaps and class codes, row-major, for :meth:`search`.
 
         Built on first use (a search whose head covers every candidate never needs them).
         """
-        z, mask = shifted(self._x)  # its own shift: the owner's is not built on every path
+        z, mask = self.shifted_values
         z = np.array(z, order="C")  # row-major: pairs gather rows
         z[~mask] = np.nan  # a difference with a gap is NaN
         return z, np.ascontiguousarray(self._codes, dtype=np.intp)

@@ -172,9 +172,10 @@ class TreeSearch:
         # a candidate pattern that gives none of them is never searched for those targets
         self._asks = {k: np.asarray(self.want[v].any(axis=0), dtype=bool) for k, v in common.items()}
         self._gives = {k: self.ok[v].sum(axis=0) for k, v in self._cand.items()}
-        self._uses = Counter(t for key in common for t in self._treeby_pattern(*key))
-        for key, rows in common.items():  # target rows that will query each tree
-            self._asking.update(dict.fromkeys(self._treeby_pattern(*key), len(rows)))
+        for key, rows in common.items():  # the target patterns and rows that will ask each tree
+            asked = list(self._treeby_pattern(*key))
+            self._uses.update(asked)
+            self._asking.update(dict.fromkeys(asked, len(rows)))
         for key in common:
             redo[np.ix_(common[key], np.flatnonzero(dense))] = False
         total = sum(len(_batches(v)) for v in common.values()) + 2
