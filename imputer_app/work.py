@@ -18,6 +18,13 @@ Progress = Callable[[int, int], None]
 #: Rows per slice of work on a long column (see :func:`row_slices`).
 SLICE_ROWS = 100_000
 
+#: Threads that work side by side on one long task (a long csv's pieces and columns, the
+#: neighbour search's chunks and batches, exact distances): numpy, BLAS and scipy's trees
+#: release Python's lock, so each uses a core. The machines Kinfill is used on have 2 cores
+#: or more. The answers are the same with any number: tests read and search with one
+#: thread and with three.
+WORKERS = 2
+
 
 @runtime_checkable
 class Flag(Protocol):

@@ -20,7 +20,7 @@ from numpy.typing import NDArray
 from imputer_app.engine._blas import one_blas_thread
 from imputer_app.engine._exact import exact_cells, exact_lists, still_open
 from imputer_app.engine._nearest import BlockSearch, chunks, top_l
-from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
+from imputer_app.work import WORKERS, CancelFlag, Progress, raise_if_cancelled, report
 
 IntArray = NDArray[np.intp]
 FloatArray = NDArray[np.float64]
@@ -30,9 +30,8 @@ Put = Callable[[IntArray, IntArray, IntArray, FloatArray], None]
 #: Cells of one chunk: column, row, donors, squared distances, short of kmax donors.
 _Found = tuple[IntArray, IntArray, IntArray, FloatArray, BoolArray]
 
-#: Threads searching chunks side by side (each runs BLAS on one thread).
-WORKERS = 2
-#: A column whose donors are fewer than this share of all candidates is searched alone.
+#: A column whose donors are fewer than this share of all candidates is searched alone, by
+#: the block search (the trees would need long lists to find its donors among the rest).
 DENSE_SHARE = 0.3
 
 

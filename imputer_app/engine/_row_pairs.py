@@ -17,6 +17,7 @@ from numpy.typing import NDArray
 
 from imputer_app.engine._bits import common_bits, distinct, packed_rows
 from imputer_app.engine._dixon import product, ratio, row_sums, shifted
+from imputer_app.work import WORKERS
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.intp]
@@ -25,9 +26,8 @@ IntArray = NDArray[np.intp]
 PAIR_BATCH = 4096
 #: ... and at most this many values per temporary (a wide table takes fewer pairs per batch).
 PAIR_VALUES = 2**16
-#: Threads working out exact distances side by side (numpy lets go of the GIL) ...
-EXACT_THREADS = 2
-#: ... when there are at least this many values (pairs x numeric columns) to go through.
+#: Exact distances are worked out by WORKERS threads side by side (numpy lets go of the GIL)
+#: when there are at least this many values (pairs x numeric columns) to go through.
 THREADED_VALUES = 2**22
 
 
@@ -119,11 +119,11 @@ class RowPairs:
                 part = slice(start, start + step)
                 out[part] = self._exact_pairs(ux[part], uy[part], buffers)
 
-        if len(pairs) * max(self._p, 1) < THREADED_VALUES or len(starts) < EXACT_THREADS:
+        if len(pairs) * max(self._p, 1) < THREADED_VALUES or len(starts) < WORKERS:
             run(starts)
         else:  # each pair's numbers are its own: threads may share the batches
-            with ThreadPoolExecutor(EXACT_THREADS, thread_name_prefix="kinfill-exact") as pool:
-                list(pool.map(run, np.array_split(starts, EXACT_THREADS)))
+            with ThreadPoolExecutor(WORKERS, thread_name_prefix="kinfill-exact") as pool:
+                list(pool.map(run, np.array_split(starts, WORKERS)))
         return out[back]
 
     def _exact_pairs(self, x: IntArray, y: IntArray, buffers: FloatArray) -> FloatArray:

@@ -34,13 +34,13 @@ from numpy.typing import NDArray
 from scipy.spatial import cKDTree
 
 from imputer_app.engine._blas import one_blas_thread
-from imputer_app.engine._block_jobs import Put
+from imputer_app.engine._block_jobs import DENSE_SHARE, Put
 from imputer_app.engine._distance import DistanceModel
 from imputer_app.engine._exact import exact_cells, still_open
 from imputer_app.engine._patterns import MIN_TARGETS, MIN_TREE, Layout, by_pattern, layout, tree_pays
 from imputer_app.engine._table import PreparedTable
 from imputer_app.engine._tree_direct import Sweep, direct_hits, sweep_of
-from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
+from imputer_app.work import WORKERS, CancelFlag, Progress, raise_if_cancelled, report
 
 IntArray = NDArray[np.intp]
 FloatArray = NDArray[np.float64]
@@ -68,10 +68,6 @@ BATCH = 4096
 ROUNDS = 3
 #: Rows per bounded tree query (rows sorted by bound, so that one bound fits them all).
 SUB = 128
-#: A fill column whose donors are fewer than this share of the candidates goes to the block search.
-DENSE_SHARE = 0.3
-#: Batches searched side by side (tree queries and numpy release the GIL).
-WORKERS = 2
 #: The ``path`` settings of the search: choose by cost, or force one.
 PATHS = ("auto", "tree", "block")
 #: How the run record names each path.

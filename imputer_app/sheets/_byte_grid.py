@@ -18,8 +18,8 @@ import numpy as np
 from numpy.lib.stride_tricks import sliding_window_view
 
 from imputer_app.sheets._string_cells import STRING_DTYPE
-from imputer_app.sheets._threads import WORKERS
 from imputer_app.sheets._word_numbers import WORD_BYTES
+from imputer_app.work import WORKERS
 
 #: Bytes of text per piece (a piece ends at the first line end after this many).
 PIECE_BYTES = 1 << 20

@@ -31,17 +31,15 @@ from imputer_app.sheets._markers import DEFAULT_MARKERS, Markers, make_markers
 from imputer_app.sheets._model import ColumnInfo, Sheet, SourceInfo
 from imputer_app.sheets._precision import column_decimals, workbook_formats
 from imputer_app.sheets._text_classes import KnownTexts
-from imputer_app.sheets._threads import WORKERS, map_columns
+from imputer_app.sheets._threads import map_columns
 from imputer_app.sheets._workbook import list_workbook_sheets, read_workbook
-from imputer_app.work import CancelFlag, Progress, raise_if_cancelled, report
+from imputer_app.work import WORKERS, CancelFlag, Progress, raise_if_cancelled, report
 
 #: Progress is reported as (done, PROGRESS_TOTAL); stages end at these marks.
 PROGRESS_TOTAL = 1000
 _READ_DONE, _GRID_DONE, _COLUMNS_DONE = 150, 400, 900
 #: Workbook formats whose number formats are read for each column's measured precision.
 _XLSX_FORMATS = ("xlsx", "xlsm")
-#: Threads that work on the columns of a long csv side by side.
-_LONG_WORKERS = WORKERS
 #: Rows sampled to detect the decimal mark.
 _DECIMAL_SAMPLE_ROWS = 2000
 
@@ -193,7 +191,7 @@ def read_sheet(
             "taken as their limits, not as a sample"
         )
     forced = resolve_kinds(columns, kinds, where)
-    workers = _LONG_WORKERS if grid.codes is not None else 1  # a long csv: columns side by side
+    workers = WORKERS if grid.codes is not None else 1  # a long csv: columns side by side
     built = assemble(columns, rows, forced, workbook=grid.sheet is not None, cancel=cancel, workers=workers)
     groups = layout.groups or ("",) * grid.cells.shape[1]
     shown = (
@@ -352,7 +350,7 @@ def _parse_body(
 
     # a long csv's columns are classified side by side: their numpy work runs outside the GIL
     # (a workbook's cells are Python objects: one thread)
-    workers = _LONG_WORKERS if grid.codes is not None and width > 1 else 1
+    workers = WORKERS if grid.codes is not None and width > 1 else 1
     with ThreadPoolExecutor(workers, thread_name_prefix="kinfill-columns") as pool:
         found = [pool.submit(parse, position) for position in range(width)]
         try:

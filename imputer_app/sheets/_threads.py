@@ -10,11 +10,10 @@ from collections.abc import Callable, Sequence
 from concurrent.futures import ThreadPoolExecutor
 from typing import TypeVar
 
+from imputer_app.work import WORKERS
+
 _In = TypeVar("_In")
 _Out = TypeVar("_Out")
-
-#: Threads for the columns of a long sheet (the machines Kinfill is used on have 2 or more cores).
-WORKERS = 2
 
 
 def map_columns(work: Callable[[_In], _Out], items: Sequence[_In], workers: int = WORKERS) -> list[_Out]:

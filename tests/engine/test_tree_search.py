@@ -9,7 +9,7 @@ import pandas as pd
 import pytest
 from sklearn.impute import KNNImputer
 
-from imputer_app.engine import _patterns, _tree_search, combine, impute, nearest_donors, prepare
+from imputer_app.engine import _block_jobs, _patterns, _tree_search, combine, impute, nearest_donors, prepare
 from imputer_app.engine._search import ColumnDonors
 from imputer_app.engine._ties import shares
 from imputer_app.errors import Cancelled
@@ -151,6 +151,24 @@ def test_rows_in_leaf_order_give_the_same_donors(monkeypatch: pytest.MonkeyPatch
     assert all(len(set(rows.tolist())) == len(rows) for rows in built)  # each row once
     ascending = [bool((np.diff(rows) > 0).all()) for rows in built]
     assert all(ascending) if order_queries == 0 else not all(ascending)
+
+
+@pytest.mark.parametrize("path", ["tree", "block"])
+def test_donors_same_with_any_number_of_threads(monkeypatch: pytest.MonkeyPatch, path: str) -> None:
+    """Chunks and batches are searched by WORKERS threads; one thread or three find the same
+    donors at the same distances, to the last bit, as the default two."""
+    _lower_limits(monkeypatch)
+    table = prepare(random_frame(900, 5, 0.2, seed=12), FillPlan(scaling="none"))
+    found = []
+    for workers in (2, 1, 3):
+        monkeypatch.setattr(_tree_search, "WORKERS", workers)
+        monkeypatch.setattr(_block_jobs, "WORKERS", workers)
+        found.append(nearest_donors(table, kmax=4, path=path))
+    for other in found[1:]:
+        for col, donors in found[0].items():
+            assert other[col].path == path
+            for part in ("rows", "index", "distance", "count"):
+                np.testing.assert_array_equal(getattr(other[col], part), getattr(donors, part))
 
 
 def test_candidate_patterns_that_cannot_donate_are_not_searched(monkeypatch: pytest.MonkeyPatch) -> None:

@@ -136,6 +136,25 @@ def test_long_sheet_same_through_both_paths(
     assert (fast.states["b"] == "censored").sum() > 100
 
 
+def test_long_sheet_same_with_any_number_of_threads(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, always_fast: None
+) -> None:
+    # pieces and columns are worked on by WORKERS threads; one thread or three read the same sheet
+    monkeypatch.setattr(_byte_grid, "PIECE_BYTES", 512)
+    path = tmp_path / "long.csv"
+    path.write_bytes(_long_sheet_text(3000, 2700).encode("utf-8"))
+    sheets = []
+    for workers in (1, 3):
+        monkeypatch.setattr(_byte_grid, "WORKERS", workers)
+        monkeypatch.setattr(_read, "WORKERS", workers)
+        sheets.append(read_sheet(path))
+    one, three = sheets
+    for part in ("frame", "states", "cell_notes"):
+        pd.testing.assert_frame_equal(getattr(one, part), getattr(three, part))
+    assert one.columns == three.columns and one.problems == three.problems
+    assert one.raw_text.tolist() == three.raw_text.tolist()
+
+
 @pytest.mark.parametrize(
     ("encoding", "prefix"), [("utf-8", b""), ("utf-8", b"\xef\xbb\xbf"), ("cp1252", b""), ("utf-16", b"")]
 )
