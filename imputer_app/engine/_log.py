@@ -19,6 +19,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from imputer_app.engine._support import SUPPORT_WORDS
+from imputer_app.work import row_slices
 
 IntArray = NDArray[np.intp]
 FloatArray = NDArray[np.float64]
@@ -28,6 +29,8 @@ METHODS = ("knn", "knn_capped", "column_mean", "limit", "half_limit", "limit_sqr
 KNN, KNN_CAPPED, COLUMN_MEAN = 0, 1, 2
 #: Per method: does it fill a cell (the others substitute a censored entry's limit)?
 FILLS = np.array([m in ("knn", "knn_capped", "column_mean") for m in METHODS])
+#: Rows of tuples made in one go (:func:`tuples`): a few ms of Python's lock each.
+TUPLE_ROWS = 32_768
 
 
 def objects(values: NDArray[Any] | Sequence[Any]) -> NDArray[np.object_]:
@@ -269,7 +272,7 @@ def _collector_paused() -> Iterator[None]:
     Every few hundred new tuples would start a collection pass (measured on their own,
     75,000 tuples of five took 33 ms with the passes and 16 ms without; inside a whole
     fill the gain is smaller). Tuples of numbers hold no cycles, so nothing is left for
-    the collector to find.
+    the collector to find; :func:`_settle` lets it see each slice of them once.
     """
     was_on = gc.isenabled()
     gc.disable()
@@ -278,6 +281,17 @@ def _collector_paused() -> Iterator[None]:
     finally:
         if was_on:
             gc.enable()
+
+
+def _settle() -> None:
+    """Let the collector look at the youngest objects once (a few ms a slice of tuples).
+
+    Its first look stops tracking every tuple that holds only numbers and texts, so no
+    later pass walks them. Left to the collector's own passes, half a million tuples made
+    with it paused were walked in one go when it resumed, or by the next full pass:
+    50-280 ms during which the window's thread could not run.
+    """
+    gc.collect(0)
 
 
 def tuples(
@@ -304,12 +318,15 @@ def tuples(
     out = np.empty(m, dtype=object)
     with _collector_paused():
         for u in np.flatnonzero(np.bincount(used[build])).tolist():  # the distinct lengths
-            rows = np.flatnonzero(build & (used == u))
-            made: Iterable[tuple[Any, ...]] = repeat((), len(rows))
-            if u:  # zip over the columns' lists: the fastest way to many tuples
-                picked = matrix[:, :u] if len(rows) == m else np.take(matrix[:, :u], rows, axis=0)
-                made = zip(*picked.T.tolist(), strict=True)
-            out[rows] = np.fromiter(made, dtype=object, count=len(rows))
+            every = np.flatnonzero(build & (used == u))
+            # in slices: tolist and fromiter hold Python's lock from start to end
+            for part in row_slices(len(every), TUPLE_ROWS):
+                rows = every[part]
+                made: Iterable[tuple[Any, ...]] = repeat((), len(rows))
+                if u:  # zip over the columns' lists: the fastest way to many tuples
+                    made = zip(*np.take(matrix[:, :u], rows, axis=0).T.tolist(), strict=True)
+                out[rows] = np.fromiter(made, dtype=object, count=len(rows))
+                _settle()
     if same is not None and same.any():
         out = out[np.maximum.accumulate(np.where(build, np.arange(m), 0))]
     return out

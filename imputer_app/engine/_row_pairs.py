@@ -15,9 +15,9 @@ from functools import cached_property
 import numpy as np
 from numpy.typing import NDArray
 
-from imputer_app.engine._bits import common_bits, distinct, packed_rows
+from imputer_app.engine._bits import DISTINCT_TABLE, common_bits, distinct, packed_rows
 from imputer_app.engine._dixon import product, ratio, row_sums, shifted
-from imputer_app.work import WORKERS
+from imputer_app.work import WORKERS, row_slices
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.intp]
@@ -29,6 +29,10 @@ PAIR_VALUES = 2**16
 #: Exact distances are worked out by WORKERS threads side by side (numpy lets go of the GIL)
 #: when there are at least this many values (pairs x numeric columns) to go through.
 THREADED_VALUES = 2**22
+#: Pairs whose exact distances are worked out in one go: the steps over all of them (the
+#: sort that finds repeated pairs among them) hold Python's lock now and then, for a time
+#: that grows with their number (200 ms for 12 million pairs: the window stalls).
+EXACT_SLICE = 1 << 20
 
 
 class RowPairs:
@@ -102,8 +106,17 @@ class RowPairs:
         wide sheet, thousands of cells per pair of rows).
         """
         x, y = np.asarray(x, dtype=np.intp), np.asarray(y, dtype=np.intp)
-        if not len(x):
-            return np.empty(0)
+        out = np.empty(len(x))
+        # a long table's pairs are sorted to find the repeated ones: in slices (each pair's
+        # number is its own); a short one's are marked in a table, all at once (a wide
+        # sheet repeats its few pairs thousands of times)
+        many = self._rows.shape[0] ** 2 > DISTINCT_TABLE
+        for part in row_slices(len(x), EXACT_SLICE if many else max(len(x), 1)):
+            out[part] = self._exact_distinct(x[part], y[part])
+        return out
+
+    def _exact_distinct(self, x: IntArray, y: IntArray) -> FloatArray:
+        """:meth:`exact` of some pairs, each distinct pair once."""
         n = np.int64(self._rows.shape[0])
         low, high = np.minimum(x, y).astype(np.int64), np.maximum(x, y).astype(np.int64)
         pairs, back = distinct(low * n + high, int(n * n))

@@ -99,6 +99,10 @@ def test_exact_distances_the_same_by_every_path(
     monkeypatch.setattr(_row_pairs, "THREADED_VALUES", 1)  # threads sharing many small batches
     monkeypatch.setattr(_row_pairs, "PAIR_BATCH", 64)
     assert np.array_equal(DistanceModel(features).exact(x, y), one)
+    # a long table's pairs in slices (here every table counts as long), the threads too
+    monkeypatch.setattr(_row_pairs, "DISTINCT_TABLE", 1)
+    monkeypatch.setattr(_row_pairs, "EXACT_SLICE", 257)
+    assert np.array_equal(DistanceModel(features).exact(x, y), one)
 
 
 @pytest.mark.parametrize("weights", [None, np.array([1.0, 2.0, 0.5, 1.0, 2.0, 1.0]), np.arange(1.0, 7.0)])

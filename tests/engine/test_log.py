@@ -8,7 +8,7 @@ import pytest
 from sklearn.impute import KNNImputer
 from sklearn.metrics.pairwise import nan_euclidean_distances
 
-from imputer_app.engine import impute, nearest_donors, prepare
+from imputer_app.engine import _log, impute, nearest_donors, prepare
 from imputer_app.engine._combine import spread
 from imputer_app.engine._log import tuples
 from imputer_app.engine._search import ColumnDonors, search_cells
@@ -118,9 +118,12 @@ def test_labels_of_the_index_are_the_donors() -> None:
     pd.testing.assert_series_equal(by_label["distances"], by_position["distances"])
 
 
-@pytest.mark.parametrize("share", [False, True])
-def test_tuples_cut_rows_and_share_equal_neighbours(share: bool) -> None:
-    """Against a plain per-row slice (common practice, no source)."""
+@pytest.mark.parametrize(("share", "slice_rows"), [(False, 32_768), (True, 32_768), (False, 2), (True, 3)])
+def test_tuples_cut_rows_and_share_equal_neighbours(
+    share: bool, slice_rows: int, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Against a plain per-row slice (common practice, no source), made in one go or in slices."""
+    monkeypatch.setattr(_log, "TUPLE_ROWS", slice_rows)
     rng = np.random.default_rng(4)
     matrix = rng.integers(0, 5, size=(30, 4))
     matrix[1::3] = matrix[0::3]  # every third row repeats the row before it
