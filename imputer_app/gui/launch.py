@@ -222,7 +222,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         options: dict[str, object] | None = {} if args.screenshot else None
         QTimer.singleShot(0, lambda: window.open_path(path.resolve() if path.exists() else path, options))
     code = app.exec()
-    window.runner.wait()
+    window.stop_work()  # a screenshot's time limit quits with the recovery test or a fill still running
     return int(code)
 
 

@@ -517,7 +517,11 @@ class MainWindow(QMainWindow):
             event.ignore()
             return
         self.save_layout()
+        self.stop_work()
+        event.accept()
+
+    def stop_work(self) -> None:
+        """Cancel the window's background work and wait for it (on close, and when the app quits)."""
         self.runner.wait()
         self.recovery_panel.shutdown()
         self.gaps_view.shutdown()
-        event.accept()

@@ -68,6 +68,33 @@ def test_a_missing_file_fails_the_screenshot_run(tmp_path):
 
 
 @pytest.mark.slow
+def test_a_screenshot_past_its_time_limit_stops_the_work_and_exits_cleanly(tmp_path):
+    """The time limit may end while the recovery test still runs on a long sheet: the app
+    cancels it and waits, then exits with its own code (a thread left running aborted the
+    process as Python shut down)."""
+    import sys
+
+    import numpy as np
+    import pandas as pd
+
+    sheet = tmp_path / "long.csv"
+    values = np.random.default_rng(0).normal(size=(60_000, 8))
+    values[np.random.default_rng(1).random(values.shape) < 0.05] = np.nan
+    pd.DataFrame(values, columns=[f"m{j}" for j in range(8)]).to_csv(sheet, index=False)
+    png = tmp_path / "window.png"
+    code = (
+        "import sys\n"
+        "from imputer_app.gui import launch\n"
+        "launch.SCREENSHOT_TIMEOUT_MS = 3000\n"
+        f"args = [{str(sheet)!r}, '--screenshot', {str(png)!r}, '--screenshot-state', 'preview']\n"
+        "sys.exit(launch.main(args))\n"
+    )
+    done = run([sys.executable, "-c", code], private_env(tmp_path / "home", QT_QPA_PLATFORM="offscreen"))
+    assert done.returncode == launch.EXIT_TIMEOUT, done.stderr
+    assert "Destroyed while thread" not in done.stderr and not png.exists()
+
+
+@pytest.mark.slow
 @pytest.mark.parametrize("state", launch.SCREENSHOT_STATES)
 def test_screenshot_states_bring_the_window_there(qtbot, samples_dir, state):
     """``--screenshot-state``: the sheet as read; the recovery test with its best k in use;
