@@ -451,5 +451,5 @@ def _summary(choices: list[ColumnChoice], group: str | None) -> str:
     sim = sum(c.role in ("both", "similarity") and c.name != group for c in choices)
     fill = [c for c in choices if c.role in ("both", "fill") and c.name != group]
     gaps = sum(c.gaps for c in fill)
-    text = f"{sim} similarity columns, {len(fill)} fill columns ({gaps} gaps to fill)"
+    text = f"{sim} similarity columns, {len(fill)} fill columns ({gaps:,} gaps to fill)"
     return text + (f", donors from the same {group}" if group else "")

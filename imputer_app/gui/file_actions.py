@@ -162,13 +162,13 @@ def summary_text(model: SheetTableModel, session: Session) -> str:
     rows, cols = codes.shape
     gaps = model.code_count(MISSING, TEXT)
     censored = model.code_count(CENSORED)
-    text = f"{rows} rows × {cols} columns · {gaps} gaps ({100 * gaps / codes.size:.1f}%)"
-    text += f" · {censored} beyond a limit" if censored else ""
+    text = f"{rows:,} rows × {cols:,} columns · {gaps:,} gaps ({100 * gaps / codes.size:.1f}%)"
+    text += f" · {censored:,} beyond a limit" if censored else ""
     filled = model.n_filled
     result = session.preview if session.preview is not None else session.applied
     if result is not None:
         left = len(result.unfilled) if result.unfilled is not None else 0
         weak = int(model.weak_cells.size)
-        kind = "preview: {} proposed" if session.preview is not None else "applied: {} filled"
-        text += f" · {kind.format(filled)}, {weak} weak, {left} left empty"
+        kind = "preview: {:,} proposed" if session.preview is not None else "applied: {:,} filled"
+        text += f" · {kind.format(filled)}, {weak:,} weak, {left:,} left empty"
     return text

@@ -137,9 +137,9 @@ class RowBar(QWidget):
     def show_counts(self, mode: str, shown: int, rows: int, weak: int, filled: int) -> None:
         """Say which rows are shown and how many of the ``filled`` cells are ``weak`` fills."""
         self.combo.setCurrentIndex(max(0, self.combo.findData(mode)))
-        text = f"{weak} weak of {filled} fills"
+        text = f"{weak:,} weak of {filled:,} fills"
         if mode != "all":
-            text = f"{shown} of {rows} rows shown · " + text
+            text = f"{shown:,} of {rows:,} rows shown · " + text
         self.count.setText(text)
         self.count.setToolTip("Weak support: the donors are far away or disagree; check these first.")
         for button in (self.previous_button, self.next_button):

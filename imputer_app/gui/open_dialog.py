@@ -197,7 +197,7 @@ class OpenDialog(QDialog):
         units = f"; units on row {source.units_row}" if source.units_row else ""
         problems = f" {len(sheet.problems)} remark(s): {sheet.problems[0]}" if sheet.problems else ""
         self.status.setText(
-            f"{len(sheet.frame)} rows × {len(sheet.frame.columns)} columns; "
+            f"{len(sheet.frame):,} rows × {len(sheet.frame.columns):,} columns; "
             f"column names on row {source.header_row}{units}.{problems}"
         )
         self.buttons.button(QDialogButtonBox.StandardButton.Open).setEnabled(True)

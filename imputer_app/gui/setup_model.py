@@ -319,7 +319,7 @@ def detail_line(choice: ColumnChoice, group: str | None) -> str:
     unit = f" ({choice.unit})" if choice.unit else ""
     kind = choice.shown_kind + (" (set by you)" if choice.kind else "")
     parts = [f"{choice.name}{unit}: {role}", kind, f"weight {choice.weight:g}"]
-    parts.append(f"{choice.gaps} gaps of {choice.rows} rows ({choice.percent_gaps:.1f}%)")
+    parts.append(f"{choice.gaps:,} gaps of {choice.rows:,} rows ({choice.percent_gaps:.1f}%)")
     if choice.censored:
         parts.append(f"{choice.censored} beyond a limit")
     return " · ".join(parts)

@@ -60,16 +60,16 @@ def state_line(session: Session) -> str:
     preview, applied = session.preview, session.applied
     if preview is not None and applied is not None:
         return (
-            f"Preview at k = {preview.plan.k}: {_count(preview)} values proposed over the fill applied "
+            f"Preview at k = {preview.plan.k}: {_count(preview):,} values proposed over the fill applied "
             f"at k = {applied.plan.k}. Ctrl+Return applies the preview; Export asks which to write."
         )
     if preview is not None:
         return (
-            f"Preview at k = {preview.plan.k}: {_count(preview)} values proposed, nothing changed yet. "
+            f"Preview at k = {preview.plan.k}: {_count(preview):,} values proposed, nothing changed yet. "
             "Select one to see its donors; Ctrl+Return applies."
         )
     if applied is not None:
-        text = f"Fill at k = {applied.plan.k} applied: {_count(applied)} values filled"
+        text = f"Fill at k = {applied.plan.k} applied: {_count(applied):,} values filled"
         text += " (estimates, not measurements)."
         if session.dirty:
             return text + " Export (Ctrl+E) writes them marked, with the fill log."

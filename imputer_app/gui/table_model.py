@@ -411,8 +411,8 @@ class SheetTableModel(FlatTableModel):
         censored = int(np.count_nonzero(codes == CENSORED))
         filled = int(np.count_nonzero(self._fill[:, col]))
         unit = f" [{self._units[col]}]" if self._units[col] else ""
-        text = f"{self._names[col]}{unit}: {self._kinds[col]}; {gaps} gaps ({100 * gaps / n:.1f}%)"
-        text += f", {censored} beyond a limit" if censored else ""
+        text = f"{self._names[col]}{unit}: {self._kinds[col]}; {gaps:,} gaps ({100 * gaps / n:.1f}%)"
+        text += f", {censored:,} beyond a limit" if censored else ""
         if filled:
             text += f", {filled} {'proposed' if self._layer_kind == 'preview' else 'filled'}"
         return text
