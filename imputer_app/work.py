@@ -8,8 +8,10 @@ returning ``bool``, is accepted as a cancel flag.
 
 from __future__ import annotations
 
+import math
 import os
 from collections.abc import Callable, Iterator
+from pathlib import Path
 from typing import Protocol, runtime_checkable
 
 from imputer_app.errors import Cancelled
@@ -18,12 +20,23 @@ Progress = Callable[[int, int], None]
 
 #: Rows per slice of work on a long column (see :func:`row_slices`).
 SLICE_ROWS = 100_000
+#: Where Linux (cgroup v2) tells a container's CPU quota: "quota period" in microseconds, or "max".
+CPU_QUOTA_FILE = Path("/sys/fs/cgroup/cpu.max")
 
 
 def usable_cores() -> int:
-    """The cores this process may run on (on Linux its affinity, elsewhere the machine's)."""
+    """The cores this process may run on.
+
+    Its affinity (on Linux; elsewhere the machine's cores), and no more than its
+    container's CPU quota, which the affinity does not show.
+    """
     affinity = getattr(os, "sched_getaffinity", None)
-    return len(affinity(0)) if affinity is not None else os.cpu_count() or 1
+    cores = len(affinity(0)) if affinity is not None else os.cpu_count() or 1
+    try:
+        quota, period = CPU_QUOTA_FILE.read_text().split()[:2]
+        return min(cores, max(1, math.ceil(int(quota) / int(period))))
+    except (OSError, ValueError):  # no such file, or "max": no quota
+        return cores
 
 
 #: Threads that work side by side on one long task (a long csv's pieces and columns, the

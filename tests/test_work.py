@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+from pathlib import Path
 
 import pytest
 
@@ -24,4 +25,19 @@ def test_usable_cores_read_the_affinity_where_there_is_one(
     else:
         monkeypatch.setattr(os, "sched_getaffinity", lambda pid: affinity)
     monkeypatch.setattr(os, "cpu_count", lambda: cpus)
+    monkeypatch.setattr(work, "CPU_QUOTA_FILE", Path("/nonexistent/cpu.max"))
+    assert work.usable_cores() == cores
+
+
+@pytest.mark.parametrize(
+    ("quota", "cores"), [("200000 100000", 2), ("150000 100000", 2), ("max 100000", 8), ("", 8)]
+)
+def test_a_containers_cpu_quota_caps_the_cores(
+    monkeypatch: pytest.MonkeyPatch, tmp_path: Path, quota: str, cores: int
+) -> None:
+    # a container limited to 2 CPUs of an 8-core machine still sees all 8 in its affinity
+    monkeypatch.setattr(os, "sched_getaffinity", lambda pid: set(range(8)))
+    limit = tmp_path / "cpu.max"
+    limit.write_text(quota + "\n")
+    monkeypatch.setattr(work, "CPU_QUOTA_FILE", limit)
     assert work.usable_cores() == cores
