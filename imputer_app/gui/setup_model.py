@@ -321,7 +321,7 @@ def detail_line(choice: ColumnChoice, group: str | None) -> str:
     parts = [f"{choice.name}{unit}: {role}", kind, f"weight {choice.weight:g}"]
     parts.append(f"{choice.gaps:,} gaps of {choice.rows:,} rows ({choice.percent_gaps:.1f}%)")
     if choice.censored:
-        parts.append(f"{choice.censored} beyond a limit")
+        parts.append(f"{choice.censored:,} beyond a limit")
     return " · ".join(parts)
 
 

@@ -414,7 +414,7 @@ class SheetTableModel(FlatTableModel):
         text = f"{self._names[col]}{unit}: {self._kinds[col]}; {gaps:,} gaps ({100 * gaps / n:.1f}%)"
         text += f", {censored:,} beyond a limit" if censored else ""
         if filled:
-            text += f", {filled} {'proposed' if self._layer_kind == 'preview' else 'filled'}"
+            text += f", {filled:,} {'proposed' if self._layer_kind == 'preview' else 'filled'}"
         return text
 
     def _log_entry(self, row: int, col: int) -> dict[str, Any] | None:
