@@ -21,6 +21,8 @@ from pathlib import Path
 from imputer_app import __version__
 
 SCREENSHOT_TIMEOUT_MS = 60_000
+#: How long the app waits, as it quits, for background work it asked to stop.
+STOP_WAIT_MS = 600_000
 #: Exit codes of ``--screenshot``: reading (or testing, filling) failed, picture not saved, too slow.
 EXIT_READ_FAILED, EXIT_NOT_SAVED, EXIT_TIMEOUT = 1, 3, 4
 #: What ``--screenshot-state`` can show.
@@ -222,7 +224,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         options: dict[str, object] | None = {} if args.screenshot else None
         QTimer.singleShot(0, lambda: window.open_path(path.resolve() if path.exists() else path, options))
     code = app.exec()
-    window.stop_work()  # a screenshot's time limit quits with the recovery test or a fill still running
+    # a screenshot's time limit quits with the recovery test or a fill still running; a job
+    # between two checks for a cancel is let finish (a thread alive at exit aborts Python)
+    window.stop_work(STOP_WAIT_MS)
     return int(code)
 
 

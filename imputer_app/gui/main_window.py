@@ -520,8 +520,13 @@ class MainWindow(QMainWindow):
         self.stop_work()
         event.accept()
 
-    def stop_work(self) -> None:
-        """Cancel the window's background work and wait for it (on close, and when the app quits)."""
-        self.runner.wait()
-        self.recovery_panel.shutdown()
-        self.gaps_view.shutdown()
+    def stop_work(self, msecs: int = 10_000) -> bool:
+        """Cancel the window's background work, then wait for it (on close, and when the app quits).
+
+        Every job is asked to stop before any is waited for, so they wind down side by
+        side; False when one still runs after ``msecs`` (a job between two checks).
+        """
+        panel = self.recovery_panel
+        for runner in (self.runner, panel.runner, panel.weights_view.runner, self.gaps_view.runner):
+            runner.cancel()
+        return all([self.runner.wait(msecs), panel.shutdown(msecs), self.gaps_view.shutdown(msecs)])

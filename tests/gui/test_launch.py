@@ -68,28 +68,33 @@ def test_a_missing_file_fails_the_screenshot_run(tmp_path):
 
 
 @pytest.mark.slow
-def test_a_screenshot_past_its_time_limit_stops_the_work_and_exits_cleanly(tmp_path):
-    """The time limit may end while the recovery test still runs on a long sheet: the app
+def test_a_screenshot_past_its_time_limit_stops_the_work_and_exits_cleanly(tmp_path, samples_dir):
+    """The time limit may end while the recovery test still runs (a long sheet): the app
     cancels it and waits, then exits with its own code (a thread left running aborted the
-    process as Python shut down)."""
+    process as Python shut down). The test stands in a recovery test that runs until it is
+    cancelled, and notes that it started."""
     import sys
 
-    import numpy as np
-    import pandas as pd
-
-    sheet = tmp_path / "long.csv"
-    values = np.random.default_rng(0).normal(size=(60_000, 8))
-    values[np.random.default_rng(1).random(values.shape) < 0.05] = np.nan
-    pd.DataFrame(values, columns=[f"m{j}" for j in range(8)]).to_csv(sheet, index=False)
-    png = tmp_path / "window.png"
+    png, started = tmp_path / "window.png", tmp_path / "started"
     code = (
-        "import sys\n"
+        "import sys, time\n"
+        "from pathlib import Path\n"
+        "from imputer_app import validation\n"
+        "from imputer_app.errors import Cancelled\n"
         "from imputer_app.gui import launch\n"
-        "launch.SCREENSHOT_TIMEOUT_MS = 3000\n"
-        f"args = [{str(sheet)!r}, '--screenshot', {str(png)!r}, '--screenshot-state', 'preview']\n"
-        "sys.exit(launch.main(args))\n"
+        "from imputer_app.work import is_cancelled\n"
+        "def endless(*args, cancel=None, **kw):\n"
+        f"    Path({str(started)!r}).touch()\n"
+        "    while not is_cancelled(cancel):\n"
+        "        time.sleep(0.01)\n"
+        "    raise Cancelled('stopped')\n"
+        "validation.recovery_test = endless\n"
+        "launch.SCREENSHOT_TIMEOUT_MS = 8000\n"
+        f"args = [{str(samples_dir / 'river_survey.xlsx')!r}, '--screenshot', {str(png)!r}]\n"
+        "sys.exit(launch.main(args + ['--screenshot-state', 'preview']))\n"
     )
     done = run([sys.executable, "-c", code], private_env(tmp_path / "home", QT_QPA_PLATFORM="offscreen"))
+    assert started.exists(), done.stderr  # the recovery test was running when time ran out
     assert done.returncode == launch.EXIT_TIMEOUT, done.stderr
     assert "Destroyed while thread" not in done.stderr and not png.exists()
 
