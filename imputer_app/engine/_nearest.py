@@ -23,7 +23,7 @@ from numpy.typing import NDArray
 
 from imputer_app.engine._bits import count_distinct
 from imputer_app.engine._distance import Candidates, DistanceModel, Targets
-from imputer_app.work import CancelFlag, raise_if_cancelled
+from imputer_app.work import WORKERS, CancelFlag, raise_if_cancelled
 
 IntArray = NDArray[np.intp]
 FloatArray = NDArray[np.float64]
@@ -149,11 +149,10 @@ class BlockSearch:
         The symmetric block over both sets costs about half the work per pair of the
         row-by-row products (:meth:`DistanceModel.gram`), so it pays when the targets
         and candidates are mostly the same rows; it must fit the byte budget (counted:
-        up to 16 blocks of that size live at once, 8 of them per worker's sums and
-        products).
+        8 blocks of that size per worker's sums and products live at once).
         """
         n = count_distinct(rows, cand)
-        return 16 * 8 * n * n <= self.budget and n * n <= 2 * len(rows) * len(cand)
+        return 8 * WORKERS * 8 * n * n <= self.budget and n * n <= 2 * len(rows) * len(cand)
 
     def among(
         self,
@@ -168,7 +167,9 @@ class BlockSearch:
 
         The block covers every row of either set; its column slabs are shared out over
         ``workers`` tasks on ``pool``, each summing its own (a fixed order: the same
-        numbers every run). ``advance(n)`` is called on this thread as slabs finish.
+        numbers every run with the same ``workers``; other counts differ in the last bits,
+        which the exact distances of the kept donors do not inherit). ``advance(n)`` is
+        called on this thread as slabs finish.
         Self-matches and rows of other groups are set to ``inf``.
 
         Returns

@@ -9,7 +9,17 @@ import pandas as pd
 import pytest
 from sklearn.impute import KNNImputer
 
-from imputer_app.engine import _block_jobs, _patterns, _tree_search, combine, impute, nearest_donors, prepare
+from imputer_app.engine import (
+    _block_jobs,
+    _nearest,
+    _patterns,
+    _row_pairs,
+    _tree_search,
+    combine,
+    impute,
+    nearest_donors,
+    prepare,
+)
 from imputer_app.engine._search import ColumnDonors
 from imputer_app.engine._ties import shares
 from imputer_app.errors import Cancelled
@@ -153,17 +163,25 @@ def test_rows_in_leaf_order_give_the_same_donors(monkeypatch: pytest.MonkeyPatch
     assert all(ascending) if order_queries == 0 else not all(ascending)
 
 
-@pytest.mark.parametrize("path", ["tree", "block"])
-def test_donors_same_with_any_number_of_threads(monkeypatch: pytest.MonkeyPatch, path: str) -> None:
-    """Chunks and batches are searched by WORKERS threads; one thread or three find the same
-    donors at the same distances, to the last bit, as the default two."""
+@pytest.mark.parametrize(("path", "shape"), [("tree", (900, 5)), ("block", (900, 5)), ("block", (300, 40))])
+def test_donors_same_with_any_number_of_threads(
+    monkeypatch: pytest.MonkeyPatch, path: str, shape: tuple[int, int]
+) -> None:
+    """Chunks, batches and a symmetric block's slabs are searched by WORKERS threads; one
+    thread or three find the same donors at the same distances, to the last bit, as two."""
     _lower_limits(monkeypatch)
-    table = prepare(random_frame(900, 5, 0.2, seed=12), FillPlan(scaling="none"))
+    table = prepare(random_frame(*shape, 0.2, seed=12), FillPlan(scaling="none"))
+    blocks: list[int] = []
+    among = _nearest.BlockSearch.among
+    monkeypatch.setattr(
+        _nearest.BlockSearch, "among", lambda self, *a, **k: blocks.append(1) or among(self, *a, **k)
+    )
     found = []
     for workers in (2, 1, 3):
-        monkeypatch.setattr(_tree_search, "WORKERS", workers)
-        monkeypatch.setattr(_block_jobs, "WORKERS", workers)
+        for module in (_tree_search, _block_jobs, _nearest, _row_pairs):
+            monkeypatch.setattr(module, "WORKERS", workers)
         found.append(nearest_donors(table, kmax=4, path=path))
+    assert blocks or path == "tree"  # the block search took the symmetric block
     for other in found[1:]:
         for col, donors in found[0].items():
             assert other[col].path == path
