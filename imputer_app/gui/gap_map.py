@@ -262,7 +262,7 @@ class GapMap(QWidget):
         drawn = np.isin(self._marked.columns, np.asarray(self._columns, dtype=np.intp))
         open_gaps = int(np.count_nonzero(drawn & (self._marked.classes >= min(GAP_CLASSES))))
         self.setAccessibleDescription(
-            f"{self._rows} rows by {len(self._names)} columns; {open_gaps} gaps not filled"
+            f"{self._rows:,} rows by {len(self._names)} columns; {open_gaps:,} gaps not filled"
             if self._rows
             else "no sheet"
         )
@@ -363,14 +363,14 @@ class GapMap(QWidget):
         first = int(self._starts[bin_])
         last = int(self._starts[bin_ + 1]) - 1 if bin_ + 1 < self._starts.size else self._rows - 1
         counts = self._counts[bin_, col]
-        rows = f"table row {first + 1}" if first == last else f"table rows {first + 1}-{last + 1}"
+        rows = f"table row {first + 1:,}" if first == last else f"table rows {first + 1:,}-{last + 1:,}"
         gaps = int(counts[list(GAP_CLASSES)].sum())
-        parts = [f"{gaps} gap{'s' if gaps != 1 else ''} not filled"]
+        parts = [f"{gaps:,} gap{'s' if gaps != 1 else ''} not filled"]
         if counts[1] or counts[2]:
-            parts.append(f"{int(counts[1] + counts[2])} filled")
+            parts.append(f"{int(counts[1] + counts[2]):,} filled")
         if counts[3]:
-            parts.append(f"{int(counts[3])} beyond a limit")
-        return f"{self._names[col]}, {rows}: " + ", ".join(parts) + f" of {last - first + 1} cells"
+            parts.append(f"{int(counts[3]):,} beyond a limit")
+        return f"{self._names[col]}, {rows}: " + ", ".join(parts) + f" of {last - first + 1:,} cells"
 
     def mousePressEvent(self, event: QMouseEvent) -> None:
         """Jump to the cell under the click."""

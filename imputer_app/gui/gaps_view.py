@@ -55,7 +55,8 @@ def mcar_line(check: GapCheck) -> str:
         return "Little's test: nothing to test."
     return (
         f"Little's test of missing completely at random: statistic {mcar.statistic:.4g}, "
-        f"df {mcar.df}, p-value {mcar.p_value:.3g} ({mcar.n_rows_used} rows, {mcar.n_patterns} gap patterns)"
+        f"df {mcar.df}, p-value {mcar.p_value:.3g} "
+        f"({mcar.n_rows_used:,} rows, {mcar.n_patterns:,} gap patterns)"
     )
 
 

@@ -47,9 +47,9 @@ def count_text(total: int, shown: int, has_result: bool) -> str:
     if total == 0:
         return "Every cell to fill was filled."
     cells = "cell" if total == 1 else "cells"
-    text = f"{total} {cells} left empty"
+    text = f"{total:,} {cells} left empty"
     if shown != total:
-        text += f" ({shown} shown)"
+        text += f" ({shown:,} shown)"
     return text + ". Click one, or press Enter, to show it in the sheet."
 
 
@@ -130,9 +130,9 @@ class UnfilledPanel(QWidget):
         self.model.set_rows(rows)
         self.reason_filter.blockSignals(True)
         self.reason_filter.clear()
-        self.reason_filter.addItem(f"All reasons ({len(rows)})", None)
+        self.reason_filter.addItem(f"All reasons ({len(rows):,})", None)
         for reason, count in reason_counts(unfilled):
-            self.reason_filter.addItem(f"{reason} ({count})", reason)
+            self.reason_filter.addItem(f"{reason} ({count:,})", reason)
         self.reason_filter.setEnabled(len(rows) > 0)
         self.reason_filter.blockSignals(False)
         self.table.sortByColumn(REASON, Qt.SortOrder.AscendingOrder)
