@@ -35,7 +35,7 @@ def usable_cores() -> int:
     try:
         quota, period = CPU_QUOTA_FILE.read_text().split()[:2]
         return min(cores, max(1, math.ceil(int(quota) / int(period))))
-    except (OSError, ValueError):  # no such file, or "max": no quota
+    except (OSError, ValueError, ZeroDivisionError):  # no such file, or "max": no quota
         return cores
 
 

@@ -30,7 +30,8 @@ def test_usable_cores_read_the_affinity_where_there_is_one(
 
 
 @pytest.mark.parametrize(
-    ("quota", "cores"), [("200000 100000", 2), ("150000 100000", 2), ("max 100000", 8), ("", 8)]
+    ("quota", "cores"),
+    [("200000 100000", 2), ("150000 100000", 2), ("max 100000", 8), ("", 8), ("100000 0", 8)],
 )
 def test_a_containers_cpu_quota_caps_the_cores(
     monkeypatch: pytest.MonkeyPatch, tmp_path: Path, quota: str, cores: int

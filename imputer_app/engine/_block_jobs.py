@@ -30,8 +30,8 @@ Put = Callable[[IntArray, IntArray, IntArray, FloatArray], None]
 #: Cells of one chunk: column, row, donors, squared distances, short of kmax donors.
 _Found = tuple[IntArray, IntArray, IntArray, FloatArray, BoolArray]
 
-#: A column whose donors are fewer than this share of all candidates is searched alone, by
-#: the block search (the trees would need long lists to find its donors among the rest).
+#: A column whose donors are fewer than this share of all candidates is searched alone; the
+#: tree search leaves such columns to the block search (its lists would need to be long).
 DENSE_SHARE = 0.3
 
 

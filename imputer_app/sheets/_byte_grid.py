@@ -1,6 +1,6 @@
 """Cut the UTF-8 bytes of a quote-free rectangular text into columns of cell bytes.
 
-The text is cut into pieces of about a megabyte that end at a line end; two threads
+The text is cut into pieces of about a megabyte that end at a line end; WORKERS threads
 find the separators of the pieces side by side and then copy each cell's bytes into
 its column, piece after piece, so that the temporaries of a piece stay in the
 processor's cache and numpy's loops run outside the GIL. A column of cells of at most

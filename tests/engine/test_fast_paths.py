@@ -59,12 +59,15 @@ def test_count_distinct_as_numpy_union(a: list[int], b: list[int]) -> None:
     assert count_distinct(rows, others) == len(np.union1d(rows, others))
 
 
-@pytest.mark.parametrize(("bound", "size", "seed"), [(50, 400, 0), (10**6, 300, 1), (1, 5, 2)])
+@pytest.mark.parametrize(
+    ("bound", "size", "seed"), [(50, 400, 0), (10**6, 300, 1), (1, 5, 2), (10**6, 0, 3), (10**6, 1, 4)]
+)
 def test_distinct_codes_as_numpy_unique(bound: int, size: int, seed: int) -> None:
     codes = np.random.default_rng(seed).integers(0, bound, size).astype(np.int64)
     got, back = distinct(codes, bound)
     want, inverse = np.unique(codes, return_inverse=True)
     assert np.array_equal(got, want) and np.array_equal(back, inverse.reshape(-1))
+    assert got.dtype == np.int64 and back.dtype == np.intp
 
 
 @pytest.mark.parametrize("seed", [0, 1, 2])
