@@ -65,7 +65,7 @@ def distinct(codes: NDArray[np.int64], bound: int) -> tuple[NDArray[np.int64], I
     if bound > min(DISTINCT_TABLE, DISTINCT_SPARSITY * len(codes)):
         # np.unique's own steps, spelled out: np.unique(return_inverse=True) held Python's
         # lock for 60-70 ms on 4,000,000 codes (the window stalls); these steps each let go
-        # of it, and take a third of the time
+        # of it, in about the same time (measured side by side: 0.25-0.31 s against 0.25-0.43 s)
         order = np.argsort(codes)
         ordered = codes[order]
         first = np.empty(len(codes), dtype=bool)
