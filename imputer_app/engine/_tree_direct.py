@@ -130,12 +130,11 @@ def _sweep(
     at = np.minimum(np.searchsorted(cand[by_row], batch), len(cand) - 1)
     own = np.where(cand[by_row[at]] == batch, by_row[at], -1)
 
-    def products(block: IntArray, part: IntArray) -> FloatArray:
-        """``d^2`` of a block of targets and a run of candidates (sweep places); ``inf`` for a row itself."""
-        d2 = left[block] @ right[part].T
-        j = np.minimum(np.searchsorted(part, own[block]), len(part) - 1)
-        mine = np.flatnonzero((own[block] >= 0) & (part[j] == own[block]))
-        d2[mine, j[mine]] = np.inf
+    def products(block: IntArray, lo: int, hi: int) -> FloatArray:
+        """``d^2`` of a block of targets and the candidates at sweep places ``lo:hi`` (a row itself: inf)."""
+        d2 = left[block] @ right[lo:hi].T  # a slice: no copy of the candidates' side
+        mine = np.flatnonzero((own[block] >= lo) & (own[block] < hi))
+        d2[mine, own[block][mine] - lo] = np.inf
         return d2
 
     found: list[tuple[IntArray, IntArray, FloatArray]] = []
@@ -151,8 +150,8 @@ def _sweep(
         else:
             lo, hi = 0, len(key)
         for start in range(lo, hi, CANDIDATES):
-            part = np.arange(start, min(start + CANDIDATES, hi))
-            d2 = products(block, part)
+            stop = min(start + CANDIDATES, hi)
+            d2 = products(block, start, stop)
             if np.isfinite(lim):
                 near = d2 <= near_reach[:, None]
             else:  # fewer candidates than places: the nearest ``size`` of each run
@@ -160,12 +159,12 @@ def _sweep(
                 near = d2 <= np.partition(d2, kth, axis=1)[:, kth : kth + 1] + noise
             r, k = np.divmod(np.flatnonzero(near), near.shape[1])  # quicker than nonzero when few
             if len(r):
-                found.append((block[r], cand[part[k]], np.maximum(d2[r, k], 0.0)))
+                found.append((block[r], cand[start + k], np.maximum(d2[r, k], 0.0)))
     return found
 
 
 def _seed(
-    products: Callable[[IntArray, IntArray], FloatArray],
+    products: Callable[[IntArray, int, int], FloatArray],
     block: IntArray,
     along: FloatArray,
     key: FloatArray,
@@ -181,8 +180,8 @@ def _seed(
         return np.full(len(block), np.inf)
     mid = int(np.searchsorted(key, np.median(along)))
     lo = max(0, min(mid - CANDIDATES // 2, len(key) - CANDIDATES))
-    part = np.arange(lo, min(lo + CANDIDATES, len(key)))
-    return np.partition(products(block, part), size - 1, axis=1)[:, size - 1] + noise
+    d2 = products(block, lo, min(lo + CANDIDATES, len(key)))
+    return np.partition(d2, size - 1, axis=1)[:, size - 1] + noise
 
 
 def _blocks(along: FloatArray, reach: FloatArray) -> Iterator[IntArray]:

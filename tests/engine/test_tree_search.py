@@ -143,24 +143,27 @@ def test_direct_comparison_matches_block_at_any_tree_size(
 
 @pytest.mark.parametrize("order_queries", [0, 10**9])
 def test_rows_in_leaf_order_give_the_same_donors(monkeypatch: pytest.MonkeyPatch, order_queries: int) -> None:
-    """Target rows taken in the order of their tree's leaves, and candidate rows stored in it
-    (every tree with 10**9, none with 0), change where rows sit, never the donors."""
+    """Target rows taken in the order of their tree's leaves, candidate patterns' rows in the
+    order of theirs, and each tree's rows in its own (every tree with 10**9, none with 0),
+    change where rows sit, never the donors."""
     _lower_limits(monkeypatch)
     monkeypatch.setattr(_tree_search, "ORDER_QUERIES", order_queries)
-    built: list[np.ndarray] = []  # each tree's rows, in the order it stores them
+    built: list[tuple[np.ndarray, np.ndarray]] = []  # each tree's rows as stored, its pattern's rows
     tree = _tree_search.TreeSearch._tree
 
     def spy(self: _tree_search.TreeSearch, t: tuple[int, int, int]) -> tuple[object, np.ndarray]:
         found = tree(self, t)
-        built.append(found[1])
+        built.append((found[1], self._cand[t[0], t[1]]))
         return found
 
     monkeypatch.setattr(_tree_search.TreeSearch, "_tree", spy)
     _both(random_frame(700, 5, 0.2, seed=11), FillPlan(scaling="none"), 4)
     assert built
-    assert all(len(set(rows.tolist())) == len(rows) for rows in built)  # each row once
-    ascending = [bool((np.diff(rows) > 0).all()) for rows in built]
-    assert all(ascending) if order_queries == 0 else not all(ascending)
+    for rows, pattern in built:  # each of the pattern's rows once
+        assert sorted(rows.tolist()) == sorted(pattern.tolist()) and len(set(rows.tolist())) == len(rows)
+    assert not all(bool((np.diff(pattern) > 0).all()) for _, pattern in built)  # the pattern's leaf order
+    as_pattern = [np.array_equal(rows, pattern) for rows, pattern in built]
+    assert all(as_pattern) if order_queries == 0 else not all(as_pattern)
 
 
 @pytest.mark.parametrize(("path", "shape"), [("tree", (900, 5)), ("block", (900, 5)), ("block", (300, 40))])
