@@ -7,9 +7,10 @@ factor ``f = W_all / W_S`` folded into its side, and one comparison with each ro
 keeps the few pairs that matter.
 
 Most pairs are never formed. Along one column ``a`` that target and candidate both have,
-``d^2 = f x sum_S (x_j - y_j)^2 >= (x_a - y_a)^2`` (coordinates are scaled by
-``sqrt(w_j)`` and ``f >= 1``), so a candidate further than ``sqrt(reach)`` from a target
-along ``a`` cannot be within its reach. Candidates are sorted along ``a`` and targets,
+``d^2 = f x sum_S (x_j - y_j)^2 >= f_min x (x_a - y_a)^2`` (coordinates are scaled by
+``sqrt(w_j)``; ``f_min >= 1`` is the least factor among the candidates swept along ``a``),
+so a candidate further than ``sqrt(reach / f_min)`` from a target along ``a`` cannot be
+within its reach. Candidates are sorted along ``a`` and targets,
 in blocks sorted along ``a`` too, meet only the window of candidates their block can
 reach (the sort-and-sweep of computational geometry; common practice, no source).
 Each candidate is swept along the first column it has, taking columns by how many
@@ -46,6 +47,7 @@ class Run:
     right: FloatArray  # their side of the product, same order
     cand: IntArray  # their rows, same order
     by_row: IntArray  # the order of ``cand`` by row (to find a target row among them)
+    least: float  # the least factor ``W_all / W_S`` among them
 
 
 @dataclass(frozen=True)
@@ -73,7 +75,8 @@ def sweep_of(lay: Layout, bits: int, rows: IntArray) -> Sweep:
         mine = np.flatnonzero(sweep == a)
         if len(mine):
             mine = mine[np.argsort(c[mine, a], kind="stable")]
-            runs.append(Run(a, c[mine, a], right[mine], rows[mine], np.argsort(rows[mine], kind="stable")))
+            by_row = np.argsort(rows[mine], kind="stable")
+            runs.append(Run(a, c[mine, a], right[mine], rows[mine], by_row, float(f[mine].min())))
     return Sweep(cols, tuple(runs))
 
 
@@ -144,7 +147,7 @@ def _sweep(
             near_reach = _seed(products, block, along[block], key, size, noise)
         lim = float(near_reach.max())
         if np.isfinite(lim):
-            half = np.sqrt(lim) * (1 + 1e-9) + 1e-300
+            half = np.sqrt(lim / run.least) * (1 + 1e-9) + 1e-300
             lo = np.searchsorted(key, along[block].min() - half)
             hi = np.searchsorted(key, along[block].max() + half, "right")
         else:

@@ -80,3 +80,25 @@ def test_candidates_without_the_sweep_column_meet_every_target(monkeypatch: pyte
     assert sorted(zip(at.tolist(), index.tolist(), strict=True)) == sorted(
         (i, int(rows[j])) for i, j in zip(*np.nonzero(d2 <= reach[:, None]), strict=True)
     )
+
+
+def test_window_narrows_by_the_least_factor_and_keeps_the_pair_on_its_edge() -> None:
+    """Candidates sharing one of two columns have ``f = W_all / w_0``; the sweep's window along
+    column 0 is ``sqrt(reach / f)``, and a candidate exactly there is still within reach."""
+    w = np.array([1.0, 3.0])
+    f = w.sum() / w[0]  # 4: a candidate without column 1
+    reach = 2.0
+    edge = np.sqrt(reach / f)  # f x edge^2 == reach
+    y = np.array([0.0, edge, edge * (1 + 1e-6), -edge, 0.5 * edge])
+    mask = np.ones((6, 2), dtype=bool)
+    mask[1:, 1] = False
+    values = np.vstack([[0.0, 1.0], np.column_stack([y, np.zeros(5)])])
+    x = np.where(mask, values, 0.0) * np.sqrt(w)
+    pattern = (mask.astype(np.intp) << np.arange(2)).sum(axis=1)
+    lay = Layout(x, mask, w, float(w.sum()), pattern, np.zeros(6, dtype=np.intp))
+    sweep = sweep_of(lay, 0b11, np.arange(1, 6))
+    assert sweep.runs[0].least == pytest.approx(f)
+    # the reach one rounding step wider than f x edge^2 (the product form rounds too)
+    _, index, d2 = direct_hits(lay, sweep, np.array([0]), np.array([reach * (1 + 1e-12)]), 4, 0.0)
+    assert sorted(index.tolist()) == [1, 2, 4, 5]  # 3 lies just past the edge (d^2 = reach x (1 + 2e-6))
+    assert np.all(d2 <= reach * (1 + 1e-12))
