@@ -404,6 +404,7 @@ def _leaf_rows(lay: Layout, rows: IntArray, bits: int, leafsize: int) -> IntArra
     Near target rows come together in a batch: their queries walk the same branches of
     the candidates' trees (which stay in cache), and their bounds, which set each part's
     query radius, are alike (measured: 0.69 -> 0.44 ms a query among 628,000 rows).
+    Near candidate rows sit side by side in every tree built over their columns.
     """
     return rows[_leaf_order(lay.x[np.ix_(rows, lay.columns(bits))], leafsize)]
 
