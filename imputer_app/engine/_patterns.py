@@ -124,7 +124,8 @@ def tree_pays(lay: Layout, want: BoolArray, candidates: BoolArray) -> bool:
     one query of its largest candidate pattern's tree (about ``QUERY x 2^|T|``, no more
     than its rows), a bounded query of every further tree (:data:`FURTHER` of that) and
     :data:`DIRECT_PAIR` per row of the small candidate patterns compared directly; rows
-    of rare target patterns are compared with every candidate either way.
+    of rare target patterns are counted as compared with every candidate either way (the
+    boxes of the tree path compare them with fewer, which the estimate leaves out).
     """
     n_cand = int(candidates.sum())
     rows = np.flatnonzero(want.any(axis=1))
