@@ -76,11 +76,11 @@ SUB = 128
 #: The pattern key of a group's rows of rare target patterns, searched together in boxes.
 RARE = -1
 #: Fewest candidates and rows of rare target patterns (in a group) for which putting the
-#: candidates in boxes pays. Measured on normal columns with 5 % gaps, CPU time a rare row:
-#: among 1,048,576 rows 1.3 ms through boxes of 1,024 rows (2.2 s to build) against 2.4 ms in
-#: the block search; among 300,000 rows 0.62 against 0.72 ms (0.43 s to build); among
-#: 100,000 rows 0.34 against 0.24 ms.
-SCAN_CANDIDATES, SCAN_ROWS = 500_000, 1_000
+#: candidates in boxes pays. Measured on normal columns with 5 % gaps, CPU time a rare row
+#: through boxes of 1,024 rows against the block search: among 1,048,576 rows 1.2 against
+#: 2.4 ms (1.4 s to build the boxes), among 300,000 rows 0.39 against 0.72 ms (0.36 s),
+#: among 100,000 rows 0.22 against 0.24 ms (0.05 s).
+SCAN_CANDIDATES, SCAN_ROWS = 250_000, 1_000
 #: The ``path`` settings of the search: choose by cost, or force one.
 PATHS = ("auto", "tree", "block")
 #: How the run record names each path.
