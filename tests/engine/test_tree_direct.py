@@ -102,3 +102,34 @@ def test_window_narrows_by_the_least_factor_and_keeps_the_pair_on_its_edge() -> 
     _, index, d2 = direct_hits(lay, sweep, np.array([0]), np.array([reach * (1 + 1e-12)]), 4, 0.0)
     assert sorted(index.tolist()) == [1, 2, 4, 5]  # 3 lies just past the edge (d^2 = reach x (1 + 2e-6))
     assert np.all(d2 <= reach * (1 + 1e-12))
+
+
+@pytest.mark.parametrize(
+    ("offset", "spread", "rough"), [(1e3, 1e-2, True), (0.0, 1e-20, True), (1e16, 1e15, False)]
+)
+def test_single_precision_first_pass_never_loses_a_pair(offset: float, spread: float, rough: bool) -> None:
+    """Values far from 0 for their spread (the product form cancels: single precision alone
+    would misjudge every pair, double precision does not), values under single precision's
+    range, and values past its safe range (the sweep then works in double precision only):
+    the pairs within reach are those brute force finds, with their distances."""
+    lay = _layout(6, 300, 4, 0.2)
+    x = np.where(lay.mask, offset + spread * lay.x, 0.0)
+    lay = Layout(x, lay.mask, lay.weights, lay.total, lay.pattern, lay.group)
+    bits = int(np.bincount(lay.pattern).argmax())
+    batch = np.flatnonzero(lay.pattern == bits)
+    rows = np.flatnonzero(lay.mask[:, lay.columns(bits)].any(axis=1))
+    sweep = sweep_of(lay, bits, rows)
+    assert all((run.rough is not None) == rough for run in sweep.runs)
+    d2 = _all_pairs(lay, bits, batch, rows)
+    near = np.sort(d2, axis=1)
+    reach = (near[:, 2] + near[:, 3]) / 2
+    noise = 1e-13 * float(np.abs(x).max()) ** 2  # the product form's rounding in double precision
+    at, index, got = direct_hits(lay, sweep, batch, reach, size=4, noise=noise)
+    found = set(zip(at.tolist(), index.tolist(), strict=True))
+    sure = {(i, int(rows[j])) for i, j in zip(*np.nonzero(d2 <= reach[:, None] - noise), strict=True)}
+    maybe = {(i, int(rows[j])) for i, j in zip(*np.nonzero(d2 <= reach[:, None] + noise), strict=True)}
+    assert len(sure) >= 2 * len(batch)  # the test has teeth: most targets have three pairs for sure
+    assert sure <= found <= maybe
+    pos = {int(c): j for j, c in enumerate(rows)}
+    exact = [d2[a, pos[c]] for a, c in zip(at, index, strict=True)]
+    np.testing.assert_allclose(got, exact, rtol=0, atol=noise)
