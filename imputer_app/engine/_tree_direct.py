@@ -17,7 +17,7 @@ Each candidate is swept along the first column it has, taking columns by how man
 candidates have them, so a candidate with gaps is windowed too.
 
 The products within a window are first made in single precision (twice as fast), with
-each target's reach widened by the most that precision can err (:func:`_within`); the few
+each target's reach widened by the most that precision can err (:func:`rough_pairs`); the few
 pairs that pass are measured again in double precision and kept only within the reach.
 Values too large for single precision's range skip that first pass.
 """
@@ -144,9 +144,9 @@ def _sweep(
     """The pairs within reach of the targets (``left`` rows; ``along`` in the run's column) and a run."""
     key, right, cand, by_row = run.key, run.right, run.cand, run.by_row
     rough = run.rough if run.rough is not None and np.abs(left).max(initial=0.0) <= ROUGH_MAX else None
-    if rough is not None:  # the first pass's rounding, at most, per target (see :func:`_within`)
+    if rough is not None:  # the first pass's rounding, at most, per target
         rough_left = left.astype(np.float32)
-        slack = (left.shape[1] + 2) * 2.0**-23 * (np.abs(left) @ run.most) + 1e-30
+        slack = rough_slack(left, run.most)
     # each target row's own place among the candidates, or -1
     at = np.minimum(np.searchsorted(cand[by_row], batch), len(cand) - 1)
     own = np.where(cand[by_row[at]] == batch, by_row[at], -1)
@@ -173,7 +173,7 @@ def _sweep(
         for start in range(lo, hi, CANDIDATES):
             stop = min(start + CANDIDATES, hi)
             if np.isfinite(lim) and rough is not None:
-                r, k = _within(rough_left[block], rough[start:stop], near_reach + slack[block])
+                r, k = rough_pairs(rough_left[block], rough[start:stop], near_reach + slack[block])
                 d2 = np.einsum("ij,ij->i", left[block[r]], right[start + k])  # those pairs exactly
                 keep = (d2 <= near_reach[r]) & (cand[start + k] != batch[block[r]])
                 if keep.any():
@@ -191,19 +191,28 @@ def _sweep(
     return found
 
 
-def _within(left: Single, right: Single, reach: FloatArray) -> tuple[IntArray, IntArray]:
+def rough_pairs(left: Single, right: Single, reach: FloatArray) -> tuple[IntArray, IntArray]:
     """The pairs (target, candidate position) whose ``d^2`` in single precision is within ``reach``.
 
-    ``reach`` holds each target's reach plus the rounding the single-precision product
-    may make, at most: for a dot product of ``n`` terms ``(n + 2) u sum |l_j| |r_j|``
-    with ``u = 2^-24`` (the rounding of both sides and of the sum; Higham, *Accuracy and
-    Stability of Numerical Algorithms*, 2nd ed., section 3.1, recalled from memory), taken
-    twice, so no pair within reach is missed; the pairs kept are measured again exactly.
+    ``reach`` holds each target's reach plus the most the single-precision product may err
+    (:func:`rough_slack`), so no pair within reach is missed; the caller measures the pairs
+    kept again exactly.
     """
     d2 = left @ right.T
     bar = reach.astype(np.float32)
     bar = np.where(bar < reach, np.nextafter(bar, np.float32(np.inf)), bar)  # never rounded down
     return np.divmod(np.flatnonzero(d2 <= bar[:, None]), d2.shape[1])
+
+
+def rough_slack(left: FloatArray, most: FloatArray) -> FloatArray:
+    """The most a single-precision product of each row of ``left`` with sides bounded by ``most`` can err.
+
+    For a dot product of ``n`` terms ``(n + 2) u sum |l_j| |r_j|`` with ``u = 2^-24`` (the
+    rounding of both sides and of the sum; Higham, *Accuracy and Stability of Numerical
+    Algorithms*, 2nd ed., section 3.1, recalled from memory), taken twice; and a little for
+    values under single precision's range.
+    """
+    return (left.shape[1] + 2) * 2.0**-23 * (np.abs(left) @ most) + 1e-30
 
 
 def _seed(

@@ -161,3 +161,26 @@ def test_boxes_spare_most_comparisons(monkeypatch: pytest.MonkeyPatch) -> None:
     at, _, _ = scan_hits(lay, boxes, batch, 4, noise=1e-9)
     assert sum(measured) < 0.2 * len(batch) * 3000
     assert len(at) < 5 * 4 * len(batch)
+
+
+@pytest.mark.parametrize(("offset", "spread", "rough"), [(1e3, 1e-2, True), (1e16, 1e15, False)])
+def test_scan_in_single_precision_first_never_loses_a_pair(offset: float, spread: float, rough: bool) -> None:
+    """Values whose product form cancels in single precision (it only chooses the pairs to
+    measure again exactly), and values past its safe range (double precision only): each
+    target's nearest four are kept, with their distances (brute force)."""
+    lay, values = _unit_layout(8, 400, 4, 0.25)
+    values = offset + spread * values
+    x = np.where(lay.mask, values, 0.0)
+    lay = Layout(x, lay.mask, lay.weights, lay.total, lay.pattern, lay.group)
+    boxes = boxes_of(lay, list(by_pattern(lay, np.arange(400)).values()))
+    assert (boxes.rough is not None) == rough
+    batch = np.flatnonzero(~lay.mask.all(axis=1))
+    noise = 1e-13 * float(np.abs(x).max()) ** 2  # the product form's rounding in double precision
+    at, index, got = scan_hits(lay, boxes, batch, 4, noise=noise)
+    d2 = nan_euclidean_distances(values[batch], values) ** 2
+    d2[np.arange(len(batch)), batch] = np.inf
+    d2[np.isnan(d2)] = np.inf
+    np.testing.assert_allclose(got, d2[at, index], rtol=0, atol=noise)
+    for i in range(len(batch)):
+        sure = np.flatnonzero(d2[i] <= np.sort(d2[i])[3] - noise)  # the nearest four, less a near tie
+        assert set(sure.tolist()) <= set(index[at == i].tolist())
