@@ -14,8 +14,8 @@ from collections.abc import Sequence
 from typing import TYPE_CHECKING, Any
 
 import pandas as pd
-from PySide6.QtCore import QModelIndex, Signal
-from PySide6.QtWidgets import QFormLayout, QHeaderView, QLabel, QStyle, QVBoxLayout, QWidget
+from PySide6.QtCore import QModelIndex, Qt, Signal
+from PySide6.QtWidgets import QFormLayout, QGridLayout, QHeaderView, QLabel, QStyle, QVBoxLayout, QWidget
 
 from imputer_app.gui.cell_story import CellStory, describe_cell
 from imputer_app.gui.formatting import Cell, common_decimals, fixed_cell, format_label
@@ -70,8 +70,11 @@ class DonorPanel(QWidget):
         self.facts_box = QWidget(self)
         self.facts_box.setObjectName("donorFacts")
         self.facts_box.setAccessibleName("Facts about the filled value")
-        self.facts = QFormLayout(self.facts_box)
+        # a grid, not a form: a form gave a wrapped value the height of one line and a half
+        # and spread the rest over one-line rows (Qt 6, 300-400 pixels wide)
+        self.facts = QGridLayout(self.facts_box)
         self.facts.setContentsMargins(0, 0, 0, 0)
+        self.facts.setColumnStretch(1, 1)
         layout.addWidget(self.facts_box)
 
         self.support_icon = named(
@@ -147,12 +150,16 @@ class DonorPanel(QWidget):
         self._story = story
         self.headline.setText(story.headline)
         self.headline.setAccessibleDescription(story.headline)
-        while self.facts.rowCount():
-            self.facts.removeRow(0)
-        for name, text in story.facts:
+        while (item := self.facts.takeAt(0)) is not None:
+            if (old := item.widget()) is not None:
+                old.hide()  # at once; deleted when the event loop next runs
+                old.deleteLater()
+        top = Qt.AlignmentFlag.AlignLeft | Qt.AlignmentFlag.AlignTop
+        for row, (name, text) in enumerate(story.facts):
             value = self._label("donorFact_" + "".join(ch for ch in name if ch.isalnum()), name, name)
             value.setText(text)
-            self.facts.addRow(f"{name}:", value)
+            self.facts.addWidget(QLabel(f"{name}:", self.facts_box), row, 0, top)
+            self.facts.addWidget(value, row, 1)
         self.facts_box.setVisible(bool(story.facts))
         self.support_text.setText(story.support_text)
         self.support_text.setVisible(bool(story.support_text))

@@ -6,6 +6,10 @@ a fixed seed; every number shown is compared with `FillResult.log`.
 
 from __future__ import annotations
 
+import json
+import shutil
+import sys
+from pathlib import Path
 from types import SimpleNamespace
 
 import numpy as np
@@ -20,6 +24,7 @@ from imputer_app.gui.donor_panel import SAMPLE_COLUMN, DonorPanel
 from imputer_app.gui.formatting import format_value
 from imputer_app.gui.records_model import RAW_ROLE
 from imputer_app.plan import FillPlan
+from tests.gui._screenshot import private_env, run
 
 
 def iris_with_gaps(n_rows: int = 50, share: float = 0.1, seed: int = 2) -> pd.DataFrame:
@@ -286,3 +291,24 @@ def test_donor_table_names_rows_by_sample_id_and_a_double_click_shows_the_row(qt
     current = window.table.currentIndex()
     assert window.table_model.row_label(current.row()) == entry["donors"][far]
     assert window.table_model.column_names()[current.column()] == entry["column"]
+
+
+@pytest.mark.xvfb
+@pytest.mark.slow
+@pytest.mark.skipif(shutil.which("xvfb-run") is None, reason="xvfb-run is not installed")
+@pytest.mark.parametrize("width, height", [(1400, 900), (1280, 800)])
+def test_in_a_real_window_every_fact_is_as_tall_as_its_text(tmp_path, samples_dir, width, height) -> None:
+    """The demo's first filled cell after a preview (its spread and note wrap): each fact is as
+    tall as its lines need. A form layout cut them to a line and a half in a real window and
+    spread the rest over one-line facts; offscreen it did not."""
+    env = private_env(tmp_path / "home")
+    env.pop("QT_QPA_PLATFORM", None)  # the real xcb platform, with its fonts
+    driver = Path(__file__).with_name("_donor_fit.py")
+    command = ["xvfb-run", "-a", "-s", f"-screen 0 {width}x{height}x24", sys.executable, str(driver)]
+    done = run([*command, str(samples_dir / "river_survey.xlsx"), str(width), str(height)], env, timeout=150)
+    assert done.returncode == 0, done.stderr[-2000:]
+    facts = json.loads(done.stdout.strip().splitlines()[-1])
+    line = min(needed for _, _, needed in facts)
+    assert any(needed > 1.5 * line for _, _, needed in facts)  # some fact wraps
+    for text, height_now, needed in facts:
+        assert height_now >= needed, text
