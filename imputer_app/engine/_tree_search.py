@@ -77,10 +77,10 @@ SUB = 128
 RARE = -1
 #: Fewest candidates and rows of rare target patterns (in a group) for which putting the
 #: candidates in boxes pays. Measured on normal columns with 5 % gaps, CPU time a rare row
-#: through boxes of 1,024 rows against the block search: among 1,048,576 rows 1.2 against
-#: 2.4 ms (1.4 s to build the boxes), among 300,000 rows 0.39 against 0.72 ms (0.36 s),
-#: among 100,000 rows 0.22 against 0.24 ms (0.05 s).
-SCAN_CANDIDATES, SCAN_ROWS = 250_000, 1_000
+#: through boxes of 1,024 rows against the block search: among 1,048,576 rows 0.73 against
+#: 2.4 ms (1.4 s to build the boxes), among 300,000 rows 0.31 against 0.72 ms (0.40 s),
+#: among 100,000 rows 0.17 against 0.24 ms (0.05 s).
+SCAN_CANDIDATES, SCAN_ROWS = 100_000, 1_000
 #: The ``path`` settings of the search: choose by cost, or force one.
 PATHS = ("auto", "tree", "block")
 #: How the run record names each path.
