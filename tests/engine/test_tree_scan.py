@@ -184,3 +184,24 @@ def test_scan_in_single_precision_first_never_loses_a_pair(offset: float, spread
     for i in range(len(batch)):
         sure = np.flatnonzero(d2[i] <= np.sort(d2[i])[3] - noise)  # the nearest four, less a near tie
         assert set(sure.tolist()) <= set(index[at == i].tolist())
+
+
+@pytest.mark.parametrize("rare", [False, True])
+def test_a_category_to_fill_gets_the_block_search_donors_and_vote(
+    monkeypatch: pytest.MonkeyPatch, rare: bool
+) -> None:
+    """A category filled by vote from donors found on number columns (a category among the
+    similarity columns sends the search to the block search): both paths give the same donors
+    and the same votes, through trees or, with every pattern rare, through boxes."""
+    if rare:
+        _rare_everywhere(monkeypatch)
+    else:
+        _lower_limits(monkeypatch)
+    frame = random_frame(600, 4, 0.1, seed=12)
+    rng = np.random.default_rng(12)
+    frame["soil"] = np.where(frame["c0"].fillna(0) > 0, "clay", rng.choice(["sand", "silt"], size=len(frame)))
+    frame.loc[rng.random(len(frame)) < 0.1, "soil"] = np.nan
+    plan = FillPlan(scaling="none", similarity_columns=["c0", "c1", "c2", "c3"], fill_columns=["c1", "soil"])
+    table = prepare(frame, plan)
+    assert nearest_donors(table, kmax=4, path="tree")["soil"].path == "tree"
+    _both(frame, plan, 4)
