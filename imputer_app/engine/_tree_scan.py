@@ -26,8 +26,9 @@ from imputer_app.engine._patterns import BoolArray, FloatArray, IntArray, Layout
 from imputer_app.engine._tree_direct import ROUGH_MAX, Single, rough_pairs, rough_slack
 
 #: Most candidate rows per box. Measured on 1,048,576 x 10 normal columns with 5 % gaps, CPU
-#: time a rare row: 1.5 ms at 512, 1.2 at 1,024, 0.9-1.0 at 2,048 (the whole search the same
-#: at 1,024 and 2,048), 0.95 at 4,096; smaller boxes bound closer on smaller sheets.
+#: time a rare row before the single-precision pass: 1.5 ms at 512, 1.2 at 1,024, 0.9-1.0 at
+#: 2,048 (the whole search the same at 1,024 and 2,048), 0.95 at 4,096; smaller boxes bound
+#: closer on smaller sheets.
 BOX = 1024
 #: Boxes whose mean is nearest, measured first by each target for its reach.
 SEED = 16
@@ -117,10 +118,10 @@ def scan_hits(
 ) -> tuple[IntArray, IntArray, FloatArray]:
     """The pairs of ``batch`` (target rows of any pattern) and candidates within each target's reach.
 
-    A target's reach is the ``size``-th least ``d^2`` among the candidates of its
-    :data:`SEED` boxes of least bound, plus ``noise`` (the rounding allowance of the
-    product form); ``inf`` when they hold fewer than ``size`` candidates. Every candidate
-    within reach is returned, so the target's ``size`` nearest are among them.
+    A target's reach is the ``size``-th least ``d^2`` among the candidates of the
+    :data:`SEED` boxes whose mean is nearest to it, plus ``noise`` (the rounding allowance
+    of the product form); ``inf`` when there are no more than ``size`` candidates. Every
+    candidate within reach is returned, so the target's ``size`` nearest are among them.
 
     Returns
     -------
@@ -129,10 +130,13 @@ def scan_hits(
         0) of each pair kept; never a row with itself.
     """
     found = [_scan_rows(lay, boxes, batch, part, size, noise) for part in _chunks(len(batch))]
+    if not found:
+        return np.zeros(0, dtype=np.intp), np.zeros(0, dtype=np.intp), np.zeros(0)
     return tuple(np.concatenate(x) for x in zip(*found, strict=True))  # type: ignore[return-value]
 
 
 def _chunks(n: int) -> Iterator[IntArray]:
+    """Positions ``0..n-1`` in runs of :data:`ROWS`."""
     for i in range(0, n, ROWS):
         yield np.arange(i, min(i + ROWS, n))
 
