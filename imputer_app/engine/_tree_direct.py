@@ -209,10 +209,14 @@ def rough_slack(left: FloatArray, most: FloatArray) -> FloatArray:
 
     For a dot product of ``n`` terms ``(n + 2) u sum |l_j| |r_j|`` with ``u = 2^-24`` (the
     rounding of both sides and of the sum; Higham, *Accuracy and Stability of Numerical
-    Algorithms*, 2nd ed., section 3.1, recalled from memory), taken twice; and a little for
-    values under single precision's range.
+    Algorithms*, 2nd ed., section 3.1, recalled from memory), taken twice. Values and
+    products under single precision's normal range (``2^-126``) may become 0 (processors
+    that flush them): at most ``2^-126`` times the other side's entry, or ``2^-126``, per
+    term, also taken twice.
     """
-    return (left.shape[1] + 2) * 2.0**-23 * (np.abs(left) @ most) + 1e-30
+    n, size = left.shape[1], np.abs(left)
+    tiny = 2.0**-125 * (size.sum(axis=1) + most.sum() + n)
+    return (n + 2) * 2.0**-23 * (size @ most) + tiny
 
 
 def _seed(
