@@ -17,7 +17,7 @@ Each candidate is swept along the first column it has, taking columns by how man
 candidates have them, so a candidate with gaps is windowed too.
 
 The products within a window are first made in single precision (twice as fast), with
-each target's reach widened by the most that precision can err (:func:`rough_pairs`); the few
+each target's reach widened by the most that precision can err (:func:`rough_hits`); the few
 pairs that pass are measured again in double precision and kept only within the reach.
 Values too large for single precision's range skip that first pass.
 """
@@ -126,9 +126,13 @@ def direct_hits(
     found: list[tuple[IntArray, IntArray, FloatArray]] = []
     for run in sweep.runs:
         found += _sweep(left, t[:, run.column], run, batch, reach, size, noise)
+    return joined(found)
+
+
+def joined(found: list[tuple[IntArray, IntArray, FloatArray]]) -> tuple[IntArray, IntArray, FloatArray]:
+    """Pieces of (target, candidate, ``d^2``) pairs as one set of three arrays (empty: none)."""
     if not found:
-        empty = np.zeros(0, dtype=np.intp)
-        return empty, empty, np.zeros(0)
+        return np.zeros(0, dtype=np.intp), np.zeros(0, dtype=np.intp), np.zeros(0)
     return tuple(np.concatenate(x) for x in zip(*found, strict=True))  # type: ignore[return-value]
 
 
@@ -173,11 +177,9 @@ def _sweep(
         for start in range(lo, hi, CANDIDATES):
             stop = min(start + CANDIDATES, hi)
             if np.isfinite(lim) and rough is not None:
-                r, k = rough_pairs(rough_left[block], rough[start:stop], near_reach + slack[block])
-                d2 = np.einsum("ij,ij->i", left[block[r]], right[start + k])  # those pairs exactly
-                keep = (d2 <= near_reach[r]) & (cand[start + k] != batch[block[r]])
-                if keep.any():
-                    found.append((block[r[keep]], cand[start + k[keep]], np.maximum(d2[keep], 0.0)))
+                sides = (left[block], rough_left[block], right[start:stop], rough[start:stop])
+                r, k, d2 = rough_hits(*sides, near_reach, slack[block], batch[block], cand[start:stop])
+                found.append((block[r], cand[start + k], d2))
                 continue
             d2 = products(block, start, stop)
             if np.isfinite(lim):
@@ -191,17 +193,32 @@ def _sweep(
     return found
 
 
-def rough_pairs(left: Single, right: Single, reach: FloatArray) -> tuple[IntArray, IntArray]:
-    """The pairs (target, candidate position) whose ``d^2`` in single precision is within ``reach``.
+def rough_hits(
+    left: FloatArray,
+    left32: Single,
+    right: FloatArray,
+    right32: Single,
+    reach: FloatArray,
+    slack: FloatArray,
+    targets: IntArray,
+    cand: IntArray,
+) -> tuple[IntArray, IntArray, FloatArray]:
+    """The pairs (target position, candidate position, ``d^2``) within ``reach``, never a row with itself.
 
-    ``reach`` holds each target's reach plus the most the single-precision product may err
-    (:func:`rough_slack`), so no pair within reach is missed; the caller measures the pairs
-    kept again exactly.
+    The sides come in double precision and in single (``left32``, ``right32``). Pairs are
+    chosen in single precision with each reach widened by ``slack``, the most that product
+    may err (:func:`rough_slack`), so none within reach is missed; those chosen are
+    measured again in double precision and kept only within ``reach``. ``targets`` and
+    ``cand`` are the rows of the two sides.
     """
-    d2 = left @ right.T
-    bar = reach.astype(np.float32)
-    bar = np.where(bar < reach, np.nextafter(bar, np.float32(np.inf)), bar)  # never rounded down
-    return np.divmod(np.flatnonzero(d2 <= bar[:, None]), d2.shape[1])
+    rough = left32 @ right32.T
+    wide = reach + slack
+    bar = wide.astype(np.float32)
+    bar = np.where(bar < wide, np.nextafter(bar, np.float32(np.inf)), bar)  # never rounded down
+    i, k = np.divmod(np.flatnonzero(rough <= bar[:, None]), rough.shape[1])
+    d2 = np.einsum("ij,ij->i", left[i], right[k])
+    keep = (d2 <= reach[i]) & (cand[k] != targets[i])
+    return i[keep], k[keep], np.maximum(d2[keep], 0.0)
 
 
 def rough_slack(left: FloatArray, most: FloatArray) -> FloatArray:
